@@ -1,0 +1,88 @@
+/**
+ * Loads the SuiteSparse KLU WebAssembly module (wasm/klu.wasm with its emscripten loader
+ * wasm/klu.cjs). Loaded once per process, at import time (top-level await), so that every
+ * solver call afterwards is synchronous.
+ *
+ * BRANCHLINE_WASM_DIR overrides the folder (CI points it at a freshly rebuilt binary).
+ */
+import { createRequire } from 'node:module';
+import { existsSync, readFileSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+/** The C glue's exports (see wasm/glue/bl_klu.c); pointers are unsigned 32-bit offsets. */
+export interface KluExports {
+  _bl_create(n: number, nnz: number, isComplex: number): number;
+  _bl_destroy(h: number): void;
+  _bl_colptr(h: number): number;
+  _bl_rowind(h: number): number;
+  _bl_values(h: number): number;
+  _bl_perm(h: number): number;
+  _bl_set_options(h: number, btf: number, scale: number, tol: number): void;
+  _bl_analyze(h: number, ordering: number): number;
+  _bl_factor(h: number): number;
+  _bl_refactor(h: number): number;
+  _bl_bad_index(h: number): number;
+  _bl_singular_col(h: number): number;
+  _bl_structural_rank(h: number): number;
+  _bl_nblocks(h: number): number;
+  _bl_noffdiag(h: number): number;
+  _bl_lnz(h: number): number;
+  _bl_unz(h: number): number;
+  _bl_nzoff(h: number): number;
+  _bl_symbolic_lnz(h: number): number;
+  _bl_symbolic_unz(h: number): number;
+  _bl_rgrowth(h: number): number;
+  _bl_rcond(h: number): number;
+  _bl_condest(h: number): number;
+  _bl_solve(h: number, b: number, nrhs: number): number;
+  _bl_tsolve(h: number, b: number, nrhs: number, conj: number): number;
+  _bl_logdet(h: number, out: number): number;
+  _bl_malloc(bytes: number): number;
+  _bl_free(p: number): void;
+  HEAPU8: Uint8Array;
+  HEAP32: Int32Array;
+  HEAPF64: Float64Array;
+}
+
+function findWasmDir(): string {
+  const override = process.env.BRANCHLINE_WASM_DIR;
+  if (override) {
+    const dir = resolve(override);
+    if (!existsSync(join(dir, 'klu.wasm'))) {
+      throw new Error(`BRANCHLINE_WASM_DIR=${override}: no klu.wasm there`);
+    }
+    return dir;
+  }
+  let dir = dirname(fileURLToPath(import.meta.url));
+  for (;;) {
+    const candidate = join(dir, 'wasm');
+    if (existsSync(join(candidate, 'klu.wasm')) && existsSync(join(candidate, 'klu.cjs'))) return candidate;
+    const parent = dirname(dir);
+    if (parent === dir) {
+      throw new Error('cannot find wasm/klu.wasm above ' + fileURLToPath(import.meta.url) + ' (is the package installed completely?)');
+    }
+    dir = parent;
+  }
+}
+
+export const wasmDirectory = findWasmDir();
+
+async function load(): Promise<KluExports> {
+  const require = createRequire(import.meta.url);
+  const factory = require(join(wasmDirectory, 'klu.cjs')) as (opts: object) => Promise<KluExports>;
+  // Debian's emscripten 3.1.6 loader cannot fetch a file path under Node 20: hand it the bytes.
+  const wasmBinary = readFileSync(join(wasmDirectory, 'klu.wasm'));
+  return factory({
+    wasmBinary,
+    print: () => undefined,
+    printErr: () => undefined,
+  });
+}
+
+export const klu: KluExports = await load();
+
+/** Current size of the wasm linear memory in bytes (it only grows). */
+export function wasmMemoryBytes(): number {
+  return klu.HEAPU8.length;
+}
