@@ -58,7 +58,14 @@ export interface ProblemDescription {
   readonly axes: readonly AxisDescription[];
   /** One-line caution for models whose results bear on safety (ignition, runaway, buckling). */
   readonly caution?: string;
+  /** How the unknown vector is laid out (grid numbering, field order, extras), in words. */
+  readonly layout?: string;
 }
+
+/** Where an unknown sits: a field at integer node coordinates, or a named extra unknown. */
+export type UnknownLocation =
+  | { readonly kind: 'grid'; readonly field: string; readonly node: readonly number[] }
+  | { readonly kind: 'extra'; readonly name: string };
 
 export interface Problem {
   /** Model id (`bratu`, `gray-scott`, ..., `reaction-diffusion`, or a code model's name). */
@@ -112,6 +119,9 @@ export interface Problem {
   readonly monitors: readonly Monitor[];
 
   describe(): ProblemDescription;
+
+  /** Optional: where unknown `index` sits (used to label Jacobian-check reports and errors). */
+  locateUnknown?(index: number): UnknownLocation;
 
   /**
    * Solution on every grid node, Dirichlet boundary values filled in: float64, C order,
