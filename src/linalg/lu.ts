@@ -43,7 +43,12 @@ export interface LUOptions {
   btf?: boolean;
   /** Row scaling: 'max' (default), 'sum' or 'none'. */
   scale?: 'none' | 'sum' | 'max';
-  /** Partial pivoting tolerance in (0, 1]; 1 is strict partial pivoting (KLU default 0.001). */
+  /**
+   * Partial pivoting tolerance in (0, 1]: a diagonal pivot is kept when it is at least this
+   * fraction of the largest entry in its column; 1 is strict partial pivoting. Default 0.1
+   * (common practice for unsymmetric sparse LU; KLU's own default 0.001 suits circuit matrices
+   * and allows large pivot growth on ours).
+   */
   pivotTolerance?: number;
 }
 
@@ -140,7 +145,7 @@ class LUBase {
     registry.register(this, this.held, this);
 
     const scale = options.scale === 'none' ? 0 : options.scale === 'sum' ? 1 : 2;
-    klu._bl_set_options(h, options.btf === false ? 0 : 1, scale, options.pivotTolerance ?? 0);
+    klu._bl_set_options(h, options.btf === false ? 0 : 1, scale, options.pivotTolerance ?? 0.1);
     const ap = klu._bl_colptr(h) >>> 0;
     const ai = klu._bl_rowind(h) >>> 0;
     klu.HEAP32.set(pattern.colPtr.subarray(0, this.n + 1), ap >>> 2);
@@ -191,7 +196,7 @@ class LUBase {
    */
   refactor(values: Float64Array): void {
     this.checkAlive();
-    if (!this.factored && !this.singular) {
+    if (!this.factored) {
       this.factor(values);
       return;
     }
@@ -235,7 +240,7 @@ class LUBase {
       return;
     }
     if (status === STATUS_SINGULAR) {
-      // the factors exist (with a zero pivot): the determinant is zero, solves are refused
+      // a zero pivot: the determinant is zero, solves are refused until the next factorisation
       this.factored = false;
       this.singular = true;
       throw statusError(status, what, this.handle);

@@ -120,8 +120,7 @@ bl_handle *bl_create(int n, int nnz, int is_complex) {
     if (!h->Ap || !h->Ai || !h->Ax || !h->perm) {
         free(h->Ap); free(h->Ai); free(h->Ax); free(h->perm); free(h); return NULL;
     }
-    klu_defaults(&h->common);
-    h->common.halt_if_singular = 0; /* finish the factorisation; report the zero pivot */
+    klu_defaults(&h->common); /* halt_if_singular stays TRUE: a zero pivot stops the factorisation */
     return h;
 }
 
@@ -199,11 +198,17 @@ static int bl_check_finite(bl_handle *h) {
 
 static int bl_after_numeric(bl_handle *h) {
     int status = h->common.status;
+    if (status == KLU_SINGULAR) {
+        /* KLU freed the partial factors; the matrix is singular (determinant zero) */
+        if (h->numeric) bl_free_numeric(h);
+        h->numeric = NULL; h->factored = 0; h->singular = 1;
+        return BL_SINGULAR;
+    }
     if (status == KLU_OUT_OF_MEMORY) { bl_free_numeric(h); return BL_OUT_OF_MEMORY; }
     if (status < 0 || !h->numeric) { bl_free_numeric(h); return BL_INVALID; }
     h->factored = 1;
-    h->singular = (status == KLU_SINGULAR);
-    if (!h->singular) {
+    h->singular = 0;
+    {
         /* a finite matrix can still overflow to a non-finite pivot */
         int n = h->n;
         if (h->is_complex) {
@@ -214,7 +219,7 @@ static int bl_after_numeric(bl_handle *h) {
             for (int k = 0; k < n; k++) if (!isfinite(d[k])) { h->factored = 0; return BL_NONFINITE; }
         }
     }
-    return h->singular ? BL_SINGULAR : BL_OK;
+    return BL_OK;
 }
 
 /* Fresh numeric factorisation (new pivots). */
@@ -238,14 +243,17 @@ int bl_refactor(bl_handle *h) {
     int status = h->common.status;
     if (status == KLU_OUT_OF_MEMORY) return BL_OUT_OF_MEMORY;
     if (status < 0) { h->factored = 0; return BL_INVALID; }
-    h->factored = 1;
-    h->singular = (status == KLU_SINGULAR);
-    if (!h->singular) {
-        double *d = (double *)h->numeric->Udiag;
-        int m = h->n * (h->is_complex ? 2 : 1);
-        for (int k = 0; k < m; k++) if (!isfinite(d[k])) { h->factored = 0; return BL_NONFINITE; }
+    if (status == KLU_SINGULAR) {
+        /* the factors are only partly defined now; a later refactor or factor overwrites them */
+        h->factored = 0; h->singular = 1;
+        return BL_SINGULAR;
     }
-    return h->singular ? BL_SINGULAR : BL_OK;
+    h->factored = 1;
+    h->singular = 0;
+    double *d = (double *)h->numeric->Udiag;
+    int m = h->n * (h->is_complex ? 2 : 1);
+    for (int k = 0; k < m; k++) if (!isfinite(d[k])) { h->factored = 0; return BL_NONFINITE; }
+    return BL_OK;
 }
 
 int bl_bad_index(bl_handle *h) { return h->bad_index; }
@@ -324,6 +332,10 @@ static int perm_parity(const int *P, int n, unsigned char *seen) {
  * For complex handles out[0..1] = unit phase (re, im) and out[2] = log |det A|.
  */
 int bl_logdet(bl_handle *h, double *out) {
+    if (h->singular) {
+        out[0] = 0; out[1] = h->is_complex ? 0 : -INFINITY; out[2] = -INFINITY;
+        return BL_OK;
+    }
     if (!h->factored) return BL_NOT_FACTORED;
     int n = h->n;
     unsigned char *seen = (unsigned char *)malloc((size_t)(n > 0 ? n : 1));

@@ -1,0 +1,35 @@
+/** Timing helpers for the benchmark harness (never used in tests). */
+import { performance } from 'node:perf_hooks';
+
+export function median(xs: number[]): number {
+  const s = [...xs].sort((a, b) => a - b);
+  const m = s.length >> 1;
+  return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
+}
+
+/** Run `fn` once as a warm-up, then `repeats` times; return the median seconds. */
+export function timeMedian(fn: () => void, repeats = 5): number {
+  fn();
+  const t: number[] = [];
+  for (let r = 0; r < repeats; r++) {
+    const t0 = performance.now();
+    fn();
+    t.push((performance.now() - t0) / 1000);
+  }
+  return median(t);
+}
+
+export function seconds(x: number): string {
+  if (!Number.isFinite(x)) return '-';
+  if (x >= 1) return x.toFixed(2) + ' s';
+  if (x >= 1e-3) return (x * 1e3).toFixed(1) + ' ms';
+  return (x * 1e6).toFixed(0) + ' µs';
+}
+
+/** Format rows as an aligned plain-text table. */
+export function table(header: string[], rows: (string | number)[][]): string {
+  const cells = [header, ...rows.map((r) => r.map(String))];
+  const widths = header.map((_, c) => Math.max(...cells.map((r) => r[c].length)));
+  const line = (r: string[]) => r.map((x, c) => (c === 0 ? x.padEnd(widths[c]) : x.padStart(widths[c]))).join('  ');
+  return [line(header), widths.map((w) => '-'.repeat(w)).join('  '), ...cells.slice(1).map(line)].join('\n');
+}
