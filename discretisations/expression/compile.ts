@@ -448,6 +448,9 @@ class Generator {
   private readonly lines: string[] = [];
   private readonly used = new Set<number>();
 
+  /** `access(slot)` is the JavaScript that reads input slot `slot` (e.g. `a[3]`, `q[1]`). */
+  constructor(private readonly access: (slot: number) => string = (slot) => `a[${slot}]`) {}
+
   private key(e: Expr): string {
     let k = this.keys.get(e);
     if (k !== undefined) return k;
@@ -541,22 +544,30 @@ class Generator {
     this.lines.push(`${target} = ${code};`);
   }
 
-  /** Whole function body: symbol loads, then the statements. */
-  body(): string {
-    const loads = [...this.used].sort((a, b) => a - b).map((s) => `const s${s} = a[${s}];`);
-    return ['"use strict";', ...loads, ...this.lines].join('\n');
+  /** Statements: symbol loads, then the computations and assignments. */
+  statements(): string[] {
+    const loads = [...this.used].sort((a, b) => a - b).map((s) => `const s${s} = ${this.access(s)};`);
+    return [...loads, ...this.lines];
   }
 }
 
-/** Function writing outputs o[offset + i] = exprs[i](a) for each i. */
+/** Function writing outputs o[i] = exprs[i](a) for each i. */
 export type SlotFunction = (a: Float64Array, o: Float64Array) => void;
+
+/**
+ * Statements assigning `target(i) = exprs[i]` for every i, reading input slots through
+ * `access`, with repeated sub-expressions computed once across all the outputs.
+ */
+export function generateStatements(exprs: readonly Expr[], target: (i: number) => string, access?: (slot: number) => string): string[] {
+  const g = new Generator(access);
+  for (const e of exprs) g.note(e);
+  exprs.forEach((e, i) => g.assign(target(i), e));
+  return g.statements();
+}
 
 /** Generate source and compile `o[i] = exprs[i]` over input slots `a`. */
 export function generate(exprs: readonly Expr[]): { fn: SlotFunction; source: string } {
-  const g = new Generator();
-  for (const e of exprs) g.note(e);
-  exprs.forEach((e, i) => g.assign(`o[${i}]`, e));
-  const source = g.body();
+  const source = ['"use strict";', ...generateStatements(exprs, (i) => `o[${i}]`)].join('\n');
   // eslint-disable-next-line @typescript-eslint/no-implied-eval
   const fn = new Function('a', 'o', source) as SlotFunction;
   return { fn, source };
@@ -601,6 +612,8 @@ export interface ReactionSystemSpec {
   readonly parameters: readonly string[];
   /** Reaction term per field (every field needs one; "0" for none). */
   readonly reaction: Readonly<Record<string, unknown>>;
+  /** Coordinates the expressions may use (default x, y, z); others are unknown symbols. */
+  readonly coordinates?: readonly ('x' | 'y' | 'z')[];
   /** How to name an expression in errors; default `reaction for field '<name>'`. */
   readonly label?: (field: string) => string;
 }
@@ -608,19 +621,23 @@ export interface ReactionSystemSpec {
 /**
  * A compiled multi-field reaction term R(u, p, x) evaluated at one grid node.
  *
- * Input slots (`a`, length `slots`): the field values in field order, then the parameter values
- * in parameter order, then the coordinates x, y, z (`coordinateSlot`). Outputs go to `o`
- * starting at index 0; nothing is allocated per call.
+ * Input slots (`a`): the field values in field order, then the parameter values in parameter
+ * order, then the coordinates x, y, z (`coordinateSlot`) — `slots` entries; the second-order
+ * functions also read two direction vectors s and t from `directionSlot` on (s_b at
+ * directionSlot + b, t_c at directionSlot + nf + c). Outputs go to `o` from index 0; nothing is
+ * allocated per call.
  */
 export interface CompiledReaction {
   readonly fields: readonly string[];
   readonly parameters: readonly string[];
-  /** Length of the input array a: fields + parameters + 3. */
+  /** Length of the input array a for the first-order functions: fields + parameters + 3. */
   readonly slots: number;
   /** Index of the first parameter slot (= number of fields). */
   readonly parameterSlot: number;
   /** Index of the x slot (y and z follow). */
   readonly coordinateSlot: number;
+  /** Index of the first direction slot (= slots); the second-order functions need slots + 2·nf inputs. */
+  readonly directionSlot: number;
   /** Whether any reaction term depends on x, y or z. */
   readonly usesCoordinates: boolean;
   /**
@@ -638,11 +655,21 @@ export interface CompiledReaction {
   readonly jacobian: SlotFunction;
   /** Per parameter k: o[i] = ∂R_i/∂p_k for every field i (zeros written too). */
   readonly parameterDerivative: readonly SlotFunction[];
-  /** Internal trees (residual, coupling derivatives, parameter derivatives), for tests. */
+  /** o[i] = Σ_bc ∂²R_i/∂u_b∂u_c s_b t_c for every field i. */
+  readonly secondDerivative: SlotFunction;
+  /** Per parameter k: o[i] = Σ_b ∂²R_i/∂u_b∂p_k s_b for every field i. */
+  readonly mixedDerivative: readonly SlotFunction[];
+  /** Internal trees in slot numbering, for code generation with other calling conventions. */
   readonly trees: {
     readonly residual: readonly Expr[];
+    /** Aligned with couplingRows/couplingCols. */
     readonly jacobian: readonly Expr[];
+    /** [parameter][field]. */
     readonly parameter: readonly (readonly Expr[])[];
+    /** [field]: the contracted second derivative (reads direction slots). */
+    readonly second: readonly Expr[];
+    /** [parameter][field]: the contracted mixed derivative (reads the s direction slots). */
+    readonly mixed: readonly (readonly Expr[])[];
   };
   /** Generated JavaScript, for inspection. */
   readonly sources: { readonly residual: string; readonly jacobian: string; readonly parameter: readonly string[] };
@@ -671,7 +698,56 @@ function slotMap(fields: readonly string[], parameters: readonly string[]): Map<
   return m;
 }
 
-/** Parse, check, differentiate and compile a reaction system. */
+/** Print an internal tree as mathjs text (fully parenthesised), symbols named by `names[slot]`. */
+function printMath(e: Expr, names: readonly string[]): string {
+  switch (e.k) {
+    case 'num':
+      return e.v < 0 || Object.is(e.v, -0) ? `(-${String(-e.v)})` : String(e.v);
+    case 'sym':
+      return names[e.slot];
+    case 'neg':
+      return `(-${printMath(e.a, names)})`;
+    case 'fn':
+      return `${e.name}(${e.args.map((x) => printMath(x, names)).join(', ')})`;
+    default: {
+      const op = { add: '+', sub: '-', mul: '*', div: '/', pow: '^' }[e.k];
+      return `(${printMath(e.a, names)} ${op} ${printMath(e.b, names)})`;
+    }
+  }
+}
+
+/** Slots an internal tree reads. */
+function slotsUsed(e: Expr, out = new Set<number>()): Set<number> {
+  switch (e.k) {
+    case 'num': break;
+    case 'sym': out.add(e.slot); break;
+    case 'neg': slotsUsed(e.a, out); break;
+    case 'fn': e.args.forEach((x) => slotsUsed(x, out)); break;
+    default: slotsUsed(e.a, out); slotsUsed(e.b, out);
+  }
+  return out;
+}
+
+/** A non-finite constant (e.g. from 1/0 in the text) is a user error, not a value to compute with. */
+function checkFiniteConstants(e: Expr, label: string, text: string): void {
+  const visit = (x: Expr): void => {
+    if (x.k === 'num') {
+      if (!Number.isFinite(x.v)) throw new ExpressionError(`${label}: a constant part evaluates to ${x.v} (division by zero or overflow?) in ${quote(text)}`);
+      return;
+    }
+    if (x.k === 'sym') return;
+    if (x.k === 'neg') return visit(x.a);
+    if (x.k === 'fn') return x.args.forEach(visit);
+    visit(x.a);
+    visit(x.b);
+  };
+  visit(e);
+}
+
+const sumOf = (terms: Expr[]): Expr => (terms.length === 0 ? ZERO : terms.reduce((x, y) => ({ k: 'add', a: x, b: y })));
+const product = (a: Expr, b: Expr): Expr => ({ k: 'mul', a, b });
+
+/** Parse, check, differentiate (to second order) and compile a reaction system. */
 export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
   const { fields, parameters } = spec;
   if (!Array.isArray(fields) || fields.length === 0) throw new ExpressionError('fields: at least one field name is needed');
@@ -684,14 +760,20 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
     }
   }
   const slots = slotMap(fields, parameters);
-  const allowed = [...fields, ...parameters, ...COORDINATES];
+  const names = [...fields, ...parameters, ...COORDINATES];
+  const allowed = [...fields, ...parameters, ...(spec.coordinates ?? COORDINATES)];
   const nf = fields.length;
   const np = parameters.length;
+  const directionSlot = nf + np + 3;
+  const sSlot = (b: number): Expr => ({ k: 'sym', slot: directionSlot + b });
+  const tSlot = (c: number): Expr => ({ k: 'sym', slot: directionSlot + nf + c });
 
   const residual: Expr[] = [];
   const couplings: { row: number; col: number; e: Expr }[] = [];
   const paramTrees: Expr[][] = parameters.map(() => new Array<Expr>(nf).fill(ZERO));
   const paramFields: number[][] = parameters.map(() => []);
+  const second: Expr[] = [];
+  const mixedTerms: Expr[][][] = parameters.map(() => fields.map(() => []));
   let usesCoordinates = false;
 
   fields.forEach((f, i) => {
@@ -703,12 +785,31 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
     const root = parseChecked(raw, label(f), allowed);
     const used = symbolsUsed(root);
     if (COORDINATES.some((c) => used.has(c))) usesCoordinates = true;
-    residual.push(tidy(toExpr(root, slots)));
+    const value = tidy(toExpr(root, slots));
+    checkFiniteConstants(value, label(f), text);
+    residual.push(value);
+    const secondTerms: Expr[] = [];
     fields.forEach((g, j) => {
       if (!used.has(g)) return;
       const d = differentiate(root, g, label(f), text, slots);
-      if (!isNum(d, 0)) couplings.push({ row: i, col: j, e: d });
+      if (isNum(d, 0)) return;
+      couplings.push({ row: i, col: j, e: d });
+      // second order: differentiate the tidied first derivative again
+      const dUses = slotsUsed(d);
+      if (![...dUses].some((s) => s < nf + np)) return;
+      const dRoot = parse(printMath(d, names)) as unknown as MjNode;
+      fields.forEach((h, c) => {
+        if (!dUses.has(c)) return;
+        const dd = differentiate(dRoot, h, label(f), text, slots);
+        if (!isNum(dd, 0)) secondTerms.push(product(dd, product(sSlot(j), tSlot(c))));
+      });
+      parameters.forEach((p, k) => {
+        if (!dUses.has(nf + k)) return;
+        const dd = differentiate(dRoot, p, label(f), text, slots);
+        if (!isNum(dd, 0)) mixedTerms[k][i].push(product(dd, sSlot(j)));
+      });
     });
+    second.push(sumOf(secondTerms));
     parameters.forEach((p, k) => {
       if (!used.has(p)) return;
       const d = differentiate(root, p, label(f), text, slots);
@@ -720,6 +821,7 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
   });
 
   const jacTrees = couplings.map((c) => c.e);
+  const mixed = mixedTerms.map((perField) => perField.map(sumOf));
   const res = generate(residual);
   const jac = generate(jacTrees);
   const par = paramTrees.map((t) => generate(t));
@@ -729,6 +831,7 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
     slots: nf + np + 3,
     parameterSlot: nf,
     coordinateSlot: nf + np,
+    directionSlot,
     usesCoordinates,
     couplingRows: Int32Array.from(couplings.map((c) => c.row)),
     couplingCols: Int32Array.from(couplings.map((c) => c.col)),
@@ -736,7 +839,9 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
     residual: res.fn,
     jacobian: jac.fn,
     parameterDerivative: par.map((x) => x.fn),
-    trees: { residual, jacobian: jacTrees, parameter: paramTrees },
+    secondDerivative: generate(second).fn,
+    mixedDerivative: mixed.map((t) => generate(t).fn),
+    trees: { residual, jacobian: jacTrees, parameter: paramTrees, second, mixed },
     sources: { residual: res.source, jacobian: jac.source, parameter: par.map((x) => x.source) },
   };
 }
@@ -766,7 +871,9 @@ export function compileScalar(raw: unknown, label: string, symbols: readonly str
   const text = typeof raw === 'number' ? String(raw) : (raw as string);
   const slots = new Map<string, number>(symbols.map((s, i) => [s, i]));
   const uses = symbolsUsed(root);
-  const valueFn = generate([tidy(toExpr(root, slots))]).fn;
+  const tree = tidy(toExpr(root, slots));
+  checkFiniteConstants(tree, label, text);
+  const valueFn = generate([tree]).fn;
   const grads = symbols.map((s) => (uses.has(s) ? generate([differentiate(root, s, label, text, slots)]).fn : undefined));
   const a = new Float64Array(Math.max(1, symbols.length));
   const o = new Float64Array(1);
