@@ -1,0 +1,5 @@
+/** The Problem contract and its tools: names, second-order derivatives, the Jacobian checker. */
+export * from './problem.js';
+export * from './names.js';
+export * from './derivatives.js';
+export * from './check.js';
