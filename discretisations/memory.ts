@@ -12,6 +12,9 @@
  * unknowns per node every node entry is an m×m block; extra global unknowns add a dense row
  * and column each. nnz(L+U) ≈ 2·nnz(L); each stored entry costs about 12 bytes (8-byte value,
  * 4-byte index), and a factor of 1.5 covers pivoting growth and workspace (common practice).
+ * Measured against the project's sparse LU (nested-dissection ordering) on Laplacian-type grids
+ * — 2D 64² to 256², 3D 16³ to 40³, two-field 2D 128² — the entry estimate was 1.1 to 2 times the
+ * actual L+U count: it errs on the safe side.
  */
 
 /** Default ceiling for the factor memory: the solver runs in 32-bit WebAssembly (4 GiB address space). */
