@@ -13,6 +13,7 @@ import { grayScott, grayScottOptions, grayScottParameters } from './models/gray-
 import { brusselator, brusselatorOptions, brusselatorParameters } from './models/brusselator.js';
 import { elastica, elasticaOptions, elasticaParameters } from './models/elastica.js';
 import { beamFoundation, beamFoundationOptions, beamFoundationParameters } from './models/beam-foundation.js';
+import { reactionDiffusion, reactionDiffusionOptions, userModelCaution } from './expression/reaction-diffusion.js';
 
 export interface ModelEntry {
   /** One line for listings. */
@@ -77,6 +78,14 @@ export const models: Readonly<Record<string, ModelEntry>> = Object.freeze({
     caution: bucklingCaution,
     factory: beamFoundation,
   },
+  'reaction-diffusion': {
+    description: 'reaction–diffusion system given by expressions: fields, parameters, reaction terms, diffusion coefficients, boundary conditions',
+    parameters: [],
+    options: reactionDiffusionOptions,
+    dimensions: [1, 2, 3],
+    caution: userModelCaution,
+    factory: reactionDiffusion,
+  },
 } satisfies Record<string, ModelEntry>);
 
 /** The registry entry of a model id, with a one-line error listing the known ids otherwise. */
@@ -89,6 +98,7 @@ export function modelEntry(id: string): ModelEntry {
 export { bratuParameters };
 export type { OptionSpec };
 export { bratu, allenCahn, grayScott, brusselator, elastica, beamFoundation };
+export { reactionDiffusion };
 export { ignitionCaution, bucklingCaution };
 export * from './grid.js';
 export * from './operator.js';

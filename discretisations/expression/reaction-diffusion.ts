@@ -50,7 +50,7 @@ export const reactionDiffusionOptions: readonly OptionSpec[] = [
   { name: 'phase-condition', description: 'true: add a drift-speed unknown per periodic axis that removes the translation mode' },
 ];
 
-const caution =
+export const userModelCaution =
   'User-defined model: where its results bear on ignition, thermal runaway or other safety questions they are not a substitute for design codes, safety standards or a licensed engineer\'s judgement; local codes and licensed practice govern.';
 
 const BOUNDARY_KINDS = ['neumann', 'dirichlet', 'robin', 'periodic'] as const;
@@ -267,7 +267,7 @@ export function reactionDiffusion(options: Record<string, unknown> & { grid: Gri
     return createReactionDiffusion({
       model: MODEL,
       summary,
-      caution,
+      caution: userModelCaution,
       fields,
       parameters,
       grid: options.grid,
@@ -284,10 +284,3 @@ export function reactionDiffusion(options: Record<string, unknown> & { grid: Gri
   }
 }
 
-/** Option descriptions, for help text. */
-export const reactionDiffusionModel = {
-  name: MODEL,
-  summary: 'reaction–diffusion system given by expressions: fields, parameters, reaction terms, diffusion coefficients, boundary conditions',
-  options: reactionDiffusionOptions,
-  create: reactionDiffusion as (options: Record<string, unknown> & { grid: GridOptions }) => Problem,
-};

@@ -17,6 +17,7 @@ import { reactionDiffusion } from '../../discretisations/expression/reaction-dif
 import { grayScott } from '../../discretisations/models/gray-scott.js';
 import { brusselator } from '../../discretisations/models/brusselator.js';
 import { bratu } from '../../discretisations/models/bratu.js';
+import { modelEntry } from '../../discretisations/index.js';
 import { randomExpression, richardsonDerivative } from './random-expressions.js';
 
 /** A deterministic pseudo-random vector in [lo, hi] (xorshift; reproducible without fast-check). */
@@ -311,6 +312,14 @@ describe('derivatives agree with finite differences on random expression systems
 });
 
 describe('pattern and description', () => {
+  test('registered as reaction-diffusion in the model registry', () => {
+    const entry = modelEntry('reaction-diffusion');
+    expect(entry.dimensions).toEqual([1, 2, 3]);
+    expect(entry.options.map((o) => o.name)).toEqual(['grid', 'fields', 'parameters', 'reaction', 'diffusion', 'boundary', 'initial', 'phase-condition']);
+    const p = entry.factory({ grid: { intervals: [6] }, ...grayScottExpressions, boundary: 'neumann' });
+    expect(p.model).toBe('reaction-diffusion');
+  });
+
   test('the Jacobian pattern holds only the couplings the expressions have', () => {
     const grid = { intervals: [10] };
     const common = { grid, fields: ['u', 'v'], parameters: { k: 1 }, diffusion: { u: 1, v: 1 }, boundary: 'neumann' };
