@@ -186,25 +186,36 @@ function minus(s: string): string {
   return s.replace(/^-/, '\u2212');
 }
 
-/** m×10ⁿ with m to `digits` significant figures (trailing zeros dropped). */
-export function scientific(v: number, digits = 3): string {
+/**
+ * m×10ⁿ with m to `digits` significant figures (trailing zeros dropped). A mantissa of 1 is
+ * written as the bare power (10ⁿ) unless `keepOne` is set.
+ */
+export function scientific(v: number, digits = 3, keepOne = false): string {
   if (v === 0) return '0';
   const e = Math.floor(Math.log10(Math.abs(v)));
   let m = Number((v / Math.pow(10, e)).toPrecision(digits));
   let ee = e;
   if (Math.abs(m) >= 10) {
-    m /= 10;
+    m = Number((m / 10).toPrecision(digits));
     ee += 1;
   }
   const pow = `10${superscript(ee)}`;
-  return m === 1 ? pow : m === -1 ? `\u2212${pow}` : `${minus(String(m))}×${pow}`;
+  if (!keepOne && Math.abs(m) === 1) return m < 0 ? `\u2212${pow}` : pow;
+  return `${minus(String(m))}×${pow}`;
 }
 
-/** Tick label for a linear axis with the given step: just enough decimals. */
+/**
+ * Tick label for a linear axis with the given step: plain decimals with just enough places,
+ * or m×10ⁿ when the ticks are all below 0.001 or reach a million (judged over `ticks`, so one
+ * axis never mixes the two).
+ */
 export function formatTick(v: number, step: number, ticks?: readonly number[]): string {
   const big = Math.max(...(ticks ?? [v]).map(Math.abs));
-  if (big >= 1e5 || (big < 1e-3 && big > 0)) {
-    return v === 0 ? '0' : scientific(v, Math.max(1, Math.ceil(Math.log10(big / step) + 1e-9) + 1));
+  if (big >= 1e6 || (big < 1e-3 && big > 0)) {
+    if (v === 0) return '0';
+    // Enough mantissa digits to tell neighbouring ticks apart.
+    const digits = Math.max(1, Math.floor(Math.log10(Math.abs(v)) + 1e-9) - Math.floor(Math.log10(step) + 1e-9) + 1);
+    return scientific(v, Math.min(15, digits), true);
   }
   const decimals = Math.max(0, -Math.floor(Math.log10(step) + 1e-9));
   return minus((v === 0 ? 0 : v).toFixed(decimals));
@@ -219,13 +230,22 @@ export function formatLogTicks(ticks: readonly number[]): string[] {
   return ticks.map((v) => (plain ? String(Number(v.toPrecision(6))) : scientific(v, 2)));
 }
 
-/** A value for labels and legends, to `sig` significant figures. */
-export function formatValue(v: number, sig = 5): string {
+/**
+ * A value for labels and legends, to `sig` significant figures — more when `resolution` is
+ * given and finer digits are needed to place the value to that resolution (e.g. 1/100 of an
+ * axis step on an axis far from zero).
+ */
+export function formatValue(v: number, sig = 5, resolution?: number): string {
   if (!Number.isFinite(v)) return String(v);
   if (v === 0) return '0';
   const a = Math.abs(v);
-  if (a >= 1e6 || a < 1e-4) return scientific(v, sig);
-  return minus(String(Number(v.toPrecision(sig))));
+  let digits = sig;
+  if (resolution !== undefined && resolution > 0 && Number.isFinite(resolution)) {
+    digits = Math.max(sig, Math.floor(Math.log10(a)) - Math.floor(Math.log10(resolution)) + 1);
+  }
+  digits = Math.min(15, digits);
+  if (a >= 1e6 || a < 1e-4) return scientific(v, digits);
+  return minus(String(Number(v.toPrecision(digits))));
 }
 
 export interface AxisSpec {

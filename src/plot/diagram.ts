@@ -323,6 +323,7 @@ export function diagramSvg(input: DiagramInput): string {
   const yAxis = withRange(yAxis0, [plot.y + plot.height, plot.y]);
   const X = xAxis.scale.map;
   const Y = yAxis.scale.map;
+  const xStep = xAxis.ticks.length > 1 ? xAxis.ticks[1] - xAxis.ticks[0] : Math.abs(xmax - xmin);
 
   const body: string[] = [head.markup, drawAxes(plot, xAxis, yAxis)];
 
@@ -357,7 +358,9 @@ export function diagramSvg(input: DiagramInput): string {
   const labelLines = visible.map((s) => {
     const word = s.label ?? SPECIAL_POINT_WORDS[s.kind];
     const lines = [word];
-    if (showValues && s.kind !== 'end') lines.push(`${input.parameterName} = ${formatValue(s.parameter)}`);
+    if (showValues && s.kind !== 'end') {
+      lines.push(`${input.parameterName} = ${formatValue(s.parameter, 5, xStep / 100)}`);
+    }
     return lines;
   });
   const lineHeight = TYPE.label + 3;
@@ -421,6 +424,7 @@ export function diagramSvg(input: DiagramInput): string {
       el(
         'g',
         {
+          'data-role': 'special-point',
           'data-kind': s.kind,
           'data-branch': String(s.branch),
           'data-parameter': String(s.parameter),

@@ -4,7 +4,7 @@
  * as a tile centred on it, so the axes run half a cell beyond the first and last nodes.
  * Large grids are block-averaged to at most `maxCells` tiles per axis to keep files small.
  */
-import { drawAxes, formatTick, leftMarginFor, linearScale, niceTicks, type AxisSpec, type Rect } from './axes.js';
+import { drawAxes, formatTick, formatValue, leftMarginFor, linearScale, niceTicks, type AxisSpec, type Rect } from './axes.js';
 import { RAMP, rampIndex } from './colormap.js';
 import { footer, header, SIDE } from './figure.js';
 import { el, idSafe, num, svgDocument, text, textWidth } from './svg.js';
@@ -142,24 +142,26 @@ export function heatMapSvg(input: HeatMapInput): string {
   const yAxis0 = insideAxis(ey[0], ey[1], [1, 0], input.yLabel ?? 'y');
   const leftFirst = leftMarginFor(yAxis0.labels, true) - 8;
   const leftOther = leftMarginFor(yAxis0.labels, false) + 4;
-  const ranges = input.fields.map((_, fi) => {
+  const ranges = input.fields.map((f) => {
     let lo = Infinity;
     let hi = -Infinity;
-    const vals = input.fields[fi].values;
-    for (let k = 0; k < vals.length; k++) {
-      const v = vals[k];
+    let missing = 0;
+    for (let k = 0; k < f.values.length; k++) {
+      const v = f.values[k];
       if (Number.isFinite(v)) {
         if (v < lo) lo = v;
         if (v > hi) hi = v;
+      } else {
+        missing++;
       }
     }
-    if (lo > hi) return { lo: 0, hi: 1, constant: false, empty: true };
+    if (lo > hi) return { lo: 0, hi: 1, constant: false, empty: true, missing };
     const constant = hi - lo <= 1e-12 * Math.max(Math.abs(lo), Math.abs(hi));
-    return { lo, hi, constant, empty: false };
+    return { lo, hi, constant, empty: false, missing };
   });
   const barTicks = ranges.map((r) => {
     if (r.empty) return { ticks: [] as number[], labels: [] as string[] };
-    if (r.constant) return { ticks: [r.lo], labels: [formatTick(r.lo, Math.abs(r.lo) / 1000 || 1, [r.lo])] };
+    if (r.constant) return { ticks: [r.lo], labels: [formatValue(r.lo, 6)] };
     const { ticks, step } = niceTicks(r.lo, r.hi, { cover: false, target: 5 });
     return { ticks, labels: ticks.map((t) => formatTick(t, step, ticks)) };
   });
@@ -195,9 +197,13 @@ export function heatMapSvg(input: HeatMapInput): string {
     const b = blocks[fi];
     const parts: string[] = [];
     parts.push(text(img.x, top - 10, f.name, { 'font-size': TYPE.axisTitle, 'font-weight': 600, fill: INK }));
-    if (r.constant) {
+    const notes = [
+      r.empty ? 'no finite values' : r.constant ? 'constant field' : '',
+      r.missing > 0 && !r.empty ? `grey: ${r.missing} node${r.missing === 1 ? '' : 's'} without a finite value` : '',
+    ].filter((t) => t !== '');
+    if (notes.length > 0) {
       parts.push(
-        text(img.x + img.width, top - 10, 'constant field', { 'font-size': TYPE.tick, fill: MUTED, 'text-anchor': 'end' }),
+        text(img.x + img.width, top - 10, notes.join('; '), { 'font-size': TYPE.tick, fill: MUTED, 'text-anchor': 'end' }),
       );
     }
 

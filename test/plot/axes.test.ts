@@ -114,7 +114,12 @@ describe('number formatting', () => {
     expect(formatTick(0, 0.2)).toBe('0.0');
     expect(formatTick(-20, 10)).toBe('\u221220');
     expect(formatTick(2e-5, 1e-5, [0, 1e-5, 2e-5])).toBe('2×10⁻⁵');
-    expect(formatTick(300000, 100000, [0, 100000, 200000, 300000])).toBe('3×10⁵');
+    expect(formatTick(300000, 100000, [0, 100000, 200000, 300000])).toBe('300000');
+    // A million and up: m×10ⁿ with the mantissa written out, never a bare power on a linear axis.
+    expect(formatTick(1e6, 5e5, [5e5, 1e6, 1.5e6])).toBe('1×10⁶');
+    expect(formatTick(1.5e6, 5e5, [5e5, 1e6, 1.5e6])).toBe('1.5×10⁶');
+    // Large offset, small step: plain digits.
+    expect(formatTick(100010, 5, [100000, 100005, 100010])).toBe('100010');
   });
 
   it('values and powers of ten', () => {
@@ -122,6 +127,10 @@ describe('number formatting', () => {
     expect(formatValue(-0.000012345, 3)).toBe('\u22121.23×10⁻⁵');
     expect(scientific(1e-7)).toBe('10⁻⁷');
     expect(scientific(7.4e-5, 2)).toBe('7.4×10⁻⁵');
+    expect(scientific(9.99e-5, 2)).toBe('10⁻⁴');
+    // Label precision follows the axis resolution far from zero.
+    expect(formatValue(100008.88, 5, 0.5)).toBe('100008.9');
+    expect(formatValue(3.513830719, 5, 0.005)).toBe('3.5138');
   });
 });
 
