@@ -284,3 +284,12 @@ export function reactionDiffusion(options: Record<string, unknown> & { grid: Gri
   }
 }
 
+
+/** Name, one-line summary, options, caution and factory of the model (for listings and case files). */
+export const reactionDiffusionModel = {
+  name: MODEL,
+  summary: 'reaction–diffusion system given by expressions: fields, parameters, reaction terms, diffusion coefficients, boundary conditions',
+  options: reactionDiffusionOptions,
+  caution: userModelCaution,
+  create: reactionDiffusion as (options: Record<string, unknown> & { grid: GridOptions }) => Problem,
+};
