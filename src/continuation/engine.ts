@@ -1,0 +1,599 @@
+/**
+ * The continuation engine: pseudo-arclength (Keller 1977) or natural-parameter continuation of
+ * F(u, λ) = 0, with fold and branch-point detection and location, and branch switching.
+ *
+ * No I/O. `events()` yields branch starts, accepted points, special points and branch ends. All
+ * mutable state lives in one plain object (`EngineState`): `snapshot()` returns a copy whenever
+ * `canSnapshot` is true (after the last event of a step), and passing that copy back as
+ * `options.state` resumes exactly where it was taken.
+ */
+import type { Params, Problem } from '../problem/problem.js';
+import { branchDirections, locateBranchPoint } from './branch-point.js';
+import { locateFold } from './fold.js';
+import { correct, correctWork, type NewtonResult } from './newton.js';
+import { ContinuationSystem, allFinite } from './system.js';
+import type {
+  BranchInfo,
+  BranchPoint,
+  BranchPointEvent,
+  ContinuationSettings,
+  EngineEvent,
+  EndPoint,
+  FoldPoint,
+  StopReason,
+} from './types.js';
+import { stopReasonText } from './types.js';
+
+/** A branch waiting to be followed (queued at a branch point). */
+export interface PendingBranch {
+  info: BranchInfo;
+  /** The branch point (u, λ). */
+  origin: Float64Array;
+  /** First converged point on the new branch and its unit tangent. */
+  first: Float64Array;
+  tangent: Float64Array;
+  step: number;
+}
+
+export interface BranchState {
+  info: BranchInfo;
+  x: Float64Array;
+  tangent: Float64Array;
+  step: number;
+  arclength: number;
+  index: number;
+  determinantSign: number;
+  freshNext: boolean;
+  firstX: Float64Array;
+  firstTangent: Float64Array;
+}
+
+export interface EngineState {
+  version: 1;
+  started: boolean;
+  nextBranchId: number;
+  branches: BranchInfo[];
+  queue: PendingBranch[];
+  current: BranchState | null;
+  knownBranchPoints: Float64Array[];
+  ended: { id: number; reason: StopReason; points: number; message: string }[];
+}
+
+export interface EngineSummary {
+  branches: { id: number; reason: StopReason; points: number; message: string }[];
+  factorisations: number;
+  refactorisations: number;
+  solves: number;
+}
+
+export class ContinuationError extends Error {
+  override name = 'ContinuationError';
+}
+
+export interface ContinuationOptions {
+  /** Initial guess for the start point (else the model's initial guess). */
+  start?: Float64Array;
+  /** Resume from a snapshot. */
+  state?: EngineState;
+}
+
+function cloneState(s: EngineState): EngineState {
+  return structuredClone(s);
+}
+
+export class Continuation {
+  private readonly sys: ContinuationSystem;
+  private readonly n: number;
+  private state: EngineState;
+  private quiescent = true;
+  private readonly work: { rhs: Float64Array; delta: Float64Array };
+  private readonly lo: number;
+  private readonly hi: number;
+
+  constructor(
+    readonly problem: Problem,
+    readonly params: Params,
+    readonly settings: ContinuationSettings,
+    private readonly options: ContinuationOptions = {},
+  ) {
+    this.sys = new ContinuationSystem(problem, params, settings.parameter);
+    this.n = problem.size;
+    this.work = correctWork(this.n);
+    [this.lo, this.hi] = settings.bounds;
+    this.state = options.state
+      ? cloneState(options.state)
+      : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
+  }
+
+  /** True between steps: a snapshot taken now resumes cleanly. */
+  get canSnapshot(): boolean {
+    return this.quiescent;
+  }
+
+  snapshot(): EngineState {
+    return cloneState(this.state);
+  }
+
+  /** Counts of the linear algebra done so far. */
+  get counters(): { factorisations: number; refactorisations: number; solves: number; assemblies: number } {
+    const s = this.sys;
+    return { factorisations: s.factorisations, refactorisations: s.refactorisations, solves: s.solves, assemblies: s.assemblies };
+  }
+
+  dispose(): void {
+    this.sys.dispose();
+  }
+
+  private monitors(x: Float64Array): Record<string, number> {
+    const u = x.subarray(0, this.n);
+    const p = this.sys.params(x[this.n]);
+    const out: Record<string, number> = {};
+    for (const m of this.problem.monitors) out[m.name] = m.evaluate(u, p);
+    return out;
+  }
+
+  private pointEvent(b: BranchState, step: number, newton: number, residual: number): EngineEvent {
+    const point: BranchPoint = {
+      branch: b.info.id,
+      index: b.index,
+      arclength: b.arclength,
+      parameter: b.x[this.n],
+      u: b.x.slice(0, this.n),
+      monitors: this.monitors(b.x),
+      step,
+      newtonIterations: newton,
+      residual,
+      tangentParameter: b.tangent[this.n],
+      determinantSign: b.determinantSign,
+    };
+    return { type: 'point', point };
+  }
+
+  /** Tangent at the last corrected point from the current factorisation (row = previous tangent). */
+  private tangentFrom(prev: Float64Array, x: Float64Array, factored: boolean, fresh: boolean): { tangent: Float64Array; sign: number } {
+    const n = this.n;
+    if (!factored) {
+      this.sys.assemble(x.subarray(0, n), x[n]);
+      this.sys.setTangentRow(prev);
+      this.sys.factor(fresh);
+    }
+    const rhs = this.work.rhs;
+    rhs.fill(0);
+    rhs[n] = 1;
+    const z = this.sys.solve(rhs, new Float64Array(n + 1));
+    const s = this.sys.norm(z);
+    for (let i = 0; i <= n; i++) z[i] /= s;
+    // z·prev = 1/s > 0: already oriented along the previous tangent
+    return { tangent: z, sign: this.sys.determinant().sign };
+  }
+
+  private newtonSettings(fresh: boolean) {
+    return { ...this.settings.newton, fresh };
+  }
+
+  /** Converge the start point at fixed λ and set up branch 1. */
+  private start(): EngineEvent[] {
+    const n = this.n;
+    const lambda0 = this.params[this.settings.parameter];
+    if (lambda0 < this.lo || lambda0 > this.hi) {
+      throw new ContinuationError(`the start value ${this.settings.parameter} = ${lambda0} lies outside the bounds [${this.lo}, ${this.hi}]`);
+    }
+    const guess = this.options.start ?? this.problem.initialGuess(this.params);
+    if (guess.length !== n) throw new ContinuationError(`the start state has ${guess.length} values, the problem has ${n} unknowns`);
+    const x = new Float64Array(n + 1);
+    x.set(guess);
+    x[n] = lambda0;
+    this.sys.setRowScale(x.subarray(0, n), lambda0);
+    const eLambda = new Float64Array(n + 1);
+    eLambda[n] = 1;
+    const ref = x.slice();
+    const res = correct(this.sys, x, eLambda, ref, { ...this.newtonSettings(true), maxIterations: Math.max(30, this.settings.newton.maxIterations) }, this.work);
+    if (!res.converged) {
+      throw new ContinuationError(`the start point did not converge at ${this.settings.parameter} = ${lambda0}: ${res.message ?? res.failure}`);
+    }
+    // tangent: [[J, F_λ], [e_λᵀ]] z = e_{n+1} gives z = (du/dλ, 1)
+    this.sys.assemble(x.subarray(0, n), x[n]);
+    this.sys.setTangentRow(eLambda);
+    try {
+      this.sys.factor(true);
+    } catch (e) {
+      throw new ContinuationError(
+        `the Jacobian is singular at the start point (${this.settings.parameter} = ${lambda0}): start away from folds and branch points (${(e as Error).message})`,
+      );
+    }
+    const { tangent } = this.tangentFrom(eLambda, x, true, true);
+    const sign = this.settings.direction === 'increase' ? 1 : -1;
+    if (tangent[n] * sign < 0) for (let i = 0; i <= n; i++) tangent[i] = -tangent[i];
+    // determinant sign with the tangent as border row
+    this.sys.assemble(x.subarray(0, n), x[n]);
+    this.sys.setTangentRow(tangent);
+    this.sys.factor(true);
+    const info: BranchInfo = { id: this.state.nextBranchId++, depth: 0, origin: { kind: 'start' } };
+    const b: BranchState = {
+      info,
+      x,
+      tangent,
+      step: this.settings.step.initial,
+      arclength: 0,
+      index: 0,
+      determinantSign: this.sys.determinant().sign,
+      freshNext: true,
+      firstX: x.slice(),
+      firstTangent: tangent.slice(),
+    };
+    this.state.branches.push(info);
+    this.state.current = b;
+    this.state.started = true;
+    return [{ type: 'branch-start', branch: info }, this.pointEvent(b, 0, res.iterations, res.residual)];
+  }
+
+  /** Begin the next queued branch. */
+  private startPending(p: PendingBranch): EngineEvent[] {
+    const n = this.n;
+    this.sys.setRowScale(p.first.subarray(0, n), p.first[n]);
+    const b: BranchState = {
+      info: p.info,
+      x: p.origin.slice(),
+      tangent: p.tangent.slice(),
+      step: p.step,
+      arclength: 0,
+      index: 0,
+      determinantSign: 0,
+      freshNext: true,
+      firstX: p.origin.slice(),
+      firstTangent: p.tangent.slice(),
+    };
+    this.state.branches.push(p.info);
+    const events: EngineEvent[] = [{ type: 'branch-start', branch: p.info }, this.pointEvent(b, 0, 0, this.sys.residual(p.origin.subarray(0, n), p.origin[n]))];
+    // the first converged point off the branch point
+    const ds = this.sys.norm(sub(p.first, p.origin));
+    b.x = p.first.slice();
+    b.arclength = ds;
+    b.index = 1;
+    this.sys.assemble(b.x.subarray(0, n), b.x[n]);
+    this.sys.setTangentRow(p.tangent);
+    this.sys.factor(true);
+    b.determinantSign = this.sys.determinant().sign;
+    events.push(this.pointEvent(b, ds, 0, this.sys.residual(b.x.subarray(0, n), b.x[n])));
+    this.state.current = b;
+    return events;
+  }
+
+  private end(b: BranchState, reason: StopReason, message?: string): EngineEvent[] {
+    const n = this.n;
+    const text = message ?? stopReasonText[reason];
+    const endPoint: EndPoint = {
+      kind: 'end',
+      branch: b.info.id,
+      value: b.x[n],
+      arclength: b.arclength,
+      u: b.x.slice(0, n),
+      monitors: this.monitors(b.x),
+      residual: this.sys.residual(b.x.subarray(0, n), b.x[n]),
+      reason,
+    };
+    this.state.ended.push({ id: b.info.id, reason, points: b.index + 1, message: text });
+    this.state.current = null;
+    return [
+      { type: 'special', point: endPoint },
+      { type: 'branch-end', branch: b.info.id, reason, message: text },
+    ];
+  }
+
+  *events(): Generator<EngineEvent, EngineSummary> {
+    try {
+      if (!this.state.started) yield* this.emit(this.start());
+      for (;;) {
+        let b = this.state.current;
+        if (!b) {
+          const next = this.state.queue.shift();
+          if (!next) break;
+          yield* this.emit(this.startPending(next));
+          b = this.state.current!;
+          if (b.index + 1 >= this.settings.maxPoints) {
+            yield* this.emit(this.end(b, 'point-limit'));
+            continue;
+          }
+        }
+        yield* this.emit(this.settings.method === 'natural' ? this.naturalStep(b) : this.arclengthStep(b));
+      }
+    } finally {
+      this.quiescent = true;
+    }
+    const c = this.counters;
+    return { branches: this.state.ended.map((e) => ({ ...e })), factorisations: c.factorisations, refactorisations: c.refactorisations, solves: c.solves };
+  }
+
+  /** Yield a step's events; the state is complete (snapshot-safe) at the last one. */
+  private *emit(events: EngineEvent[]): Generator<EngineEvent> {
+    for (let i = 0; i < events.length; i++) {
+      this.quiescent = i === events.length - 1;
+      yield events[i];
+    }
+    this.quiescent = true;
+  }
+
+  /** One pseudo-arclength step (with retries); returns its events. */
+  private arclengthStep(b: BranchState): EngineEvent[] {
+    const n = this.n;
+    const st = this.settings;
+    const cosMax = Math.cos((st.maxTurnDegrees * Math.PI) / 180);
+    let ds = b.step;
+    for (;;) {
+      const xp = new Float64Array(n + 1);
+      for (let i = 0; i <= n; i++) xp[i] = b.x[i] + ds * b.tangent[i];
+      const xNew = xp.slice();
+      const res: NewtonResult = correct(this.sys, xNew, b.tangent, xp, { ...this.newtonSettings(b.freshNext), maxUpdate: Math.max(ds, 1e-3) * 2 }, this.work);
+      let rejection: string | undefined = res.converged ? undefined : res.message;
+      let tangent: Float64Array | undefined;
+      let sign = 0;
+      if (res.converged) {
+        try {
+          ({ tangent, sign } = this.tangentFrom(b.tangent, xNew, res.factored, b.freshNext));
+          const cos = this.sys.dot(tangent, b.tangent);
+          if (cos < cosMax && ds > st.step.min) rejection = `the tangent turned by ${((Math.acos(Math.min(1, cos)) * 180) / Math.PI).toFixed(1)}°`;
+        } catch (e) {
+          rejection = (e as Error).message;
+        }
+      }
+      if (rejection !== undefined || !tangent) {
+        if (res.failure === 'non-finite' && ds <= st.step.min) return this.end(b, 'non-finite', `non-finite values near ${st.parameter} = ${b.x[n]}: ${res.message}`);
+        ds *= 0.5;
+        b.freshNext = true;
+        if (ds < st.step.min) {
+          return this.end(b, 'minimum-step', `no convergence even at the minimum step ${st.step.min} near ${st.parameter} = ${fmt(b.x[n])} (${rejection})`);
+        }
+        continue;
+      }
+      return this.accept(b, xNew, tangent, sign, ds, res);
+    }
+  }
+
+  /** Accept a corrected point: events for special points, bounds and stop conditions. */
+  private accept(b: BranchState, xNew: Float64Array, tangent: Float64Array, sign: number, ds: number, res: NewtonResult): EngineEvent[] {
+    const n = this.n;
+    const st = this.settings;
+    const events: EngineEvent[] = [];
+    const xOld = b.x;
+    const tOld = b.tangent;
+    const specials: EngineEvent[] = [];
+    let located = false;
+    // fold: the tangent's λ component changes sign
+    if (st.method === 'arclength' && st.locate.folds && tOld[n] * tangent[n] < 0) {
+      specials.push(this.foldEvent(b, xOld, tOld, xNew, tangent));
+      located = true;
+    }
+    // branch point: the bordered determinant changes sign
+    if (st.method === 'arclength' && st.locate.branchPoints && b.determinantSign !== 0 && sign !== 0 && sign !== b.determinantSign) {
+      specials.push(...this.branchPointEvents(b, xOld, tOld, b.determinantSign, ds, sign));
+      located = true;
+    }
+    // parameter bounds: land exactly on the bound and stop
+    const lam = xNew[n];
+    let bound: number | undefined;
+    if (lam > this.hi && xOld[n] <= this.hi) bound = this.hi;
+    else if (lam < this.lo && xOld[n] >= this.lo) bound = this.lo;
+    if (bound !== undefined) {
+      const theta = (bound - xOld[n]) / (lam - xOld[n]);
+      const xb = new Float64Array(n + 1);
+      for (let i = 0; i <= n; i++) xb[i] = xOld[i] + theta * (xNew[i] - xOld[i]);
+      xb[n] = bound;
+      const eLambda = new Float64Array(n + 1);
+      eLambda[n] = 1;
+      const r = correct(this.sys, xb, eLambda, xb.slice(), this.newtonSettings(true), this.work);
+      if (r.converged) {
+        b.x = xb;
+        b.tangent = tangent;
+        b.arclength += this.sys.norm(sub(xb, xOld));
+        b.index++;
+        events.push(this.pointEvent(b, ds * theta, r.iterations, r.residual));
+        events.push(...specials.filter((e) => e.type !== 'special' || inRange(e.point.value, this.lo, this.hi)));
+        events.push(...this.end(b, 'parameter-bound', `reached ${st.parameter} = ${fmt(bound)}`));
+        return events;
+      }
+    }
+    b.arclength += st.method === 'arclength' ? ds : this.sys.norm(sub(xNew, xOld));
+    b.x = xNew;
+    b.tangent = tangent;
+    b.index++;
+    b.determinantSign = sign;
+    b.freshNext = located || Math.abs(tangent[n]) < 0.05;
+    const it = res.iterations;
+    const grow = it <= 1 ? 2 : it === 2 ? 1.5 : it === 3 ? 1.2 : it <= 5 ? 1 : 0.6;
+    b.step = Math.min(st.step.max, Math.max(st.step.min, ds * grow));
+    const pe = this.pointEvent(b, ds, it, res.residual);
+    events.push(pe, ...specials);
+    const stop = this.stopCheck(b, pe.type === 'point' ? pe.point.monitors : {});
+    if (stop) events.push(...this.end(b, stop.reason, stop.message));
+    return events;
+  }
+
+  private stopCheck(b: BranchState, monitors: Record<string, number>): { reason: StopReason; message: string } | undefined {
+    const st = this.settings;
+    for (const s of st.stopWhen) {
+      const v = monitors[s.monitor];
+      if (v === undefined) continue;
+      if (s.above !== undefined && v > s.above) return { reason: 'monitor-bound', message: `${s.monitor} rose above ${s.above} (${fmt(v)})` };
+      if (s.below !== undefined && v < s.below) return { reason: 'monitor-bound', message: `${s.monitor} fell below ${s.below} (${fmt(v)})` };
+    }
+    if (b.index + 1 >= st.maxPoints) return { reason: 'point-limit', message: `reached the point limit (${st.maxPoints})` };
+    if (!allFinite(b.x)) return { reason: 'non-finite', message: 'non-finite values in the state' };
+    // closed loop: back near the first point, heading the same way, after a real excursion
+    if (b.index >= 10) {
+      const d = this.sys.norm(sub(b.x, b.firstX));
+      if (d < 0.5 * Math.max(b.step, st.step.min) && this.sys.dot(b.tangent, b.firstTangent) > 0.9 && b.arclength > 4 * d) {
+        return { reason: 'closed-loop', message: 'the branch closed on itself' };
+      }
+    }
+    return undefined;
+  }
+
+  private foldEvent(b: BranchState, xa: Float64Array, ta: Float64Array, xb: Float64Array, tb: Float64Array): EngineEvent {
+    const n = this.n;
+    const st = this.settings;
+    const loc = locateFold(this.sys, xa, ta, xb, tb, st.foldTolerance, st.newton.residualTolerance);
+    const fold: FoldPoint = {
+      kind: 'fold',
+      branch: b.info.id,
+      value: loc.x[n],
+      arclength: b.arclength + (loc.converged ? this.sys.norm(sub(loc.x, xa)) : 0),
+      u: loc.x.slice(0, n),
+      monitors: this.monitors(loc.x),
+      residual: loc.residual,
+      located: loc.converged,
+      turn: ta[n] > 0 ? 'maximum' : 'minimum',
+    };
+    if (!loc.converged) {
+      // fall back to the better bracketing point
+      const use = Math.abs(ta[n]) < Math.abs(tb[n]) ? xa : xb;
+      fold.value = use[n];
+      fold.u = use.slice(0, n);
+      fold.monitors = this.monitors(use);
+      fold.residual = this.sys.residual(use.subarray(0, n), use[n]);
+    }
+    return { type: 'special', point: fold };
+  }
+
+  private branchPointEvents(b: BranchState, xa: Float64Array, ta: Float64Array, signA: number, ds: number, signB: number): EngineEvent[] {
+    const n = this.n;
+    const st = this.settings;
+    const loc = locateBranchPoint(this.sys, xa, ta, signA, ds, signB, st.newton, st.branchPointTolerance);
+    const xs = loc.x;
+    const event: BranchPointEvent = {
+      kind: 'branch-point',
+      branch: b.info.id,
+      value: xs[n],
+      arclength: b.arclength + loc.lo.s,
+      u: xs.slice(0, n),
+      monitors: this.monitors(xs),
+      residual: loc.residual,
+      located: loc.converged,
+      multiplicity: 1,
+      type: 'unknown',
+      criticality: 'undetermined',
+      newBranches: [],
+    };
+    const events: EngineEvent[] = [{ type: 'special', point: event }];
+    if (!loc.converged) {
+      event.note = loc.message;
+      return events;
+    }
+    // already seen (a branch that returns to a known branch point)?
+    for (const k of this.state.knownBranchPoints) {
+      if (this.sys.norm(sub(k, xs)) <= 1e-4 * (1 + this.sys.norm(xs))) {
+        event.note = 'already known: its branches are followed from where it was first found';
+        return events;
+      }
+    }
+    this.state.knownBranchPoints.push(xs.slice());
+    // the old branch's tangent at the point: the secant of the final bracket, or the tangent
+    let tau1 = sub(loc.hi.x, loc.lo.x);
+    if (!(this.sys.norm(tau1) > 0) || loc.hi.s - loc.lo.s > 1e-3) tau1 = ta.slice();
+    if (this.sys.dot(tau1, ta) < 0) for (let i = 0; i <= n; i++) tau1[i] = -tau1[i];
+    const dirs = branchDirections(this.sys, xs, tau1);
+    if ('error' in dirs) {
+      event.note = dirs.error;
+      return events;
+    }
+    // converge a first point each way along the new direction
+    const h0 = Math.min(Math.max(b.step, 20 * st.step.min), st.step.max, 0.5);
+    const firsts: { x: Float64Array; t: Float64Array; h: number }[] = [];
+    for (const sgn of [1, -1]) {
+      const d = dirs.direction.map((v) => v * sgn);
+      let h = h0;
+      let got: { x: Float64Array; t: Float64Array; h: number } | undefined;
+      for (let attempt = 0; attempt < 8 && !got; attempt++, h *= 0.5) {
+        const xp = new Float64Array(n + 1);
+        for (let i = 0; i <= n; i++) xp[i] = xs[i] + h * d[i];
+        const x = xp.slice();
+        const r = correct(this.sys, x, d, xp, { ...this.newtonSettings(true), maxUpdate: 2 * h }, this.work);
+        if (!r.converged) continue;
+        const v = sub(x, xs);
+        const cosOld = Math.abs(this.sys.dot(v, dirs.tau1)) / this.sys.norm(v);
+        if (cosOld > 0.95) continue; // fell back onto the old branch
+        const { tangent } = this.tangentFrom(d, x, r.factored, true);
+        got = { x, t: tangent, h };
+      }
+      if (got) firsts.push(got);
+    }
+    if (firsts.length === 0) {
+      event.note = 'no point on a new branch converged (the crossing branch could not be followed)';
+      return events;
+    }
+    if (firsts.length === 2) {
+      const a = firsts[0].x[n] - xs[n];
+      const c = firsts[1].x[n] - xs[n];
+      const tiny = 1e-12 * Math.max(1, Math.abs(xs[n]));
+      if (a * c > 0 && Math.abs(a) > tiny && Math.abs(c) > tiny) {
+        event.type = 'pitchfork';
+        const side = Math.sign(a);
+        event.newBranchDirection = side > 0 ? 'increase' : 'decrease';
+        event.criticality = dirs.unstableSide === 0 ? 'undetermined' : side === dirs.unstableSide ? 'supercritical' : 'subcritical';
+      } else if (a * c < 0) {
+        event.type = 'transcritical';
+        event.newBranchDirection = 'both';
+      }
+    }
+    if (b.info.depth + 1 > st.branchSwitching.depth) {
+      event.note = `not followed: branch-switching depth ${st.branchSwitching.depth} reached`;
+      return events;
+    }
+    for (const f of firsts) {
+      const info: BranchInfo = { id: this.state.nextBranchId++, depth: b.info.depth + 1, origin: { kind: 'branch-point', branch: b.info.id, value: xs[n] } };
+      event.newBranches.push(info.id);
+      this.state.queue.push({ info, origin: xs.slice(), first: f.x, tangent: f.t, step: f.h });
+    }
+    return events;
+  }
+
+  /** One natural-parameter step: λ moves by the step, Newton at fixed λ from the tangent predictor. */
+  private naturalStep(b: BranchState): EngineEvent[] {
+    const n = this.n;
+    const st = this.settings;
+    const dir = st.direction === 'increase' ? 1 : -1;
+    let dl = b.step;
+    const eLambda = new Float64Array(n + 1);
+    eLambda[n] = 1;
+    for (;;) {
+      const target = b.x[n] + dir * dl;
+      const x = new Float64Array(n + 1);
+      // predictor along du/dλ (the tangent scaled to a unit λ component)
+      const slope = b.tangent[n] !== 0 ? 1 / b.tangent[n] : 0;
+      for (let i = 0; i < n; i++) x[i] = b.x[i] + dir * dl * b.tangent[i] * slope;
+      x[n] = target;
+      const res = correct(this.sys, x, eLambda, x.slice(), { ...this.newtonSettings(b.freshNext), maxUpdate: Math.max(10 * dl, 1) }, this.work);
+      if (!res.converged) {
+        dl *= 0.5;
+        b.freshNext = true;
+        if (dl < st.step.min) {
+          const nearFold = Math.abs(b.tangent[n]) < 0.2;
+          return this.end(
+            b,
+            nearFold ? 'fold-not-passed' : 'minimum-step',
+            nearFold
+              ? `Newton found no solution beyond ${st.parameter} = ${fmt(b.x[n])}: the branch turns back at a fold there; natural-parameter continuation cannot pass it (use method: arclength)`
+              : `no convergence even at the minimum step near ${st.parameter} = ${fmt(b.x[n])} (${res.message})`,
+          );
+        }
+        continue;
+      }
+      const { tangent, sign } = this.tangentFrom(eLambda, x, res.factored, b.freshNext);
+      if (tangent[n] * dir < 0) for (let i = 0; i <= n; i++) tangent[i] = -tangent[i];
+      return this.accept(b, x, tangent, sign, dl, res);
+    }
+  }
+}
+
+function sub(a: Float64Array, b: Float64Array): Float64Array {
+  const c = new Float64Array(a.length);
+  for (let i = 0; i < a.length; i++) c[i] = a[i] - b[i];
+  return c;
+}
+
+function inRange(v: number, lo: number, hi: number): boolean {
+  return v >= lo && v <= hi;
+}
+
+function fmt(v: number): string {
+  return Number(v.toPrecision(10)).toString();
+}

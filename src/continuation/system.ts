@@ -1,0 +1,195 @@
+/**
+ * The bordered continuation system of a Problem in one continuation parameter λ:
+ *
+ *     [ J(u,λ)   F_λ(u,λ) ] [δu]     [ F(u,λ) ]
+ *     [ r_uᵀ     r_λ      ] [δλ] = − [   g    ]
+ *
+ * with a border row r (the weighted tangent for pseudo-arclength, e_λ for a fixed parameter, or a
+ * minimally augmented row when locating folds). The (n+1) pattern is analysed once per branch;
+ * every Newton iteration refills the values and refactors through the LU's refactor policy.
+ *
+ * All norms are weighted (discrete L2): ‖x‖² = Σ w_i u_i² + λ².
+ */
+import { BorderedMatrix } from '../linalg/bordered.js';
+import { SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
+import type { Params, Problem } from '../problem/problem.js';
+
+export class ContinuationSystem {
+  readonly n: number;
+  readonly weights: Float64Array;
+  /** Jacobian values of the last `assemble`. */
+  readonly jacobian: Float64Array;
+  /** F(u, λ) of the last `residual` call. */
+  readonly f: Float64Array;
+  /** F_λ(u, λ) of the last `assemble`. */
+  readonly fParameter: Float64Array;
+  readonly bordered: BorderedMatrix;
+  /** 1 / max(1, max_j |J_ij|) per row, frozen at `setRowScale`: the scaled residual ‖D⁻¹F‖_w is grid- and model-independent. */
+  readonly rowScale: Float64Array;
+  private lu: SparseLU | undefined;
+  private readonly luOptions: LUOptions;
+  private readonly rowBuffer: Float64Array;
+  factorisations = 0;
+  refactorisations = 0;
+  solves = 0;
+  assemblies = 0;
+
+  constructor(
+    readonly problem: Problem,
+    readonly base: Params,
+    readonly parameter: string,
+    luOptions: LUOptions = {},
+  ) {
+    if (!(parameter in base)) {
+      throw new Error(`unknown continuation parameter '${parameter}' (known: ${Object.keys(base).join(', ')})`);
+    }
+    this.n = problem.size;
+    this.weights = problem.weights;
+    const pattern = problem.pattern();
+    this.jacobian = new Float64Array(pattern.colPtr[pattern.cols]);
+    this.f = new Float64Array(this.n);
+    this.fParameter = new Float64Array(this.n);
+    this.bordered = new BorderedMatrix(pattern, 1);
+    this.rowScale = new Float64Array(this.n).fill(1);
+    this.rowBuffer = new Float64Array(this.n);
+    this.luOptions = luOptions;
+  }
+
+  params(lambda: number): Params {
+    return { ...this.base, [this.parameter]: lambda };
+  }
+
+  /** this.f = F(u, λ); returns the scaled weighted residual norm ‖D⁻¹F‖_w. */
+  residual(u: Float64Array, lambda: number): number {
+    this.problem.residual(u, this.params(lambda), this.f);
+    return this.scaledNorm(this.f);
+  }
+
+  scaledNorm(f: Float64Array): number {
+    const w = this.weights;
+    const s = this.rowScale;
+    let sum = 0;
+    for (let i = 0; i < this.n; i++) {
+      const v = f[i] * s[i];
+      sum += w[i] * v * v;
+    }
+    return Math.sqrt(sum);
+  }
+
+  /** Freeze the residual row scaling from the Jacobian at (u, λ). */
+  setRowScale(u: Float64Array, lambda: number): void {
+    this.problem.jacobian(u, this.params(lambda), this.jacobian);
+    const pat = this.problem.pattern();
+    const rowMax = new Float64Array(this.n);
+    for (let j = 0; j < this.n; j++) {
+      for (let p = pat.colPtr[j]; p < pat.colPtr[j + 1]; p++) {
+        const a = Math.abs(this.jacobian[p]);
+        const i = pat.rowIdx[p];
+        if (a > rowMax[i]) rowMax[i] = a;
+      }
+    }
+    for (let i = 0; i < this.n; i++) this.rowScale[i] = 1 / Math.max(1, rowMax[i]);
+  }
+
+  /** Fill J and F_λ at (u, λ) and put them into the bordered matrix. */
+  assemble(u: Float64Array, lambda: number): void {
+    const p = this.params(lambda);
+    this.problem.jacobian(u, p, this.jacobian);
+    this.problem.parameterDerivative(u, p, this.parameter, this.fParameter);
+    this.bordered.setInner(this.jacobian);
+    this.bordered.setColumn(0, this.fParameter);
+    this.assemblies++;
+  }
+
+  /** Border row: (w ∘ τ_u, τ_λ) — the weighted tangent. */
+  setTangentRow(tangent: Float64Array): void {
+    const w = this.weights;
+    const row = this.rowBuffer;
+    for (let i = 0; i < this.n; i++) row[i] = w[i] * tangent[i];
+    this.bordered.setRow(0, row);
+    this.bordered.setCorner(0, 0, tangent[this.n]);
+  }
+
+  /** Border row e_λ (fixes the parameter). */
+  setParameterRow(): void {
+    this.rowBuffer.fill(0);
+    this.bordered.setRow(0, this.rowBuffer);
+    this.bordered.setCorner(0, 0, 1);
+  }
+
+  /** Arbitrary border row (first n entries) and corner. */
+  setRow(row: ArrayLike<number>, corner: number): void {
+    this.bordered.setRow(0, row);
+    this.bordered.setCorner(0, 0, corner);
+  }
+
+  /** Arbitrary border column (first n entries); assemble() puts F_λ there. */
+  setColumn(column: ArrayLike<number>): void {
+    this.bordered.setColumn(0, column);
+  }
+
+  private solver(): SparseLU {
+    if (!this.lu) this.lu = new SparseLU(this.bordered.pattern, this.luOptions);
+    return this.lu;
+  }
+
+  /**
+   * Factor the bordered matrix: refactor with kept pivots while they stay healthy, fresh pivots
+   * when `fresh` (near folds and branch points) or when the policy rejects the refactor.
+   */
+  factor(fresh: boolean): void {
+    const done = this.solver().update(this.bordered.values, fresh);
+    if (done === 'factor') this.factorisations++;
+    else this.refactorisations++;
+  }
+
+  /** Solve with the current factorisation (length n+1, in place into out). */
+  solve(rhs: Float64Array, out?: Float64Array): Float64Array {
+    this.solves++;
+    return this.solver().solve(rhs, out);
+  }
+
+  solveTranspose(rhs: Float64Array, out?: Float64Array): Float64Array {
+    this.solves++;
+    return this.solver().solveTranspose(rhs, out);
+  }
+
+  /** Sign and log|det| of the factored bordered matrix. */
+  determinant(): { sign: number; logAbs: number } {
+    return this.solver().logDeterminant();
+  }
+
+  /** Weighted norm of an (n+1) vector (u part weighted, λ part plain). */
+  norm(x: Float64Array): number {
+    return Math.sqrt(this.dot(x, x));
+  }
+
+  /** Weighted inner product of two (n+1) vectors. */
+  dot(a: Float64Array, b: Float64Array): number {
+    const w = this.weights;
+    let s = a[this.n] * b[this.n];
+    for (let i = 0; i < this.n; i++) s += w[i] * a[i] * b[i];
+    return s;
+  }
+
+  /** Weighted norm of the u part of an (n+1) or n vector. */
+  normU(x: Float64Array): number {
+    const w = this.weights;
+    let s = 0;
+    for (let i = 0; i < this.n; i++) s += w[i] * x[i] * x[i];
+    return Math.sqrt(s);
+  }
+
+  dispose(): void {
+    this.lu?.dispose();
+    this.lu = undefined;
+  }
+}
+
+export { SparseLUError };
+
+/** Whether every entry is finite. */
+export function allFinite(x: Float64Array): boolean {
+  for (let i = 0; i < x.length; i++) if (!Number.isFinite(x[i])) return false;
+  return true;
+}
