@@ -41,3 +41,25 @@ export function residualOf(problem: Problem, u: Float64Array, p: Params): Float6
   problem.residual(u, p, out);
   return out;
 }
+
+import { Matrix, solve } from 'ml-matrix';
+
+/** Dense Newton for small problems (tests only): returns the converged state or throws. */
+export function newtonDense(problem: Problem, u0: Float64Array, p: Params, tol = 1e-11, maxIter = 30): Float64Array {
+  const u = u0.slice();
+  const f = new Float64Array(problem.size);
+  for (let it = 0; it < maxIter; it++) {
+    problem.residual(u, p, f);
+    let norm = 0;
+    for (let i = 0; i < f.length; i++) norm = Math.max(norm, Math.abs(f[i]));
+    const J = new Matrix(denseJacobian(problem, u, p));
+    const du = solve(J, Matrix.columnVector(Array.from(f))).to1DArray();
+    let step = 0;
+    for (let i = 0; i < u.length; i++) {
+      u[i] -= du[i];
+      step = Math.max(step, Math.abs(du[i]));
+    }
+    if (step < tol) return u;
+  }
+  throw new Error(`newton did not converge in ${maxIter} iterations`);
+}

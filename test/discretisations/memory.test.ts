@@ -1,0 +1,39 @@
+/** The up-front LU memory estimate and the refusal of hopeless grids. */
+import { describe, expect, it } from 'vitest';
+import { assertFactorMemory, estimateFactorMemory, defaultFactorMemoryLimit } from '../../discretisations/memory.js';
+import { models } from '../../discretisations/index.js';
+
+describe('factor memory estimate', () => {
+  it('grows like n in 1D, n log n in 2D and n^(4/3) in 3D (nested dissection, George 1973)', () => {
+    const e1 = (k: number) => estimateFactorMemory([k]).factorEntries;
+    const e2 = (k: number) => estimateFactorMemory([k, k]).factorEntries;
+    const e3 = (k: number) => estimateFactorMemory([k, k, k]).factorEntries;
+    expect(e1(200_000) / e1(100_000)).toBeCloseTo(2, 1);
+    // 2D: doubling k quadruples n; n log n gives a ratio a little above 4
+    const r2 = e2(512) / e2(256);
+    expect(r2).toBeGreaterThan(4);
+    expect(r2).toBeLessThan(5);
+    // 3D: doubling k multiplies n by 8 and n^(4/3) by 16
+    const r3 = e3(64) / e3(32);
+    expect(r3).toBeGreaterThan(13);
+    expect(r3).toBeLessThan(19);
+  });
+
+  it('scales with the square of the unknowns per node and adds dense rows for extras', () => {
+    const one = estimateFactorMemory([100, 100], 1).factorEntries;
+    const two = estimateFactorMemory([100, 100], 2).factorEntries;
+    expect(two / one).toBeGreaterThan(3.9);
+    expect(two / one).toBeLessThan(4.1);
+    const extra = estimateFactorMemory([100, 100], 1, 1);
+    expect(extra.factorEntries - one).toBeCloseTo(2 * extra.unknowns, -1);
+  });
+
+  it('refuses a large 3D grid with a one-line message; modest ones pass', () => {
+    expect(() => models.bratu.factory({ grid: { intervals: [200, 200, 200] } })).toThrow(
+      /^model 'bratu' on grid 200x200x200: the sparse LU would need about [\d.]+ GiB .* over the 3\.0 GiB limit; use fewer intervals/,
+    );
+    expect(() => models.bratu.factory({ grid: { intervals: [12, 12, 12] } })).not.toThrow();
+    expect(() => assertFactorMemory(estimateFactorMemory([2000, 2000], 2), 'grid 2000x2000')).toThrow(/grid 2000x2000/);
+    expect(defaultFactorMemoryLimit).toBe(3 * 1024 ** 3);
+  });
+});
