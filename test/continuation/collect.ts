@@ -1,0 +1,50 @@
+/** Run a continuation in memory and collect its events (test helper). */
+import { expect } from 'vitest';
+import { models } from '../../discretisations/index.js';
+import { Continuation, type EngineSummary } from '../../src/continuation/engine.js';
+import { defaultSettings, type BranchPoint, type ContinuationSettings, type SpecialPoint } from '../../src/continuation/types.js';
+import { type Problem, resolveParameters } from '../../src/problem/problem.js';
+
+export interface Collected {
+  problem: Problem;
+  points: BranchPoint[];
+  specials: SpecialPoint[];
+  ends: { branch: number; reason: string; message: string }[];
+  summary: EngineSummary;
+  branch(id: number): BranchPoint[];
+}
+
+export function settings(partial: Partial<ContinuationSettings> & Pick<ContinuationSettings, 'parameter' | 'bounds'>): ContinuationSettings {
+  return { ...defaultSettings, ...partial };
+}
+
+export function runModel(model: string, options: Record<string, unknown>, given: Record<string, number>, s: ContinuationSettings): Collected {
+  const problem = models[model].factory(options as never);
+  return runProblem(problem, given, s);
+}
+
+export function runProblem(problem: Problem, given: Record<string, number>, s: ContinuationSettings): Collected {
+  const params = resolveParameters(problem, given);
+  const c = new Continuation(problem, params, s);
+  const points: BranchPoint[] = [];
+  const specials: SpecialPoint[] = [];
+  const ends: Collected['ends'] = [];
+  const it = c.events();
+  let r = it.next();
+  while (!r.done) {
+    const e = r.value;
+    if (e.type === 'point') points.push(e.point);
+    else if (e.type === 'special') specials.push(e.point);
+    else if (e.type === 'branch-end') ends.push({ branch: e.branch, reason: e.reason, message: e.message });
+    r = it.next();
+  }
+  c.dispose();
+  // every converged point satisfies the residual tolerance (scaled weighted norm)
+  for (const p of points) expect(p.residual).toBeLessThanOrEqual(s.newton.residualTolerance);
+  return { problem, points, specials, ends, summary: r.value, branch: (id) => points.filter((p) => p.branch === id) };
+}
+
+/** Observed order from three values on grids refined by a constant ratio r. */
+export function observedOrder(coarse: number, medium: number, fine: number, r = 2): number {
+  return Math.log(Math.abs((coarse - medium) / (medium - fine))) / Math.log(r);
+}
