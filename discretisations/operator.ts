@@ -347,30 +347,41 @@ export class OperatorBuilder {
       col[q] = e.cols[k];
       coef[q] = e.vals[k];
     }
+    // sort each (short) row by column with an insertion sort, then merge duplicates in place
     const outPtr = new Int32Array(n + 1);
-    const outCol: number[] = [];
-    const outCoef: number[] = [];
-    const pairs: [number, number][] = [];
+    let w = 0;
     for (let r = 0; r < n; r++) {
-      outPtr[r] = outCol.length;
-      pairs.length = 0;
-      for (let q = rowPtr[r]; q < rowPtr[r + 1]; q++) pairs.push([col[q], coef[q]]);
-      pairs.sort((a, b) => a[0] - b[0]);
-      for (const [c, v] of pairs) {
-        if (outCol.length > outPtr[r] && outCol[outCol.length - 1] === c) outCoef[outCoef.length - 1] += v;
+      const lo = rowPtr[r];
+      const hi = rowPtr[r + 1];
+      for (let q = lo + 1; q < hi; q++) {
+        const cq = col[q];
+        const vq = coef[q];
+        let t = q - 1;
+        while (t >= lo && col[t] > cq) {
+          col[t + 1] = col[t];
+          coef[t + 1] = coef[t];
+          t--;
+        }
+        col[t + 1] = cq;
+        coef[t + 1] = vq;
+      }
+      outPtr[r] = w;
+      for (let q = lo; q < hi; q++) {
+        if (w > outPtr[r] && col[w - 1] === col[q]) coef[w - 1] += coef[q];
         else {
-          outCol.push(c);
-          outCoef.push(v);
+          col[w] = col[q];
+          coef[w] = coef[q];
+          w++;
         }
       }
     }
-    outPtr[n] = outCol.length;
+    outPtr[n] = w;
     const a = this.affine;
     return {
       size: n,
       rowPtr: outPtr,
-      col: Int32Array.from(outCol),
-      coef: Float64Array.from(outCoef),
+      col: col.slice(0, w),
+      coef: coef.slice(0, w),
       affineRow: a.rows.slice(0, a.n),
       affineSlot: a.cols.slice(0, a.n),
       affineKind: a.kinds.slice(0, a.n),

@@ -15,6 +15,10 @@
  *    single columns), which names the wrong entry, stored or missing, at a cost of about
  *    2·log2|G| residual pairs per culprit.
  * Steps: h_j = δ·max(|u_j|, 1), δ = ε_mach^(1/3); parameters likewise.
+ * When the model supplies exact second derivatives (F_uu[a, b], F_up[a]) they are compared, for
+ * random directions, with fourth-order differences of Jacobian values / parameter derivatives.
+ * Before any of this, `checkContract` verifies the shapes the contract promises (lengths of
+ * weights, mass, initial guess; the pattern's size and invariants; finite residual values).
  *
  * Error measure, per entry (in "difference units", a·h versus d):
  *     |a h − d| / max(|a h|, |d|, floor_i),   floor_i = 10⁻³ · δ · m_i,
@@ -25,6 +29,7 @@
  */
 import type { Params, Problem, UnknownLocation } from './problem.js';
 import { resolveParameters } from './problem.js';
+import { validatePattern } from '../linalg/sparse.js';
 import { centralDifferenceStep } from './derivatives.js';
 
 export interface JacobianCheckOptions {
@@ -164,6 +169,41 @@ export function colourColumns(n: number, colPtr: Int32Array, rowIdx: Int32Array,
   return { colour, count };
 }
 
+/**
+ * Shape checks of the Problem contract; throws a one-line Error naming the first violation.
+ * Useful on models written in code before anything else runs.
+ */
+export function checkContract(problem: Problem, p: Params = resolveParameters(problem)): void {
+  const m = `model '${problem.model}'`;
+  const n = problem.size;
+  if (!Number.isInteger(n) || n < 1) throw new Error(`${m}: size must be a positive integer, got ${n}`);
+  if (problem.gridUnknowns + problem.extraUnknowns.length !== n) {
+    throw new Error(`${m}: gridUnknowns (${problem.gridUnknowns}) + extra unknowns (${problem.extraUnknowns.length}) must equal size (${n})`);
+  }
+  if (problem.weights.length !== n) throw new Error(`${m}: weights has length ${problem.weights.length}, expected size ${n}`);
+  for (let i = 0; i < n; i++) {
+    if (!(problem.weights[i] > 0)) throw new Error(`${m}: weight ${i} is ${problem.weights[i]}, weights must be positive`);
+  }
+  if (problem.massDiagonal && problem.massDiagonal.length !== n) {
+    throw new Error(`${m}: massDiagonal has length ${problem.massDiagonal.length}, expected size ${n}`);
+  }
+  const pat = problem.pattern();
+  if (pat.rows !== n || pat.cols !== n) throw new Error(`${m}: pattern is ${pat.rows}x${pat.cols}, expected ${n}x${n}`);
+  try {
+    validatePattern(pat);
+  } catch (e) {
+    throw new Error(`${m}: invalid pattern: ${(e as Error).message}`);
+  }
+  if (problem.pattern() !== pat) throw new Error(`${m}: pattern() must return the same object on every call`);
+  const u = problem.initialGuess(p);
+  if (u.length !== n) throw new Error(`${m}: initialGuess has length ${u.length}, expected size ${n}`);
+  const f = new Float64Array(n);
+  problem.residual(u, p, f);
+  for (let i = 0; i < n; i++) {
+    if (!Number.isFinite(f[i])) throw new Error(`${m}: residual entry ${i} is ${f[i]} at the initial guess`);
+  }
+}
+
 export function checkJacobian(problem: Problem, options: JacobianCheckOptions = {}): JacobianCheckReport {
   const n = problem.size;
   const tol = options.tolerance ?? 1e-6;
@@ -172,6 +212,7 @@ export function checkJacobian(problem: Problem, options: JacobianCheckOptions = 
   const p = options.parameters ?? resolveParameters(problem);
   const delta = centralDifferenceStep;
   const locate = problem.locateUnknown ? (i: number) => problem.locateUnknown!(i) : undefined;
+  checkContract(problem, p);
 
   let u: Float64Array;
   if (options.state) {

@@ -97,3 +97,18 @@ describe('colourColumns', () => {
     }
   });
 });
+
+import { checkContract } from '../../src/problem/check.js';
+
+describe('checkContract', () => {
+  it('names shape violations of a code model in one line', () => {
+    const good = codeModel({ grid: { intervals: [10] } });
+    expect(() => checkContract(good)).not.toThrow();
+    expect(() => checkContract({ ...good, weights: new Float64Array(3) })).toThrow(/weights has length 3, expected size 9/);
+    expect(() => checkContract({ ...good, initialGuess: () => new Float64Array(2) })).toThrow(/initialGuess has length 2/);
+    const pat = good.pattern();
+    expect(() => checkContract({ ...good, pattern: () => ({ ...pat }) })).toThrow(/same object on every call/);
+    expect(() => checkContract({ ...good, residual: (_u, _p, out) => out.fill(NaN) })).toThrow(/residual entry 0 is NaN/);
+    expect(() => checkJacobian({ ...good, weights: new Float64Array(3) })).toThrow(/weights has length 3/);
+  });
+});
