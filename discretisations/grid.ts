@@ -114,6 +114,9 @@ export class Grid {
     }
     const dim = options.intervals.length;
     if (dim < 1 || dim > 3) throw new Error(`grid.intervals must have 1 to 3 entries (one per axis), got ${dim}`);
+    if (options.length !== undefined && !Array.isArray(options.length)) {
+      throw new Error(`grid.length must be a list of positive numbers (one per axis), got ${String(options.length)}`);
+    }
     if (options.length !== undefined && options.length.length !== dim) {
       throw new Error(`grid.length has ${options.length.length} entries but grid.intervals has ${dim}; give one length per axis`);
     }

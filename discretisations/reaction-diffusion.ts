@@ -127,6 +127,15 @@ function diffusionResolver(d: DiffusionSpec, names: readonly string[], field: st
 export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDiffusionProblem {
   const fields = spec.fields;
   const nf = fields.length;
+  // refuse hopeless grids before allocating anything (node counts approximated by intervals + 1)
+  const iv = spec.grid?.intervals;
+  if (Array.isArray(iv) && iv.length >= 1 && iv.length <= 3 && iv.every((x) => Number.isInteger(x) && x > 0)) {
+    assertFactorMemory(
+      estimateFactorMemory(iv.map((x) => x + 1), Math.max(nf, 1), spec.phaseCondition ? iv.length : 0),
+      `model '${spec.model}' on grid ${iv.join('x')}`,
+      spec.memoryLimitBytes ?? defaultFactorMemoryLimit,
+    );
+  }
   const grid = new Grid(spec.grid, fields, spec.boundaries);
   const dim = grid.dim;
   const names = spec.parameters.map((s) => s.name);
@@ -154,12 +163,6 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
     name: `drift-${grid.axes[a].name}`,
     description: `drift speed along ${grid.axes[a].name} (phase-condition multiplier; 0 for a standing pattern)`,
   }));
-
-  assertFactorMemory(
-    estimateFactorMemory(grid.axes.map((ax) => ax.nodes), nf, np),
-    `model '${spec.model}' on grid ${grid.axes.map((ax) => ax.intervals).join('x')}`,
-    spec.memoryLimitBytes ?? defaultFactorMemoryLimit,
-  );
 
   // operators
   const lb = new OperatorBuilder(grid);
