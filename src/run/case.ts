@@ -1,0 +1,673 @@
+/**
+ * Case files: YAML (or JSON) documents that say which model to build, on which grid, from which
+ * parameter values, and how to continue. Every key is a full lowercase word (our own format):
+ *
+ *   name: slab-ignition                  # folder-safe name; default: the file name
+ *   model: bratu                         # built-in id, reaction-diffusion, or ./my-model.mjs
+ *   boundary: dirichlet                  # model-specific keys (see `branchline models`)
+ *   grid: {intervals: [64], length: [1]} # intervals per axis; h = length / intervals
+ *   parameters: {lambda: 0.1}            # start values (reaction-diffusion: the declarations)
+ *   continuation:
+ *     parameter: lambda
+ *     bounds: [0, 4]
+ *     direction: increase                # increase | decrease
+ *     method: arclength                  # arclength | natural
+ *     step: {initial: 0.05, min: 1e-6, max: 0.5}
+ *     max-points: 500                    # per branch
+ *     stop-when: [{monitor: max, above: 8}]
+ *     branch-switching: {depth: 1}
+ *     newton: {tolerance: 1e-9, max-iterations: 10}
+ *     locate: {folds: true, branch-points: true}
+ *     max-turn-degrees: 30
+ *   output: {directory: runs/slab, solutions: special}   # special | none | all
+ *   stability: {eigenvalues: 0}          # reserved for the stability issue (passed through)
+ *   checkpoint: {every-points: 25, every-seconds: 60}    # used by checkpoint/resume
+ *
+ * Paths inside a case file (a code model, output.directory) are relative to the case file's
+ * folder, so a case gives the same result wherever it is run from.
+ *
+ * `prepareCase` does all checking and builds the problem without writing anything; errors are
+ * one-line CaseErrors naming the file, the field path, the value and what is accepted.
+ */
+import { existsSync, readFileSync, statSync } from 'node:fs';
+import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { LineCounter, parseDocument } from 'yaml';
+import { z } from 'zod';
+import { assertFactorMemory, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
+import type { OptionSpec } from '../../discretisations/models/options.js';
+import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
+import { validateProblemNames } from '../problem/names.js';
+import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
+import { CaseError } from './errors.js';
+
+// ---------------------------------------------------------------------------------------------
+// Limits (bad input is refused up front rather than discovered hours later)
+
+/** Points per branch above this are refused as absurd. */
+export const maxPointsLimit = 1_000_000;
+/** Branch-switching depth above this is refused (the number of branches can double per level). */
+export const maxDepthLimit = 10;
+/** Estimated solution files per branch (output.solutions: all) above this are refused. */
+export const solutionBytesLimit = 64 * 1024 ** 3;
+
+export const solutionChoices = ['special', 'none', 'all'] as const;
+export type SolutionChoice = (typeof solutionChoices)[number];
+
+export const defaultCheckpoint = { everyPoints: 25, everySeconds: 60 };
+
+// ---------------------------------------------------------------------------------------------
+// The resolved case
+
+export type ModelKind = 'built-in' | 'expression' | 'code';
+
+export interface ResolvedContinuation {
+  parameter: string;
+  bounds: [number, number];
+  direction: 'increase' | 'decrease';
+  method: 'arclength' | 'natural';
+  step: { initial: number; min: number; max: number };
+  maxPoints: number;
+  stopWhen: { monitor: string; above?: number; below?: number }[];
+  branchSwitching: { depth: number };
+  newton: { tolerance: number; maxIterations: number };
+  locate: { folds: boolean; branchPoints: boolean };
+  maxTurnDegrees: number;
+}
+
+export interface ResolvedCase {
+  name: string;
+  /** Built-in id, `reaction-diffusion`, or the absolute path of a code model. */
+  model: string;
+  modelKind: ModelKind;
+  /** Model-specific keys (everything but the case keys), as given. */
+  modelOptions: Record<string, unknown>;
+  grid: { intervals: number[]; length: number[] };
+  /** Start value of every parameter of the problem (defaults filled in). */
+  parameters: Record<string, number>;
+  /** The `parameters` key as given (for reaction-diffusion: the declarations). */
+  parameterDeclarations?: Record<string, unknown>;
+  continuation: ResolvedContinuation;
+  output: { directory?: string; solutions: SolutionChoice };
+  stability: { eigenvalues: number };
+  checkpoint: { everyPoints: number; everySeconds: number };
+}
+
+export interface PreparedCase {
+  /** The case file as the user named it (for messages), or a label for in-memory cases. */
+  label: string;
+  /** Absolute path of the case file, when read from a file. */
+  file?: string;
+  /** Folder that relative paths in the case are resolved against. */
+  baseDir: string;
+  case: ResolvedCase;
+  problem: Problem;
+  /** Start parameter values. */
+  params: Params;
+  settings: ContinuationSettings;
+  /** The safety caution of the model, when it has one. */
+  caution?: string;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Showing values in messages
+
+export function showValue(v: unknown): string {
+  if (v === undefined) return 'nothing';
+  if (typeof v === 'string') return `'${v.length > 60 ? v.slice(0, 57) + '...' : v}'`;
+  if (typeof v === 'number') return Number.isNaN(v) ? 'nan' : v === Infinity ? 'inf' : v === -Infinity ? '-inf' : String(v);
+  let text: string;
+  try {
+    text = JSON.stringify(v, (_k, x) => (typeof x === 'number' && !Number.isFinite(x) ? String(x) : x)) ?? String(v);
+  } catch {
+    text = String(v);
+  }
+  text = text.replace(/"([^"]*)":/g, '$1: ').replace(/,/g, ', ');
+  return text.length > 60 ? text.slice(0, 57) + '...' : text;
+}
+
+function pathText(path: readonly PropertyKey[]): string {
+  let s = '';
+  for (const k of path) {
+    if (typeof k === 'number') s += `[${k}]`;
+    else s += s ? `.${String(k)}` : String(k);
+  }
+  return s;
+}
+
+function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
+  let v: unknown = root;
+  for (const k of path) {
+    if (v === null || typeof v !== 'object') return undefined;
+    v = (v as Record<PropertyKey, unknown>)[k as string];
+  }
+  return v;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Schema of the case keys (model-specific keys are checked against the model's option list)
+
+/** Leaf schemas carry the words for "what is accepted" as their error message. */
+const accepted = (text: string) => ({ error: () => text });
+
+const finite = z.number(accepted('a finite number'));
+const positive = z.number(accepted('a positive number')).positive(accepted('a positive number'));
+const positiveInteger = (what = 'a positive integer') => z.number(accepted(what)).int(accepted(what)).positive(accepted(what));
+const word = (choices: readonly string[]) => z.enum(choices as [string, ...string[]], accepted(choices.join(', ')));
+const bool = z.boolean(accepted('true or false'));
+
+function section<T extends z.ZodRawShape>(shape: T) {
+  const keys = Object.keys(shape).join(', ');
+  return z.strictObject(shape, {
+    error: (iss) =>
+      iss.code === 'unrecognized_keys'
+        ? `unknown key${iss.keys.length > 1 ? 's' : ''} ${iss.keys.map((k) => `'${k}'`).join(', ')} (accepted: ${keys})`
+        : `a map with keys ${keys}`,
+  });
+}
+
+/** An integer from lo to hi (inclusive). */
+const integerIn = (lo: number, hi: number) => {
+  const text = accepted(`an integer from ${lo} to ${hi}`);
+  return z.number(text).int(text).min(lo, text).max(hi, text);
+};
+
+const intervalsText = accepted('a list of 1 to 3 integers, intervals per axis, e.g. [64] or [32, 32]');
+const atLeastTwo = accepted('an integer of at least 2');
+
+const gridSchema = section({
+  intervals: z.array(z.number(atLeastTwo).int(atLeastTwo).min(2, atLeastTwo), intervalsText).min(1, intervalsText).max(3, intervalsText),
+  length: z.union([positive, z.array(positive)], accepted('a positive number, or a list of positive numbers (one per axis)')).optional(),
+});
+
+const stepSchema = section({ initial: positive.optional(), min: positive.optional(), max: positive.optional() });
+
+const stopSchema = section({ monitor: z.string(accepted('a monitor name')), above: finite.optional(), below: finite.optional() });
+
+const toleranceText = accepted('a number between 0 and 1');
+const turnText = accepted('a number of degrees above 0 and at most 90');
+
+const continuationSchema = section({
+  parameter: z.string(accepted('the name of a parameter of the model')),
+  bounds: z.tuple([finite, finite], accepted('two finite numbers [low, high]')),
+  direction: word(['increase', 'decrease']).optional(),
+  method: word(['arclength', 'natural']).optional(),
+  step: stepSchema.optional(),
+  'max-points': integerIn(1, maxPointsLimit).optional(),
+  'stop-when': z.array(stopSchema, accepted('a list of {monitor, above | below}')).optional(),
+  'branch-switching': section({ depth: integerIn(0, maxDepthLimit) }).optional(),
+  newton: section({
+    tolerance: z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
+    'max-iterations': integerIn(1, 100).optional(),
+  }).optional(),
+  locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
+  'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
+});
+
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint'] as const;
+
+const caseSchema = z.looseObject(
+  {
+    name: z
+      .string(accepted('a name of letters, digits, dots, dashes and underscores (it names the output folder)'))
+      .regex(/^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$/, accepted('a name of letters, digits, dots, dashes and underscores (it names the output folder)'))
+      .optional(),
+    model: z.string(accepted(`a model id (${Object.keys(models).join(', ')}) or a path to a code model (.mjs)`)),
+    grid: gridSchema,
+    parameters: z.record(z.string(), z.unknown(), accepted('a map of parameter names to values, e.g. {lambda: 0.5}')).optional(),
+    continuation: continuationSchema,
+    output: section({
+      directory: z.string(accepted('a folder path')).min(1, accepted('a folder path')).optional(),
+      solutions: word(solutionChoices).optional(),
+    }).optional(),
+    stability: section({ eigenvalues: integerIn(0, 50) }).optional(),
+    checkpoint: section({ 'every-points': positiveInteger().optional(), 'every-seconds': positive.optional() }).optional(),
+  },
+  accepted('a case: a map with keys name, model, grid, parameters, continuation, output'),
+);
+
+type CaseInput = z.infer<typeof caseSchema>;
+
+// ---------------------------------------------------------------------------------------------
+// Reading
+
+/** Parse YAML (or JSON for `.json` files) into a plain value; errors are one line with the line number. */
+export function parseCaseText(text: string, label: string, json = false): unknown {
+  if (text.includes('\u0000')) throw new CaseError(label, '', 'the file holds binary data, not a YAML or JSON case');
+  if (json) {
+    try {
+      return JSON.parse(text);
+    } catch (e) {
+      throw new CaseError(label, '', `not valid JSON: ${(e as Error).message}`);
+    }
+  }
+  const lineCounter = new LineCounter();
+  const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true, lineCounter });
+  if (doc.errors.length > 0) {
+    const err = doc.errors[0];
+    const line = err.pos ? lineCounter.linePos(err.pos[0]).line : undefined;
+    const first = err.message.split('\n')[0].replace(/ at line \d+, column \d+:?$/, '');
+    throw new CaseError(label, '', `not valid YAML${line ? ` (line ${line})` : ''}: ${first}`);
+  }
+  try {
+    return doc.toJS({ maxAliasCount: 100 });
+  } catch (e) {
+    throw new CaseError(label, '', `not valid YAML: ${(e as Error).message}`);
+  }
+}
+
+/** Read and check a case file, build its problem; nothing is written. */
+export async function prepareCase(file: string, options: { label?: string } = {}): Promise<PreparedCase> {
+  const label = options.label ?? file;
+  const abs = resolve(file);
+  if (!existsSync(abs)) throw new CaseError(label, '', 'no such file');
+  if (statSync(abs).isDirectory()) throw new CaseError(label, '', 'is a folder, not a case file');
+  let text: string;
+  try {
+    text = readFileSync(abs, 'utf8');
+  } catch (e) {
+    throw new CaseError(label, '', `cannot be read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+  }
+  const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
+  const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
+  return prepareCaseObject(raw, { label, file: abs, baseDir: dirname(abs), defaultName });
+}
+
+export interface PrepareObjectOptions {
+  label: string;
+  file?: string;
+  baseDir: string;
+  defaultName?: string;
+}
+
+/** Check a parsed case (e.g. the resolved case stored in a run directory) and build its problem. */
+export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions): Promise<PreparedCase> {
+  const label = opts.label;
+  const fail = (field: string, detail: string): never => {
+    throw new CaseError(label, field, detail);
+  };
+  if (raw === null || raw === undefined) fail('', 'the case is empty (expected keys: name, model, grid, parameters, continuation, output)');
+  if (typeof raw !== 'object' || Array.isArray(raw)) {
+    fail('', `expected a map of keys (name, model, grid, parameters, continuation, output), got ${showValue(raw)}`);
+  }
+
+  // 1. the case keys' shapes
+  const parsed = caseSchema.safeParse(raw);
+  if (!parsed.success) {
+    const iss = parsed.error.issues[0];
+    let path = iss.path as PropertyKey[];
+    let detail: string;
+    if (iss.code === 'unrecognized_keys') {
+      detail = iss.message;
+    } else if (iss.code === 'invalid_union' || iss.code === 'invalid_type' || iss.code === 'invalid_value' || iss.code === 'too_small' || iss.code === 'too_big' || iss.code === 'invalid_format' || iss.code === 'custom') {
+      const value = valueAt(raw, path);
+      if (value === undefined && !(iss.code === 'too_small' || iss.code === 'too_big')) {
+        detail = `is missing (accepted: ${iss.message})`;
+      } else {
+        detail = `${showValue(value)} is not accepted (accepted: ${iss.message})`;
+      }
+    } else {
+      detail = iss.message;
+    }
+    // the tuple `bounds` reports a wrong count on the tuple itself
+    if (path.length === 0) path = [];
+    fail(pathText(path), detail);
+  }
+  const input = parsed.data as CaseInput & Record<string, unknown>;
+
+  // 2. the model
+  const modelId = input.model.trim();
+  let kind: ModelKind;
+  let factory: ProblemFactory;
+  let optionSpecs: readonly OptionSpec[] | undefined;
+  let dimensions: readonly number[] | undefined;
+  let modelRef = modelId;
+  let registryCaution: string | undefined;
+  const known = Object.keys(models);
+  if (Object.hasOwn(models, modelId)) {
+    kind = modelId === 'reaction-diffusion' ? 'expression' : 'built-in';
+    const entry = modelEntry(modelId);
+    factory = entry.factory;
+    optionSpecs = entry.options;
+    dimensions = entry.dimensions;
+    registryCaution = entry.caution;
+  } else if (/[\\/]/.test(modelId) || /\.(mjs|js|cjs)$/i.test(modelId)) {
+    kind = 'code';
+    modelRef = isAbsolute(modelId) ? modelId : resolve(opts.baseDir, modelId);
+    factory = await loadCodeModel(modelRef, modelId, label);
+  } else {
+    return fail('model', `${showValue(modelId)} is not a known model (accepted: ${known.join(', ')}, or a path to a code model such as ./my-model.mjs)`);
+  }
+
+  // 3. model-specific keys
+  const modelOptions: Record<string, unknown> = {};
+  for (const [key, value] of Object.entries(input)) {
+    if ((caseKeys as readonly string[]).includes(key)) continue;
+    modelOptions[key] = value;
+  }
+  if (optionSpecs) {
+    const names = optionSpecs.map((s) => s.name).filter((n) => n !== 'grid' && n !== 'parameters');
+    for (const key of Object.keys(modelOptions)) {
+      if (!names.includes(key)) {
+        fail(key, `unknown key (accepted: ${[...caseKeys].join(', ')}${names.length ? `; for model '${modelId}' also ${names.join(', ')}` : ''})`);
+      }
+    }
+    for (const spec of optionSpecs) {
+      const v = modelOptions[spec.name];
+      if (spec.choices && v !== undefined && (typeof v !== 'string' || !spec.choices.includes(v))) {
+        fail(spec.name, `${showValue(v)} is not accepted (accepted: ${spec.choices.join(', ')})`);
+      }
+    }
+  }
+
+  // 4. grid: dimension and size before anything is allocated
+  const intervals = input.grid.intervals;
+  const dim = intervals.length;
+  let length: number[];
+  if (input.grid.length === undefined) length = intervals.map(() => 1);
+  else if (typeof input.grid.length === 'number') length = intervals.map(() => input.grid.length as number);
+  else {
+    length = input.grid.length;
+    if (length.length !== dim) {
+      fail('grid.length', `${showValue(length)} has ${length.length} entries but grid.intervals has ${dim} (accepted: one length per axis)`);
+    }
+  }
+  if (dimensions && !dimensions.includes(dim)) {
+    fail('grid.intervals', `${showValue(intervals)} is a ${dim}D grid; model '${modelId}' supports ${dimensions.map((d) => `${d}D`).join(', ')}`);
+  }
+  try {
+    assertFactorMemory(estimateFactorMemory(intervals.map((n) => n + 1), 1, 0), `grid ${intervals.join('x')}`);
+  } catch (e) {
+    fail('grid.intervals', (e as Error).message);
+  }
+  const grid: GridOptions = { intervals: intervals.slice(), length: length.slice() };
+
+  // 5. parameters given as start values (reaction-diffusion: declarations, passed to the model)
+  const givenParams = (input.parameters ?? {}) as Record<string, unknown>;
+  const factoryOptions: Record<string, unknown> & { grid: GridOptions } = { ...modelOptions, grid };
+  if (kind === 'expression') {
+    factoryOptions.parameters = givenParams;
+  } else {
+    for (const [k, v] of Object.entries(givenParams)) {
+      if (typeof v !== 'number' || !Number.isFinite(v)) fail(`parameters.${k}`, `${showValue(v)} is not accepted (accepted: a finite number)`);
+    }
+  }
+
+  // 6. build the problem
+  let problem: Problem;
+  try {
+    problem = factory(factoryOptions);
+    if (!problem || typeof problem !== 'object' || typeof problem.residual !== 'function') {
+      throw new Error(`the factory returned ${showValue(problem)}, not a problem (see the Problem contract)`);
+    }
+    validateProblemNames(problem);
+  } catch (e) {
+    if (e instanceof CaseError) throw e;
+    const { field, detail } = modelErrorField(e instanceof Error ? e.message : String(e), modelId, kind);
+    return fail(field, detail);
+  }
+  if (kind === 'code') {
+    try {
+      assertFactorMemory(
+        estimateFactorMemory(problem.describe().axes.map((a) => a.nodes), Math.max(1, problem.describe().fields.length), problem.extraUnknowns.length),
+        `grid ${intervals.join('x')}`,
+      );
+    } catch (e) {
+      fail('grid.intervals', (e as Error).message);
+    }
+  }
+
+  // 7. start values
+  const params: Record<string, number> = {};
+  for (const s of problem.parameters) params[s.name] = s.default;
+  const knownParams = problem.parameters.map((s) => s.name);
+  if (kind !== 'expression') {
+    for (const [k, v] of Object.entries(givenParams)) {
+      if (!knownParams.includes(k)) {
+        const variant = kind === 'built-in' && modelEntry(modelId).parameters.some((s) => s.name === k);
+        fail(
+          `parameters.${k}`,
+          `unknown parameter for model '${modelId}' (accepted: ${knownParams.join(', ') || 'none'})` +
+            (variant ? `; '${k}' belongs to another variant of the model (see \`branchline models\`)` : ''),
+        );
+      }
+      params[k] = v as number;
+    }
+  }
+  for (const s of problem.parameters) {
+    const v = params[s.name];
+    if ((s.min !== undefined && v < s.min) || (s.max !== undefined && v > s.max)) {
+      fail(`parameters.${s.name}`, `${showValue(v)} lies outside the accepted range [${s.min ?? '-inf'}, ${s.max ?? 'inf'}] (${s.description})`);
+    }
+  }
+
+  // 8. continuation
+  const c = input.continuation;
+  const parameter = c.parameter.trim();
+  const spec = problem.parameters.find((s) => s.name === parameter);
+  if (!spec) {
+    fail(
+      'continuation.parameter',
+      `${showValue(parameter)} is not a parameter of model '${modelId}' (accepted: ${knownParams.join(', ') || 'none'})` +
+        (kind === 'expression' ? `; declare parameters with start values under 'parameters', e.g. {${parameter}: 1}` : ''),
+    );
+  }
+  const pspec = spec!;
+  const [lo, hi] = c.bounds;
+  if (!(lo < hi)) {
+    fail('continuation.bounds', `${showValue(c.bounds)} is ${lo === hi ? 'empty' : 'reversed'} (accepted: [low, high] with low < high)`);
+  }
+  if ((pspec.min !== undefined && lo < pspec.min) || (pspec.max !== undefined && hi > pspec.max)) {
+    fail('continuation.bounds', `${showValue(c.bounds)} reaches outside the accepted range of ${parameter}, [${pspec.min ?? '-inf'}, ${pspec.max ?? 'inf'}]`);
+  }
+  const start = params[parameter];
+  const direction = (c.direction ?? defaultSettings.direction) as 'increase' | 'decrease';
+  if (start < lo || start > hi) {
+    fail(`parameters.${parameter}`, `the start value ${showValue(start)} lies outside continuation.bounds ${showValue(c.bounds)}`);
+  }
+  if ((start === hi && direction === 'increase') || (start === lo && direction === 'decrease')) {
+    fail('continuation.direction', `'${direction}' leaves the bounds at once: the start value ${parameter} = ${start} is the ${start === hi ? 'upper' : 'lower'} bound`);
+  }
+
+  const step = resolveStep(c.step ?? {}, fail);
+  const monitorNames = problem.monitors.map((m) => m.name);
+  const stopWhen = (c['stop-when'] ?? []).map((s, i) => {
+    const where = `continuation.stop-when[${i}]`;
+    if (!monitorNames.includes(s.monitor)) fail(`${where}.monitor`, `${showValue(s.monitor)} is not a monitor of this problem (accepted: ${monitorNames.join(', ')})`);
+    if (s.above === undefined && s.below === undefined) fail(where, `gives no limit (accepted: above: value and/or below: value)`);
+    if (s.above !== undefined && s.below !== undefined && !(s.below < s.above)) {
+      fail(where, `below ${s.below} is not less than above ${s.above}; the branch would stop at once`);
+    }
+    return { monitor: s.monitor, ...(s.above !== undefined ? { above: s.above } : {}), ...(s.below !== undefined ? { below: s.below } : {}) };
+  });
+
+  const continuation: ResolvedContinuation = {
+    parameter,
+    bounds: [lo, hi],
+    direction,
+    method: (c.method ?? defaultSettings.method) as 'arclength' | 'natural',
+    step,
+    maxPoints: c['max-points'] ?? defaultSettings.maxPoints,
+    stopWhen,
+    branchSwitching: { depth: c['branch-switching']?.depth ?? defaultSettings.branchSwitching.depth },
+    newton: {
+      tolerance: c.newton?.tolerance ?? defaultSettings.newton.residualTolerance,
+      maxIterations: c.newton?.['max-iterations'] ?? defaultSettings.newton.maxIterations,
+    },
+    locate: {
+      folds: c.locate?.folds ?? defaultSettings.locate.folds,
+      branchPoints: c.locate?.['branch-points'] ?? defaultSettings.locate.branchPoints,
+    },
+    maxTurnDegrees: c['max-turn-degrees'] ?? defaultSettings.maxTurnDegrees,
+  };
+
+  // 9. output, stability, checkpoint
+  const solutions = (input.output?.solutions ?? 'special') as SolutionChoice;
+  const description = problem.describe();
+  if (solutions === 'all') {
+    const nodes = description.axes.reduce((a, ax) => a * ax.nodes, 1) * Math.max(1, description.fields.length);
+    const bytes = nodes * 8 * continuation.maxPoints;
+    if (bytes > solutionBytesLimit) {
+      fail(
+        'output.solutions',
+        `'all' would write up to ${(bytes / 1024 ** 3).toFixed(0)} GiB of solution files per branch (${continuation.maxPoints} points of ${nodes} values); use 'special' or fewer max-points`,
+      );
+    }
+  }
+  const resolved: ResolvedCase = {
+    name: input.name ?? opts.defaultName ?? 'case',
+    model: modelRef,
+    modelKind: kind,
+    modelOptions,
+    grid: { intervals: intervals.slice(), length },
+    parameters: params,
+    ...(kind === 'expression' ? { parameterDeclarations: givenParams } : {}),
+    continuation,
+    output: { ...(input.output?.directory !== undefined ? { directory: input.output.directory } : {}), solutions },
+    stability: { eigenvalues: input.stability?.eigenvalues ?? 0 },
+    checkpoint: {
+      everyPoints: input.checkpoint?.['every-points'] ?? defaultCheckpoint.everyPoints,
+      everySeconds: input.checkpoint?.['every-seconds'] ?? defaultCheckpoint.everySeconds,
+    },
+  };
+
+  return {
+    label,
+    ...(opts.file !== undefined ? { file: opts.file } : {}),
+    baseDir: opts.baseDir,
+    case: resolved,
+    problem,
+    params: Object.freeze({ ...params }),
+    settings: toSettings(continuation, resolved.stability.eigenvalues),
+    ...(description.caution ?? registryCaution ? { caution: description.caution ?? registryCaution } : {}),
+  };
+}
+
+function resolveStep(
+  s: { initial?: number; min?: number; max?: number },
+  fail: (field: string, detail: string) => never,
+): { initial: number; min: number; max: number } {
+  const d = defaultSettings.step;
+  const min = s.min ?? Math.min(d.min, s.max ?? d.min, s.initial ?? d.min);
+  const max = s.max ?? Math.max(d.max, s.initial ?? d.max, min);
+  if (min > max) fail('continuation.step', `min ${min} is larger than max ${max} (accepted: 0 < min <= initial <= max)`);
+  const initial = s.initial ?? Math.min(Math.max(d.initial, min), max);
+  if (initial < min || initial > max) {
+    fail('continuation.step.initial', `${initial} lies outside [min, max] = [${min}, ${max}] (accepted: 0 < min <= initial <= max)`);
+  }
+  return { initial, min, max };
+}
+
+/** The engine's settings from the resolved continuation keys. */
+export function toSettings(c: ResolvedContinuation, eigenvalues = 0): ContinuationSettings {
+  return {
+    ...defaultSettings,
+    // stability analysis (the engine computes the rightmost eigenvalues when asked)
+    ...('stability' in defaultSettings ? { stability: { eigenvalues } } : {}),
+    parameter: c.parameter,
+    bounds: [c.bounds[0], c.bounds[1]],
+    direction: c.direction,
+    method: c.method,
+    step: { ...c.step },
+    maxPoints: c.maxPoints,
+    stopWhen: c.stopWhen.map((s) => ({ ...s })),
+    branchSwitching: { depth: c.branchSwitching.depth },
+    newton: { residualTolerance: c.newton.tolerance, stepTolerance: c.newton.tolerance, maxIterations: c.newton.maxIterations },
+    locate: { folds: c.locate.folds, branchPoints: c.locate.branchPoints },
+    maxTurnDegrees: c.maxTurnDegrees,
+  };
+}
+
+/**
+ * The resolved case in the case-file format (every default filled in), as stored in run.json;
+ * `prepareCaseObject` reads it back (issue: resume).
+ */
+export function caseDocument(c: ResolvedCase): Record<string, unknown> {
+  const k = c.continuation;
+  return {
+    name: c.name,
+    model: c.model,
+    ...c.modelOptions,
+    grid: { intervals: c.grid.intervals, length: c.grid.length },
+    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+    continuation: {
+      parameter: k.parameter,
+      bounds: k.bounds,
+      direction: k.direction,
+      method: k.method,
+      step: k.step,
+      'max-points': k.maxPoints,
+      'stop-when': k.stopWhen,
+      'branch-switching': k.branchSwitching,
+      newton: { tolerance: k.newton.tolerance, 'max-iterations': k.newton.maxIterations },
+      locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
+      'max-turn-degrees': k.maxTurnDegrees,
+    },
+    output: { ...(c.output.directory !== undefined ? { directory: c.output.directory } : {}), solutions: c.output.solutions },
+    stability: { eigenvalues: c.stability.eigenvalues },
+    checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Code models and model errors
+
+async function loadCodeModel(abs: string, given: string, label: string): Promise<ProblemFactory> {
+  if (!existsSync(abs)) throw new CaseError(label, 'model', `code model ${showValue(given)} not found (looked for ${abs})`);
+  let mod: Record<string, unknown>;
+  try {
+    mod = (await import(pathToFileURL(abs).href)) as Record<string, unknown>;
+  } catch (e) {
+    throw new CaseError(label, 'model', `code model ${showValue(given)} could not be loaded: ${(e as Error).message ?? String(e)}`);
+  }
+  const f = mod.default;
+  if (typeof f !== 'function') {
+    throw new CaseError(label, 'model', `code model ${showValue(given)} has no default export of a factory function (accepted: export default function (options) { return problem; })`);
+  }
+  const factory = f as ProblemFactory;
+  return (options) => {
+    try {
+      return factory(options);
+    } catch (e) {
+      throw new Error(`code model ${showValue(given)} failed to build the problem: ${e instanceof Error ? e.message : String(e)}`);
+    }
+  };
+}
+
+/** Find the case field a model's error message is about (the models name options in words). */
+function modelErrorField(message: string, modelId: string, kind: ModelKind): { field: string; detail: string } {
+  const stripped = message.replace(/^model '[^']*':\s*/, '');
+  const tries: [RegExp, (m: RegExpExecArray) => string][] = [
+    [/^grid\.(intervals|length)(\[\d+\])?/, (m) => `grid.${m[1]}${m[2] ?? ''}`],
+    [/^(reaction|diffusion|initial) for field '([^']+)'/, (m) => `${m[1]}.${m[2]}`],
+    [/^boundary of field '([^']+)'/, (m) => `boundary.${m[1]}`],
+    [/^boundary\b/, () => 'boundary'],
+    [/^parameter(?: name)? '([^']+)'/, (m) => `parameters.${m[1]}`],
+    [/option '([^']+)'/, (m) => (m[1] === 'parameters' ? 'parameters' : m[1])],
+    [/^(field name|'[^']+' is both)/, () => 'fields'],
+    [/grid has \d+ axes/, () => 'grid.intervals'],
+  ];
+  if (kind !== 'code') {
+    for (const [re, f] of tries) {
+      const m = re.exec(stripped);
+      if (m) {
+        const field = f(m);
+        // the message already names the field: keep its wording without repeating the model
+        return { field, detail: stripped.replace(/^grid\.(intervals|length)(\[\d+\])?( \(axis [xyz]\))?\s*/, '') };
+      }
+    }
+  }
+  return { field: 'model', detail: kind === 'code' ? message : `model '${modelId}': ${stripped}` };
+}
+
+/** The parameters and options of every model, for `branchline models`. */
+export function modelCatalogue(): { id: string; description: string; dimensions: readonly number[]; parameters: { name: string; default: number; description: string }[]; options: readonly OptionSpec[]; caution?: string }[] {
+  return Object.entries(models).map(([id, e]) => ({
+    id,
+    description: e.description,
+    dimensions: e.dimensions,
+    parameters: e.parameters.map((p) => ({ name: p.name, default: p.default, description: p.description })),
+    options: e.options.filter((o) => o.name !== 'grid'),
+    ...(e.caution ? { caution: e.caution } : {}),
+  }));
+}

@@ -1,0 +1,379 @@
+/**
+ * Run a prepared case: create the run directory, converge the start point and continue (the
+ * engine), write every accepted point and special point as it arrives, and keep run.json's
+ * status true at every moment (running → finished | stopped | failed).
+ *
+ * Free of command-line concerns (no process.exit, no argument parsing, no stdout): the `run`
+ * command, `resume`, batches and worker processes all call `runCase`.
+ *
+ * Order of work per event, so that a checkpoint always sees consistent files: a point's CSV row
+ * (and its solution file, for `output.solutions: all`) is written before control goes back to
+ * the engine or to the event loop; the `checkpoint` hook is then called with the CSV byte
+ * lengths and a snapshot function of the engine's state.
+ */
+import { resolve } from 'node:path';
+import { Continuation } from '../continuation/engine.js';
+import type { BranchPoint, ContinuationSettings, EngineEvent, StopReason } from '../continuation/types.js';
+import { stopReasonText } from '../continuation/types.js';
+import type { Params, Problem } from '../problem/problem.js';
+import { type PreparedCase, caseDocument } from './case.js';
+import {
+  type BranchRecord,
+  type ColumnPlan,
+  type RunLedger,
+  type RunStatus,
+  RunDirectory,
+  columnPlan,
+  emptyLedger,
+  hasStability,
+  pointRow,
+  runFormat,
+  runFormatVersion,
+  specialRecord,
+} from './run-directory.js';
+import { softwareVersion } from './version.js';
+
+/** What runCase needs from the continuation engine (src/continuation/engine.ts). */
+export interface EngineLike {
+  events(): Generator<EngineEvent, unknown>;
+  snapshot(): unknown;
+  /** When present: whether a snapshot taken now resumes cleanly. */
+  readonly canSnapshot?: boolean;
+  dispose(): void;
+}
+
+export type EngineFactory = (
+  problem: Problem,
+  params: Params,
+  settings: ContinuationSettings,
+  options: { start?: Float64Array; state?: unknown },
+) => EngineLike;
+
+export const defaultEngine: EngineFactory = (problem, params, settings, options) =>
+  new Continuation(problem, params, settings, options as ConstructorParameters<typeof Continuation>[3]);
+
+/** Stop reasons that make a run `failed` when they end the first branch. */
+export const failureReasons: readonly StopReason[] = ['newton-failed', 'non-finite', 'minimum-step'];
+
+export interface ProgressInfo {
+  branch: number;
+  /** Point index on the branch. */
+  index: number;
+  parameter: number;
+  step: number;
+  /** Points written in this run so far (all branches). */
+  points: number;
+  maxPoints: number;
+}
+
+export interface CheckpointContext {
+  /** 'point': after a point's row was written; 'stop': the run is stopping on request. */
+  reason: 'point' | 'stop';
+  directory: RunDirectory;
+  /** The run layer's own state (branches, special points, CSV byte lengths): plain, checkpointable. */
+  ledger: RunLedger;
+  /** Whether the engine can be snapshotted now (between steps). */
+  canSnapshot: boolean;
+  /** The engine's state (plain object with Float64Arrays). */
+  snapshot(): unknown;
+}
+
+export interface RunCaseOptions {
+  /** Output folder; default: see outputDirectory(). */
+  outDir?: string;
+  /** Replace an earlier run in a non-empty output folder (see RunDirectory.create). */
+  force?: boolean;
+  /** Stop request (SIGINT/SIGTERM): the current event is finished, files written, status `stopped`. */
+  signal?: AbortSignal;
+  /** Log lines (the CLI sends them to stderr). */
+  log?: (level: 'info' | 'warning', message: string) => void;
+  /** Called after every accepted point is written. */
+  progress?: (p: ProgressInfo) => void;
+  /** Called after every point (and once when stopping) so that a checkpointer can decide to write. */
+  checkpoint?: (c: CheckpointContext) => void;
+  /** The engine (tests pass fakes); default the real one. */
+  engine?: EngineFactory;
+  /** Initial guess for the start point (e.g. read from a saved solution). */
+  start?: Float64Array;
+  /** Continue an interrupted run (the resume command): reopen `outDir` with this state. */
+  resume?: { ledger: RunLedger; engineState: unknown; started: string; previousSeconds?: number };
+}
+
+export interface RunResult {
+  status: Exclude<RunStatus, 'running'>;
+  directory: string;
+  /** The run.json document as written last. */
+  record: Record<string, unknown>;
+  ledger: RunLedger;
+  failure?: string;
+  seconds: number;
+}
+
+/**
+ * Where a case's run goes: `outOverride` (relative to the current folder), else the case's
+ * `output.directory` (relative to the case file), else `runs/<name>` in the current folder.
+ */
+export function outputDirectory(prepared: PreparedCase, outOverride?: string): string {
+  if (outOverride !== undefined) return resolve(outOverride);
+  if (prepared.case.output.directory !== undefined) return resolve(prepared.baseDir, prepared.case.output.directory);
+  return resolve('runs', prepared.case.name);
+}
+
+const tick = (): Promise<void> => new Promise((r) => setImmediate(r));
+
+function isoNow(): string {
+  return new Date().toISOString();
+}
+
+/** Run a prepared case to the end (or to a stop request); never throws for numerical failures. */
+export async function runCase(prepared: PreparedCase, options: RunCaseOptions = {}): Promise<RunResult> {
+  const t0 = Date.now();
+  const { problem, params, settings } = prepared;
+  const parameter = settings.parameter;
+  const log = options.log ?? (() => {});
+  const outDir = options.outDir !== undefined ? resolve(options.outDir) : outputDirectory(prepared);
+  const stabilityColumnsOn = prepared.case.stability.eigenvalues > 0;
+  const plan: ColumnPlan = columnPlan(problem, parameter, stabilityColumnsOn);
+  const ledger: RunLedger = options.resume ? structuredClone(options.resume.ledger) : emptyLedger();
+
+  // the only step that may refuse (bad output folder) happens before anything is written
+  const dir = options.resume
+    ? RunDirectory.reopen(outDir, ledger, () => plan.columns)
+    : RunDirectory.create(outDir, { force: options.force });
+
+  const started = options.resume?.started ?? isoNow();
+  const previousSeconds = options.resume?.previousSeconds ?? 0;
+  const description = problem.describe();
+  let status: RunStatus = 'running';
+  let failure: string | undefined;
+  let continuationSeconds = 0;
+  const solutionsMode = prepared.case.output.solutions;
+  const kindCount = new Map<string, number>();
+  for (const s of ledger.specials) {
+    const key = `${s.branch}:${s.kind}`;
+    kindCount.set(key, (kindCount.get(key) ?? 0) + 1);
+  }
+
+  const record = (): Record<string, unknown> => ({
+    format: runFormat,
+    'format-version': runFormatVersion,
+    software: { ...softwareVersion(), node: process.version },
+    status,
+    ...(failure !== undefined ? { failure } : {}),
+    'case-file': prepared.file ?? null,
+    started,
+    ended: status === 'running' ? null : isoNow(),
+    problem: {
+      model: description.model,
+      summary: description.summary,
+      fields: description.fields,
+      axes: description.axes.map((a) => ({ name: a.name, intervals: a.intervals, length: a.length, h: a.h, nodes: a.nodes })),
+      unknowns: problem.size,
+      'grid-unknowns': problem.gridUnknowns,
+      'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
+      ...(description.layout ? { layout: description.layout } : {}),
+    },
+    'start-parameters': { ...params },
+    'continuation-parameter': parameter,
+    columns: plan.columns,
+    branches: ledger.branches.map((b) => ({
+      id: b.id,
+      depth: b.depth,
+      origin: b.origin,
+      file: b.file,
+      points: b.points,
+      ...(b.first !== undefined ? { first: b.first, last: b.last } : {}),
+      ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, 'stop-text': b.stopText, message: b.message } : {}),
+    })),
+    counts: {
+      branches: ledger.branches.length,
+      points: ledger.points,
+      folds: ledger.specials.filter((s) => s.kind === 'fold').length,
+      'branch-points': ledger.specials.filter((s) => s.kind === 'branch-point').length,
+      hopf: ledger.specials.filter((s) => s.kind === 'hopf').length,
+      ends: ledger.specials.filter((s) => s.kind === 'end').length,
+      solutions: ledger.solutions,
+    },
+    timings: {
+      'continuation-seconds': previousSeconds + continuationSeconds,
+      'total-seconds': previousSeconds + (Date.now() - t0) / 1000,
+    },
+    ...(ledger.warnings.length ? { warnings: ledger.warnings } : {}),
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+    case: caseDocument(prepared.case),
+  });
+
+  const writeRecord = (): void => dir.writeRunJson(record());
+  writeRecord();
+  if (!options.resume) dir.writePoints(parameter, ledger.specials);
+  let stabilityWarned = false;
+
+  const paramsAt = (value: number): Params => ({ ...params, [parameter]: value });
+  const branchOf = (id: number): BranchRecord | undefined => ledger.branches.find((b) => b.id === id);
+  let engine: EngineLike | undefined;
+  const tc = Date.now();
+
+  const handle = (ev: EngineEvent): void => {
+    switch (ev.type) {
+      case 'branch-start': {
+        const info = ev.branch;
+        const origin: BranchRecord['origin'] =
+          info.origin.kind === 'start'
+            ? { kind: 'start', direction: settings.direction }
+            : { kind: 'branch-point', branch: info.origin.branch, value: info.origin.value };
+        if (origin.kind === 'branch-point') {
+          const bp = ledger.specials.find((s) => s.kind === 'branch-point' && Array.isArray(s['new-branches']) && (s['new-branches'] as number[]).includes(info.id));
+          const d = bp?.['new-branch-direction'];
+          if (d === 'increase' || d === 'decrease' || d === 'both') origin.direction = d;
+        }
+        ledger.branches.push({ id: info.id, depth: info.depth, origin, file: RunDirectory.branchFile(info.id), points: 0 });
+        dir.openBranch(info.id, plan.columns, ledger);
+        log('info', `branch ${info.id} started ${origin.kind === 'start' ? 'from the start point' : `at the branch point ${parameter} = ${origin.value} on branch ${origin.branch}`}`);
+        writeRecord();
+        break;
+      }
+      case 'point': {
+        const p: BranchPoint = ev.point;
+        dir.appendRow(p.branch, pointRow(plan, problem, p), ledger);
+        if (stabilityColumnsOn && !stabilityWarned && !hasStability(p)) {
+          stabilityWarned = true;
+          const w = `stability.eigenvalues = ${prepared.case.stability.eigenvalues}, but the points carry no stability data; the stability columns stay empty`;
+          ledger.warnings.push(w);
+          log('warning', w);
+        }
+        if (solutionsMode === 'all') {
+          dir.writeSolution(`branch-${p.branch}-point-${p.index}`, problem, p.u, paramsAt(p.parameter));
+          ledger.solutions++;
+        }
+        ledger.points++;
+        const b = branchOf(p.branch);
+        if (b) {
+          b.points++;
+          if (b.first === undefined) b.first = p.parameter;
+          b.last = p.parameter;
+        }
+        break;
+      }
+      case 'special': {
+        const s = ev.point;
+        const key = `${s.branch}:${s.kind}`;
+        const k = (kindCount.get(key) ?? 0) + 1;
+        kindCount.set(key, k);
+        let file: string | undefined;
+        if (solutionsMode !== 'none') {
+          file = dir.writeSolution(`branch-${s.branch}-${s.kind}-${k}`, problem, s.u, paramsAt(s.value));
+          ledger.solutions++;
+        }
+        ledger.specials.push(specialRecord(problem, parameter, s, file));
+        dir.writePoints(parameter, ledger.specials);
+        if (s.kind !== 'end') log('info', `${s.kind.replace('-', ' ')} on branch ${s.branch} at ${parameter} = ${s.value}`);
+        break;
+      }
+      case 'branch-end': {
+        const b = branchOf(ev.branch);
+        if (b) {
+          b.stopReason = ev.reason;
+          b.stopText = stopReasonText[ev.reason] ?? ev.reason;
+          b.message = ev.message;
+        }
+        dir.closeBranch(ev.branch);
+        log(failureReasons.includes(ev.reason) ? 'warning' : 'info', `branch ${ev.branch} ended: ${ev.message || stopReasonText[ev.reason]}`);
+        writeRecord();
+        break;
+      }
+      case 'log':
+        log(ev.level, ev.message);
+        if (ev.level === 'warning') ledger.warnings.push(ev.message);
+        break;
+    }
+  };
+
+  const context = (reason: 'point' | 'stop'): CheckpointContext => ({
+    reason,
+    directory: dir,
+    ledger,
+    canSnapshot: engine?.canSnapshot ?? true,
+    snapshot: () => {
+      if (!engine) throw new Error('no engine to snapshot');
+      return engine.snapshot();
+    },
+  });
+
+  let stopped = false;
+  try {
+    engine = (options.engine ?? defaultEngine)(problem, params, settings, {
+      ...(options.start ? { start: options.start } : {}),
+      ...(options.resume ? { state: options.resume.engineState } : {}),
+    });
+    const events = engine.events();
+    try {
+      for (;;) {
+        if (options.signal?.aborted) {
+          stopped = true;
+          break;
+        }
+        const r = events.next();
+        if (r.done) break;
+        handle(r.value);
+        if (r.value.type === 'point') {
+          const p = r.value.point;
+          options.progress?.({ branch: p.branch, index: p.index, parameter: p.parameter, step: p.step, points: ledger.points, maxPoints: settings.maxPoints });
+          options.checkpoint?.(context('point'));
+          // let signal handlers and timers run between points
+          await tick();
+        }
+      }
+    } finally {
+      // let the engine clean up if we left early
+      if (stopped) events.return(undefined);
+    }
+    continuationSeconds = (Date.now() - tc) / 1000;
+    if (stopped) {
+      options.checkpoint?.(context('stop'));
+      status = 'stopped';
+      for (const b of ledger.branches) {
+        if (b.stopReason === undefined) {
+          b.stopReason = 'stopped';
+          b.stopText = stopReasonText.stopped;
+          b.message = 'the run was stopped on request';
+        }
+      }
+      log('warning', 'stopped on request');
+    } else {
+      const first = ledger.branches[0];
+      if (!first) {
+        status = 'failed';
+        failure = 'the engine produced no branch';
+      } else if (first.stopReason !== undefined && failureReasons.includes(first.stopReason)) {
+        status = 'failed';
+        failure = `branch ${first.id} ended: ${first.message || first.stopText}`;
+      } else {
+        status = 'finished';
+      }
+    }
+  } catch (e) {
+    continuationSeconds = (Date.now() - tc) / 1000;
+    status = 'failed';
+    failure = e instanceof Error ? e.message : String(e);
+    log('warning', `run failed: ${failure}`);
+  } finally {
+    try {
+      engine?.dispose();
+    } catch {
+      /* nothing more to do */
+    }
+  }
+
+  dir.close();
+  dir.writePoints(parameter, ledger.specials);
+  const final = record();
+  dir.writeRunJson(final);
+  return {
+    status: status as Exclude<RunStatus, 'running'>,
+    directory: outDir,
+    record: final,
+    ledger,
+    ...(failure !== undefined ? { failure } : {}),
+    seconds: previousSeconds + (Date.now() - t0) / 1000,
+  };
+}

@@ -1,0 +1,148 @@
+/**
+ * The short summary printed on stdout after a run: what was computed, grouped by branch, in
+ * words (special points with their located parameter values and one leading monitor, then why
+ * the branch ended), where the files went, and the model's caution when it has one.
+ */
+import { relative } from 'node:path';
+import { stopReasonText } from '../continuation/types.js';
+import type { PreparedCase } from './case.js';
+import type { BranchRecord, SpecialRecord } from './run-directory.js';
+import type { RunResult } from './run-case.js';
+
+/** At most this many special points are named per branch; the rest are counted. */
+const namedPerBranch = 6;
+
+/** `digits` significant digits, trailing zeros dropped; nan/inf spelled out. */
+export function formatValue(x: number, digits: number): string {
+  if (Number.isNaN(x)) return 'nan';
+  if (!Number.isFinite(x)) return x > 0 ? 'inf' : '-inf';
+  if (x === 0) return '0';
+  const a = Math.abs(x);
+  if (a >= 1e-4 && a < 1e9) {
+    const t = x.toPrecision(digits);
+    return t.includes('.') ? t.replace(/0+$/, '').replace(/\.$/, '') : t;
+  }
+  const [m, e] = x.toExponential(digits - 1).split('e');
+  const mm = m.includes('.') ? m.replace(/0+$/, '').replace(/\.$/, '') : m;
+  return `${mm}e${e.replace('+', '')}`;
+}
+
+const parameterDigits = 12;
+const monitorDigits = 5;
+
+function leadingMonitor(s: SpecialRecord, prepared: PreparedCase): string | undefined {
+  const names = prepared.problem.monitors.map((m) => m.name);
+  const name = names.find((n) => s.monitors[n] !== undefined);
+  return name === undefined ? undefined : `${name} = ${formatValue(s.monitors[name], monitorDigits)}`;
+}
+
+function specialText(s: SpecialRecord, prepared: PreparedCase): string {
+  const p = prepared.settings.parameter;
+  const at = `${p} = ${formatValue(s.value, parameterDigits)}`;
+  const mon = leadingMonitor(s, prepared);
+  const details: string[] = [];
+  if (mon) details.push(mon);
+  if (s.located === false) details.push('not fully located');
+  switch (s.kind) {
+    case 'fold':
+      return `fold at ${at} (${details.join(', ')})`;
+    case 'branch-point': {
+      const words: string[] = [];
+      if (typeof s.multiplicity === 'number' && s.multiplicity > 1) words.push(`multiplicity ${s.multiplicity}`);
+      if (s.type && s.type !== 'unknown') words.push(String(s.type));
+      if (s.criticality && s.criticality !== 'undetermined') words.push(String(s.criticality));
+      const nb = Array.isArray(s['new-branches']) ? (s['new-branches'] as number[]) : [];
+      if (nb.length) words.push(`followed as branch${nb.length > 1 ? 'es' : ''} ${nb.join(', ')}`);
+      else if (typeof s.note === 'string') words.push(s.note);
+      return `branch point at ${at} (${[...words, ...details].join(', ')})`;
+    }
+    default:
+      return `${s.kind.replace(/-/g, ' ')} at ${at}${details.length ? ` (${details.join(', ')})` : ''}`;
+  }
+}
+
+function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: PreparedCase): string {
+  const p = prepared.settings.parameter;
+  const reason = b.stopReason;
+  if (reason === undefined) return 'did not end (the run stopped)';
+  switch (reason) {
+    case 'parameter-bound':
+      return `reached ${p} = ${formatValue(end?.value ?? b.last ?? NaN, parameterDigits)}`;
+    case 'monitor-bound': {
+      if (end) {
+        for (const s of prepared.settings.stopWhen) {
+          const v = end.monitors[s.monitor];
+          if (v === undefined) continue;
+          const last = `last point: ${s.monitor} = ${formatValue(v, monitorDigits)}`;
+          if (s.above !== undefined && v >= s.above) return `${s.monitor} went above ${formatValue(s.above, monitorDigits)} (${last})`;
+          if (s.below !== undefined && v <= s.below) return `${s.monitor} went below ${formatValue(s.below, monitorDigits)} (${last})`;
+        }
+      }
+      return stopReasonText[reason];
+    }
+    case 'point-limit':
+      return `reached the point limit (${prepared.settings.maxPoints})`;
+    default: {
+      const text = stopReasonText[reason] ?? reason;
+      return b.message && b.message !== text ? `${text} (${b.message})` : text;
+    }
+  }
+}
+
+function originText(b: BranchRecord, prepared: PreparedCase): string {
+  const p = prepared.settings.parameter;
+  if (b.origin.kind === 'start') return `from the start, ${p} ${b.origin.direction === 'increase' ? 'increasing' : 'decreasing'}`;
+  const dir = b.origin.direction === 'increase' ? `, ${p} increasing` : b.origin.direction === 'decrease' ? `, ${p} decreasing` : '';
+  return `from the branch point at ${p} = ${formatValue(b.origin.value, parameterDigits)} on branch ${b.origin.branch}${dir}`;
+}
+
+/** One line per branch, in words. */
+export function branchLines(result: RunResult, prepared: PreparedCase): string[] {
+  const lines: string[] = [];
+  for (const b of result.ledger.branches) {
+    const specials = result.ledger.specials.filter((s) => s.branch === b.id && s.kind !== 'end');
+    const end = result.ledger.specials.find((s) => s.branch === b.id && s.kind === 'end');
+    const parts = [`${b.points} point${b.points === 1 ? '' : 's'}`];
+    for (const s of specials.slice(0, namedPerBranch)) parts.push(specialText(s, prepared));
+    if (specials.length > namedPerBranch) parts.push(`${specials.length - namedPerBranch} more special points (see points.json)`);
+    if (specials.length === 0 && b.points > 0) parts.push('no fold or branch point');
+    parts.push(`ended: ${endText(b, end, prepared)}`);
+    lines.push(`Branch ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
+  }
+  return lines;
+}
+
+function seconds(s: number): string {
+  if (s < 60) return `${s.toFixed(s < 10 ? 2 : 1)} s`;
+  const m = Math.floor(s / 60);
+  if (m < 60) return `${m} min ${Math.round(s - 60 * m)} s`;
+  return `${Math.floor(m / 60)} h ${m % 60} min`;
+}
+
+/** The whole stdout summary (ends with a newline). */
+export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = process.cwd()): string {
+  const d = prepared.problem.describe();
+  const grid = d.axes.map((a) => a.intervals).join('x');
+  const h = d.axes.map((a) => formatValue(a.h, 6)).join(', ');
+  const out: string[] = [];
+  out.push(`Case ${prepared.case.name}: ${d.summary}`);
+  out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`);
+  out.push(...branchLines(result, prepared));
+  const status =
+    result.status === 'finished'
+      ? `Finished in ${seconds(result.seconds)}.`
+      : result.status === 'stopped'
+        ? `Stopped on request after ${seconds(result.seconds)}; the files hold everything computed so far.`
+        : `Run failed after ${seconds(result.seconds)}: ${result.failure ?? 'unknown reason'}`;
+  out.push(status);
+  const where = relative(cwd, result.directory) || '.';
+  const shown = where.startsWith('..') ? result.directory : where;
+  const nBranches = result.ledger.branches.length;
+  const files = ['run.json', 'points.json'];
+  if (nBranches) files.push(nBranches === 1 ? `branches/${result.ledger.branches[0].id}.csv` : `branches/ (${nBranches} files)`);
+  if (result.ledger.solutions) files.push(`solutions/ (${result.ledger.solutions} .npy file${result.ledger.solutions === 1 ? '' : 's'})`);
+  out.push(`Files in ${shown}: ${files.join(', ')}`);
+  if (result.ledger.warnings.length) out.push(`${result.ledger.warnings.length} warning${result.ledger.warnings.length === 1 ? '' : 's'} (listed in run.json).`);
+  if (prepared.caution) out.push(`Caution: ${prepared.caution}`);
+  return out.join('\n') + '\n';
+}

@@ -1,0 +1,255 @@
+/** Case files: a valid case maps to the engine's settings; every kind of bad input is one clear line. */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { afterAll, describe, expect, it } from 'vitest';
+import { defaultSettings } from '../../src/continuation/types.js';
+import { caseDocument, parseCaseText, prepareCase, prepareCaseObject } from '../../src/run/case.js';
+import { CaseError } from '../../src/run/errors.js';
+
+const tmp = mkdtempSync(join(tmpdir(), 'branchline-case-'));
+afterAll(() => rmSync(tmp, { recursive: true, force: true }));
+
+let counter = 0;
+function caseFile(text: string, ext = '.yaml'): string {
+  const file = join(tmp, `case-${++counter}${ext}`);
+  writeFileSync(file, text);
+  return file;
+}
+
+const good = `
+name: slab
+model: bratu
+grid: {intervals: [16]}
+parameters: {lambda: 0.5}
+continuation:
+  parameter: lambda
+  bounds: [0, 4]
+`;
+
+/** Replace a line starting with `key:` (at any indentation) or append lines. */
+function variant(edit: (lines: string[]) => string[]): string {
+  return edit(good.split('\n')).join('\n');
+}
+
+async function errorOf(text: string, ext = '.yaml'): Promise<CaseError> {
+  const file = caseFile(text, ext);
+  try {
+    await prepareCase(file);
+  } catch (e) {
+    expect(e).toBeInstanceOf(CaseError);
+    const err = e as CaseError;
+    expect(err.message).not.toMatch(/\n/);
+    expect(err.message.startsWith(`${file}: `)).toBe(true);
+    expect(err.message.length).toBeLessThan(400);
+    return err;
+  }
+  throw new Error(`expected ${file} to be refused`);
+}
+
+describe('a valid case', () => {
+  it('maps to the continuation settings with the documented defaults', async () => {
+    const prepared = await prepareCase(caseFile(good));
+    expect(prepared.case.name).toBe('slab');
+    expect(prepared.problem.size).toBe(15); // 16 intervals, Dirichlet ends: 15 unknowns
+    expect(prepared.params).toEqual({ lambda: 0.5 });
+    expect(prepared.settings).toEqual({ ...defaultSettings, parameter: 'lambda', bounds: [0, 4] });
+    expect(prepared.caution).toMatch(/licensed/);
+  });
+
+  it('reads every continuation key', async () => {
+    const prepared = await prepareCase(
+      caseFile(`
+model: bratu
+boundary: robin
+grid: {intervals: [20], length: 2}
+parameters: {lambda: 0.3, biot: 4}
+continuation:
+  parameter: lambda
+  bounds: [0.1, 3]
+  direction: increase
+  method: natural
+  step: {initial: 0.01, min: 1.0e-8, max: 0.2}
+  max-points: 77
+  stop-when: [{monitor: max, above: 5}, {monitor: centre, below: -1}]
+  branch-switching: {depth: 0}
+  newton: {tolerance: 1.0e-11, max-iterations: 7}
+  locate: {folds: false, branch-points: true}
+  max-turn-degrees: 20
+output: {solutions: none}
+stability: {eigenvalues: 4}
+checkpoint: {every-points: 5, every-seconds: 30}
+`),
+    );
+    expect(prepared.case.name).toMatch(/^case-\d+$/); // default: the file name
+    expect(prepared.problem.describe().axes[0].h).toBe(0.1);
+    expect(prepared.params).toEqual({ lambda: 0.3, biot: 4 });
+    expect(prepared.settings).toEqual({
+      ...defaultSettings,
+      parameter: 'lambda',
+      bounds: [0.1, 3],
+      direction: 'increase',
+      method: 'natural',
+      step: { initial: 0.01, min: 1e-8, max: 0.2 },
+      maxPoints: 77,
+      stopWhen: [
+        { monitor: 'max', above: 5 },
+        { monitor: 'centre', below: -1 },
+      ],
+      branchSwitching: { depth: 0 },
+      newton: { residualTolerance: 1e-11, stepTolerance: 1e-11, maxIterations: 7 },
+      locate: { folds: false, branchPoints: true },
+      maxTurnDegrees: 20,
+      // stability.eigenvalues goes to the engine once it computes stability
+      ...('stability' in defaultSettings ? { stability: { eigenvalues: 4 } } : {}),
+    });
+    expect(prepared.case.output.solutions).toBe('none');
+    expect(prepared.case.stability.eigenvalues).toBe(4);
+    expect(prepared.case.checkpoint).toEqual({ everyPoints: 5, everySeconds: 30 });
+  });
+
+  it('accepts JSON, and the resolved case document reads back to the same case', async () => {
+    const prepared = await prepareCase(
+      caseFile(JSON.stringify({ name: 'j', model: 'allen-cahn', grid: { intervals: [12] }, continuation: { parameter: 'lambda', bounds: [0, 50] } }), '.json'),
+    );
+    expect(prepared.params).toEqual({ lambda: 1 });
+    const doc = caseDocument(prepared.case);
+    const again = await prepareCaseObject(JSON.parse(JSON.stringify(doc)), { label: 'run.json', baseDir: tmp });
+    expect(again.settings).toEqual(prepared.settings);
+    expect(again.params).toEqual(prepared.params);
+    expect(caseDocument(again.case)).toEqual(doc);
+  });
+
+  it('builds an expression model: `parameters` declares the parameters and gives their start values', async () => {
+    const prepared = await prepareCase(
+      caseFile(`
+model: reaction-diffusion
+fields: [u]
+parameters: {mu: 0.5, gain: {default: 2, min: 0}}
+reaction: {u: mu*exp(u) - gain*u}
+diffusion: {u: 1}
+boundary: dirichlet
+grid: {intervals: [10]}
+continuation: {parameter: mu, bounds: [0, 2]}
+`),
+    );
+    expect(prepared.params).toEqual({ mu: 0.5, gain: 2 });
+    expect(prepared.problem.size).toBe(9);
+  });
+
+  it('loads a code model relative to the case file', async () => {
+    const file = resolve('test/fixtures/run/sine-code-model.yaml');
+    const prepared = await prepareCase(file);
+    expect(prepared.case.modelKind).toBe('code');
+    expect(prepared.case.model).toBe(resolve('test/fixtures/code-model.mjs'));
+    expect(prepared.params).toEqual({ lambda: 5 });
+    expect(prepared.problem.size).toBe(19);
+  });
+});
+
+describe('bad case files give one line naming the file, the field, the value and what is accepted', () => {
+  const table: [string, string, RegExp][] = [
+    // wrong types
+    ['intervals as text', variant((l) => l.map((s) => s.replace('grid: {intervals: [16]}', 'grid: {intervals: "16"}'))), /: grid\.intervals: '16' is not accepted \(accepted: a list of 1 to 3 integers/],
+    ['bounds of the wrong type', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: low'))), /: continuation\.bounds: 'low' is not accepted \(accepted: two finite numbers \[low, high\]\)/],
+    ['bounds with three numbers', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, 4, 5]'))), /: continuation\.bounds: .*accepted: two finite numbers/],
+    ['a parameter value as text', variant((l) => l.map((s) => s.replace('lambda: 0.5}', "lambda: 'half'}"))), /: parameters\.lambda: 'half' is not accepted \(accepted: a finite number\)/],
+    ['a non-finite number', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, .inf]'))), /: continuation\.bounds\[1\]: inf is not accepted \(accepted: a finite number\)/],
+    ['direction misspelt', good + '  direction: upward\n', /: continuation\.direction: 'upward' is not accepted \(accepted: increase, decrease\)/],
+    ['missing continuation', good.replace(/continuation:[\s\S]*$/, ''), /: continuation: is missing \(accepted: a map with keys parameter, bounds, direction/],
+    ['missing model', good.replace('model: bratu\n', ''), /: model: is missing \(accepted: a model id \(bratu, .*reaction-diffusion\) or a path/],
+    // unknown names
+    ['unknown model', good.replace('model: bratu', 'model: bratoo'), /: model: 'bratoo' is not a known model \(accepted: bratu, allen-cahn, .*reaction-diffusion, or a path to a code model/],
+    ['unknown parameter', good.replace('{lambda: 0.5}', '{lambda: 0.5, mu: 2}'), /: parameters\.mu: unknown parameter for model 'bratu' \(accepted: lambda\)/],
+    ['a parameter of another variant', good.replace('{lambda: 0.5}', '{lambda: 0.5, biot: 2}'), /: parameters\.biot: unknown parameter .*\(accepted: lambda\); 'biot' belongs to another variant/],
+    ['unknown continuation parameter', good.replace('parameter: lambda', 'parameter: lam'), /: continuation\.parameter: 'lam' is not a parameter of model 'bratu' \(accepted: lambda\)/],
+    ['unknown top-level key', good + 'colour: red\n', /: colour: unknown key \(accepted: name, model, grid, parameters, continuation, output, stability, checkpoint; for model 'bratu' also boundary\)/],
+    ['unknown nested key', good + '  stepsize: 0.1\n', /: continuation: unknown key 'stepsize' \(accepted: parameter, bounds, direction, method, step,/],
+    ['wrong model option value', good + 'boundary: sticky\n', /: boundary: 'sticky' is not accepted \(accepted: dirichlet, robin\)/],
+    ['unknown monitor in stop-when', good + '  stop-when: [{monitor: maximum, above: 3}]\n', /: continuation\.stop-when\[0\]\.monitor: 'maximum' is not a monitor of this problem \(accepted: max, min, l2-norm, centre\)/],
+    ['stop-when without a limit', good + '  stop-when: [{monitor: max}]\n', /: continuation\.stop-when\[0\]: gives no limit/],
+    // grid
+    ['negative grid', good.replace('[16]', '[-16]'), /: grid\.intervals\[0\]: -16 is not accepted \(accepted: an integer of at least 2\)/],
+    ['zero grid', good.replace('[16]', '[0]'), /: grid\.intervals\[0\]: 0 is not accepted \(accepted: an integer of at least 2\)/],
+    ['fractional grid', good.replace('[16]', '[16.5]'), /: grid\.intervals\[0\]: 16\.5 is not accepted/],
+    ['four axes', good.replace('[16]', '[4, 4, 4, 4]'), /: grid\.intervals: \[4, 4, 4, 4\] is not accepted \(accepted: a list of 1 to 3 integers/],
+    ['a dimension the model lacks', good.replace('model: bratu', 'model: elastica').replace('{lambda: 0.5}', '{lambda: 5}').replace('[16]', '[8, 8]'), /: grid\.intervals: \[8, 8\] is a 2D grid; model 'elastica' supports 1D/],
+    ['lengths not matching the axes', good.replace('{intervals: [16]}', '{intervals: [16, 16], length: [1, 2, 3]}'), /: grid\.length: \[1, 2, 3\] has 3 entries but grid\.intervals has 2/],
+    ['grid too large for memory', good.replace('[16]', '[3000, 3000, 3000]'), /: grid\.intervals: grid 3000x3000x3000: the sparse LU would need about [\d.]+ [GT]iB/],
+    // continuation values
+    ['bounds reversed', good.replace('bounds: [0, 4]', 'bounds: [4, 0]'), /: continuation\.bounds: \[4, 0\] is reversed \(accepted: \[low, high\] with low < high\)/],
+    ['bounds outside the parameter range', good.replace('bounds: [0, 4]', 'bounds: [-1, 4]'), /: continuation\.bounds: \[-1, 4\] reaches outside the accepted range of lambda, \[0, inf\]/],
+    ['start outside the bounds', good.replace('bounds: [0, 4]', 'bounds: [1, 4]'), /: parameters\.lambda: the start value 0\.5 lies outside continuation\.bounds \[1, 4\]/],
+    ['start at the bound it leaves', good.replace('bounds: [0, 4]', 'bounds: [0, 0.5]'), /: continuation\.direction: 'increase' leaves the bounds at once/],
+    ['start value below the parameter minimum', good.replace('{lambda: 0.5}', '{lambda: -0.5}'), /: parameters\.lambda: -0\.5 lies outside the accepted range \[0, inf\]/],
+    ['step min above max', good + '  step: {min: 0.1, max: 0.01}\n', /: continuation\.step: min 0\.1 is larger than max 0\.01 \(accepted: 0 < min <= initial <= max\)/],
+    ['negative step', good + '  step: {initial: -0.1}\n', /: continuation\.step\.initial: -0\.1 is not accepted \(accepted: a positive number\)/],
+    ['absurd point count', good + '  max-points: 1.0e+9\n', /: continuation\.max-points: 1000000000 is not accepted \(accepted: an integer from 1 to 1000000\)/],
+    ['absurd depth', good + '  branch-switching: {depth: 99}\n', /: continuation\.branch-switching\.depth: 99 is not accepted \(accepted: an integer from 0 to 10\)/],
+    ['solutions at every point of a huge run', good.replace('[16]', '[400, 400]') + '  max-points: 200000\noutput: {solutions: all}\n', /: output\.solutions: 'all' would write up to \d+ GiB/],
+    ['bad solutions word', good + 'output: {solutions: some}\n', /: output\.solutions: 'some' is not accepted \(accepted: special, none, all\)/],
+    ['bad name', 'name: ../escape\n' + good.replace('name: slab\n', ''), /: name: '\.\.\/escape' is not accepted \(accepted: a name of letters, digits/],
+    // expressions
+    [
+      'bad expression',
+      'model: reaction-diffusion\nfields: [u]\nparameters: {mu: 1}\nreaction: {u: mu*exp(u}\ndiffusion: {u: 1}\nboundary: dirichlet\ngrid: {intervals: [8]}\ncontinuation: {parameter: mu, bounds: [0, 2]}\n',
+      /: reaction\.u: reaction for field 'u': syntax error in "mu\*exp\(u"/,
+    ],
+    [
+      'unknown symbol in an expression',
+      'model: reaction-diffusion\nfields: [u]\nparameters: {mu: 1}\nreaction: {u: mu*exp(w)}\ndiffusion: {u: 1}\nboundary: dirichlet\ngrid: {intervals: [8]}\ncontinuation: {parameter: mu, bounds: [0, 2]}\n',
+      /: reaction\.u: reaction for field 'u': unknown symbol 'w' in "mu\*exp\(w\)" \(accepted: u, mu, x; constants pi, e\)/,
+    ],
+    [
+      'unknown function in an expression',
+      'model: reaction-diffusion\nfields: [u]\nparameters: {mu: 1}\nreaction: {u: mu*foo(u)}\ndiffusion: {u: 1}\nboundary: dirichlet\ngrid: {intervals: [8]}\ncontinuation: {parameter: mu, bounds: [0, 2]}\n',
+      /: reaction\.u: reaction for field 'u': unknown function 'foo'/,
+    ],
+    // the file itself
+    ['broken YAML', 'model: bratu\ngrid: {intervals: [16]\ncontinuation: x\n', /: not valid YAML \(line \d+\): /],
+    ['duplicate keys', good + 'model: allen-cahn\n', /: not valid YAML \(line \d+\): Map keys must be unique/],
+    ['binary junk', '\u0000\u0001\u0002garbage', /: the file holds binary data/],
+    ['an empty file', '', /: the case is empty/],
+    ['a list instead of a map', '- model: bratu\n', /: expected a map of keys .*, got \[/],
+  ];
+
+  for (const [what, text, pattern] of table) {
+    it(what, async () => {
+      const err = await errorOf(text);
+      expect(err.message).toMatch(pattern);
+    });
+  }
+
+  it('broken JSON in a .json file', async () => {
+    const err = await errorOf('{"model": "bratu",', '.json');
+    expect(err.message).toMatch(/: not valid JSON: /);
+  });
+
+  it('a missing file and a folder', async () => {
+    await expect(prepareCase(join(tmp, 'nothing.yaml'))).rejects.toThrow(/nothing\.yaml: no such file$/);
+    await expect(prepareCase(tmp)).rejects.toThrow(/is a folder, not a case file$/);
+  });
+
+  it('code models: missing file, no factory, failing factory', async () => {
+    const missing = await errorOf(good.replace('model: bratu', 'model: ./absent-model.mjs'));
+    expect(missing.message).toMatch(/: model: code model '\.\/absent-model\.mjs' not found \(looked for .*absent-model\.mjs\)/);
+    writeFileSync(join(tmp, 'no-default.mjs'), 'export const x = 1;\n');
+    const noDefault = await errorOf(good.replace('model: bratu', 'model: ./no-default.mjs'));
+    expect(noDefault.message).toMatch(/: model: code model '\.\/no-default\.mjs' has no default export of a factory function/);
+    writeFileSync(join(tmp, 'throws.mjs'), 'export default function () { throw new Error("needs option\\nspeed"); }\n');
+    const throws = await errorOf(good.replace('model: bratu', 'model: ./throws.mjs'));
+    expect(throws.message).toMatch(/: model: code model '\.\/throws\.mjs' failed to build the problem: needs option speed$/);
+    writeFileSync(join(tmp, 'syntax.mjs'), 'export default function ( {\n');
+    const syntax = await errorOf(good.replace('model: bratu', 'model: ./syntax.mjs'));
+    expect(syntax.message).toMatch(/: model: code model '\.\/syntax\.mjs' could not be loaded: /);
+  });
+
+  it('parseCaseText keeps YAML errors to one line', () => {
+    expect(() => parseCaseText('a: [1, 2\nb: {', 'x.yaml')).toThrow(/^x\.yaml: not valid YAML/);
+    try {
+      parseCaseText('a: [1, 2\nb: {', 'x.yaml');
+    } catch (e) {
+      expect((e as Error).message).not.toMatch(/\n/);
+    }
+  });
+});
