@@ -112,18 +112,32 @@ export interface PreparedCase {
 // ---------------------------------------------------------------------------------------------
 // Showing values in messages
 
+/** A short, safe rendering of any value for messages (never throws). */
 export function showValue(v: unknown): string {
-  if (v === undefined) return 'nothing';
-  if (typeof v === 'string') return `'${v.length > 60 ? v.slice(0, 57) + '...' : v}'`;
-  if (typeof v === 'number') return Number.isNaN(v) ? 'nan' : v === Infinity ? 'inf' : v === -Infinity ? '-inf' : String(v);
-  let text: string;
-  try {
-    text = JSON.stringify(v, (_k, x) => (typeof x === 'number' && !Number.isFinite(x) ? String(x) : x)) ?? String(v);
-  } catch {
-    text = String(v);
-  }
-  text = text.replace(/"([^"]*)":/g, '$1: ').replace(/,/g, ', ');
+  const text = render(v, 0);
   return text.length > 60 ? text.slice(0, 57) + '...' : text;
+}
+
+function render(v: unknown, depth: number): string {
+  if (v === undefined) return depth === 0 ? 'nothing' : 'undefined';
+  if (v === null) return 'null';
+  if (typeof v === 'string') return depth === 0 && v.length > 60 ? `'${v.slice(0, 57)}...'` : `'${v}'`;
+  if (typeof v === 'number') return Number.isNaN(v) ? 'nan' : v === Infinity ? 'inf' : v === -Infinity ? '-inf' : String(v);
+  if (typeof v === 'bigint') return `${v}`;
+  if (typeof v === 'boolean') return v ? 'true' : 'false';
+  if (typeof v === 'function') return 'a function';
+  if (typeof v === 'symbol') return 'a symbol';
+  if (v instanceof Date) return Number.isNaN(v.getTime()) ? 'an invalid date' : v.toISOString();
+  if (depth > 2) return Array.isArray(v) ? '[...]' : '{...}';
+  if (Array.isArray(v) || ArrayBuffer.isView(v)) {
+    const items = Array.from(v as ArrayLike<unknown>).slice(0, 8).map((x) => render(x, depth + 1));
+    return `[${items.join(', ')}${(v as ArrayLike<unknown>).length > 8 ? ', ...' : ''}]`;
+  }
+  if (typeof v === 'object') {
+    const entries = Object.keys(v).slice(0, 6).map((k) => `${k}: ${render((v as Record<string, unknown>)[k], depth + 1)}`);
+    return `{${entries.join(', ')}${Object.keys(v).length > 6 ? ', ...' : ''}}`;
+  }
+  return 'a value';
 }
 
 function pathText(path: readonly PropertyKey[]): string {
@@ -406,10 +420,16 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     const { field, detail } = modelErrorField(e instanceof Error ? e.message : String(e), modelId, kind);
     return fail(field, detail);
   }
+  let description: ReturnType<Problem['describe']>;
+  try {
+    description = problem.describe();
+  } catch (e) {
+    return fail('model', `the problem cannot describe itself: ${e instanceof Error ? e.message : String(e)}`);
+  }
   if (kind === 'code') {
     try {
       assertFactorMemory(
-        estimateFactorMemory(problem.describe().axes.map((a) => a.nodes), Math.max(1, problem.describe().fields.length), problem.extraUnknowns.length),
+        estimateFactorMemory(description.axes.map((a) => a.nodes), Math.max(1, description.fields.length), problem.extraUnknowns.length),
         `grid ${intervals.join('x')}`,
       );
     } catch (e) {
@@ -503,7 +523,6 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
 
   // 9. output, stability, checkpoint
   const solutions = (input.output?.solutions ?? 'special') as SolutionChoice;
-  const description = problem.describe();
   if (solutions === 'all') {
     const nodes = description.axes.reduce((a, ax) => a * ax.nodes, 1) * Math.max(1, description.fields.length);
     const bytes = nodes * 8 * continuation.maxPoints;

@@ -230,7 +230,11 @@ export class RunDirectory {
         }
       }
     }
-    mkdirSync(join(path, 'branches'), { recursive: true });
+    try {
+      mkdirSync(join(path, 'branches'), { recursive: true });
+    } catch (e) {
+      throw new InputError(`output folder ${path} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+    }
     return new RunDirectory(path);
   }
 

@@ -56,6 +56,13 @@ function specialText(s: SpecialRecord, prepared: PreparedCase): string {
       else if (typeof s.note === 'string') words.push(s.note);
       return `branch point at ${at} (${[...words, ...details].join(', ')})`;
     }
+    case 'hopf': {
+      const words: string[] = [];
+      if (typeof s.frequency === 'number') words.push(`frequency ${formatValue(s.frequency, monitorDigits)}`);
+      if (typeof s.period === 'number') words.push(`period ${formatValue(s.period, monitorDigits)}`);
+      if (typeof s.crossing === 'string') words.push(s.crossing);
+      return `Hopf point at ${at} (${[...words, ...details].join(', ')})`;
+    }
     default:
       return `${s.kind.replace(/-/g, ' ')} at ${at}${details.length ? ` (${details.join(', ')})` : ''}`;
   }

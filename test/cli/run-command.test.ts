@@ -176,3 +176,33 @@ describe('the built binary', () => {
     );
   });
 });
+
+describe('the bundled demo case (cases/catalytic-slab.yaml)', () => {
+  it('runs and finds the ignition fold of the slab with convective faces at the exact value', async () => {
+    const out = join(tmp, 'catalytic-slab');
+    const r = await cli('run', resolve('cases/catalytic-slab.yaml'), '--out', out, '--quiet');
+    expect(r.code, r.err).toBe(0);
+    const fold = json(join(out, 'points.json')).points.find((p: any) => p.kind === 'fold');
+    // Exact family (Bratu 1914 for u'' + λe^u = 0, worked here for the Robin faces):
+    // u = u_m − 2 ln cosh(a(x − ½)) with λ e^{u_m} = 2a²; the face condition −u'(0) + Bi·u(0) = 0
+    // gives u_m = 2 ln cosh(a/2) + (2a/Bi) tanh(a/2), so λ(a) = 2a² sech²(a/2) exp(−(2a/Bi) tanh(a/2)),
+    // and the fold is its maximum over a (golden-section search).
+    const biot = 5;
+    const lambdaOf = (a: number): number => ((2 * a * a) / Math.cosh(a / 2) ** 2) * Math.exp(-((2 * a) / biot) * Math.tanh(a / 2));
+    let lo = 0.1;
+    let hi = 5;
+    const g = (Math.sqrt(5) - 1) / 2;
+    for (let i = 0; i < 200; i++) {
+      const m1 = hi - g * (hi - lo);
+      const m2 = lo + g * (hi - lo);
+      if (lambdaOf(m1) < lambdaOf(m2)) lo = m1;
+      else hi = m2;
+    }
+    const exact = lambdaOf((lo + hi) / 2);
+    expect(exact).toBeCloseTo(1.8883, 4);
+    // 200 intervals, second-order stencil and faces: within O(h²) = O(2.5e-5)
+    expect(Math.abs(fold.value - exact)).toBeLessThan(1e-4);
+    expect(r.out).toMatch(/fold at lambda = 1\.888/);
+    expect(r.out).toMatch(/\nCaution: /);
+  });
+});

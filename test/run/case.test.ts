@@ -2,6 +2,7 @@
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
+import fc from 'fast-check';
 import { afterAll, describe, expect, it } from 'vitest';
 import { defaultSettings } from '../../src/continuation/types.js';
 import { caseDocument, parseCaseText, prepareCase, prepareCaseObject } from '../../src/run/case.js';
@@ -251,5 +252,81 @@ describe('bad case files give one line naming the file, the field, the value and
     } catch (e) {
       expect((e as Error).message).not.toMatch(/\n/);
     }
+  });
+});
+
+describe('fuzzed cases never escape as anything but a one-line CaseError', () => {
+  const base = (): Record<string, any> => ({
+    name: 'fuzz',
+    model: 'bratu',
+    grid: { intervals: [16] },
+    parameters: { lambda: 0.5 },
+    continuation: { parameter: 'lambda', bounds: [0, 4], step: { initial: 0.1 }, 'stop-when': [{ monitor: 'max', above: 5 }] },
+    output: { solutions: 'special' },
+    boundary: 'dirichlet',
+    stability: { eigenvalues: 0 },
+    checkpoint: { 'every-points': 10 },
+  });
+  const paths = [
+    [],
+    ['name'],
+    ['model'],
+    ['grid'],
+    ['grid', 'intervals'],
+    ['grid', 'intervals', 0],
+    ['grid', 'length'],
+    ['parameters'],
+    ['parameters', 'lambda'],
+    ['continuation'],
+    ['continuation', 'parameter'],
+    ['continuation', 'bounds'],
+    ['continuation', 'bounds', 1],
+    ['continuation', 'step'],
+    ['continuation', 'step', 'initial'],
+    ['continuation', 'stop-when'],
+    ['continuation', 'stop-when', 0, 'monitor'],
+    ['continuation', 'max-points'],
+    ['output'],
+    ['boundary'],
+    ['stability'],
+    ['checkpoint', 'every-points'],
+  ] as (string | number)[][];
+
+  const check = async (doc: unknown): Promise<boolean> => {
+    try {
+      await prepareCaseObject(doc, { label: 'fuzz.yaml', baseDir: tmp });
+      return true;
+    } catch (e) {
+      if (!(e instanceof CaseError)) throw e;
+      return !e.message.includes('\n') && e.message.startsWith('fuzz.yaml: ') && e.message.length < 500;
+    }
+  };
+
+  it('replacing any key by any value', async () => {
+    await fc.assert(
+      fc.asyncProperty(fc.constantFrom(...paths), fc.anything({ withNullPrototype: true, withBigInt: true, withDate: true, withTypedArray: true, withSparseArray: true }), async (path, value) => {
+        const doc = base();
+        if (path.length === 0) return check(value);
+        let o: any = doc;
+        for (const k of path.slice(0, -1)) o = o[k];
+        o[path[path.length - 1]] = value;
+        return check(doc);
+      }),
+      { numRuns: 400 },
+    );
+  });
+
+  it('random text as a YAML file', () => {
+    fc.assert(
+      fc.property(fc.string({ unit: 'binary', maxLength: 200 }), (text) => {
+        try {
+          parseCaseText(text, 'junk.yaml');
+          return true;
+        } catch (e) {
+          return e instanceof CaseError && !e.message.includes('\n');
+        }
+      }),
+      { numRuns: 500 },
+    );
   });
 });
