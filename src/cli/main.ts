@@ -9,6 +9,7 @@ import { InputError } from '../run/errors.js';
 import { plateDemo } from '../run/linear-demo.js';
 import { outputDirectory, runCase } from '../run/run-case.js';
 import { formatSummary } from '../run/summary.js';
+import { softwareVersion } from '../run/version.js';
 
 export { InputError };
 
@@ -24,6 +25,7 @@ function buildProgram(io: Io, setExit: (code: number) => void): Command {
   program
     .name('branchline')
     .description('Trace steady states of discretised PDEs through folds and branch points, with stability.')
+    .version(softwareVersion().version, '--version', 'print the version')
     .exitOverride()
     .configureOutput({ writeErr: io.err, writeOut: io.out });
 

@@ -656,6 +656,8 @@ async function loadCodeModel(abs: string, given: string, label: string): Promise
 /** Find the case field a model's error message is about (the models name options in words). */
 function modelErrorField(message: string, modelId: string, kind: ModelKind): { field: string; detail: string } {
   const stripped = message.replace(/^model '[^']*':\s*/, '');
+  const memory = /^model '[^']*' on (grid \S+: the sparse LU would need.*)$/.exec(message);
+  if (memory) return { field: 'grid.intervals', detail: memory[1] };
   const tries: [RegExp, (m: RegExpExecArray) => string][] = [
     [/^grid\.(intervals|length)(\[\d+\])?/, (m) => `grid.${m[1]}${m[2] ?? ''}`],
     [/^(reaction|diffusion|initial) for field '([^']+)'/, (m) => `${m[1]}.${m[2]}`],

@@ -154,6 +154,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     kindCount.set(key, (kindCount.get(key) ?? 0) + 1);
   }
 
+  let lastRecord = Date.now();
   const record = (): Record<string, unknown> => ({
     format: runFormat,
     'format-version': runFormatVersion,
@@ -203,7 +204,10 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     case: caseDocument(prepared.case),
   });
 
-  const writeRecord = (): void => dir.writeRunJson(record());
+  const writeRecord = (): void => {
+    dir.writeRunJson(record());
+    lastRecord = Date.now();
+  };
   writeRecord();
   if (!options.resume) dir.writePoints(parameter, ledger.specials);
   let stabilityWarned = false;
@@ -212,6 +216,9 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   const branchOf = (id: number): BranchRecord | undefined => ledger.branches.find((b) => b.id === id);
   let engine: EngineLike | undefined;
   const tc = Date.now();
+  // run.json is rewritten at branch starts and ends, and at least this often in between, so that
+  // its counts and timings stay current during long branches
+  const refreshMs = 10_000;
 
   const handle = (ev: EngineEvent): void => {
     switch (ev.type) {
@@ -319,6 +326,10 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
           const p = r.value.point;
           options.progress?.({ branch: p.branch, index: p.index, parameter: p.parameter, step: p.step, points: ledger.points, maxPoints: settings.maxPoints });
           options.checkpoint?.(context('point'));
+          if (Date.now() - lastRecord > refreshMs) {
+            continuationSeconds = (Date.now() - tc) / 1000;
+            writeRecord();
+          }
           // let signal handlers and timers run between points
           await tick();
         }

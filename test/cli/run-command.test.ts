@@ -144,6 +144,14 @@ describe('branchline run: failures and bad input', () => {
   });
 });
 
+describe('branchline --version', () => {
+  it("prints the package's version", async () => {
+    const r = await cli('--version');
+    expect(r.code).toBe(0);
+    expect(r.out).toBe(`${JSON.parse(readFileSync('package.json', 'utf8')).version}\n`);
+  });
+});
+
 describe('branchline models', () => {
   it('lists every registered model with its parameters and defaults', async () => {
     const r = await cli('models');

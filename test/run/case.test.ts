@@ -177,6 +177,11 @@ describe('bad case files give one line naming the file, the field, the value and
     ['a dimension the model lacks', good.replace('model: bratu', 'model: elastica').replace('{lambda: 0.5}', '{lambda: 5}').replace('[16]', '[8, 8]'), /: grid\.intervals: \[8, 8\] is a 2D grid; model 'elastica' supports 1D/],
     ['lengths not matching the axes', good.replace('{intervals: [16]}', '{intervals: [16, 16], length: [1, 2, 3]}'), /: grid\.length: \[1, 2, 3\] has 3 entries but grid\.intervals has 2/],
     ['grid too large for memory', good.replace('[16]', '[3000, 3000, 3000]'), /: grid\.intervals: grid 3000x3000x3000: the sparse LU would need about [\d.]+ [GT]iB/],
+    [
+      'grid too large once the fields are counted',
+      'model: gray-scott\ngrid: {intervals: [1000, 1000]}\ncontinuation: {parameter: F, bounds: [0, 1]}\n',
+      /: grid\.intervals: grid 1000x1000: the sparse LU would need about [\d.]+ GiB \(2004002 unknowns/,
+    ],
     // continuation values
     ['bounds reversed', good.replace('bounds: [0, 4]', 'bounds: [4, 0]'), /: continuation\.bounds: \[4, 0\] is reversed \(accepted: \[low, high\] with low < high\)/],
     ['bounds outside the parameter range', good.replace('bounds: [0, 4]', 'bounds: [-1, 4]'), /: continuation\.bounds: \[-1, 4\] reaches outside the accepted range of lambda, \[0, inf\]/],
