@@ -249,7 +249,7 @@ function cabs(re: number, im: number): number {
 export function applyShiftInvert(theta: Complex, sigma: number): Complex {
   const d = theta.re * theta.re + theta.im * theta.im;
   if (d === 0) return { re: Infinity, im: 0 };
-  return { re: sigma + theta.re / d, im: -theta.im / d };
+  return { re: sigma + theta.re / d, im: theta.im === 0 ? 0 : -theta.im / d };
 }
 
 /** Modulus of the Cayley image (μ − τ)/(μ − σ) of an eigenvalue μ. */
@@ -675,9 +675,6 @@ function runSearch(ks: KrylovSchur, spec: SearchSpec, counters: { restarts: numb
     counters.restarts++;
   }
   const state = st!;
-  if (process.env.EIG_DEBUG) {
-    console.error(`  search ${spec.mode} σ=${sigma.toFixed(3)} dim=${ks.dim} restarts=${restarts} conv=${converged} req=${spec.required} minDim=${spec.minDim} blocks:`, state.blocks.slice(0, nb + 2).map((b) => { const mu = applyShiftInvert(b.theta, sigma); return `${mu.re.toFixed(3)}${b.size === 2 ? '±' + mu.im.toFixed(2) + 'i' : ''}:${(b.residual / cabs(b.theta.re, b.theta.im)).toExponential(0)}`; }).join(' '));
-  }
   const values: FoundValue[] = [];
   for (let i = 0; i < nb; i++) {
     const b = state.blocks[i];
@@ -1267,7 +1264,6 @@ export class EigenTracker {
           matched.add(known.length - 1);
         }
       }
-      sortRightmost(known.map((k) => k.mu));
       known.sort((a, b) => (b.mu.re !== a.mu.re ? b.mu.re - a.mu.re : b.mu.im - a.mu.im));
       if (out.disc) discs.push(out.disc);
     };
@@ -1439,14 +1435,15 @@ export class EigenTracker {
     const realMax = Math.max(enclosure.realMax, known.length > 0 ? known[0].mu.re : -Infinity);
     const line = discs.length > 0 ? certifiedLine(discs, realMax, Y) : null;
     const lastRe = outValues.length > 0 ? outValues[outValues.length - 1].re : Infinity;
-    const complete = converged && line !== null && line <= lastRe + 1e-12 * Math.max(1, Math.abs(lastRe));
+    const covered = converged && line !== null && line <= lastRe + 1e-12 * Math.max(1, Math.abs(lastRe));
+    const complete = covered && enclosure.rigorous;
     const region: SearchedRegion = {
       discs,
       certifiedAbove: line,
       enclosure: { realMax: enclosure.realMax, imaginaryMax: enclosure.imaginaryMax, rigorous: enclosure.rigorous },
       imaginaryReach: Y,
       complete,
-      description: describeRegion(discs, line, enclosure, Y, complete, outValues.length, lastRe),
+      description: describeRegion(discs, line, enclosure, Y, covered, outValues.length, lastRe),
     };
     const warmOut = makeWarmStart(known.slice(0, Math.max(kw, sel.length)), n, shifts[shifts.length - 1] ?? 0);
     this.warm = warmOut;
@@ -1674,7 +1671,7 @@ function num(x: number): string {
   return `${Number(x.toPrecision(5))}`;
 }
 
-function describeRegion(discs: SearchDisc[], line: number | null, enc: Enclosure, Y: number, complete: boolean, count: number, lastRe: number): string {
+function describeRegion(discs: SearchDisc[], line: number | null, enc: Enclosure, Y: number, covered: boolean, count: number, lastRe: number): string {
   const parts: string[] = [];
   const d = discs.map((s) =>
     s.transform === 'cayley'
@@ -1689,8 +1686,11 @@ function describeRegion(discs: SearchDisc[], line: number | null, enc: Enclosure
   if (line !== null) {
     parts.push(`Every eigenvalue with real part ≥ ${num(line)} (and |imaginary part| ≤ ${num(Y)}) lies in the searched discs and is among those found.`);
   }
-  if (complete) parts.push(`So the ${count} values returned are the rightmost (as far as a Krylov search can tell: an eigenvector nearly absent from the search space can still be missed).`);
-  else if (count > 0) {
+  if (covered && enc.rigorous) {
+    parts.push(`So the ${count} values returned are the rightmost (as far as a Krylov search can tell: an eigenvector nearly absent from the search space can still be missed).`);
+  } else if (covered) {
+    parts.push(`The ${count} values returned are the rightmost within that region; outside it, finite eigenvalues of a pencil with a singular mass cannot be excluded.`);
+  } else if (count > 0) {
     parts.push(
       `The search does not certify the list down to real part ${num(lastRe)}: an eigenvalue with real part between ${num(lastRe)} and ${line === null ? 'the enclosure bound' : num(line)} lying outside the discs (large imaginary part) could have been missed.`,
     );
