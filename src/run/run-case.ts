@@ -183,7 +183,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       origin: b.origin,
       file: b.file,
       points: b.points,
-      ...(b.first !== undefined ? { first: b.first, last: b.last } : {}),
+      ...(b.first !== undefined ? { 'first-value': b.first, 'last-value': b.last } : {}),
       ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, 'stop-text': b.stopText, message: b.message } : {}),
     })),
     counts: {
