@@ -743,8 +743,9 @@ interface Enclosure {
 
 /**
  * Box {Re μ ≤ realMax, |Im μ| ≤ imaginaryMax} holding every eigenvalue of J v = μ M v for a
- * positive diagonal M: with W = M^{-1/2} J M^{-1/2}, Bendixson's theorem bounds Re μ by the
- * largest eigenvalue of (W + Wᵀ)/2 and |Im μ| by ‖(W − Wᵀ)/2‖₂; Gershgorin row sums bound both.
+ * positive diagonal M: with W = D M^{-1/2} J M^{-1/2} D⁻¹ (D a positive diagonal chosen below),
+ * Bendixson's theorem bounds Re μ by the largest eigenvalue of (W + Wᵀ)/2 and |Im μ| by
+ * ‖(W − Wᵀ)/2‖₂; Gershgorin row sums bound both; Gershgorin discs of M⁻¹J bound Re μ as well.
  * Rows with zero (or negative) mass are left out and the box is then marked not rigorous.
  */
 function spectrumEnclosure(J: CscMatrix, Jt: CscMatrix, mass: Float64Array | undefined): Enclosure {
@@ -759,45 +760,88 @@ function spectrumEnclosure(J: CscMatrix, Jt: CscMatrix, mass: Float64Array | und
       rigorous = false;
     }
   }
-  let realMax = -Infinity;
-  let imagMax = 0;
-  for (let j = 0; j < n; j++) {
-    if (s[j] === 0) continue;
+  // Visit the merged entries (J_ij, J_ji) of column j.
+  const visit = (j: number, f: (i: number, a: number, b: number) => void) => {
     let p = J.colPtr[j];
     let q = Jt.colPtr[j];
     const pe = J.colPtr[j + 1];
     const qe = Jt.colPtr[j + 1];
-    let diag = 0;
-    let offH = 0;
-    let sumK = 0;
     while (p < pe || q < qe) {
       const ra = p < pe ? J.rowIdx[p] : Infinity;
       const rb = q < qe ? Jt.rowIdx[q] : Infinity;
-      let a = 0;
-      let b = 0;
-      let i: number;
-      if (ra === rb) {
-        i = ra;
-        a = J.values[p++];
-        b = Jt.values[q++];
-      } else if (ra < rb) {
-        i = ra;
-        a = J.values[p++];
-      } else {
-        i = rb;
-        b = Jt.values[q++];
-      }
-      if (s[i] === 0) continue;
-      const w = s[i] * s[j];
-      if (i === j) diag = a * w;
-      else {
-        offH += Math.abs(0.5 * (a + b)) * w;
-        sumK += Math.abs(0.5 * (a - b)) * w;
-      }
+      if (ra === rb) f(ra, J.values[p++], Jt.values[q++]);
+      else if (ra < rb) f(ra, J.values[p++], 0);
+      else f(rb, 0, Jt.values[q++]);
     }
+  };
+  // A diagonal similarity D W D⁻¹ leaves the eigenvalues alone and any positive D gives valid
+  // bounds; choose D to make the magnitudes of W_ij and W_ji equal along a spanning forest
+  // (exactly symmetrising ghost-point Neumann rows and diffusion with unequal weights), so
+  // that the Bendixson box is not inflated by a symmetrisable lack of symmetry.
+  const d = new Float64Array(n).fill(0);
+  const queue = new Int32Array(n);
+  for (let root = 0; root < n; root++) {
+    if (d[root] !== 0 || s[root] === 0) continue;
+    d[root] = 1;
+    let head = 0;
+    let tail = 0;
+    queue[tail++] = root;
+    while (head < tail) {
+      const j = queue[head++];
+      visit(j, (i, a, b) => {
+        if (i === j || d[i] !== 0 || s[i] === 0 || a === 0 || b === 0) return;
+        const ratio = Math.min(Math.max(Math.sqrt(Math.abs(b / a)), 1e-2), 1e2);
+        const di = d[j] * ratio;
+        if (!(di > 1e-150 && di < 1e150)) return;
+        d[i] = di;
+        queue[tail++] = i;
+      });
+    }
+  }
+  let realMax = -Infinity;
+  let imagMax = 0;
+  for (let j = 0; j < n; j++) {
+    if (s[j] === 0) continue;
+    let diag = 0;
+    let offH = 0;
+    let sumK = 0;
+    visit(j, (i, a, b) => {
+      if (s[i] === 0) return;
+      const w = s[i] * s[j];
+      if (i === j) {
+        diag = a * w;
+        return;
+      }
+      // entries (i, j) and (j, i) of D W D⁻¹
+      const aij = a * w * (d[i] / d[j]);
+      const aji = b * w * (d[j] / d[i]);
+      offH += Math.abs(0.5 * (aij + aji));
+      sumK += Math.abs(0.5 * (aij - aji));
+    });
     realMax = Math.max(realMax, diag + offH);
     imagMax = Math.max(imagMax, sumK);
   }
+  // Gershgorin discs of M⁻¹J by rows and of J M⁻¹ by columns bound the real part too, and are
+  // much tighter for operators whose rows (or columns) sum to zero, such as ghost-point Neumann
+  // diffusion, where the symmetric part's discs are not: keep the smallest bound.
+  const rowOff = new Float64Array(n);
+  const diagOf = new Float64Array(n);
+  let colMax = -Infinity;
+  for (let j = 0; j < n; j++) {
+    let off = 0;
+    for (let p = J.colPtr[j]; p < J.colPtr[j + 1]; p++) {
+      const i = J.rowIdx[p];
+      if (i === j) diagOf[j] = J.values[p];
+      else if (s[i] !== 0) {
+        off += Math.abs(J.values[p]);
+        rowOff[i] += Math.abs(J.values[p]);
+      }
+    }
+    if (s[j] !== 0) colMax = Math.max(colMax, (diagOf[j] + off) * s[j] * s[j]);
+  }
+  let rowMax = -Infinity;
+  for (let i = 0; i < n; i++) if (s[i] !== 0) rowMax = Math.max(rowMax, (diagOf[i] + rowOff[i]) * s[i] * s[i]);
+  realMax = Math.min(realMax, rowMax, colMax);
   if (!Number.isFinite(realMax)) realMax = 0;
   return { realMax, imaginaryMax: imagMax, rigorous };
 }

@@ -4,6 +4,7 @@ import { EigenvalueDecomposition, Matrix, inverse } from 'ml-matrix';
 import { EigenTracker, type EigenValue, apolloniusDisc, cayleyImage, eigenvaluesDense, rightmostEigenvalues } from '../../src/linalg/eigen.js';
 import { fromDense } from '../../src/linalg/sparse.js';
 import { controlledMatrix, laplacian2d, laplacian2dEigenvalues, rng } from './eigen-fixtures.js';
+import { brusselator } from '../../discretisations/models/brusselator.js';
 
 type C = { re: number; im: number };
 const byRightmost = (a: C, b: C) => (b.re !== a.re ? b.re - a.re : b.im - a.im);
@@ -288,6 +289,55 @@ describe('tracking along a branch', () => {
     const b2 = rightmostEigenvalues(mk(12.3), { count: 4, warmStart: saved });
     expect(b2.values).toEqual(b1.values);
     expect(b2.solves).toBe(b1.solves);
+  });
+});
+
+describe('Brusselator uniform state across its Hopf point', () => {
+  // Uniform state (a, b/a): each cosine mode with discrete Laplacian eigenvalue −κ (ghost-point
+  // Neumann, κ = (4/h²)(sin²(iπ/2N) + sin²(jπ/2N)), standard FD result) has the 2×2 Jacobian
+  // [[b − 1 − Du κ, a²], [−b, −a² − Dv κ]]; the κ = 0 pair crosses at b = 1 + a² with frequency a
+  // (Prigogine & Lefever 1968).
+  const N = 30;
+  const a = 2;
+  const Du = 1;
+  const Dv = 8;
+  const h = 1 / N;
+  const exact = (b: number): C[] => {
+    const out: C[] = [];
+    for (let i = 0; i <= N; i++) {
+      for (let j = 0; j <= N; j++) {
+        const k = (4 / (h * h)) * (Math.sin((i * Math.PI) / (2 * N)) ** 2 + Math.sin((j * Math.PI) / (2 * N)) ** 2);
+        const A = b - 1 - Du * k;
+        const D = -a * a - Dv * k;
+        const tr = A + D;
+        const disc = (tr * tr) / 4 - (A * D + a * a * b);
+        if (disc >= 0) out.push({ re: tr / 2 + Math.sqrt(disc), im: 0 }, { re: tr / 2 - Math.sqrt(disc), im: 0 });
+        else out.push({ re: tr / 2, im: Math.sqrt(-disc) }, { re: tr / 2, im: -Math.sqrt(-disc) });
+      }
+    }
+    return out.sort(byRightmost);
+  };
+
+  it('tracks the leading pair through b = 1 + a² with certified, warm-started searches', () => {
+    const p = brusselator({ grid: { intervals: [N, N] } });
+    const pattern = p.pattern();
+    const values = new Float64Array(pattern.colPtr[pattern.cols]);
+    const tracker = new EigenTracker(pattern, { count: 4, mass: p.massDiagonal });
+    const signs: number[] = [];
+    for (const b of [4.6, 4.8, 5.0, 5.2, 5.4]) {
+      const par = { a, b, Du, Dv };
+      p.jacobian(p.initialGuess(par), par, values);
+      const res = tracker.compute(values);
+      expect(res.converged).toBe(true);
+      expect(res.searchedRegion.complete).toBe(true);
+      expectMatches(res.values, exact(b).slice(0, res.values.length + 2), () => 1e-8);
+      expect(Math.abs(res.values[0].im)).toBeGreaterThan(1.9);
+      signs.push(Math.sign(res.values[0].re));
+      if (b > 4.6) expect(res.shifts).toHaveLength(1); // the warm start plans one shift that suffices
+    }
+    expect(signs[0]).toBe(-1);
+    expect(signs[signs.length - 1]).toBe(1);
+    tracker.dispose();
   });
 });
 
