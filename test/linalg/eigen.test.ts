@@ -3,6 +3,7 @@ import fc from 'fast-check';
 import { EigenvalueDecomposition, Matrix, inverse } from 'ml-matrix';
 import { EigenTracker, type EigenValue, apolloniusDisc, cayleyImage, eigenvaluesDense, rightmostEigenvalues } from '../../src/linalg/eigen.js';
 import { fromDense } from '../../src/linalg/sparse.js';
+import { SparseLU } from '../../src/linalg/lu.js';
 import { controlledMatrix, laplacian2d, laplacian2dEigenvalues, rng } from './eigen-fixtures.js';
 import { brusselator } from '../../discretisations/models/brusselator.js';
 
@@ -221,6 +222,15 @@ describe('generalised problems J v = μ M v', () => {
       // with a singular mass no box is known to hold the spectrum: never claimed complete
       expect(res.searchedRegion.enclosure?.rigorous).toBe(false);
       expect(res.searchedRegion.complete).toBe(false);
+      // warm start on a perturbed pencil (J − 0.05·M: every finite eigenvalue moves by −0.05)
+      const J2 = { ...J, values: J.values.slice() };
+      for (let j = 0; j < J2.cols; j++) {
+        for (let p = J2.colPtr[j]; p < J2.colPtr[j + 1]; p++) if (J2.rowIdx[p] === j) J2.values[p] -= 0.05 * mass[j];
+      }
+      const res2 = rightmostEigenvalues(J2, { count: 6, mass, warmStart: res.warmStart });
+      expect(res2.converged).toBe(true);
+      expectMatches(res2.values, ref.slice(0, res2.values.length + 1).map((v) => ({ re: v.re - 0.05, im: v.im })), () => 1e-6);
+      expect(res2.solves).toBeLessThan(res.solves);
     }
   });
 });
@@ -343,6 +353,16 @@ describe('Brusselator uniform state across its Hopf point', () => {
 
 describe('honest reporting and bad input', () => {
   const J = laplacian2d(20, 15, 1, 0.7, () => 0);
+
+  it('uses a caller-factored LU of J − σM for the first shift', () => {
+    const lu = new SparseLU(J);
+    lu.factor(J.values);
+    const own = rightmostEigenvalues(J, { count: 4 });
+    const shared = rightmostEigenvalues(J, { count: 4, factored: { lu, shift: 0 } });
+    expect(shared.factorisations).toBe(own.factorisations - 1);
+    shared.values.forEach((v, i) => expect(v.re).toBeCloseTo(own.values[i].re, 9));
+    lu.dispose();
+  });
 
   it('non-convergence is reported with the values reached and their residuals', () => {
     const res = rightmostEigenvalues(J, { count: 6, tolerance: 1e-15, maxRestarts: 0, maxShifts: 1 });
