@@ -37,14 +37,24 @@ export interface BranchPointLocation {
   message?: string;
 }
 
-/** Correct a point at step s from xa along ta and evaluate the determinant there. */
-function trial(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: number, newton: NewtonSettings): TrialPoint | undefined {
+/**
+ * The point of the branch at step s from xa along the tangent ta: predictor xa + s·ta, corrected in
+ * the hyperplane orthogonal to ta (so the arc is parametrised by s). Undefined when Newton fails.
+ */
+export function arcPoint(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: number, newton: NewtonSettings): Float64Array | undefined {
   const n = sys.n;
   const x = new Float64Array(n + 1);
   for (let i = 0; i <= n; i++) x[i] = xa[i] + s * ta[i];
   const ref = x.slice();
   const r = correct(sys, x, ta, ref, { ...newton, maxIterations: Math.max(newton.maxIterations, 40), fresh: true }, correctWork(n));
-  if (!r.converged) return undefined;
+  return r.converged ? x : undefined;
+}
+
+/** Correct a point at step s from xa along ta and evaluate the determinant there. */
+function trial(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: number, newton: NewtonSettings): TrialPoint | undefined {
+  const n = sys.n;
+  const x = arcPoint(sys, xa, ta, s, newton);
+  if (!x) return undefined;
   sys.assemble(x.subarray(0, n), x[n]);
   sys.setTangentRow(ta);
   try {

@@ -12,6 +12,8 @@ import { branchDirections, locateBranchPoint } from './branch-point.js';
 import { locateFold } from './fold.js';
 import { correct, correctWork, type NewtonResult } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
+import { StabilityAnalyser, crossingPair, locateCountChange, locateHopf } from './stability.js';
+import type { EigenWarmStart } from '../linalg/eigen.js';
 import type {
   BranchInfo,
   BranchPoint,
@@ -20,6 +22,8 @@ import type {
   EngineEvent,
   EndPoint,
   FoldPoint,
+  HopfPoint,
+  PointStability,
   StopReason,
 } from './types.js';
 import { stopReasonText } from './types.js';
@@ -33,6 +37,8 @@ export interface PendingBranch {
   first: Float64Array;
   tangent: Float64Array;
   step: number;
+  /** Eigen-solver warm start at the branch point. */
+  eigenWarm: EigenWarmStart | null;
 }
 
 export interface BranchState {
@@ -46,6 +52,14 @@ export interface BranchState {
   freshNext: boolean;
   firstX: Float64Array;
   firstTangent: Float64Array;
+  /** Stability of the current point and the eigen solver's warm start there. */
+  stability?: PointStability;
+  eigenWarm: EigenWarmStart | null;
+  /**
+   * Border row of the factorisation made at the current point (for chord steps): with it the
+   * same matrix can be factored again after a resume, so resumed runs repeat the same iterations.
+   */
+  chordRow?: Float64Array;
 }
 
 export interface EngineState {
@@ -64,6 +78,7 @@ export interface EngineSummary {
   factorisations: number;
   refactorisations: number;
   solves: number;
+  eigenSolves: number;
 }
 
 export class ContinuationError extends Error {
@@ -89,6 +104,9 @@ export class Continuation {
   private readonly work: { rhs: Float64Array; delta: Float64Array };
   private readonly lo: number;
   private readonly hi: number;
+  private readonly stab: StabilityAnalyser | undefined;
+  /** The system's factorisation stamp when the current point's bordered matrix was factored. */
+  private chordStamp = -1;
 
   constructor(
     readonly problem: Problem,
@@ -100,6 +118,8 @@ export class Continuation {
     this.n = problem.size;
     this.work = correctWork(this.n);
     [this.lo, this.hi] = settings.bounds;
+    const k = settings.stability?.eigenvalues ?? 0;
+    this.stab = k > 0 ? new StabilityAnalyser(this.sys, k) : undefined;
     this.state = options.state
       ? cloneState(options.state)
       : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
@@ -115,13 +135,30 @@ export class Continuation {
   }
 
   /** Counts of the linear algebra done so far. */
-  get counters(): { factorisations: number; refactorisations: number; solves: number; assemblies: number } {
+  get counters(): { factorisations: number; refactorisations: number; solves: number; assemblies: number; eigenSolves: number; eigenFactorisations: number } {
     const s = this.sys;
-    return { factorisations: s.factorisations, refactorisations: s.refactorisations, solves: s.solves, assemblies: s.assemblies };
+    const e = this.stab?.totals;
+    return {
+      factorisations: s.factorisations,
+      refactorisations: s.refactorisations,
+      solves: s.solves,
+      assemblies: s.assemblies,
+      eigenSolves: e?.solves ?? 0,
+      eigenFactorisations: e?.factorisations ?? 0,
+    };
   }
 
   dispose(): void {
     this.sys.dispose();
+    this.stab?.dispose();
+  }
+
+  /** Rightmost eigenvalues at the branch's current point (no-op without stability analysis). */
+  private analyse(b: BranchState): void {
+    if (!this.stab) return;
+    const r = this.stab.analyse(b.x, b.eigenWarm);
+    b.stability = r.stability;
+    b.eigenWarm = r.warm;
   }
 
   private monitors(x: Float64Array): Record<string, number> {
@@ -146,10 +183,14 @@ export class Continuation {
       tangentParameter: b.tangent[this.n],
       determinantSign: b.determinantSign,
     };
+    if (b.stability) point.stability = b.stability;
     return { type: 'point', point };
   }
 
-  /** Tangent at the last corrected point from the current factorisation (row = previous tangent). */
+  /**
+   * Tangent and determinant sign at x, from the bordered matrix with border row `prev` (the
+   * previous tangent), factored here at x unless `factored`.
+   */
   private tangentFrom(prev: Float64Array, x: Float64Array, factored: boolean, fresh: boolean): { tangent: Float64Array; sign: number } {
     const n = this.n;
     if (!factored) {
@@ -220,7 +261,9 @@ export class Continuation {
       freshNext: true,
       firstX: x.slice(),
       firstTangent: tangent.slice(),
+      eigenWarm: null,
     };
+    this.analyse(b);
     this.state.branches.push(info);
     this.state.current = b;
     this.state.started = true;
@@ -242,7 +285,9 @@ export class Continuation {
       freshNext: true,
       firstX: p.origin.slice(),
       firstTangent: p.tangent.slice(),
+      eigenWarm: p.eigenWarm,
     };
+    this.analyse(b);
     this.state.branches.push(p.info);
     const events: EngineEvent[] = [{ type: 'branch-start', branch: p.info }, this.pointEvent(b, 0, 0, this.sys.residual(p.origin.subarray(0, n), p.origin[n]))];
     // the first converged point off the branch point
@@ -254,6 +299,7 @@ export class Continuation {
     this.sys.setTangentRow(p.tangent);
     this.sys.factor(true);
     b.determinantSign = this.sys.determinant().sign;
+    this.analyse(b);
     events.push(this.pointEvent(b, ds, 0, this.sys.residual(b.x.subarray(0, n), b.x[n])));
     this.state.current = b;
     return events;
@@ -301,7 +347,7 @@ export class Continuation {
       this.quiescent = true;
     }
     const c = this.counters;
-    return { branches: this.state.ended.map((e) => ({ ...e })), factorisations: c.factorisations, refactorisations: c.refactorisations, solves: c.solves };
+    return { branches: this.state.ended.map((e) => ({ ...e })), factorisations: c.factorisations, refactorisations: c.refactorisations, solves: c.solves, eigenSolves: c.eigenSolves };
   }
 
   /** Yield a step's events; the state is complete (snapshot-safe) at the last one. */
@@ -319,22 +365,43 @@ export class Continuation {
     const st = this.settings;
     const cosMax = Math.cos((st.maxTurnDegrees * Math.PI) / 180);
     let ds = b.step;
+    // chord steps reuse the current point's factorisation; after a resume (or anything else
+    // factored in between) factor that same matrix again so the iterations repeat exactly
+    if (this.chordStamp !== this.sys.stamp && b.chordRow && !b.freshNext) {
+      this.sys.assemble(b.x.subarray(0, n), b.x[n]);
+      this.sys.setTangentRow(b.chordRow);
+      this.sys.factor(true);
+      this.chordStamp = this.sys.stamp;
+    }
     for (;;) {
       const xp = new Float64Array(n + 1);
       for (let i = 0; i <= n; i++) xp[i] = b.x[i] + ds * b.tangent[i];
       const xNew = xp.slice();
-      const res: NewtonResult = correct(this.sys, xNew, b.tangent, xp, { ...this.newtonSettings(b.freshNext), maxUpdate: Math.max(ds, 1e-3) * 2 }, this.work);
+      const chord = !b.freshNext && this.chordStamp === this.sys.stamp;
+      const res: NewtonResult = correct(this.sys, xNew, b.tangent, xp, { ...this.newtonSettings(b.freshNext), chord, maxUpdate: Math.max(ds, 1e-3) * 2 }, this.work);
       let rejection: string | undefined = res.converged ? undefined : res.message;
       let tangent: Float64Array | undefined;
       let sign = 0;
       if (res.converged) {
         try {
-          ({ tangent, sign } = this.tangentFrom(b.tangent, xNew, res.factored, b.freshNext));
+          // factor at the converged point: exact tangent and determinant there, and the matrix
+          // the next step's chord iterations start from
+          ({ tangent, sign } = this.tangentFrom(b.tangent, xNew, false, b.freshNext));
+          this.chordStamp = this.sys.stamp;
           const cos = this.sys.dot(tangent, b.tangent);
           if (cos < cosMax && ds > st.step.min) rejection = `the tangent turned by ${((Math.acos(Math.min(1, cos)) * 180) / Math.PI).toFixed(1)}°`;
         } catch (e) {
           rejection = (e as Error).message;
         }
+      }
+      // eigenvalues at the candidate: two crossings in one step are split by smaller steps
+      // (the determinant would miss a pair of sign changes), down to a floor below which the
+      // crossing counts as one of multiplicity two
+      let stability: { stability: PointStability; warm: EigenWarmStart } | undefined;
+      if (rejection === undefined && tangent && this.stab && b.stability) {
+        stability = this.stab.analyse(xNew, b.eigenWarm);
+        const crossings = countCrossings(b.stability, stability.stability);
+        if (crossings >= 2 && ds > Math.max(st.step.min, 1e-4 * st.step.max)) rejection = `${crossings} eigenvalue crossings in one step`;
       }
       if (rejection !== undefined || !tangent) {
         if (res.failure === 'non-finite' && ds <= st.step.min) return this.end(b, 'non-finite', `non-finite values near ${st.parameter} = ${b.x[n]}: ${res.message}`);
@@ -345,12 +412,20 @@ export class Continuation {
         }
         continue;
       }
-      return this.accept(b, xNew, tangent, sign, ds, res);
+      return this.accept(b, xNew, tangent, sign, ds, res, stability);
     }
   }
 
   /** Accept a corrected point: events for special points, bounds and stop conditions. */
-  private accept(b: BranchState, xNew: Float64Array, tangent: Float64Array, sign: number, ds: number, res: NewtonResult): EngineEvent[] {
+  private accept(
+    b: BranchState,
+    xNew: Float64Array,
+    tangent: Float64Array,
+    sign: number,
+    ds: number,
+    res: NewtonResult,
+    stability?: { stability: PointStability; warm: EigenWarmStart },
+  ): EngineEvent[] {
     const n = this.n;
     const st = this.settings;
     const events: EngineEvent[] = [];
@@ -382,12 +457,15 @@ export class Continuation {
       eLambda[n] = 1;
       const r = correct(this.sys, xb, eLambda, xb.slice(), this.newtonSettings(true), this.work);
       if (r.converged) {
+        const before = b.stability;
         b.x = xb;
         b.tangent = tangent;
         b.arclength += this.sys.norm(sub(xb, xOld));
         b.index++;
+        this.analyse(b);
         events.push(this.pointEvent(b, ds * theta, r.iterations, r.residual));
         events.push(...specials.filter((e) => e.type !== 'special' || inRange(e.point.value, this.lo, this.hi)));
+        events.push(...this.stabilityEvents(b, before, xOld, tOld, ds * theta, specials));
         events.push(...this.end(b, 'parameter-bound', `reached ${st.parameter} = ${fmt(bound)}`));
         return events;
       }
@@ -395,14 +473,22 @@ export class Continuation {
     b.arclength += st.method === 'arclength' ? ds : this.sys.norm(sub(xNew, xOld));
     b.x = xNew;
     b.tangent = tangent;
+    b.chordRow = st.method === 'arclength' ? tOld : undefined;
     b.index++;
     b.determinantSign = sign;
     b.freshNext = located || Math.abs(tangent[n]) < 0.05;
     const it = res.iterations;
     const grow = it <= 1 ? 2 : it === 2 ? 1.5 : it === 3 ? 1.2 : it <= 5 ? 1 : 0.6;
     b.step = Math.min(st.step.max, Math.max(st.step.min, ds * grow));
+    const before = b.stability;
+    if (stability) {
+      b.stability = stability.stability;
+      b.eigenWarm = stability.warm;
+    } else {
+      this.analyse(b);
+    }
     const pe = this.pointEvent(b, ds, it, res.residual);
-    events.push(pe, ...specials);
+    events.push(pe, ...specials, ...this.stabilityEvents(b, before, xOld, tOld, ds, specials));
     const stop = this.stopCheck(b, pe.type === 'point' ? pe.point.monitors : {});
     if (stop) events.push(...this.end(b, stop.reason, stop.message));
     return events;
@@ -541,7 +627,72 @@ export class Continuation {
     for (const f of firsts) {
       const info: BranchInfo = { id: this.state.nextBranchId++, depth: b.info.depth + 1, origin: { kind: 'branch-point', branch: b.info.id, value: xs[n] } };
       event.newBranches.push(info.id);
-      this.state.queue.push({ info, origin: xs.slice(), first: f.x, tangent: f.t, step: f.h });
+      this.state.queue.push({ info, origin: xs.slice(), first: f.x, tangent: f.t, step: f.h, eigenWarm: b.eigenWarm });
+    }
+    return events;
+  }
+
+  /**
+   * What the eigenvalues say about the step from (xOld, tOld) to the branch's new point: Hopf
+   * points (a complex pair crossed the imaginary axis), branch points of multiplicity two (two
+   * real eigenvalues crossed together: invisible to the determinant), and a warning when a real
+   * crossing has no fold or branch point to go with it.
+   */
+  private stabilityEvents(b: BranchState, before: PointStability | undefined, xOld: Float64Array, tOld: Float64Array, ds: number, specials: EngineEvent[]): EngineEvent[] {
+    const after = b.stability;
+    if (!this.stab || !before || !after) return [];
+    const n = this.n;
+    const st = this.settings;
+    const events: EngineEvent[] = [];
+    const realBefore = before.unstableCount - before.unstableComplex;
+    const realAfter = after.unstableCount - after.unstableComplex;
+    const dReal = realAfter - realBefore;
+    const hasFoldOrBranchPoint = specials.some((e) => e.type === 'special' && (e.point.kind === 'fold' || e.point.kind === 'branch-point'));
+    const where = `between ${st.parameter} = ${fmt(xOld[n])} and ${fmt(b.x[n])}`;
+    if (Math.abs(dReal) === 2 && !hasFoldOrBranchPoint && before.complete && after.complete) {
+      const loc = locateCountChange(this.sys, this.stab, xOld, tOld, ds, realBefore, b.eigenWarm, st.newton, st.branchPointTolerance);
+      const x = loc.x;
+      const bp: BranchPointEvent = {
+        kind: 'branch-point',
+        branch: b.info.id,
+        value: x[n],
+        arclength: b.arclength - ds + loc.s,
+        u: x.slice(0, n),
+        monitors: this.monitors(x),
+        residual: this.sys.residual(x.subarray(0, n), x[n]),
+        located: loc.converged,
+        multiplicity: 2,
+        type: 'unknown',
+        criticality: 'undetermined',
+        newBranches: [],
+        note: `two real eigenvalues crossed zero together (a symmetric or periodic domain?): a branch point of multiplicity two, located by bisection on the eigenvalue count; the determinant cannot see it, and branches are not followed from it`,
+      };
+      events.push({ type: 'special', point: bp });
+      b.freshNext = true;
+    } else if (dReal !== 0 && !hasFoldOrBranchPoint && before.complete && after.complete) {
+      events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: the number of unstable real eigenvalues changed from ${realBefore} to ${realAfter} ${where} without a detected fold or branch point (a missed event, or a poor eigenvalue solve)` });
+    } else if (dReal === 0 && hasFoldOrBranchPoint && before.complete && after.complete && specials.some((e) => e.type === 'special' && e.point.kind === 'fold')) {
+      events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: a fold was found ${where} but no real eigenvalue crossed zero there (check the eigenvalue count)` });
+    }
+    const pair = crossingPair(before, after);
+    if (pair && before.unstableComplex !== after.unstableComplex) {
+      const loc = locateHopf(this.sys, this.stab, xOld, tOld, ds, pair, b.eigenWarm, st.newton, st.hopfTolerance);
+      const hopf: HopfPoint = {
+        kind: 'hopf',
+        branch: b.info.id,
+        value: loc.x[n],
+        arclength: b.arclength - ds + loc.s,
+        u: loc.x.slice(0, n),
+        monitors: this.monitors(loc.x),
+        residual: this.sys.residual(loc.x.subarray(0, n), loc.x[n]),
+        located: loc.converged,
+        frequency: loc.frequency,
+        period: (2 * Math.PI) / loc.frequency,
+        crossing: pair.b.re > pair.a.re ? 'destabilising' : 'stabilising',
+      };
+      events.push({ type: 'special', point: hopf });
+      if (!loc.converged) events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: Hopf point ${where} not located to tolerance (${loc.message})` });
+      b.freshNext = true;
     }
     return events;
   }
@@ -582,6 +733,13 @@ export class Continuation {
       return this.accept(b, x, tangent, sign, dl, res);
     }
   }
+}
+
+/** Eigenvalue crossings between two points: real ones, plus complex pairs counted once each. */
+function countCrossings(a: PointStability, b: PointStability): number {
+  const real = Math.abs(b.unstableCount - b.unstableComplex - (a.unstableCount - a.unstableComplex));
+  const pairs = Math.abs(b.unstableComplex - a.unstableComplex) / 2;
+  return real + pairs;
 }
 
 function sub(a: Float64Array, b: Float64Array): Float64Array {

@@ -29,6 +29,12 @@ export interface NewtonResult {
 export interface CorrectOptions extends NewtonSettings {
   /** Factor with fresh pivots at the first iteration (near folds and branch points). */
   fresh: boolean;
+  /**
+   * Chord iterations: start with the factorisation the system already holds (a nearby point's
+   * bordered matrix) and switch to full Newton when an iteration reduces the residual by less
+   * than a factor of four.
+   */
+  chord?: boolean;
   /** Give up when an update is longer than this (weighted norm): the corrector is leaving the branch. */
   maxUpdate?: number;
 }
@@ -52,6 +58,10 @@ export function correct(
   let firstResidual = NaN;
   let bestResidual = Infinity;
   let sinceBest = 0;
+  let chord = options.chord === true;
+  let chordSteps = 0;
+  let previousResidual = Infinity;
+  let freshUsed = false;
   for (let it = 0; ; it++) {
     const res = sys.residual(u, x[n]);
     if (!Number.isFinite(res)) {
@@ -84,10 +94,32 @@ export function correct(
     } else if (++sinceBest >= 4 && res > options.residualTolerance) {
       return { converged: false, iterations: it, residual: res, factored, failure: 'stalled', message: `Newton stalled at residual ${res.toExponential(2)}` };
     }
+    // chord while it contracts well (residual at least quartered per iteration); else full Newton
+    if (chord && (chordSteps >= 8 || (chordSteps > 0 && res > 0.25 * previousResidual))) chord = false;
+    previousResidual = res;
+    if (chord) {
+      chordSteps++;
+      for (let i = 0; i < n; i++) rhs[i] = -sys.f[i];
+      rhs[n] = -g;
+      try {
+        sys.solve(rhs, delta);
+      } catch {
+        chord = false;
+      }
+      if (chord && allFinite(delta)) {
+        for (let i = 0; i <= n; i++) x[i] += delta[i];
+        lastUpdate = sys.norm(delta);
+        if (options.maxUpdate === undefined || lastUpdate <= options.maxUpdate) continue;
+        for (let i = 0; i <= n; i++) x[i] -= delta[i];
+        chord = false;
+      }
+      chord = false;
+    }
     sys.assemble(u, x[n]);
     sys.setTangentRow(t);
     try {
-      sys.factor(options.fresh && it === 0);
+      sys.factor(options.fresh && !freshUsed);
+      freshUsed = true;
     } catch (e) {
       if (e instanceof SparseLUError) {
         const failure: NewtonFailure = e.kind === 'non-finite' ? 'non-finite' : 'singular';

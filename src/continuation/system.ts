@@ -31,6 +31,8 @@ export class ContinuationSystem {
   private readonly rowBuffer: Float64Array;
   factorisations = 0;
   refactorisations = 0;
+  /** Increases with every factorisation: callers record it to know whose matrix is factored. */
+  stamp = 0;
   solves = 0;
   assemblies = 0;
 
@@ -138,6 +140,7 @@ export class ContinuationSystem {
    * when `fresh` (near folds and branch points) or when the policy rejects the refactor.
    */
   factor(fresh: boolean): void {
+    this.stamp++;
     const done = this.solver().update(this.bordered.values, fresh);
     if (done === 'factor') this.factorisations++;
     else this.refactorisations++;

@@ -53,6 +53,10 @@ export interface ContinuationSettings {
   foldTolerance: number;
   /** Tolerance on the parameter when locating a branch point. */
   branchPointTolerance: number;
+  /** Rightmost eigenvalues per point (0: no stability analysis). */
+  stability: { eigenvalues: number };
+  /** Tolerance on the parameter when locating a Hopf point. */
+  hopfTolerance: number;
 }
 
 export const defaultSettings: Omit<ContinuationSettings, 'parameter' | 'bounds'> = {
@@ -67,7 +71,27 @@ export const defaultSettings: Omit<ContinuationSettings, 'parameter' | 'bounds'>
   locate: { folds: true, branchPoints: true },
   foldTolerance: 1e-10,
   branchPointTolerance: 1e-8,
+  stability: { eigenvalues: 0 },
+  hopfTolerance: 1e-8,
 };
+
+/** Stability of one point, from its rightmost eigenvalues. */
+export interface PointStability {
+  /** true / false when the search certifies it; null when the rightmost eigenvalue was not certified. */
+  stable: boolean | null;
+  /** Eigenvalues with positive real part (a lower bound when `complete` is false). */
+  unstableCount: number;
+  /** Of those, how many are complex (members of conjugate pairs). */
+  unstableComplex: number;
+  leadingReal: number;
+  leadingImag: number;
+  /** The eigenvalues found, rightmost first. */
+  eigenvalues: { re: number; im: number; residual: number }[];
+  /** Whether every eigenvalue with real part ≥ 0 is certified to be among those found. */
+  complete: boolean;
+  /** The search's own account of the region searched. */
+  searched: string;
+}
 
 /** Why a branch stopped. */
 export type StopReason =
@@ -114,6 +138,8 @@ export interface BranchPoint {
   tangentParameter: number;
   /** Sign of the determinant of the bordered continuation matrix (0 when not computed). */
   determinantSign: number;
+  /** Stability from the rightmost eigenvalues (absent when stability analysis is off). */
+  stability?: PointStability;
 }
 
 export type BranchPointType = 'pitchfork' | 'transcritical' | 'unknown';
@@ -154,12 +180,22 @@ export interface BranchPointEvent extends SpecialPointBase {
   note?: string;
 }
 
+export interface HopfPoint extends SpecialPointBase {
+  kind: 'hopf';
+  located: boolean;
+  /** Angular frequency ω of the crossing pair ±iω; the period of the oscillation born there is 2π/ω. */
+  frequency: number;
+  period: number;
+  /** Whether the pair moves into the right half-plane (`destabilising`) along the branch direction. */
+  crossing: 'destabilising' | 'stabilising';
+}
+
 export interface EndPoint extends SpecialPointBase {
   kind: 'end';
   reason: StopReason;
 }
 
-export type SpecialPoint = FoldPoint | BranchPointEvent | EndPoint;
+export type SpecialPoint = FoldPoint | BranchPointEvent | HopfPoint | EndPoint;
 
 export interface BranchInfo {
   id: number;

@@ -1,0 +1,224 @@
+/**
+ * Stability along a branch: the rightmost eigenvalues of J v = μ M v at every point (Krylov–Schur
+ * with a Cayley transform, src/linalg/eigen.ts), the count of unstable eigenvalues, and the
+ * location of Hopf points — where a complex pair crosses the imaginary axis, which no determinant
+ * can see. Hopf points are located along the arc by the Illinois regula falsi on the real part of
+ * the crossing pair, to the requested tolerance in the parameter.
+ */
+import { EigenTracker, type EigenWarmStart, type RightmostResult } from '../linalg/eigen.js';
+import { arcPoint } from './branch-point.js';
+import type { ContinuationSystem } from './system.js';
+import type { NewtonSettings, PointStability } from './types.js';
+
+/** Imaginary parts below this fraction of the spectrum's scale count as real. */
+const REAL_TOLERANCE = 1e-8;
+
+export class StabilityAnalyser {
+  private readonly tracker: EigenTracker;
+  private readonly values: Float64Array;
+
+  constructor(
+    private readonly sys: ContinuationSystem,
+    readonly count: number,
+  ) {
+    const problem = sys.problem;
+    const pattern = problem.pattern();
+    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal });
+    this.values = new Float64Array(pattern.colPtr[pattern.cols]);
+  }
+
+  get totals(): { calls: number; solves: number; factorisations: number } {
+    return this.tracker.totals;
+  }
+
+  /** Rightmost eigenvalues at x = (u, λ), warm-started from `warm` (null: cold start). */
+  analyse(x: Float64Array, warm: EigenWarmStart | null): { stability: PointStability; warm: EigenWarmStart } {
+    const n = this.sys.n;
+    this.sys.problem.jacobian(x.subarray(0, n), this.sys.params(x[n]), this.values);
+    const r = this.tracker.compute(this.values, { warmStart: warm });
+    return { stability: summarise(r, this.count), warm: r.warmStart };
+  }
+
+  dispose(): void {
+    this.tracker.dispose();
+  }
+}
+
+export function summarise(r: RightmostResult, count: number): PointStability {
+  const vals = r.values;
+  const scale = Math.max(1, ...vals.map((v) => Math.hypot(v.re, v.im)));
+  let unstable = 0;
+  let unstableComplex = 0;
+  for (const v of vals) {
+    if (v.re > 0) {
+      unstable++;
+      if (Math.abs(v.im) > REAL_TOLERANCE * scale) unstableComplex++;
+    }
+  }
+  const lead = vals[0] ?? { re: NaN, im: NaN };
+  const certified = r.searchedRegion.certifiedAbove;
+  const complete = r.converged && certified !== null && certified <= 0;
+  let stable: boolean | null;
+  if (lead.re > 0) stable = false;
+  else if (complete) stable = true;
+  else stable = null;
+  return {
+    stable,
+    unstableCount: unstable,
+    unstableComplex,
+    leadingReal: lead.re,
+    leadingImag: Math.abs(lead.im) <= REAL_TOLERANCE * scale ? 0 : lead.im,
+    eigenvalues: vals.slice(0, Math.max(count, vals.length)).map((v) => ({ re: v.re, im: v.im, residual: v.residual })),
+    complete,
+    searched: r.searchedRegion.description,
+  };
+}
+
+/** The complex eigenvalue (Im > 0) of `s` nearest to `target` in the complex plane, or undefined. */
+export function pairNear(s: PointStability, target: { re: number; im: number }): { re: number; im: number } | undefined {
+  let best: { re: number; im: number } | undefined;
+  let bestDistance = Infinity;
+  const scale = Math.max(1, ...s.eigenvalues.map((v) => Math.hypot(v.re, v.im)));
+  for (const v of s.eigenvalues) {
+    if (v.im <= REAL_TOLERANCE * scale) continue;
+    const d = Math.hypot(v.re - target.re, v.im - target.im);
+    if (d < bestDistance) {
+      best = v;
+      bestDistance = d;
+    }
+  }
+  return best;
+}
+
+/** The complex pair that crossed between a and b: the one whose real part changed sign. */
+export function crossingPair(a: PointStability, b: PointStability): { a: { re: number; im: number }; b: { re: number; im: number } } | undefined {
+  const scale = Math.max(1, ...a.eigenvalues.map((v) => Math.hypot(v.re, v.im)));
+  let best: { a: { re: number; im: number }; b: { re: number; im: number }; gap: number } | undefined;
+  for (const va of a.eigenvalues) {
+    if (va.im <= REAL_TOLERANCE * scale) continue;
+    const vb = pairNear(b, va);
+    if (!vb) continue;
+    if (Math.sign(va.re) === Math.sign(vb.re)) continue;
+    const gap = Math.hypot(vb.re - va.re, vb.im - va.im);
+    if (!best || gap < best.gap) best = { a: va, b: vb, gap };
+  }
+  return best ? { a: best.a, b: best.b } : undefined;
+}
+
+export interface HopfLocation {
+  converged: boolean;
+  x: Float64Array;
+  frequency: number;
+  stability: PointStability;
+  s: number;
+  message?: string;
+}
+
+/**
+ * Locate a Hopf point between xa (step 0) and the point at step sEnd along the tangent ta.
+ * `reA` and `reB` are the real parts of the crossing pair at the two ends, `im` its imaginary part.
+ */
+export function locateHopf(
+  sys: ContinuationSystem,
+  analyser: StabilityAnalyser,
+  xa: Float64Array,
+  ta: Float64Array,
+  sEnd: number,
+  pair: { a: { re: number; im: number }; b: { re: number; im: number } },
+  warm: EigenWarmStart | null,
+  newton: NewtonSettings,
+  tolerance: number,
+  maxIterations = 50,
+): HopfLocation {
+  const n = sys.n;
+  type End = { s: number; f: number; x: Float64Array; im: number };
+  let lo: End = { s: 0, f: pair.a.re, x: xa.slice(), im: pair.a.im };
+  let hi: End = { s: sEnd, f: pair.b.re, x: xa.slice(), im: pair.b.im };
+  for (let i = 0; i <= n; i++) hi.x[i] = xa[i] + sEnd * ta[i];
+  let side = 0;
+  let last: { x: Float64Array; stability: PointStability; im: number } | undefined;
+  let w = warm;
+  let fLo = lo.f;
+  let fHi = hi.f;
+  for (let it = 0; it < maxIterations; it++) {
+    let s = (lo.s * fHi - hi.s * fLo) / (fHi - fLo);
+    const span = hi.s - lo.s;
+    if (!(s > lo.s + 1e-3 * span && s < hi.s - 1e-3 * span)) s = lo.s + 0.5 * span;
+    const x = arcPoint(sys, xa, ta, s, newton);
+    if (!x) return { converged: false, x: lo.x, frequency: lo.im, stability: last?.stability ?? emptyStability(), s: lo.s, message: 'a point on the arc did not converge while locating a Hopf point' };
+    const a = analyser.analyse(x, w);
+    w = a.warm;
+    // follow the pair: the eigenvalue nearest to the interpolation between the bracket's ends
+    const theta = (s - lo.s) / (hi.s - lo.s);
+    const v = pairNear(a.stability, { re: lo.f + theta * (hi.f - lo.f), im: lo.im + theta * (hi.im - lo.im) });
+    if (!v) return { converged: false, x, frequency: lo.im, stability: a.stability, s, message: 'the crossing pair was lost while locating a Hopf point' };
+    last = { x, stability: a.stability, im: v.im };
+    const t: End = { s, f: v.re, x, im: v.im };
+    if (Math.sign(t.f) === Math.sign(lo.f)) {
+      lo = t;
+      fLo = t.f;
+      if (side === -1) fHi /= 2;
+      side = -1;
+    } else {
+      hi = t;
+      fHi = t.f;
+      if (side === 1) fLo /= 2;
+      side = 1;
+    }
+    if (t.f === 0 || Math.abs(hi.x[n] - lo.x[n]) <= tolerance * Math.max(1, Math.abs(x[n]))) {
+      const best = Math.abs(lo.f) < Math.abs(hi.f) ? lo : hi;
+      const x2 = best.x;
+      return { converged: true, x: x2, frequency: best.im, stability: last.stability, s: best.s };
+    }
+  }
+  return { converged: false, x: last?.x ?? lo.x, frequency: last?.im ?? lo.im, stability: last?.stability ?? emptyStability(), s: lo.s, message: `Hopf location stopped after ${maxIterations} iterations` };
+}
+
+function emptyStability(): PointStability {
+  return { stable: null, unstableCount: 0, unstableComplex: 0, leadingReal: NaN, leadingImag: NaN, eigenvalues: [], complete: false, searched: '' };
+}
+
+/**
+ * Locate where the number of unstable real eigenvalues changes between the arc's start (step 0)
+ * and step sEnd, by bisection on the count (for crossings the determinant cannot see).
+ */
+export function locateCountChange(
+  sys: ContinuationSystem,
+  analyser: StabilityAnalyser,
+  xa: Float64Array,
+  ta: Float64Array,
+  sEnd: number,
+  countA: number,
+  warm: EigenWarmStart | null,
+  newton: NewtonSettings,
+  tolerance: number,
+  maxIterations = 60,
+): { converged: boolean; x: Float64Array; s: number } {
+  const n = sys.n;
+  let lo = 0;
+  let hi = sEnd;
+  let xLo = xa;
+  let xHi: Float64Array | undefined;
+  let w = warm;
+  for (let it = 0; it < maxIterations; it++) {
+    const mid = 0.5 * (lo + hi);
+    const x = arcPoint(sys, xa, ta, mid, newton);
+    if (!x) break;
+    const a = analyser.analyse(x, w);
+    w = a.warm;
+    const real = a.stability.unstableCount - a.stability.unstableComplex;
+    if (real === countA) {
+      lo = mid;
+      xLo = x;
+    } else {
+      hi = mid;
+      xHi = x;
+    }
+    if (xHi && Math.abs(xHi[n] - xLo[n]) <= tolerance * Math.max(1, Math.abs(xLo[n]))) {
+      const x2 = new Float64Array(n + 1);
+      for (let i = 0; i <= n; i++) x2[i] = 0.5 * (xLo[i] + xHi[i]);
+      return { converged: true, x: x2, s: 0.5 * (lo + hi) };
+    }
+  }
+  return { converged: false, x: xHi ?? xLo, s: hi };
+}
