@@ -81,6 +81,17 @@ export interface EngineSummary {
   eigenSolves: number;
 }
 
+/** Linear-algebra counts and time per phase, since the engine was created. */
+export interface EngineCounters {
+  factorisations: number;
+  refactorisations: number;
+  solves: number;
+  assemblies: number;
+  eigenSolves: number;
+  eigenFactorisations: number;
+  seconds: { residual: number; assembly: number; factorisation: number; solves: number; eigen: number };
+}
+
 export class ContinuationError extends Error {
   override name = 'ContinuationError';
 }
@@ -135,7 +146,7 @@ export class Continuation {
   }
 
   /** Counts of the linear algebra done so far. */
-  get counters(): { factorisations: number; refactorisations: number; solves: number; assemblies: number; eigenSolves: number; eigenFactorisations: number } {
+  get counters(): EngineCounters {
     const s = this.sys;
     const e = this.stab?.totals;
     return {
@@ -145,6 +156,7 @@ export class Continuation {
       assemblies: s.assemblies,
       eigenSolves: e?.solves ?? 0,
       eigenFactorisations: e?.factorisations ?? 0,
+      seconds: { ...s.seconds, eigen: this.stab?.seconds ?? 0 },
     };
   }
 

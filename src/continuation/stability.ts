@@ -5,6 +5,7 @@
  * can see. Hopf points are located along the arc by the Illinois regula falsi on the real part of
  * the crossing pair, to the requested tolerance in the parameter.
  */
+import { performance } from 'node:perf_hooks';
 import { EigenTracker, type EigenWarmStart, type RightmostResult } from '../linalg/eigen.js';
 import { arcPoint } from './branch-point.js';
 import type { ContinuationSystem } from './system.js';
@@ -27,6 +28,9 @@ export class StabilityAnalyser {
     this.values = new Float64Array(pattern.colPtr[pattern.cols]);
   }
 
+  /** Seconds spent in eigenvalue computations (Jacobian evaluation included). */
+  seconds = 0;
+
   get totals(): { calls: number; solves: number; factorisations: number } {
     return this.tracker.totals;
   }
@@ -34,8 +38,10 @@ export class StabilityAnalyser {
   /** Rightmost eigenvalues at x = (u, λ), warm-started from `warm` (null: cold start). */
   analyse(x: Float64Array, warm: EigenWarmStart | null): { stability: PointStability; warm: EigenWarmStart } {
     const n = this.sys.n;
+    const t0 = performance.now();
     this.sys.problem.jacobian(x.subarray(0, n), this.sys.params(x[n]), this.values);
     const r = this.tracker.compute(this.values, { warmStart: warm });
+    this.seconds += (performance.now() - t0) / 1000;
     return { stability: summarise(r, this.count), warm: r.warmStart };
   }
 

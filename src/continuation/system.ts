@@ -10,6 +10,7 @@
  *
  * All norms are weighted (discrete L2): ‖x‖² = Σ w_i u_i² + λ².
  */
+import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../linalg/bordered.js';
 import { SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
 import type { Params, Problem } from '../problem/problem.js';
@@ -33,6 +34,8 @@ export class ContinuationSystem {
   refactorisations = 0;
   /** Increases with every factorisation: callers record it to know whose matrix is factored. */
   stamp = 0;
+  /** Seconds spent per phase (for the benchmark's cost shares). */
+  readonly seconds = { residual: 0, assembly: 0, factorisation: 0, solves: 0 };
   solves = 0;
   assemblies = 0;
 
@@ -63,7 +66,9 @@ export class ContinuationSystem {
 
   /** this.f = F(u, λ); returns the scaled weighted residual norm ‖D⁻¹F‖_w. */
   residual(u: Float64Array, lambda: number): number {
+    const t0 = performance.now();
     this.problem.residual(u, this.params(lambda), this.f);
+    this.seconds.residual += (performance.now() - t0) / 1000;
     return this.scaledNorm(this.f);
   }
 
@@ -95,12 +100,14 @@ export class ContinuationSystem {
 
   /** Fill J and F_λ at (u, λ) and put them into the bordered matrix. */
   assemble(u: Float64Array, lambda: number): void {
+    const t0 = performance.now();
     const p = this.params(lambda);
     this.problem.jacobian(u, p, this.jacobian);
     this.problem.parameterDerivative(u, p, this.parameter, this.fParameter);
     this.bordered.setInner(this.jacobian);
     this.bordered.setColumn(0, this.fParameter);
     this.assemblies++;
+    this.seconds.assembly += (performance.now() - t0) / 1000;
   }
 
   /** Border row: (w ∘ τ_u, τ_λ) — the weighted tangent. */
@@ -141,20 +148,35 @@ export class ContinuationSystem {
    */
   factor(fresh: boolean): void {
     this.stamp++;
-    const done = this.solver().update(this.bordered.values, fresh);
-    if (done === 'factor') this.factorisations++;
-    else this.refactorisations++;
+    const t0 = performance.now();
+    try {
+      const done = this.solver().update(this.bordered.values, fresh);
+      if (done === 'factor') this.factorisations++;
+      else this.refactorisations++;
+    } finally {
+      this.seconds.factorisation += (performance.now() - t0) / 1000;
+    }
   }
 
   /** Solve with the current factorisation (length n+1, in place into out). */
   solve(rhs: Float64Array, out?: Float64Array): Float64Array {
     this.solves++;
-    return this.solver().solve(rhs, out);
+    const t0 = performance.now();
+    try {
+      return this.solver().solve(rhs, out);
+    } finally {
+      this.seconds.solves += (performance.now() - t0) / 1000;
+    }
   }
 
   solveTranspose(rhs: Float64Array, out?: Float64Array): Float64Array {
     this.solves++;
-    return this.solver().solveTranspose(rhs, out);
+    const t0 = performance.now();
+    try {
+      return this.solver().solveTranspose(rhs, out);
+    } finally {
+      this.seconds.solves += (performance.now() - t0) / 1000;
+    }
   }
 
   /** Sign and log|det| of the factored bordered matrix. */

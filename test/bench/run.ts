@@ -1,33 +1,98 @@
 /**
- * `npm run bench`: the benchmark suite. Prints one table per part (median of repeated runs after a
- * warm-up) and writes everything as JSON (bench-results.json, or the path given with --json) for
- * comparison between commits.
+ * `npm run bench`: the benchmark suite. Prints tables (medians of repeated runs after a warm-up)
+ * and writes every figure as JSON (bench-results.json, or the path after --json) for comparison
+ * between commits.
  *
- *   npm run bench                 full suite
- *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run)
+ *   npm run bench                 the full suite (about 10 minutes on 2 cores)
+ *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
+ *   npm run bench -- --only lu,assembly,steps,branch,memory   a subset
  */
+import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
 import { cpus, totalmem } from 'node:os';
+import { fileURLToPath } from 'node:url';
+import { benchAssembly } from '../../discretisations/bench.js';
 import { benchLu } from './lu.js';
-import { wasmMemoryBytes } from '../../src/linalg/wasm.js';
+import { benchExpressionAssembly } from './expression.js';
+import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
+import { table } from './stats.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
 const jsonAt = args.indexOf('--json');
 const jsonPath = jsonAt >= 0 ? args[jsonAt + 1] : 'bench-results.json';
-const repeats = quick ? 3 : 5;
+const onlyAt = args.indexOf('--only');
+const only = onlyAt >= 0 ? new Set(args[onlyAt + 1].split(',')) : undefined;
+const want = (part: string) => !only || only.has(part);
+const repeats = quick ? 1 : 3;
 
 const machine = `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), ${(totalmem() / 2 ** 30).toFixed(0)} GiB, Node ${process.version}`;
 console.log(`branchline benchmark — ${machine}`);
-console.log(`median of ${repeats} runs after a warm-up\n`);
+console.log(`medians of ${repeats} repetitions after a warm-up${quick ? ' (quick run: small grids)' : ''}\n`);
+const results: Record<string, unknown> = { machine, date: new Date().toISOString(), quick, repeats };
 
-const results: Record<string, unknown> = { machine, date: new Date().toISOString(), repeats };
+const worker = fileURLToPath(new URL('./worker.js', import.meta.url));
+function inChild<T>(...argv: string[]): T {
+  const out = execFileSync(process.execPath, [worker, ...argv], { encoding: 'utf8', maxBuffer: 1 << 26 });
+  const lines = out.trim().split('\n');
+  return JSON.parse(lines[lines.length - 1]) as T;
+}
 
-console.log('Sparse LU (KLU in WebAssembly) on 2D 5-point grids');
-const lu = benchLu(quick ? [50, 100] : [100, 200, 300], ['amd', 'colamd', 'metis'], repeats);
-console.log(lu.text + '\n');
-results.lu = lu.rows;
+if (want('lu')) {
+  console.log('Sparse LU (KLU in WebAssembly) on 2D 5-point grids');
+  const lu = benchLu(quick ? [50, 100] : [100, 200, 300], ['amd', 'colamd', 'metis'], quick ? 3 : 5);
+  console.log(lu.text + '\n');
+  results.lu = lu.rows;
+}
 
-results.wasmMemoryBytes = wasmMemoryBytes();
+if (want('assembly')) {
+  const n = quick ? 128 : 256;
+  console.log(`Residual + Jacobian assembly, 2D Gray–Scott ${n}x${n} (${2 * n * n} unknowns)`);
+  const a = benchAssembly(n, quick ? 5 : 15);
+  console.log(table(['model', 'unknowns', 'residual', 'Jacobian', 'both'], [[a.model, a.unknowns, a.residualMs.toFixed(1) + ' ms', a.jacobianMs.toFixed(1) + ' ms', a.totalMs.toFixed(1) + ' ms']]));
+  const e = benchExpressionAssembly(n, quick ? 3 : 7);
+  console.log(e.text + '\n');
+  results.assembly = { builtIn: a, expression: e.rows };
+}
+
+if (want('steps')) {
+  const sizes = quick ? [60, 100] : [100, 200, 300];
+  const rows: StepBenchRow[] = [];
+  for (const m of sizes) {
+    const steps = m <= 100 ? 20 : m <= 200 ? 12 : 8;
+    for (const eig of [0, 6]) rows.push(inChild<StepBenchRow>('steps', 'bratu', String(m), String(steps), String(eig), String(repeats)));
+  }
+  const gs = quick ? 64 : 128;
+  for (const eig of [0, 6]) rows.push(inChild<StepBenchRow>('steps', 'gray-scott', String(gs), '10', String(eig), String(repeats)));
+  console.log('Continuation steps (pseudo-arclength; each case in its own process)');
+  console.log(stepTable(rows) + '\n');
+  console.log('Where the time of a step goes');
+  console.log(shareTable(rows) + '\n');
+  results.steps = rows;
+  const byName = (m: number, eig: number) => rows.find((r) => r.case === `2D Bratu ${m}x${m}` && r.eigenvalues === eig);
+  if (!quick) {
+    const a = byName(100, 6)!;
+    const b = byName(300, 6)!;
+    const growth = Math.log(b.secondsPerStep / a.secondsPerStep) / Math.log(b.unknowns / a.unknowns);
+    console.log(`Growth of the per-step cost (6 eigenvalues) from m = 100 to m = 300: n^${growth.toFixed(2)}\n`);
+    results.growthExponent = growth;
+  }
+}
+
+if (want('branch')) {
+  const n = 1000;
+  const r = inChild<{ case: string; unknowns: number; points: number; pointsPerSecond: number; seconds: number }>('branch', String(n), '6');
+  console.log('A whole branch with 6 eigenvalues per point');
+  console.log(table(['case', 'unknowns', 'points', 'time', 'points/s'], [[r.case, r.unknowns, r.points, r.seconds.toFixed(2) + ' s', r.pointsPerSecond.toFixed(0)]]) + '\n');
+  results.branch = r;
+}
+
+if (want('memory') && !quick) {
+  const r = inChild<StepBenchRow>('steps', 'bratu', '400', '3', '0', '1');
+  console.log('Peak memory, 2D Bratu 400x400 (160,000 unknowns), a few steps without eigenvalues');
+  console.log(table(['case', 'unknowns', 'peak RSS'], [[r.case, r.unknowns, r.peakRssMiB.toFixed(0) + ' MiB']]) + '\n');
+  results.memory = r;
+}
+
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');
 console.log(`wrote ${jsonPath}`);

@@ -1,0 +1,20 @@
+/**
+ * Runs one benchmark case in this process and prints its result as JSON on the last line
+ * (spawned by run.ts so that peak resident memory belongs to the case alone).
+ *   node dist/test/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
+ *   node dist/test/bench/worker.js branch <n> <eigenvalues>
+ */
+import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
+
+const [kind, ...rest] = process.argv.slice(2);
+if (kind === 'steps') {
+  const [name, m, steps, eig, repeats] = rest;
+  const c = name === 'gray-scott' ? grayScott2d(Number(m), Number(steps)) : bratu2d(Number(m), Number(steps));
+  console.log(JSON.stringify(benchSteps(c, Number(eig), Number(repeats))));
+} else if (kind === 'branch') {
+  const [n, eig] = rest;
+  console.log(JSON.stringify(benchBranch(bratu1d(Number(n)), Number(eig))));
+} else {
+  console.error(`worker: unknown kind '${kind}'`);
+  process.exit(2);
+}
