@@ -581,8 +581,8 @@ function resolveStep(
 export function toSettings(c: ResolvedContinuation, eigenvalues = 0): ContinuationSettings {
   return {
     ...defaultSettings,
-    // stability analysis (the engine computes the rightmost eigenvalues when asked)
-    ...('stability' in defaultSettings ? { stability: { eigenvalues } } : {}),
+    // stability analysis: the engine computes this many rightmost eigenvalues per point (0: none)
+    stability: { eigenvalues },
     parameter: c.parameter,
     bounds: [c.bounds[0], c.bounds[1]],
     direction: c.direction,

@@ -166,11 +166,17 @@ export function specialRecord(problem: Problem, parameter: string, s: SpecialPoi
       rec['new-branches'] = s.newBranches.slice();
       if (s.note !== undefined) rec.note = s.note;
       break;
+    case 'hopf':
+      rec.located = s.located;
+      rec.frequency = s.frequency;
+      rec.period = s.period;
+      rec.crossing = s.crossing;
+      break;
     case 'end':
       rec.reason = s.reason;
       break;
     default: {
-      // kinds added later (hopf): copy their scalar details under lowercase-dashed names
+      // kinds added later: copy their scalar details under lowercase-dashed names
       const extra = s as unknown as Record<string, unknown>;
       for (const [k, v] of Object.entries(extra)) {
         if (['kind', 'branch', 'value', 'arclength', 'u', 'monitors', 'residual'].includes(k)) continue;

@@ -214,3 +214,31 @@ describe('the bundled demo case (cases/catalytic-slab.yaml)', () => {
     expect(r.out).toMatch(/\nCaution: /);
   });
 });
+
+describe('stability columns from the real engine', () => {
+  it('fills stable, unstable-count and the leading eigenvalue; the 1D Bratu branch loses stability at the fold', async () => {
+    const file = join(tmp, 'stability.yaml');
+    writeFileSync(
+      file,
+      'name: stability\nmodel: bratu\ngrid: {intervals: [24]}\nparameters: {lambda: 0.2}\n' +
+        'continuation: {parameter: lambda, bounds: [0, 4], stop-when: [{monitor: max, above: 3}]}\nstability: {eigenvalues: 2}\n',
+    );
+    const out = join(tmp, 'stability');
+    const r = await cli('run', file, '--out', out, '--quiet');
+    expect(r.code, r.err).toBe(0);
+    const text = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
+    const header = text[0].split(',');
+    expect(header.slice(-4)).toEqual(['stable', 'unstable-count', 'leading-real', 'leading-imag']);
+    const rows = text.slice(1, -1).map((l) => l.split(','));
+    const col = (name: string): string[] => rows.map((row) => row[header.indexOf(name)]);
+    const lambda = col('lambda').map(Number);
+    const top = lambda.indexOf(Math.max(...lambda));
+    // the lower branch of the Bratu problem is stable, the upper one has one unstable eigenvalue
+    // (standard result for the ignition problem, from memory)
+    expect(col('stable').slice(0, top)).toEqual(new Array(top).fill('true'));
+    expect(col('stable').slice(top + 1)).toEqual(new Array(rows.length - top - 1).fill('false'));
+    expect(col('unstable-count').slice(top + 1).every((c) => c === '1')).toBe(true);
+    expect(Number(col('leading-real')[0])).toBeLessThan(0);
+    expect(Number(col('leading-real')[rows.length - 1])).toBeGreaterThan(0);
+  });
+});

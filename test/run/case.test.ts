@@ -101,8 +101,7 @@ checkpoint: {every-points: 5, every-seconds: 30}
       newton: { residualTolerance: 1e-11, stepTolerance: 1e-11, maxIterations: 7 },
       locate: { folds: false, branchPoints: true },
       maxTurnDegrees: 20,
-      // stability.eigenvalues goes to the engine once it computes stability
-      ...('stability' in defaultSettings ? { stability: { eigenvalues: 4 } } : {}),
+      stability: { eigenvalues: 4 },
     });
     expect(prepared.case.output.solutions).toBe('none');
     expect(prepared.case.stability.eigenvalues).toBe(4);

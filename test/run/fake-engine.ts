@@ -18,6 +18,8 @@ export interface Script {
   throwAt?: number;
   /** Attach stability data to points. */
   stability?: boolean;
+  /** Emit a Hopf point on branch 1. */
+  hopf?: boolean;
 }
 
 export const defaultScript: Script = { points1: 10, points2: 4, reason1: 'parameter-bound' };
@@ -69,6 +71,9 @@ export function scriptedEvents(problem: Problem, params: Params, settings: Conti
     last = point(1, i, lambda, 0.1 * (i + 1));
     events.push({ type: 'point', point: last });
     if (i === 4) events.push({ type: 'special', point: special(last, { kind: 'fold', located: true, turn: 'maximum' }) });
+    if (i === 8 && script.hopf) {
+      events.push({ type: 'special', point: special(last, { kind: 'hopf', located: true, frequency: 2, period: Math.PI, crossing: 'destabilising' }) });
+    }
     if (i === 6 && script.points2 > 0) {
       events.push({
         type: 'special',

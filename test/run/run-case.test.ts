@@ -92,6 +92,15 @@ describe('a run on the scripted engine', () => {
     expect(lines[lines.length - 1]).toMatch(/^Caution: Model results for ignition/);
   });
 
+  it('records Hopf points with frequency, period and crossing, and names them in the summary', async () => {
+    const out = fresh();
+    const result = await runCase(prepared, { outDir: out, engine: fakeEngine({ ...defaultScript, hopf: true, points2: 0 }) });
+    const hopf = json(join(out, 'points.json')).points.find((p: any) => p.kind === 'hopf');
+    expect(hopf).toMatchObject({ branch: 1, value: 0.2 + 0.3 * 8, located: true, frequency: 2, period: Math.PI, crossing: 'destabilising', solution: 'solutions/branch-1-hopf-1.npy' });
+    expect(json(join(out, 'run.json')).counts.hopf).toBe(1);
+    expect(formatSummary(result, prepared)).toMatch(/, Hopf point at lambda = 2\.6 \(frequency 2, period 3\.1416, destabilising, max = 0\.9\),/);
+  });
+
   it('writes each row before the checkpoint hook runs: recorded lengths are the file sizes', async () => {
     const out = fresh();
     let calls = 0;
