@@ -1,0 +1,10 @@
+/**
+ * Every command of the CLI, one file each; main.ts registers them in this order (the order of
+ * `branchline --help`). A new command: add its file here and one line below.
+ */
+import type { Command } from 'commander';
+import type { CommandContext } from '../io.js';
+import { registerModels } from './models.js';
+import { registerRun } from './run.js';
+
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerModels];

@@ -1,0 +1,30 @@
+import type { Command } from 'commander';
+import type { CommandContext } from '../io.js';
+import { modelCatalogue } from '../../run/case.js';
+
+/** `branchline models`: the built-in models with their parameters and keys. */
+export function registerModels(program: Command, { io }: CommandContext): void {
+  program
+    .command('models')
+    .description('list the built-in models with their parameters, defaults and case-file keys')
+    .action(() => {
+      const lines: string[] = ['Models (the id goes in a case file as `model: <id>`; a code model is `model: ./file.mjs`):', ''];
+      for (const m of modelCatalogue()) {
+        lines.push(`${m.id}  (${m.dimensions.map((d) => `${d}D`).join(', ')})`);
+        lines.push(`  ${m.description}`);
+        if (m.parameters.length) {
+          lines.push(`  parameters: ${m.parameters.map((p) => `${p.name} = ${p.default}`).join(', ')}`);
+          for (const p of m.parameters) lines.push(`    ${p.name}: ${p.description}`);
+        } else {
+          lines.push('  parameters: declared in the case file (parameters: {name: default, ...})');
+        }
+        for (const o of m.options) {
+          lines.push(`  key ${o.name}: ${o.choices ? `${o.choices.join(' | ')} (default ${o.choices[0]}); ` : ''}${o.description}`);
+        }
+        if (m.caution) lines.push(`  caution: ${m.caution}`);
+        lines.push('');
+      }
+      io.out(lines.join('\n'));
+    });
+
+}
