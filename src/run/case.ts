@@ -22,6 +22,15 @@
  *   output: {directory: runs/slab, solutions: special}   # special | none | all
  *   stability: {eigenvalues: 0}          # reserved for the stability issue (passed through)
  *   checkpoint: {every-points: 25, every-seconds: 60}    # used by checkpoint/resume
+ *   plot: {monitor: max}                 # the diagram's vertical axis (default: max, or max:<first field>)
+ *   start: {solution: saved.npy}         # start from a saved node array instead of the initial guess,
+ *   start: {run: runs/a, point: fold:1, branch: 1}   # or from a special point of an earlier run
+ *
+ * A start from a run point takes that point's parameter values too (the earlier run's start values
+ * with its continuation parameter at the point's value): for built-in and code models, values
+ * listed under `parameters` override them (the saved state is then only Newton's first guess);
+ * for reaction-diffusion models the `parameters` are declarations, and the run's values replace
+ * their defaults. See src/run/start.ts.
  *
  * Paths inside a case file (a code model, output.directory) are relative to the case file's
  * folder, so a case gives the same result wherever it is run from.
@@ -40,6 +49,17 @@ import { type ContinuationSettings, defaultSettings } from '../continuation/type
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
+import {
+  type RunPoint,
+  extrasForSolutionFile,
+  extrasVector,
+  parsePointSpec,
+  pointSpecAccepted,
+  pointSpecText,
+  readRunFiles,
+  readSolutionFile,
+  runPoint,
+} from './start.js';
 
 // ---------------------------------------------------------------------------------------------
 // Limits (bad input is refused up front rather than discovered hours later)
@@ -91,7 +111,13 @@ export interface ResolvedCase {
   output: { directory?: string; solutions: SolutionChoice };
   stability: { eigenvalues: number };
   checkpoint: { everyPoints: number; everySeconds: number };
+  /** The diagram's monitor (plots). */
+  plot: { monitor: string };
+  /** Where the start state comes from (absolute paths), when not the model's initial guess. */
+  start?: ResolvedStart;
 }
+
+export type ResolvedStart = { solution: string } | { run: string; point: string; branch: number };
 
 export interface PreparedCase {
   /** The case file as the user named it (for messages), or a label for in-memory cases. */
@@ -107,6 +133,8 @@ export interface PreparedCase {
   settings: ContinuationSettings;
   /** The safety caution of the model, when it has one. */
   caution?: string;
+  /** Start state (grid unknowns and extra unknowns) from `start:`, with where it came from in words. */
+  start?: { u: Float64Array; from: string };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -218,7 +246,7 @@ const continuationSchema = section({
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
 });
 
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint'] as const;
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start'] as const;
 
 const caseSchema = z.looseObject(
   {
@@ -236,6 +264,13 @@ const caseSchema = z.looseObject(
     }).optional(),
     stability: section({ eigenvalues: integerIn(0, 50) }).optional(),
     checkpoint: section({ 'every-points': positiveInteger().optional(), 'every-seconds': positive.optional() }).optional(),
+    plot: section({ monitor: z.string(accepted('a monitor name, e.g. max or l2-norm')).optional() }).optional(),
+    start: section({
+      solution: z.string(accepted('a path to a .npy file')).min(1, accepted('a path to a .npy file')).optional(),
+      run: z.string(accepted('a run folder')).min(1, accepted('a run folder')).optional(),
+      point: z.string(accepted(pointSpecAccepted)).optional(),
+      branch: integerIn(1, 1_000_000).optional(),
+    }).optional(),
   },
   accepted('a case: a map with keys name, model, grid, parameters, continuation, output'),
 );
@@ -437,10 +472,20 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     }
   }
 
-  // 7. start values
+  // 7. start values (a start from a run point brings that point's parameter values)
   const params: Record<string, number> = {};
   for (const s of problem.parameters) params[s.name] = s.default;
   const knownParams = problem.parameters.map((s) => s.name);
+  const startFrom = resolveStartKey(input.start, opts.baseDir, fail);
+  const fromRun = new Set<string>();
+  if (startFrom?.point) {
+    for (const [k, v] of Object.entries(startFrom.point.params)) {
+      if (!knownParams.includes(k) || !Number.isFinite(v)) continue;
+      if (kind !== 'expression' && Object.hasOwn(givenParams, k)) continue;
+      params[k] = v;
+      fromRun.add(k);
+    }
+  }
   if (kind !== 'expression') {
     for (const [k, v] of Object.entries(givenParams)) {
       if (!knownParams.includes(k)) {
@@ -483,7 +528,11 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   const start = params[parameter];
   const direction = (c.direction ?? defaultSettings.direction) as 'increase' | 'decrease';
   if (start < lo || start > hi) {
-    fail(`parameters.${parameter}`, `the start value ${showValue(start)} lies outside continuation.bounds ${showValue(c.bounds)}`);
+    fail(
+      `parameters.${parameter}`,
+      `the start value ${showValue(start)} lies outside continuation.bounds ${showValue(c.bounds)}` +
+        (fromRun.has(parameter) && startFrom?.point ? ` (the value at the ${startFrom.point.words}; widen the bounds or set parameters.${parameter})` : ''),
+    );
   }
   if ((start === hi && direction === 'increase') || (start === lo && direction === 'decrease')) {
     fail('continuation.direction', `'${direction}' leaves the bounds at once: the start value ${parameter} = ${start} is the ${start === hi ? 'upper' : 'lower'} bound`);
@@ -533,6 +582,14 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       );
     }
   }
+
+  // 10. plots and the start state
+  const plotMonitor = input.plot?.monitor?.trim() ?? defaultPlotMonitor(monitorNames, description.fields);
+  if (!monitorNames.includes(plotMonitor)) {
+    fail('plot.monitor', `${showValue(plotMonitor)} is not a monitor of this problem (accepted: ${monitorNames.join(', ')})`);
+  }
+  const startState = startFrom ? readStartState(startFrom, problem, params, fail) : undefined;
+
   const resolved: ResolvedCase = {
     name: input.name ?? opts.defaultName ?? 'case',
     model: modelRef,
@@ -548,6 +605,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       everyPoints: input.checkpoint?.['every-points'] ?? defaultCheckpoint.everyPoints,
       everySeconds: input.checkpoint?.['every-seconds'] ?? defaultCheckpoint.everySeconds,
     },
+    plot: { monitor: plotMonitor },
+    ...(startFrom ? { start: startFrom.resolved } : {}),
   };
 
   return {
@@ -559,7 +618,87 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     params: Object.freeze({ ...params }),
     settings: toSettings(continuation, resolved.stability.eigenvalues),
     ...(description.caution ?? registryCaution ? { caution: description.caution ?? registryCaution } : {}),
+    ...(startState ? { start: startState } : {}),
   };
+}
+
+/** The diagram's default monitor: `max` (single field), `max:<first field>`, else the first monitor. */
+export function defaultPlotMonitor(monitors: readonly string[], fields: readonly string[]): string {
+  for (const name of ['max', fields.length ? `max:${fields[0]}` : 'max', 'l2-norm', fields.length ? `l2-norm:${fields[0]}` : 'l2-norm']) {
+    if (monitors.includes(name)) return name;
+  }
+  return monitors[0] ?? 'max';
+}
+
+interface StartKey {
+  resolved: ResolvedStart;
+  /** For a start from a run point: the point (solution file, parameters, extras). */
+  point?: RunPoint;
+  /** For a start from a solution file. */
+  solution?: string;
+}
+
+/** Check the `start` key and read what it names (the run's files; the .npy later). */
+function resolveStartKey(
+  start: { solution?: string; run?: string; point?: string; branch?: number } | undefined,
+  baseDir: string,
+  fail: (field: string, detail: string) => never,
+): StartKey | undefined {
+  if (start === undefined) return undefined;
+  const accepted = '{solution: file.npy} or {run: folder, point: fold[:N], branch: K}';
+  if (start.solution !== undefined && start.run !== undefined) fail('start', `gives both solution and run (accepted: ${accepted})`);
+  if (start.solution !== undefined) {
+    if (start.point !== undefined || start.branch !== undefined) fail('start', `point and branch go with run, not with solution (accepted: ${accepted})`);
+    const file = resolve(baseDir, start.solution);
+    return { resolved: { solution: file }, solution: file };
+  }
+  if (start.run === undefined) fail('start', `names neither a solution file nor a run (accepted: ${accepted})`);
+  if (start.point === undefined) fail('start.point', `is missing (accepted: ${pointSpecAccepted})`);
+  const spec = parsePointSpec(start.point!);
+  if (!spec) fail('start.point', `${showValue(start.point)} is not accepted (accepted: ${pointSpecAccepted})`);
+  const dir = resolve(baseDir, start.run!);
+  const branch = start.branch ?? 1;
+  let files: ReturnType<typeof readRunFiles>;
+  try {
+    files = readRunFiles(dir);
+  } catch (e) {
+    return fail('start.run', (e as Error).message);
+  }
+  let point: RunPoint;
+  try {
+    point = runPoint(files, spec!, branch);
+  } catch (e) {
+    return fail('start.point', (e as Error).message);
+  }
+  return { resolved: { run: dir, point: pointSpecText(spec!), branch }, point };
+}
+
+/** Read the start state named by the `start` key and check it against the problem's grid. */
+function readStartState(start: StartKey, problem: Problem, params: Params, fail: (field: string, detail: string) => never): { u: Float64Array; from: string } {
+  const file = start.point?.solution ?? start.solution!;
+  const field = start.point ? 'start.run' : 'start.solution';
+  let array: { shape: number[]; data: Float64Array };
+  try {
+    array = readSolutionFile(file);
+  } catch (e) {
+    return fail(field, (e as Error).message);
+  }
+  const extrasByName = start.point ? start.point.extras : extrasForSolutionFile(file);
+  const extras = extrasVector(problem.extraUnknowns.map((x) => x.name), extrasByName);
+  let u: Float64Array;
+  try {
+    u = problem.fromNodeArray(array.shape, array.data, params, extras);
+  } catch (e) {
+    return fail(field, `${file}: ${(e as Error).message}`);
+  }
+  if (u.length !== problem.size) fail(field, `${file}: the model made ${u.length} unknowns from it, the problem has ${problem.size}`);
+  for (let i = 0; i < u.length; i++) {
+    if (!Number.isFinite(u[i])) fail(field, `${file}: holds non-finite values (unknown ${i})`);
+  }
+  // a phase condition measures shifts against a reference profile: the start state is the natural one
+  const withReference = problem as Problem & { setPhaseReference?: (u: Float64Array) => void };
+  if (problem.extraUnknowns.length > 0 && typeof withReference.setPhaseReference === 'function') withReference.setPhaseReference(u);
+  return { u, from: start.point ? `the ${start.point.words}` : `the solution file ${file}` };
 }
 
 function resolveStep(
@@ -625,6 +764,8 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
     output: { ...(c.output.directory !== undefined ? { directory: c.output.directory } : {}), solutions: c.output.solutions },
     stability: { eigenvalues: c.stability.eigenvalues },
     checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
+    ...(c.plot ? { plot: { monitor: c.plot.monitor } } : {}),
+    ...(c.start ? { start: { ...c.start } } : {}),
   };
 }
 

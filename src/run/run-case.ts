@@ -32,6 +32,7 @@ import {
   specialRecord,
 } from './run-directory.js';
 import { softwareVersion } from './version.js';
+import { drawPlotsAfterRun } from './plots.js';
 
 /** What runCase needs from the continuation engine (src/continuation/engine.ts). */
 export interface EngineLike {
@@ -309,7 +310,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   let stopped = false;
   try {
     engine = (options.engine ?? defaultEngine)(problem, params, settings, {
-      ...(options.start ? { start: options.start } : {}),
+      ...((options.start ?? prepared.start) ? { start: options.start ?? prepared.start!.u } : {}),
       ...(options.resume ? { state: options.resume.engineState } : {}),
     });
     const events = engine.events();
@@ -379,6 +380,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   dir.writePoints(parameter, ledger.specials);
   const final = record();
   dir.writeRunJson(final);
+  drawPlotsAfterRun(outDir, log);
   return {
     status: status as Exclude<RunStatus, 'running'>,
     directory: outDir,

@@ -1,0 +1,318 @@
+/**
+ * The pictures of a run, drawn from its files alone (run.json, branches/*.csv, points.json,
+ * solutions/*.npy), so that `branchline plot DIR` redraws them at any time — during a long run,
+ * after a stop, or with another monitor — and `run` draws them when it ends:
+ *
+ *   diagram.svg            the bifurcation diagram: the continuation parameter across, a monitor
+ *                          up (case key `plot: {monitor: ...}`; default max, or max of the first
+ *                          field); every branch; stable solid, unstable dashed, stability not
+ *                          computed dotted; special points marked and named in words
+ *   plots/<name>.svg       the solution at each special point with a solution file
+ *                          (solutions/<name>.npy): 1D one curve per field, 2D heat maps with a
+ *                          colour bar per field, 3D the middle z slice
+ *
+ * Models whose results bear on safety (ignition, runaway, buckling) carry their caution in every
+ * footer (run.json `caution`). Files are replaced atomically; plots of special points that no
+ * longer exist (a run replaced with --force) are removed.
+ */
+import { existsSync, mkdirSync, readdirSync, rmSync } from 'node:fs';
+import { basename, join } from 'node:path';
+import {
+  type DiagramBranch,
+  type DiagramSpecialPoint,
+  type SpecialPointKind,
+  SPECIAL_POINT_KINDS,
+  diagramSvg,
+  formatValue,
+  heatMapSvg,
+  linePlotSvg,
+} from '../plot/index.js';
+import { defaultPlotMonitor } from './case.js';
+import { InputError } from './errors.js';
+import type { SpecialRecord } from './run-directory.js';
+import { readPointsJson, readRunJson } from './start.js';
+import { parseJsonNumber, readCsv, readNpy, writeFileAtomic } from './writers.js';
+
+export interface PlotOptions {
+  /** Monitor on the diagram's vertical axis (default: the case's `plot.monitor`, else max). */
+  monitor?: string;
+  /** Draw the solution plots at special points (default true). */
+  solutions?: boolean;
+}
+
+export interface PlotResult {
+  /** Files written, relative to the run directory. */
+  files: string[];
+  /** Things that could not be drawn, in words. */
+  warnings: string[];
+  /** The monitor used on the diagram. */
+  monitor: string;
+}
+
+interface AxisInfo {
+  name: string;
+  intervals: number;
+  length: number;
+  h: number;
+  nodes: number;
+}
+
+/** Columns of a branch CSV that are not monitors. */
+const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step', 'stable', 'unstable-count', 'leading-real', 'leading-imag']);
+
+const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
+
+function str(v: unknown, fallback = ''): string {
+  return typeof v === 'string' ? v : fallback;
+}
+
+function num(v: unknown): number {
+  try {
+    return parseJsonNumber(v);
+  } catch {
+    return NaN;
+  }
+}
+
+/** Monitors available in a run: the CSV columns that are monitors (not the parameter, not extras). */
+function monitorColumns(columns: readonly string[], parameter: string, extras: readonly string[]): string[] {
+  return columns.filter((c) => c !== parameter && !nonMonitorColumns.has(c) && !extras.includes(c));
+}
+
+/** The title of the run's pictures. */
+function runTitle(run: Record<string, unknown>): { name: string; summary: string; grid: string } {
+  const problem = (run.problem ?? {}) as Record<string, unknown>;
+  const c = (run.case ?? {}) as Record<string, unknown>;
+  const axes = (Array.isArray(problem.axes) ? problem.axes : []) as AxisInfo[];
+  const grid = axes.length
+    ? `grid ${axes.map((a) => a.intervals).join(' × ')} intervals, h = ${axes.map((a) => formatValue(num(a.h), 4)).join(', ')}; ${num(problem.unknowns)} unknowns`
+    : '';
+  return { name: str(c.name, 'run'), summary: str(problem.summary), grid };
+}
+
+/**
+ * Draw diagram.svg and plots/*.svg of the run in `dir`. Throws InputError when `dir` holds no
+ * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
+ */
+export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
+  let run: Record<string, unknown>;
+  let specials: SpecialRecord[];
+  try {
+    run = readRunJson(dir);
+    // a run that failed before its first special point has no points.json: draw its branches
+    specials = readPointsJson(dir, true);
+  } catch (e) {
+    throw new InputError(`cannot draw: ${(e as Error).message}`);
+  }
+  const warnings: string[] = [];
+  const written: string[] = [];
+  const parameter = str(run['continuation-parameter'], 'parameter');
+  const problem = (run.problem ?? {}) as Record<string, unknown>;
+  const fields = (Array.isArray(problem.fields) ? problem.fields : []) as string[];
+  const extras = (Array.isArray(problem['extra-unknowns']) ? problem['extra-unknowns'] : []) as string[];
+  const columns = (Array.isArray(run.columns) ? run.columns : []) as string[];
+  const caution = typeof run.caution === 'string' ? run.caution : undefined;
+  const title = runTitle(run);
+  const monitors = monitorColumns(columns, parameter, extras);
+  const caseDoc = (run.case ?? {}) as { plot?: { monitor?: unknown } };
+  const monitor = options.monitor ?? str(caseDoc.plot?.monitor) ?? '';
+  const chosen = monitor !== '' ? monitor : defaultPlotMonitor(monitors, fields);
+  if (!monitors.includes(chosen)) {
+    throw new InputError(`monitor '${chosen}' is not a column of this run (accepted: ${monitors.join(', ') || 'none'})`);
+  }
+
+  // --- the diagram
+  const branchRecords = (Array.isArray(run.branches) ? run.branches : []) as { id: number; file: string }[];
+  const branchFiles = branchRecords.length
+    ? branchRecords.map((b) => ({ id: b.id, file: b.file }))
+    : listBranchFiles(dir);
+  const branches: DiagramBranch[] = [];
+  for (const b of branchFiles) {
+    const path = join(dir, b.file);
+    if (!existsSync(path)) {
+      warnings.push(`branch ${b.id}: ${b.file} is missing`);
+      continue;
+    }
+    let csv: { columns: string[]; rows: number[][] };
+    try {
+      csv = readCsv(path);
+    } catch (e) {
+      warnings.push(`branch ${b.id}: ${(e as Error).message}`);
+      continue;
+    }
+    const ip = csv.columns.indexOf(parameter);
+    const im = csv.columns.indexOf(chosen);
+    const is = csv.columns.indexOf('stable');
+    if (ip < 0 || im < 0) {
+      warnings.push(`branch ${b.id}: ${b.file} has no column ${ip < 0 ? parameter : chosen}`);
+      continue;
+    }
+    branches.push({
+      id: b.id,
+      points: csv.rows.map((r) => ({
+        parameter: r[ip],
+        monitor: r[im],
+        stable: is < 0 || Number.isNaN(r[is]) ? null : r[is] === 1,
+      })),
+    });
+  }
+  const ids = new Set(branches.map((b) => String(b.id)));
+  const shown: DiagramSpecialPoint[] = [];
+  for (const s of specials) {
+    if (!(SPECIAL_POINT_KINDS as readonly string[]).includes(s.kind) || !ids.has(String(s.branch))) continue;
+    const m = s.monitors?.[chosen];
+    const value = num(s.value);
+    if (typeof m !== 'number' || !Number.isFinite(m) || !Number.isFinite(value)) continue;
+    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: 'end' } : {}) });
+  }
+  const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
+  const svg = diagramSvg({
+    title: `${title.name}: ${parameter} against ${chosen}${statusNote}`,
+    subtitle: [title.summary, title.grid].filter((t) => t !== '').join('; '),
+    parameterName: parameter,
+    monitorName: chosen,
+    branches,
+    specialPoints: shown,
+    ...(caution ? { caution } : {}),
+  });
+  writeFileAtomic(join(dir, 'diagram.svg'), svg);
+  written.push('diagram.svg');
+
+  // --- the solutions at special points
+  const plotsDir = join(dir, 'plots');
+  const keep = new Set<string>();
+  if (options.solutions !== false) {
+    const axes = (Array.isArray(problem.axes) ? problem.axes : []) as AxisInfo[];
+    for (const s of specials) {
+      if (typeof s.solution !== 'string') continue;
+      const name = basename(s.solution).replace(/\.npy$/, '');
+      const file = `plots/${name}.svg`;
+      try {
+        const array = readNpy(join(dir, s.solution));
+        const plot = solutionSvg(array, s, { fields, axes, parameter, caution, caseName: title.name, monitor: chosen });
+        mkdirSync(plotsDir, { recursive: true });
+        writeFileAtomic(join(dir, file), plot);
+        written.push(file);
+        keep.add(`${name}.svg`);
+      } catch (e) {
+        warnings.push(`${s.solution}: not drawn (${(e as Error).message})`);
+      }
+    }
+  }
+  // plots of special points this run no longer has (an earlier run replaced with --force)
+  if (existsSync(plotsDir)) {
+    for (const f of readdirSync(plotsDir)) {
+      if (/^branch-\d+-.*\.svg$/.test(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
+    }
+  }
+  return { files: written, warnings, monitor: chosen };
+}
+
+
+/** Branch CSVs in branches/ (when run.json lists none, e.g. a run that failed early). */
+function listBranchFiles(dir: string): { id: number; file: string }[] {
+  const folder = join(dir, 'branches');
+  if (!existsSync(folder)) return [];
+  return readdirSync(folder)
+    .map((f) => /^(\d+)\.csv$/.exec(f))
+    .filter((m): m is RegExpExecArray => m !== null)
+    .map((m) => ({ id: Number(m[1]), file: `branches/${m[0]}` }))
+    .sort((a, b) => a.id - b.id);
+}
+
+interface SolutionContext {
+  fields: readonly string[];
+  axes: readonly AxisInfo[];
+  parameter: string;
+  caution?: string;
+  caseName: string;
+  monitor: string;
+}
+
+/** `fold 2 on branch 1`, `the end of branch 3` (from the record and its file name). */
+function pointTitle(s: SpecialRecord): string {
+  const k = /-(\d+)\.npy$/.exec(String(s.solution ?? ''))?.[1];
+  if (s.kind === 'end') return `the end of branch ${s.branch}`;
+  const words = kindWords[s.kind] ?? s.kind.replace(/-/g, ' ');
+  return `${words}${k ? ` ${k}` : ''} on branch ${s.branch}`;
+}
+
+/** One line under the title: parameter value, the diagram's monitor, extra unknowns, location status. */
+function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
+  const parts = [`${ctx.parameter} = ${formatValue(num(s.value), 10)}`];
+  const m = s.monitors?.[ctx.monitor];
+  if (typeof m === 'number') parts.push(`${ctx.monitor} = ${formatValue(m, 6)}`);
+  const extras = s['extra-unknowns'];
+  if (extras && typeof extras === 'object') {
+    for (const [k, v] of Object.entries(extras as Record<string, unknown>)) parts.push(`${k} = ${formatValue(num(v), 6)}`);
+  }
+  if (s.kind === 'hopf' && typeof s.frequency === 'number') parts.push(`frequency ${formatValue(s.frequency, 5)}`);
+  if (s.kind === 'branch-point' && typeof s.type === 'string' && s.type !== 'unknown') parts.push(String(s.type));
+  if (s.located === false) parts.push('not fully located');
+  return `${parts.join(', ')}; case ${ctx.caseName}`;
+}
+
+/** The solution plot of one special point: a line plot (1D) or heat maps (2D; 3D: the middle z slice). */
+export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: SpecialRecord, ctx: SolutionContext): string {
+  const { shape, data } = array;
+  const dim = shape.length - 1;
+  if (dim < 1 || dim > 3) throw new Error(`shape (${shape.join(', ')}) is not (fields, [nz, ny,] nx)`);
+  const nf = shape[0];
+  const names = ctx.fields.length === nf ? ctx.fields : Array.from({ length: nf }, (_, i) => `field ${i + 1}`);
+  const nodes = shape.slice(1).reduce((a, b) => a * b, 1);
+  const axis = (i: number): AxisInfo | undefined => ctx.axes[i];
+  const what = names.length === 1 ? names[0] : names.join(', ');
+  const title = `${what} at ${pointTitle(s)}`;
+  let subtitle = pointSubtitle(s, ctx);
+  const caution = ctx.caution ? { caution: ctx.caution } : {};
+  if (dim === 1) {
+    const nx = shape[1];
+    const h = axis(0)?.h ?? 1;
+    const x = Float64Array.from({ length: nx }, (_, i) => i * h);
+    return linePlotSvg({
+      title,
+      subtitle,
+      x,
+      xLabel: axis(0)?.name ?? 'x',
+      fields: names.map((name, f) => ({ name, values: data.subarray(f * nodes, (f + 1) * nodes) })),
+      ...(names.length === 1 ? { yLabel: names[0] } : {}),
+      ...caution,
+    });
+  }
+  // 2D, or the middle z slice of 3D (axes in x, y, z order; the array's last index is x)
+  const nx = shape[shape.length - 1];
+  const ny = shape[shape.length - 2];
+  const nz = dim === 3 ? shape[1] : 1;
+  const kz = Math.floor(nz / 2);
+  if (dim === 3) subtitle += `; the slice z = ${formatValue(kz * (axis(2)?.h ?? 1), 4)} (node ${kz} of ${nz})`;
+  const hx = axis(0)?.h ?? 1;
+  const hy = axis(1)?.h ?? 1;
+  return heatMapSvg({
+    title,
+    subtitle,
+    nx,
+    ny,
+    ...(nx > 1 ? { x: [0, (nx - 1) * hx] as const } : {}),
+    ...(ny > 1 ? { y: [0, (ny - 1) * hy] as const } : {}),
+    xLabel: axis(0)?.name ?? 'x',
+    yLabel: axis(1)?.name ?? 'y',
+    fields: names.map((name, f) => ({ name, values: data.subarray(f * nodes + kz * nx * ny, f * nodes + (kz + 1) * nx * ny) })),
+    idPrefix: basename(String(s.solution ?? 'solution')).replace(/\.npy$/, ''),
+    ...caution,
+  });
+}
+
+/**
+ * Draw a run's plots after the run (the `run` command): never throws; problems become one
+ * warning line each.
+ */
+export function drawPlotsAfterRun(dir: string, log: (level: 'info' | 'warning', message: string) => void = () => {}): void {
+  try {
+    const r = drawRunPlots(dir);
+    for (const w of r.warnings) log('warning', `plot: ${w}`);
+    const n = r.files.length - 1;
+    log('info', `drew diagram.svg${n > 0 ? ` and ${n} solution plot${n === 1 ? '' : 's'} in plots/` : ''}`);
+  } catch (e) {
+    log('warning', `the plots could not be drawn: ${(e as Error).message}`);
+  }
+}
