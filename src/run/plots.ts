@@ -79,6 +79,15 @@ function monitorColumns(columns: readonly string[], parameter: string, extras: r
   return columns.filter((c) => c !== parameter && !nonMonitorColumns.has(c) && !extras.includes(c));
 }
 
+/** A monitor column in words for an axis title: `max` → `max u`, `l2-norm:v` → `L2 norm of v`. */
+export function monitorWords(monitor: string, fields: readonly string[]): string {
+  const m = /^(max|min|l2-norm)(?::(.+))?$/.exec(monitor);
+  if (!m) return monitor;
+  const field = m[2] ?? (fields.length === 1 ? fields[0] : undefined);
+  if (field === undefined) return monitor;
+  return m[1] === 'l2-norm' ? `L2 norm of ${field}` : `${m[1]} ${field}`;
+}
+
 /** The title of the run's pictures. */
 function runTitle(run: Record<string, unknown>): { name: string; summary: string; grid: string } {
   const problem = (run.problem ?? {}) as Record<string, unknown>;
@@ -167,10 +176,10 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   }
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
   const svg = diagramSvg({
-    title: `${title.name}: ${parameter} against ${chosen}${statusNote}`,
+    title: `${title.name}: ${monitorWords(chosen, fields)} against ${parameter}${statusNote}`,
     subtitle: [title.summary, title.grid].filter((t) => t !== '').join('; '),
     parameterName: parameter,
-    monitorName: chosen,
+    monitorName: monitorWords(chosen, fields),
     branches,
     specialPoints: shown,
     ...(caution ? { caution } : {}),

@@ -6,5 +6,7 @@ import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { registerModels } from './models.js';
 import { registerRun } from './run.js';
+import { registerRefine } from './refine.js';
+import { registerPlot } from './plot.js';
 
-export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerModels];
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerModels, registerRefine, registerPlot];

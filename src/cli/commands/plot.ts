@@ -1,0 +1,44 @@
+import type { Command } from 'commander';
+import type { CommandContext } from '../io.js';
+import { existsSync } from 'node:fs';
+import { join, relative, resolve } from 'node:path';
+import { drawRunPlots } from '../../run/plots.js';
+import { drawStudyPlots } from '../../refine/study.js';
+
+/** `branchline plot DIR`: (re)draw the SVG pictures of a run, or of a refinement study, from its files. */
+export function registerPlot(program: Command, { io, setExit }: CommandContext): void {
+  program
+    .command('plot')
+    .description('(re)draw the pictures of a run folder from its files: diagram.svg and plots/*.svg (or refine.svg and every grid of a refinement study)')
+    .argument('<dir>', 'a run folder (with run.json) or a refinement-study folder (with refine.json)')
+    .option('--monitor <name>', "monitor on the diagram's vertical axis (default: the case's plot.monitor, else max)")
+    .action((dir: string, opts: { monitor?: string }) => {
+      const abs = resolve(dir);
+      const shown = relative(process.cwd(), abs) || '.';
+      const where = shown.startsWith('..') ? abs : shown;
+      const options = opts.monitor !== undefined ? { monitor: opts.monitor } : {};
+      if (existsSync(join(abs, 'refine.json')) && !existsSync(join(abs, 'run.json'))) {
+        const r = drawStudyPlots(abs, options);
+        for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
+        io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where}: ${summarise(r.files)}\n`);
+        setExit(r.warnings.length ? 1 : 0);
+        return;
+      }
+      const r = drawRunPlots(abs, options);
+      for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
+      io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (diagram: ${r.monitor} against the continuation parameter): ${summarise(r.files)}\n`);
+      setExit(r.warnings.length ? 1 : 0);
+    });
+}
+
+/** `diagram.svg, plots/ (3 files)`. */
+function summarise(files: readonly string[]): string {
+  const top = files.filter((f) => !f.includes('/'));
+  const groups = new Map<string, number>();
+  for (const f of files) {
+    if (!f.includes('/')) continue;
+    const g = f.slice(0, f.indexOf('/') + 1);
+    groups.set(g, (groups.get(g) ?? 0) + 1);
+  }
+  return [...top, ...[...groups].map(([g, n]) => `${g} (${n} file${n === 1 ? '' : 's'})`)].join(', ');
+}

@@ -1,0 +1,632 @@
+/**
+ * Grid-refinement studies: run one case on a sequence of grids, locate the same special point on
+ * each (the N-th fold, branch point or Hopf point along a branch), and analyse the located
+ * parameter values with the observed order of convergence, Richardson extrapolation and the grid
+ * convergence index (./richardson.ts; Richardson 1911, Roache 1994, Celik et al. 2008).
+ *
+ * Grids: `grids` lists the intervals along the first axis; every other axis is scaled by the same
+ * factor from the case's grid, on the same physical domain (a case on 32 × 16 intervals studied
+ * with grids 32, 64, 128 runs 32 × 16, 64 × 32, 128 × 64). Any ratios are allowed, non-uniform
+ * ones too; a grid that would need a fractional number of intervals on some axis is refused.
+ *
+ * The study folder:
+ *   refine.csv      grid, unknowns, h, value, difference, observed-order (coarsest grid first)
+ *   refine.json     the analysis (point, parameter, values, order, extrapolated, error-estimate,
+ *                   asymptotic-range, warnings) and the runs
+ *   refine.svg      value against h with the extrapolated value; log–log error against h
+ *   grid-<N>/       the run folder of each grid (run.json, points.json, branches, solutions,
+ *                   diagram.svg, plots/), to be inspected like any other run
+ *
+ * Grids run one after another in this process, or in `jobs` worker processes side by side
+ * (./worker.ts; needs the compiled program). No command-line code here: the `refine` command
+ * (src/cli/commands/refine.ts) parses its options and prints `formatStudySummary`.
+ */
+import { type ChildProcess, fork } from 'node:child_process';
+import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { join, relative, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { formatValue, refinementSvg } from '../plot/index.js';
+import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.js';
+import { InputError } from '../run/errors.js';
+import { drawRunPlots } from '../run/plots.js';
+import { runCase } from '../run/run-case.js';
+import type { SpecialRecord } from '../run/run-directory.js';
+import { type PointSpec, availablePoints, findSpecial, pointSpecText, pointWords, readPointsJson } from '../run/start.js';
+import { softwareVersion } from '../run/version.js';
+import { csvLine, parseJsonNumber, writeFileAtomic, writeJsonAtomic } from '../run/writers.js';
+import { REFINEMENT_COLUMNS, refinementJson, refinementRows } from './output.js';
+import { type RefinementResult, analyseRefinement } from './richardson.js';
+
+export const studyFormat = 'branchline refinement';
+export const studyFormatVersion = 1;
+
+/** Formal order of the finite differences of the built-in and expression models. */
+export const secondOrder = 2;
+
+export interface StudyOptions {
+  /** Intervals along the first axis, one per grid (at least two; three or more for an observed order). */
+  grids: readonly number[];
+  /** Which special point (default: the first fold). */
+  point?: PointSpec;
+  /** Along which branch (default 1). */
+  branch?: number;
+  /** Grids run side by side in this many worker processes (default 1: one after another here). */
+  jobs?: number;
+  /** The study folder. */
+  outDir: string;
+  /** Replace an earlier study in a non-empty folder (only a folder holding a refinement study). */
+  force?: boolean;
+  /** Formal order of the discretisation (default 2 for built-in and expression models; none for code models). */
+  expectedOrder?: number | null;
+  /** Order assumed with only two grids (default the expected order). */
+  signal?: AbortSignal;
+  log?: (level: 'info' | 'warning', message: string) => void;
+  /** The compiled worker script (default ./worker.js beside this module). */
+  workerScript?: string;
+}
+
+export interface GridRun {
+  /** The number given in `grids` (intervals along the first axis). */
+  grid: number;
+  intervals: number[];
+  /** Folder relative to the study folder. */
+  directory: string;
+  status: 'finished' | 'stopped' | 'failed';
+  failure?: string;
+  unknowns?: number;
+  /** Largest grid spacing over the axes. */
+  h?: number;
+  seconds?: number;
+  /** The located value of the special point, when found. */
+  value?: number;
+  located?: boolean;
+}
+
+export interface StudyResult {
+  status: 'finished' | 'stopped' | 'failed';
+  directory: string;
+  caseName: string;
+  parameter: string;
+  point: PointSpec;
+  branch: number;
+  /** `fold 1 on branch 1`. */
+  pointText: string;
+  runs: GridRun[];
+  analysis?: RefinementResult;
+  /** The refine.json document. */
+  json: Record<string, unknown>;
+  /** Warnings of the study (grids without the point, failed runs) and of the analysis. */
+  warnings: string[];
+  failure?: string;
+  caution?: string;
+  files: string[];
+}
+
+// ---------------------------------------------------------------------------------------------
+// Grids
+
+/** Intervals per axis for each grid: every axis scaled like the first (clear error otherwise). */
+export function scaledGrids(caseIntervals: readonly number[], grids: readonly number[]): number[][] {
+  if (grids.length < 2) throw new InputError(`refine needs at least two grids (three or more to observe the order), got ${grids.length}`);
+  const seen = new Set<number>();
+  return grids.map((g) => {
+    if (!Number.isInteger(g) || g < 2) throw new InputError(`grid ${g} is not accepted (accepted: whole numbers of intervals of at least 2)`);
+    if (seen.has(g)) throw new InputError(`grid ${g} is listed twice`);
+    seen.add(g);
+    return caseIntervals.map((n, a) => {
+      if (a === 0) return g;
+      const v = (n * g) / caseIntervals[0];
+      const r = Math.round(v);
+      if (Math.abs(v - r) > 1e-9 || r < 2) {
+        const axis = 'xyz'[a];
+        throw new InputError(
+          `grid ${g} would need ${Number(v.toPrecision(6))} intervals along ${axis} (the case grid ${caseIntervals.join(' × ')} keeps its proportions on every grid); choose grids that scale every axis to whole numbers`,
+        );
+      }
+      return r;
+    });
+  });
+}
+
+/** `64` or `64x32`. */
+export function gridLabel(intervals: readonly number[]): string {
+  return intervals.join('x');
+}
+
+// ---------------------------------------------------------------------------------------------
+// The study folder
+
+function isOurStudy(dir: string): boolean {
+  try {
+    const doc = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as { format?: unknown };
+    return doc.format === studyFormat;
+  } catch {
+    return false;
+  }
+}
+
+function isOurRun(dir: string): boolean {
+  try {
+    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as { format?: unknown };
+    return doc.format === 'branchline run';
+  } catch {
+    return false;
+  }
+}
+
+/**
+ * Prepare the study folder: empty or new; with `force`, an earlier study is replaced (its
+ * refine.* files and grid-* run folders removed, anything else left alone).
+ */
+function prepareFolder(dir: string, force: boolean | undefined): void {
+  if (existsSync(dir)) {
+    if (!statSync(dir).isDirectory()) throw new InputError(`output folder ${dir} exists and is a file, not a folder`);
+    const entries = readdirSync(dir);
+    if (entries.length > 0) {
+      if (!force) {
+        throw new InputError(
+          `output folder ${dir} is not empty (${isOurStudy(dir) ? 'it holds an earlier refinement study' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier study`,
+        );
+      }
+      if (!isOurStudy(dir)) {
+        throw new InputError(`output folder ${dir} is not empty and holds no earlier refinement study; --force replaces only an earlier study, choose another folder with --out`);
+      }
+      for (const e of entries) {
+        const path = join(dir, e);
+        if (/^refine\.(csv|json|svg)$/.test(e) || /^\..*\.tmp$/.test(e)) rmSync(path, { force: true });
+        else if (/^grid-[\dx]+$/.test(e) && statSync(path).isDirectory() && (isOurRun(path) || readdirSync(path).length === 0)) rmSync(path, { recursive: true, force: true });
+      }
+    }
+  }
+  try {
+    mkdirSync(dir, { recursive: true });
+  } catch (e) {
+    throw new InputError(`output folder ${dir} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Running the grids
+
+interface GridTask {
+  grid: number;
+  intervals: number[];
+  directory: string;
+  /** The case document for this grid (resolved keys, absolute paths). */
+  doc: Record<string, unknown>;
+  label: string;
+  baseDir: string;
+  prepared: PreparedCase;
+}
+
+/** What a finished (or failed) grid run left in its folder. */
+function readOutcome(task: GridTask, studyDir: string, thrown?: string): GridRun & { specials: SpecialRecord[] } {
+  const abs = join(studyDir, task.directory);
+  const base = { grid: task.grid, intervals: task.intervals, directory: task.directory };
+  let run: Record<string, unknown>;
+  try {
+    run = JSON.parse(readFileSync(join(abs, 'run.json'), 'utf8')) as Record<string, unknown>;
+  } catch {
+    return { ...base, status: 'failed', failure: thrown ?? 'the run wrote no run.json', specials: [] };
+  }
+  const problem = (run.problem ?? {}) as { unknowns?: number; axes?: { h: number }[] };
+  const status = run.status === 'finished' || run.status === 'stopped' ? run.status : 'failed';
+  const failure = typeof run.failure === 'string' ? run.failure : thrown;
+  const timings = (run.timings ?? {}) as Record<string, unknown>;
+  let specials: SpecialRecord[] = [];
+  try {
+    specials = readPointsJson(abs, true);
+  } catch {
+    specials = [];
+  }
+  const hs = (problem.axes ?? []).map((a) => parseJsonNumber(a.h));
+  return {
+    ...base,
+    status,
+    ...(failure !== undefined ? { failure } : {}),
+    ...(typeof problem.unknowns === 'number' ? { unknowns: problem.unknowns } : {}),
+    ...(hs.length ? { h: Math.max(...hs) } : {}),
+    ...(typeof timings['total-seconds'] === 'number' ? { seconds: timings['total-seconds'] } : {}),
+    specials,
+  };
+}
+
+async function runHere(task: GridTask, studyDir: string, options: StudyOptions): Promise<string | undefined> {
+  const log = options.log ?? (() => {});
+  try {
+    await runCase(task.prepared, {
+      outDir: join(studyDir, task.directory),
+      ...(options.signal ? { signal: options.signal } : {}),
+      log: (level, message) => {
+        if (level === 'warning') log('warning', `grid ${task.grid}: ${message}`);
+      },
+    });
+    return undefined;
+  } catch (e) {
+    return e instanceof Error ? e.message : String(e);
+  }
+}
+
+/** The default worker script: ./worker.js beside this module (present in the compiled program). */
+export function defaultWorkerScript(): string | undefined {
+  const file = fileURLToPath(new URL('./worker.js', import.meta.url));
+  return existsSync(file) ? file : undefined;
+}
+
+function runInWorker(task: GridTask, studyDir: string, script: string, options: StudyOptions, children: Set<ChildProcess>): Promise<string | undefined> {
+  const log = options.log ?? (() => {});
+  return new Promise((done) => {
+    let settled = false;
+    let error: string | undefined;
+    const child = fork(script, [], { stdio: ['ignore', 'ignore', 'pipe', 'ipc'], serialization: 'advanced' });
+    children.add(child);
+    let stderr = '';
+    child.stderr?.on('data', (d: Buffer) => {
+      stderr += d.toString();
+      if (stderr.length > 4000) stderr = stderr.slice(-4000);
+    });
+    child.on('message', (m: unknown) => {
+      const msg = m as { type?: string; level?: 'info' | 'warning'; message?: string };
+      if (msg.type === 'log' && msg.level === 'warning') log('warning', `grid ${task.grid}: ${msg.message}`);
+      if (msg.type === 'error') error = msg.message;
+    });
+    const finish = (why?: string): void => {
+      if (settled) return;
+      settled = true;
+      children.delete(child);
+      done(error ?? why);
+    };
+    child.on('error', (e) => finish(`the worker process failed: ${e.message}`));
+    child.on('exit', (code, signal) => {
+      if (code === 0) finish(undefined);
+      else finish(`the worker process ended with ${signal ?? `exit code ${code}`}${stderr.trim() ? `: ${stderr.trim().split('\n').pop()}` : ''}`);
+    });
+    child.send({ doc: task.doc, label: task.label, baseDir: task.baseDir, outDir: join(studyDir, task.directory) });
+  });
+}
+
+/** Run `tasks` with at most `jobs` at a time, in order of the list. */
+async function pool<T>(items: readonly T[], jobs: number, work: (item: T) => Promise<void>): Promise<void> {
+  let next = 0;
+  const lanes = Array.from({ length: Math.max(1, Math.min(jobs, items.length)) }, async () => {
+    while (next < items.length) {
+      const item = items[next++];
+      await work(item);
+    }
+  });
+  await Promise.all(lanes);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The study
+
+/**
+ * Run the study. Bad input (grids, folder, a case that does not fit every grid) throws
+ * InputError before anything is written; numerical trouble on a grid is reported in the result.
+ */
+export async function runStudy(prepared: PreparedCase, options: StudyOptions): Promise<StudyResult> {
+  const log = options.log ?? (() => {});
+  const studyDir = resolve(options.outDir);
+  const branch = options.branch ?? 1;
+  if (!Number.isInteger(branch) || branch < 1) throw new InputError(`branch ${branch} is not accepted (accepted: a branch number from 1)`);
+  const jobs = options.jobs ?? 1;
+  if (!Number.isInteger(jobs) || jobs < 1) throw new InputError(`jobs ${jobs} is not accepted (accepted: a whole number of at least 1)`);
+  if (prepared.case.start) {
+    throw new InputError(
+      `${prepared.label}: start: a saved start state fits only the grid it was computed on; remove the start key for a refinement study (every grid starts from the model's initial guess)`,
+    );
+  }
+  const parameter = prepared.settings.parameter;
+  const expected = options.expectedOrder !== undefined ? options.expectedOrder : prepared.case.modelKind === 'code' ? null : secondOrder;
+  if (expected !== null && !(Number.isFinite(expected) && expected > 0)) throw new InputError(`expected order ${expected} is not accepted (accepted: a positive number)`);
+  const intervals = scaledGrids(prepared.case.grid.intervals, options.grids);
+
+  // every grid's case is checked (and its problem built) before anything is written
+  const base = caseDocument(prepared.case);
+  delete (base as { output?: { directory?: string } }).output?.directory;
+  const tasks: GridTask[] = [];
+  for (let i = 0; i < intervals.length; i++) {
+    const doc = structuredClone(base) as Record<string, unknown> & { grid: { intervals: number[]; length: number[] } };
+    doc.grid = { intervals: intervals[i], length: prepared.case.grid.length.slice() };
+    const label = `${prepared.label} (grid ${gridLabel(intervals[i])})`;
+    const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}) });
+    tasks.push({ grid: options.grids[i], intervals: intervals[i], directory: `grid-${gridLabel(intervals[i])}`, doc, label, baseDir: prepared.baseDir, prepared: p });
+  }
+  prepareFolder(studyDir, options.force);
+
+  const script = jobs > 1 ? (options.workerScript ?? defaultWorkerScript()) : undefined;
+  if (jobs > 1 && !script) log('warning', 'parallel jobs need the compiled program (npm run build); the grids run one after another in this process');
+  const children = new Set<ChildProcess>();
+  const onAbort = (): void => {
+    for (const c of children) c.kill('SIGINT');
+  };
+  options.signal?.addEventListener('abort', onAbort);
+  const thrown = new Map<GridTask, string | undefined>();
+  try {
+    await pool(tasks, script ? jobs : 1, async (task) => {
+      if (options.signal?.aborted) {
+        thrown.set(task, 'not run: the study was stopped');
+        return;
+      }
+      log('info', `grid ${gridLabel(task.intervals)}: running (${task.prepared.problem.size} unknowns)`);
+      const err = script ? await runInWorker(task, studyDir, script, options, children) : await runHere(task, studyDir, options);
+      thrown.set(task, err);
+      const o = readOutcome(task, studyDir, err);
+      log(o.status === 'finished' ? 'info' : 'warning', `grid ${gridLabel(task.intervals)}: ${o.status}${o.failure ? ` (${o.failure})` : ''}${o.seconds !== undefined ? ` in ${o.seconds.toFixed(1)} s` : ''}`);
+    });
+  } finally {
+    options.signal?.removeEventListener('abort', onAbort);
+  }
+
+  const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t)));
+  return finishStudy(prepared, { studyDir, branch, parameter, expected, point: options.point, outcomes, stopped: options.signal?.aborted ?? false });
+}
+
+/** Pick the point, analyse, write refine.csv / refine.json / refine.svg. */
+function finishStudy(
+  prepared: PreparedCase,
+  s: {
+    studyDir: string;
+    branch: number;
+    parameter: string;
+    expected: number | null;
+    point?: PointSpec;
+    outcomes: (GridRun & { specials: SpecialRecord[] })[];
+    stopped: boolean;
+  },
+): StudyResult {
+  const warnings: string[] = [];
+  const { branch, parameter, outcomes } = s;
+  // the default point: the first fold; when no grid has one, say what there is
+  let spec = s.point;
+  let failure: string | undefined;
+  if (!spec) {
+    spec = { kind: 'fold', index: 1 };
+    if (!outcomes.some((o) => findSpecial(o.specials, spec!, branch))) {
+      const withPoints = outcomes.find((o) => o.specials.length > 0);
+      failure = `no fold on branch ${branch} on any grid; choose the point with --point (grid ${withPoints ? gridLabel(withPoints.intervals) : gridLabel(outcomes[0].intervals)} has: ${withPoints ? availablePoints(withPoints.specials) : 'no special points'})`;
+    }
+  }
+  const pointText = `${pointWords(spec)} on branch ${branch}`;
+  const runs: GridRun[] = outcomes.map((o) => {
+    const { specials, ...run } = o;
+    const rec = findSpecial(specials, spec!, branch);
+    if (rec && Number.isFinite(rec.value)) {
+      run.value = rec.value;
+      run.located = rec.located !== false;
+      if (rec.located === false) warnings.push(`grid ${o.grid}: the ${pointText} was not fully located; its value is the best estimate`);
+      if (o.status !== 'finished') warnings.push(`grid ${o.grid}: the run ${o.status === 'stopped' ? 'was stopped' : `failed (${o.failure ?? 'no reason given'})`} after locating the ${pointText}; its value is used`);
+    } else if (!failure) {
+      const why = o.status !== 'finished' ? `the run ${o.status === 'stopped' ? 'was stopped' : `failed (${o.failure ?? 'no reason given'})`}` : `it has ${availablePoints(specials)}`;
+      warnings.push(`grid ${o.grid}: no ${pointText} (${why})`);
+    }
+    return run;
+  });
+
+  const found = runs.filter((r) => r.value !== undefined && r.h !== undefined);
+  let analysis: RefinementResult | undefined;
+  if (found.length >= 1 && !failure) {
+    try {
+      analysis = analyseRefinement(
+        found.map((r) => ({ h: r.h!, value: r.value!, intervals: r.intervals, ...(r.unknowns !== undefined ? { unknowns: r.unknowns } : {}) })),
+        { ...(s.expected !== null ? { expectedOrder: s.expected, assumedOrder: s.expected } : {}) },
+      );
+    } catch (e) {
+      failure = `the analysis failed: ${(e as Error).message}`;
+    }
+  }
+  if (!failure && found.length < runs.length) {
+    failure = `${runs.length - found.length} of ${runs.length} grids have no ${pointText}`;
+  }
+  const status: StudyResult['status'] = s.stopped ? 'stopped' : failure ? 'failed' : 'finished';
+
+  // refine.csv: the grids that have the point, coarsest first
+  const files: string[] = [];
+  const byH = new Map(found.map((r) => [r.h!, r]));
+  const rows = analysis ? refinementRows(analysis) : [];
+  let csv = csvLine([...REFINEMENT_COLUMNS]);
+  for (const row of rows) {
+    const r = byH.get(row.h);
+    csv += csvLine([r?.grid ?? row.grid, row.unknowns, row.h, row.value, row.difference, row['observed-order']]);
+  }
+  writeFileAtomic(join(s.studyDir, 'refine.csv'), csv);
+  files.push('refine.csv');
+
+  const analysisJson = analysis ? refinementJson(analysis, { point: pointText, parameter }) : undefined;
+  const allWarnings = [...warnings, ...(analysis?.warnings.map((w) => w.message) ?? [])];
+  const json: Record<string, unknown> = {
+    format: studyFormat,
+    'format-version': studyFormatVersion,
+    software: { ...softwareVersion(), node: process.version },
+    status,
+    ...(failure ? { failure } : {}),
+    'case-file': prepared.file ?? null,
+    case: prepared.case.name,
+    model: prepared.problem.describe().summary,
+    point: pointText,
+    'point-kind': spec.kind,
+    'point-number': spec.index,
+    branch,
+    parameter,
+    'expected-order': s.expected,
+    values: analysisJson?.values.map((v) => ({ ...v, grid: byH.get(v.h)?.grid ?? v.grid })) ?? [],
+    order: analysisJson?.order ?? null,
+    'order-source': analysisJson?.['order-source'] ?? 'none',
+    extrapolated: analysisJson?.extrapolated ?? null,
+    'error-estimate': analysisJson?.['error-estimate'] ?? null,
+    'safety-factor': analysisJson?.['safety-factor'] ?? null,
+    'grid-convergence-index': analysisJson?.['grid-convergence-index'] ?? null,
+    'extrapolation-spread': analysisJson?.['extrapolation-spread'] ?? null,
+    'asymptotic-range': analysisJson?.['asymptotic-range'] ?? 'unverified',
+    warnings: allWarnings,
+    runs: runs.map((r) => ({
+      grid: r.grid,
+      intervals: r.intervals,
+      directory: r.directory,
+      status: r.status,
+      ...(r.failure ? { failure: r.failure } : {}),
+      ...(r.unknowns !== undefined ? { unknowns: r.unknowns } : {}),
+      ...(r.h !== undefined ? { h: r.h } : {}),
+      ...(r.value !== undefined ? { value: r.value, located: r.located } : {}),
+      ...(r.seconds !== undefined ? { seconds: r.seconds } : {}),
+    })),
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+  };
+  writeJsonAtomic(join(s.studyDir, 'refine.json'), json);
+  files.push('refine.json');
+  try {
+    writeFileAtomic(join(s.studyDir, 'refine.svg'), studySvg(json));
+    files.push('refine.svg');
+  } catch (e) {
+    allWarnings.push(`refine.svg not drawn: ${(e as Error).message}`);
+  }
+  return {
+    status,
+    directory: s.studyDir,
+    caseName: prepared.case.name,
+    parameter,
+    point: spec,
+    branch,
+    pointText,
+    runs,
+    ...(analysis ? { analysis } : {}),
+    json,
+    warnings: allWarnings,
+    ...(failure ? { failure } : {}),
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+    files,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// The picture
+
+function jsonNumber(v: unknown): number | null {
+  if (v === null || v === undefined) return null;
+  try {
+    const x = parseJsonNumber(v);
+    return Number.isFinite(x) ? x : null;
+  } catch {
+    return null;
+  }
+}
+
+/** refine.svg from a refine.json document. */
+export function studySvg(json: Record<string, unknown>): string {
+  const values = (Array.isArray(json.values) ? json.values : []) as { grid: number; h: unknown; value: unknown }[];
+  const points = values.map((v) => ({ h: jsonNumber(v.h) ?? NaN, value: jsonNumber(v.value) ?? NaN })).filter((p) => Number.isFinite(p.h) && Number.isFinite(p.value));
+  if (points.length === 0) throw new Error('no grid has a value to show');
+  const parameter = String(json.parameter ?? 'value');
+  const point = String(json.point ?? 'the point');
+  const order = jsonNumber(json.order);
+  const extrapolated = jsonNumber(json.extrapolated);
+  const error = jsonNumber(json['error-estimate']);
+  const expected = jsonNumber(json['expected-order']);
+  const grids = values.map((v) => v.grid).join(', ');
+  const parts = [`grids ${grids}`];
+  if (order !== null) parts.push(`${json['order-source'] === 'assumed' ? 'assumed' : 'observed'} order ${formatValue(order, 3)}`);
+  if (extrapolated !== null) parts.push(`extrapolated ${parameter} = ${formatValue(extrapolated, 9)}${error !== null ? ` ± ${formatValue(error, 2)}` : ''}`);
+  const range = json['asymptotic-range'];
+  if (range === 'not-reached') parts.push('NOT in the asymptotic range (see refine.json warnings)');
+  return refinementSvg({
+    title: `${String(json.case ?? 'case')}: grid refinement of ${parameter} at the ${point}`,
+    subtitle: parts.join('; '),
+    valueName: `${parameter} at the ${point.replace(/ on branch \d+$/, '')}`,
+    points,
+    extrapolated,
+    errorEstimate: error,
+    order,
+    ...(expected !== null ? { expectedOrder: expected } : {}),
+    ...(typeof json.caution === 'string' ? { caution: json.caution } : {}),
+  });
+}
+
+/** Redraw a study's pictures: refine.svg and every grid's run pictures (the `plot` command). */
+export function drawStudyPlots(dir: string, options: { monitor?: string } = {}): { files: string[]; warnings: string[] } {
+  let json: Record<string, unknown>;
+  try {
+    json = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as Record<string, unknown>;
+  } catch (e) {
+    throw new InputError(`cannot draw: ${join(dir, 'refine.json')} cannot be read (${(e as Error).message})`);
+  }
+  if (json.format !== studyFormat) throw new InputError(`cannot draw: ${join(dir, 'refine.json')} is not a branchline refinement study`);
+  const files: string[] = [];
+  const warnings: string[] = [];
+  try {
+    writeFileAtomic(join(dir, 'refine.svg'), studySvg(json));
+    files.push('refine.svg');
+  } catch (e) {
+    warnings.push(`refine.svg not drawn: ${(e as Error).message}`);
+  }
+  const runs = (Array.isArray(json.runs) ? json.runs : []) as { directory?: unknown }[];
+  for (const r of runs) {
+    if (typeof r.directory !== 'string' || !existsSync(join(dir, r.directory, 'run.json'))) continue;
+    try {
+      const d = drawRunPlots(join(dir, r.directory), options);
+      files.push(...d.files.map((f) => `${r.directory}/${f}`));
+      warnings.push(...d.warnings.map((w) => `${r.directory}: ${w}`));
+    } catch (e) {
+      warnings.push(`${r.directory}: ${(e as Error).message}`);
+    }
+  }
+  return { files, warnings };
+}
+
+// ---------------------------------------------------------------------------------------------
+// The summary printed by the `refine` command
+
+function fmt(x: number | null | undefined, digits: number): string {
+  if (x === null || x === undefined || !Number.isFinite(x)) return '';
+  return formatValue(x, digits);
+}
+
+/** A short table of the grids, the extrapolation and the warnings, in words (ends with a newline). */
+export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string {
+  const out: string[] = [];
+  out.push(`Refinement of ${r.parameter} at the ${r.pointText} (case ${r.caseName}), ${r.runs.length} grids:`);
+  const a = r.analysis;
+  const header = ['grid', 'unknowns', 'h', r.parameter, 'difference', 'observed order'];
+  const table: string[][] = [header];
+  for (const run of r.runs) {
+    const g = a?.grids.find((x) => x.h === run.h && run.value !== undefined);
+    table.push([
+      gridLabel(run.intervals),
+      run.unknowns !== undefined ? String(run.unknowns) : '',
+      fmt(run.h, 6),
+      run.value !== undefined ? formatValue(run.value, 12) : run.status === 'finished' ? 'not found' : run.status,
+      fmt(g?.difference, 4),
+      fmt(g?.observedOrder, 4),
+    ]);
+  }
+  const widths = header.map((_, c) => Math.max(...table.map((row) => row[c].length)));
+  for (const row of table) out.push('  ' + row.map((cell, c) => (c === 0 ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join('   ').trimEnd());
+  if (a && a.extrapolated !== null) {
+    const how =
+      a.orderSource === 'observed'
+        ? `Richardson extrapolation with the observed order ${formatValue(a.order!, 4)}`
+        : a.orderSource === 'assumed'
+          ? `Richardson extrapolation with the assumed order ${formatValue(a.order!, 4)}`
+          : 'the finest values agree';
+    const err =
+      a.errorEstimate !== null
+        ? ` ± ${formatValue(a.errorEstimate, 2)}${a.gciAbsolute !== null ? ` (grid convergence index, safety factor ${a.safetyFactor}${a.extrapolationSpread !== null ? ', or the spread of successive extrapolations if larger' : ''})` : ''}`
+        : '';
+    out.push(`Extrapolated: ${r.parameter} = ${formatValue(a.extrapolated, 12)}${err}, by ${how}.`);
+  } else if (a) {
+    out.push('No extrapolation: see the warnings.');
+  }
+  if (a) {
+    if (a.asymptoticRange === 'consistent') out.push('The grids are in the asymptotic range (the observed order agrees with the expected order or between grid triples).');
+    else if (a.asymptoticRange === 'not-reached') out.push('WARNING: the grids are NOT in the asymptotic range yet; do not trust the extrapolation (refine further).');
+  }
+  for (const w of r.warnings) out.push(`Warning: ${w}`);
+  if (r.status === 'failed') out.push(`Study incomplete: ${r.failure ?? 'see the warnings'}.`);
+  if (r.status === 'stopped') out.push('Study stopped on request; the files hold what was computed.');
+  const where = relative(cwd, r.directory) || '.';
+  const shown = where.startsWith('..') ? r.directory : where;
+  out.push(`Files in ${shown}: ${[...r.files, ...r.runs.map((x) => `${x.directory}/`)].join(', ')} (each grid-* folder is a run folder)`);
+  if (r.caution) out.push(`Caution: ${r.caution}`);
+  return out.join('\n') + '\n';
+}
+
+export { pointSpecText };
