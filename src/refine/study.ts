@@ -394,8 +394,8 @@ function finishStudy(
     if (rec && Number.isFinite(rec.value)) {
       run.value = rec.value;
       run.located = rec.located !== false;
-      if (rec.located === false) warnings.push(`grid ${o.grid}: the ${pointText} was not fully located; its value is the best estimate`);
-      if (o.status !== 'finished') warnings.push(`grid ${o.grid}: the run ${o.status === 'stopped' ? 'was stopped' : `failed (${o.failure ?? 'no reason given'})`} after locating the ${pointText}; its value is used`);
+      if (rec.located === false) warnings.push(`grid ${o.grid}: ${pointText} was not fully located; its value is the best estimate`);
+      if (o.status !== 'finished') warnings.push(`grid ${o.grid}: the run ${o.status === 'stopped' ? 'was stopped' : `failed (${o.failure ?? 'no reason given'})`} after locating ${pointText}; its value is used`);
     } else if (!failure) {
       const why = o.status !== 'finished' ? `the run ${o.status === 'stopped' ? 'was stopped' : `failed (${o.failure ?? 'no reason given'})`}` : `it has ${availablePoints(specials)}`;
       warnings.push(`grid ${o.grid}: no ${pointText} (${why})`);
@@ -529,9 +529,9 @@ export function studySvg(json: Record<string, unknown>): string {
   const range = json['asymptotic-range'];
   if (range === 'not-reached') parts.push('NOT in the asymptotic range (see refine.json warnings)');
   return refinementSvg({
-    title: `${String(json.case ?? 'case')}: grid refinement of ${parameter} at the ${point}`,
+    title: `${String(json.case ?? 'case')}: grid refinement of ${parameter} at ${point}`,
     subtitle: parts.join('; '),
-    valueName: `${parameter} at the ${point.replace(/ on branch \d+$/, '')}`,
+    valueName: `${parameter} at ${point.replace(/ on branch \d+$/, '')}`,
     points,
     extrapolated,
     errorEstimate: error,
@@ -583,7 +583,7 @@ function fmt(x: number | null | undefined, digits: number): string {
 /** A short table of the grids, the extrapolation and the warnings, in words (ends with a newline). */
 export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string {
   const out: string[] = [];
-  out.push(`Refinement of ${r.parameter} at the ${r.pointText} (case ${r.caseName}), ${r.runs.length} grids:`);
+  out.push(`Refinement of ${r.parameter} at ${r.pointText} (case ${r.caseName}), ${r.runs.length} grids:`);
   const a = r.analysis;
   const header = ['grid', 'unknowns', 'h', r.parameter, 'difference', 'observed order'];
   const table: string[][] = [header];
@@ -606,12 +606,14 @@ export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string 
         ? `Richardson extrapolation with the observed order ${formatValue(a.order!, 4)}`
         : a.orderSource === 'assumed'
           ? `Richardson extrapolation with the assumed order ${formatValue(a.order!, 4)}`
-          : 'the finest values agree';
-    const err =
-      a.errorEstimate !== null
-        ? ` ± ${formatValue(a.errorEstimate, 2)}${a.gciAbsolute !== null ? ` (grid convergence index, safety factor ${a.safetyFactor}${a.extrapolationSpread !== null ? ', or the spread of successive extrapolations if larger' : ''})` : ''}`
-        : '';
-    out.push(`Extrapolated: ${r.parameter} = ${formatValue(a.extrapolated, 12)}${err}, by ${how}.`);
+          : 'the finest values agree to round-off';
+    out.push(`Extrapolated: ${r.parameter} = ${formatValue(a.extrapolated, 12)} (${how}).`);
+    if (a.errorEstimate !== null) {
+      const parts: string[] = [];
+      if (a.gciAbsolute !== null) parts.push(`the grid convergence index of the finest grid, safety factor ${a.safetyFactor} (Roache 1994)`);
+      if (a.extrapolationSpread !== null) parts.push(`the spread of the two finest extrapolations (${formatValue(a.extrapolationSpread, 2)})`);
+      out.push(`Error estimate: ± ${formatValue(a.errorEstimate, 2)}${parts.length ? ` (${parts.join(', or ')}${parts.length > 1 ? ', the larger' : ''})` : ''}.`);
+    }
   } else if (a) {
     out.push('No extrapolation: see the warnings.');
   }
