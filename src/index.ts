@@ -1,0 +1,28 @@
+/**
+ * branchline as a library: `import { ... } from 'branchline'`.
+ *
+ * - models and discretisations: the model registry, grids, stencils and assembly helpers for
+ *   models written in code;
+ * - the Problem contract and its tools (Jacobian checker, second derivatives);
+ * - the continuation engine (no I/O: it yields points and special points);
+ * - sparse linear algebra (KLU in WebAssembly) and the rightmost-eigenvalue solver;
+ * - case files and run directories (what the command line uses);
+ * - grid-refinement analysis and SVG plots.
+ */
+export * from '../discretisations/index.js';
+export * from './problem/index.js';
+export { Continuation, ContinuationError } from './continuation/engine.js';
+export type { EngineState, EngineSummary, EngineCounters, ContinuationOptions, PendingBranch, BranchState } from './continuation/engine.js';
+export * from './continuation/types.js';
+export * from './linalg/sparse.js';
+export { SparseLU, ComplexSparseLU, SparseLUError, defaultRefactorPolicy } from './linalg/lu.js';
+export type { LUOptions, Ordering, RefactorPolicy, FactorStats } from './linalg/lu.js';
+export { BorderedMatrix } from './linalg/bordered.js';
+export { EigenTracker, rightmostEigenvalues, eigenvaluesDense } from './linalg/eigen.js';
+export type { EigenValue, EigenWarmStart, RightmostResult, SearchedRegion, EigenOptions } from './linalg/eigen.js';
+export { prepareCase, prepareCaseObject } from './run/case.js';
+export type { PreparedCase, ResolvedCase } from './run/case.js';
+export { runCase, outputDirectory } from './run/run-case.js';
+export type { RunResult } from './run/run-case.js';
+export * from './refine/index.js';
+export * from './plot/index.js';

@@ -1,0 +1,23 @@
+import { expect, test } from 'vitest';
+// the README's library example, as a user would write it (here against the sources)
+import { Continuation, defaultSettings, models, resolveParameters, type FoldPoint } from '../src/index.js';
+
+test('the README library example finds the 1D Bratu fold', () => {
+  const problem = models.bratu.factory({ grid: { intervals: [100] } });
+  const params = resolveParameters(problem, { lambda: 0.5 });
+  const engine = new Continuation(problem, params, {
+    ...defaultSettings,
+    parameter: 'lambda',
+    bounds: [0, 5],
+    stopWhen: [{ monitor: 'max', above: 4 }],
+    stability: { eigenvalues: 3 },
+  });
+  const folds: FoldPoint[] = [];
+  for (const event of engine.events()) {
+    if (event.type === 'special' && event.point.kind === 'fold') folds.push(event.point);
+  }
+  engine.dispose();
+  expect(folds).toHaveLength(1);
+  // exact continuum value 3.513830719125 (Bratu 1914); h = 0.01 puts the discrete fold within 1e-3
+  expect(Math.abs(folds[0].value - 3.513830719125)).toBeLessThan(1e-3);
+});
