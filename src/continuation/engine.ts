@@ -71,6 +71,11 @@ export interface EngineState {
   current: BranchState | null;
   knownBranchPoints: Float64Array[];
   ended: { id: number; reason: StopReason; points: number; message: string }[];
+  /**
+   * The residual row scaling frozen at the current branch's start (ContinuationSystem.setRowScale):
+   * convergence tests depend on it, so a resumed run must use the same one.
+   */
+  rowScale?: Float64Array;
 }
 
 export interface EngineSummary {
@@ -134,6 +139,16 @@ export class Continuation {
     this.state = options.state
       ? cloneState(options.state)
       : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
+    if (this.state.rowScale) {
+      if (this.state.rowScale.length !== this.n) throw new ContinuationError(`the saved state has ${this.state.rowScale.length} row scales, the problem has ${this.n} unknowns`);
+      this.sys.rowScale.set(this.state.rowScale);
+    }
+  }
+
+  /** Freeze the residual row scaling at (u, λ) and remember it in the state (for resuming). */
+  private setRowScale(u: Float64Array, lambda: number): void {
+    this.sys.setRowScale(u, lambda);
+    this.state.rowScale = this.sys.rowScale.slice();
   }
 
   /** True between steps: a snapshot taken now resumes cleanly. */
@@ -158,6 +173,20 @@ export class Continuation {
       eigenFactorisations: e?.factorisations ?? 0,
       seconds: { ...s.seconds, eigen: this.stab?.seconds ?? 0 },
     };
+  }
+
+  /**
+   * Drop every factorisation and reseed the eigen solver's random start vectors: from here on
+   * the engine computes exactly what a new engine resumed from a snapshot taken now computes.
+   * The run layer calls this after writing a checkpoint, so that a resumed run repeats the
+   * uninterrupted one bit for bit (kept pivot orders and random vectors otherwise differ in the
+   * last digits, and eigenvalues and located Hopf points inherit such differences up to their
+   * tolerances). Costs one fresh factorisation per checkpoint.
+   */
+  restartLinearAlgebra(): void {
+    this.sys.dispose();
+    this.chordStamp = -1;
+    this.stab?.restart();
   }
 
   dispose(): void {
@@ -236,7 +265,7 @@ export class Continuation {
     const x = new Float64Array(n + 1);
     x.set(guess);
     x[n] = lambda0;
-    this.sys.setRowScale(x.subarray(0, n), lambda0);
+    this.setRowScale(x.subarray(0, n), lambda0);
     const eLambda = new Float64Array(n + 1);
     eLambda[n] = 1;
     const ref = x.slice();
@@ -285,7 +314,7 @@ export class Continuation {
   /** Begin the next queued branch. */
   private startPending(p: PendingBranch): EngineEvent[] {
     const n = this.n;
-    this.sys.setRowScale(p.first.subarray(0, n), p.first[n]);
+    this.setRowScale(p.first.subarray(0, n), p.first[n]);
     const b: BranchState = {
       info: p.info,
       x: p.origin.slice(),

@@ -45,6 +45,11 @@ export class StabilityAnalyser {
     return { stability: summarise(r, this.count), warm: r.warmStart };
   }
 
+  /** Start the eigen solver afresh, as a new analyser would (see EigenTracker.restart). */
+  restart(): void {
+    this.tracker.restart();
+  }
+
   dispose(): void {
     this.tracker.dispose();
   }

@@ -1202,6 +1202,19 @@ export class EigenTracker {
     this.warm = null;
   }
 
+  /**
+   * Start afresh as a new tracker would: no factorisation kept (its pivot order), the random
+   * start vectors reseeded, no warm start. After this the results depend only on the arguments
+   * of the next calls (used when a continuation run writes a checkpoint, so that a run resumed
+   * from it repeats the same computations bit for bit).
+   */
+  restart(): void {
+    this.lu?.dispose();
+    this.lu = null;
+    this.random = makeRandom(this.options.seed);
+    this.warm = null;
+  }
+
   dispose(): void {
     this.lu?.dispose();
     this.lu = null;
