@@ -9,9 +9,19 @@
  * Order of work per event, so that a checkpoint always sees consistent files: a point's CSV row
  * (and its solution file, for `output.solutions: all`) is written before control goes back to
  * the engine or to the event loop; the `checkpoint` hook is then called with the CSV byte
- * lengths and a snapshot function of the engine's state.
+ * lengths and a snapshot function of the engine's state — only between steps (after the last
+ * event of a step: a step's point may be followed by its fold, branch point or end), so the
+ * ledger and the engine state always describe the same moment. A stop request is honoured at
+ * such a moment too.
+ *
+ * Resuming (`options.resume`, from a checkpoint): the CSVs are truncated to the recorded
+ * lengths, CSVs of branches started after the checkpoint are removed, points.json is rewritten
+ * from the recorded special points, and solution files written after the checkpoint (and
+ * temporary files a killed process left) are removed; the run then goes on as if never stopped.
  */
-import { resolve } from 'node:path';
+import { readdirSync, rmSync } from 'node:fs';
+import { hostname } from 'node:os';
+import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
 import type { BranchPoint, ContinuationSettings, EngineEvent, StopReason } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
@@ -32,6 +42,7 @@ import {
   specialRecord,
 } from './run-directory.js';
 import { softwareVersion } from './version.js';
+import { removeCheckpoints } from './checkpoint.js';
 import { drawPlotsAfterRun } from './plots.js';
 
 /** What runCase needs from the continuation engine (src/continuation/engine.ts). */
@@ -40,8 +51,24 @@ export interface EngineLike {
   snapshot(): unknown;
   /** When present: whether a snapshot taken now resumes cleanly. */
   readonly canSnapshot?: boolean;
+  /**
+   * When present: drop factorisations and reseed random numbers, so that the engine computes
+   * from here exactly what an engine resumed from a snapshot taken now computes (sync points).
+   */
+  restartLinearAlgebra?(): void;
   dispose(): void;
 }
+
+/**
+ * Sync points: the engine starts its linear algebra afresh after the first point and then about
+ * every this many points (whenever the run's point count passes a multiple of it, between
+ * steps). Checkpoints are taken only at sync points: a run resumed from one repeats the
+ * uninterrupted run bit for bit (kept pivot orders and the eigen solver's random start vectors
+ * would otherwise differ in the last digits, and eigenvalues near a collision or located Hopf
+ * points magnify such differences up to their tolerances). The cost is one fresh factorisation
+ * per sync point (a few per cent at most).
+ */
+export const syncEvery = 5;
 
 export type EngineFactory = (
   problem: Problem,
@@ -68,8 +95,12 @@ export interface ProgressInfo {
 }
 
 export interface CheckpointContext {
-  /** 'point': after a point's row was written; 'stop': the run is stopping on request. */
+  /** 'point': points were written since the last call (called between steps); 'stop': the run is stopping on request. */
   reason: 'point' | 'stop';
+  /** This moment is a sync point (see `syncEvery`): a checkpoint of it resumes bit for bit. */
+  sync: boolean;
+  /** The ledger and engine state at the last sync point (for a stop between sync points), with its point count. */
+  lastSync?: { ledger: RunLedger; snapshot: unknown; points: number };
   directory: RunDirectory;
   /** The run layer's own state (branches, special points, CSV byte lengths): plain, checkpointable. */
   ledger: RunLedger;
@@ -77,6 +108,24 @@ export interface CheckpointContext {
   canSnapshot: boolean;
   /** The engine's state (plain object with Float64Arrays). */
   snapshot(): unknown;
+  /** The resolved case in case-file form (what a resume reads back). */
+  caseDocument: Record<string, unknown>;
+  run: {
+    started: string;
+    /** Seconds of work so far, earlier sessions included. */
+    seconds(): number;
+    caseFile: string | null;
+    /** When the run was resumed before (ISO times). */
+    resumes: string[];
+  };
+}
+
+/** What a checkpoint hook reports when it wrote one (recorded in run.json). */
+export interface CheckpointWritten {
+  file: string;
+  sequence: number;
+  written: string;
+  points: number;
 }
 
 export interface RunCaseOptions {
@@ -90,14 +139,17 @@ export interface RunCaseOptions {
   log?: (level: 'info' | 'warning', message: string) => void;
   /** Called after every accepted point is written. */
   progress?: (p: ProgressInfo) => void;
-  /** Called after every point (and once when stopping) so that a checkpointer can decide to write. */
-  checkpoint?: (c: CheckpointContext) => void;
+  /**
+   * Called between steps after points were written (and once when stopping) so that a
+   * checkpointer can decide to write; returns what it wrote, if anything.
+   */
+  checkpoint?: (c: CheckpointContext) => CheckpointWritten | undefined | void;
   /** The engine (tests pass fakes); default the real one. */
   engine?: EngineFactory;
   /** Initial guess for the start point (e.g. read from a saved solution). */
   start?: Float64Array;
   /** Continue an interrupted run (the resume command): reopen `outDir` with this state. */
-  resume?: { ledger: RunLedger; engineState: unknown; started: string; previousSeconds?: number };
+  resume?: { ledger: RunLedger; engineState: unknown; started: string; previousSeconds?: number; resumes?: string[]; checkpoint?: CheckpointWritten };
 }
 
 export interface RunResult {
@@ -141,8 +193,11 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   const dir = options.resume
     ? RunDirectory.reopen(outDir, ledger, () => plan.columns)
     : RunDirectory.create(outDir, { force: options.force });
+  if (options.resume) removeUnrecorded(outDir, ledger, prepared.case.output.solutions);
 
   const started = options.resume?.started ?? isoNow();
+  const resumes = [...(options.resume?.resumes ?? []), ...(options.resume ? [isoNow()] : [])];
+  let lastCheckpoint: CheckpointWritten | undefined = options.resume?.checkpoint;
   const previousSeconds = options.resume?.previousSeconds ?? 0;
   const description = problem.describe();
   let status: RunStatus = 'running';
@@ -165,6 +220,10 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     'case-file': prepared.file ?? null,
     started,
     ended: status === 'running' ? null : isoNow(),
+    ...(resumes.length ? { resumed: resumes } : {}),
+    // who writes this run while it goes (resume refuses to start a second writer)
+    ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
+    ...(lastCheckpoint && status !== 'finished' ? { checkpoint: { ...lastCheckpoint } } : {}),
     problem: {
       model: description.model,
       summary: description.summary,
@@ -210,7 +269,8 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     lastRecord = Date.now();
   };
   writeRecord();
-  if (!options.resume) dir.writePoints(parameter, ledger.specials);
+  // a resumed run's points.json may hold points found after the checkpoint: rewrite it
+  dir.writePoints(parameter, ledger.specials);
   let stabilityWarned = false;
 
   const paramsAt = (value: number): Params => ({ ...params, [parameter]: value });
@@ -296,16 +356,44 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     }
   };
 
-  const context = (reason: 'point' | 'stop'): CheckpointContext => ({
+  const caseDoc = caseDocument(prepared.case);
+  // a resumed run starts at the sync point its checkpoint was taken at
+  let lastSync: { ledger: RunLedger; snapshot: unknown; points: number } | undefined = options.resume
+    ? { ledger: structuredClone(ledger), snapshot: options.resume.engineState, points: ledger.points }
+    : undefined;
+  let lastSyncPoints = options.resume ? ledger.points : -1;
+  const context = (reason: 'point' | 'stop', sync = false): CheckpointContext => ({
     reason,
+    sync,
+    ...(lastSync ? { lastSync } : {}),
     directory: dir,
     ledger,
     canSnapshot: engine?.canSnapshot ?? true,
     snapshot: () => {
+      if (sync && lastSync) return lastSync.snapshot;
       if (!engine) throw new Error('no engine to snapshot');
       return engine.snapshot();
     },
+    caseDocument: caseDoc,
+    run: { started, seconds: () => previousSeconds + (Date.now() - t0) / 1000, caseFile: prepared.file ?? null, resumes },
   });
+  const checkpoint = (reason: 'point' | 'stop', sync = false): void => {
+    const w = options.checkpoint?.(context(reason, sync));
+    if (w) lastCheckpoint = w;
+  };
+  /** Whether the moment (between steps) is a sync point; if so the engine is restarted there. */
+  const syncHere = (): boolean => {
+    const points = ledger.points;
+    const due = lastSyncPoints < 0 ? points >= 1 : Math.floor(points / syncEvery) > Math.floor(lastSyncPoints / syncEvery);
+    if (!due || !engine) return false;
+    lastSyncPoints = points;
+    lastSync = { ledger: structuredClone(ledger), snapshot: engine.snapshot(), points };
+    engine.restartLinearAlgebra?.();
+    return true;
+  };
+  /** Ledger point count at the last checkpoint-hook call. */
+  let hookPoints = ledger.points;
+  const between = (): boolean => engine?.canSnapshot ?? true;
 
   let stopped = false;
   try {
@@ -316,7 +404,9 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     const events = engine.events();
     try {
       for (;;) {
-        if (options.signal?.aborted) {
+        // a stop request is honoured between steps only (a step's events are already computed:
+        // finishing them costs nothing and keeps the files and the engine state in step)
+        if (options.signal?.aborted && between()) {
           stopped = true;
           break;
         }
@@ -326,12 +416,15 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
         if (r.value.type === 'point') {
           const p = r.value.point;
           options.progress?.({ branch: p.branch, index: p.index, parameter: p.parameter, step: p.step, points: ledger.points, maxPoints: settings.maxPoints });
-          options.checkpoint?.(context('point'));
+        }
+        if (ledger.points > hookPoints && between()) {
+          hookPoints = ledger.points;
+          checkpoint('point', syncHere());
           if (Date.now() - lastRecord > refreshMs) {
             continuationSeconds = (Date.now() - tc) / 1000;
             writeRecord();
           }
-          // let signal handlers and timers run between points
+          // let signal handlers and timers run between steps
           await tick();
         }
       }
@@ -341,7 +434,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     }
     continuationSeconds = (Date.now() - tc) / 1000;
     if (stopped) {
-      options.checkpoint?.(context('stop'));
+      checkpoint('stop');
       status = 'stopped';
       for (const b of ledger.branches) {
         if (b.stopReason === undefined) {
@@ -380,6 +473,8 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   dir.writePoints(parameter, ledger.specials);
   const final = record();
   dir.writeRunJson(final);
+  // a finished run has nothing left to resume
+  if (status === 'finished') removeCheckpoints(outDir);
   drawPlotsAfterRun(outDir, log);
   return {
     status: status as Exclude<RunStatus, 'running'>,
@@ -389,4 +484,34 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     ...(failure !== undefined ? { failure } : {}),
     seconds: previousSeconds + (Date.now() - t0) / 1000,
   };
+}
+
+/**
+ * Before a resumed run goes on: remove solution files the checkpoint does not account for
+ * (written after it; the resumed run writes them again) and temporary files of atomic writes a
+ * killed process left behind.
+ */
+function removeUnrecorded(dir: string, ledger: RunLedger, solutions: string): void {
+  const keep = new Set<string>();
+  for (const s of ledger.specials) if (typeof s.solution === 'string') keep.add(s.solution);
+  if (solutions === 'all') {
+    for (const b of ledger.branches) for (let i = 0; i < b.points; i++) keep.add(`solutions/branch-${b.id}-point-${i}.npy`);
+  }
+  const temporary = /^\..*\.tmp$/;
+  for (const [folder, rel] of [
+    [dir, ''],
+    [join(dir, 'solutions'), 'solutions/'],
+    [join(dir, 'branches'), 'branches/'],
+  ] as const) {
+    let entries: string[];
+    try {
+      entries = readdirSync(folder);
+    } catch {
+      continue;
+    }
+    for (const e of entries) {
+      const stale = temporary.test(e) || (rel === 'solutions/' && e.endsWith('.npy') && !keep.has(rel + e));
+      if (stale) rmSync(join(folder, e), { force: true });
+    }
+  }
 }
