@@ -48,7 +48,7 @@ export interface DiagramSpecialPoint {
   readonly branch: string | number;
   readonly parameter: number;
   readonly monitor: number;
-  /** Label text; default the plain word for the kind (e.g. "branch point"). */
+  /** Label text; default the plain word for the kind (e.g. "branch point"); '' for a marker without a label. */
   readonly label?: string;
 }
 
@@ -291,12 +291,9 @@ export function diagramSvg(input: DiagramInput): string {
   const branchNames = input.branches.map(
     (b) => b.name ?? (/^\d+$/.test(String(b.id)) ? `branch ${String(b.id)}` : String(b.id)),
   );
-  const segmentsByBranch = input.branches.map((b) =>
-    splitByStability(
-      b.points,
-      specials.filter((s) => String(s.branch) === String(b.id)),
-    ),
-  );
+  // stability changes at special points: of the branch itself, or where it was born (a branch
+  // point recorded on its parent branch)
+  const segmentsByBranch = input.branches.map((b) => splitByStability(b.points, specials));
   const classesPresent = (['stable', 'unstable', 'unknown'] as StabilityClass[]).filter((c) =>
     segmentsByBranch.some((segs) => segs.some((s) => s.stability === c)),
   );
@@ -374,7 +371,15 @@ export function diagramSvg(input: DiagramInput): string {
     return { x: X(s.parameter), y: Y(s.monitor), radius: MARKER_RADIUS + 2, width: w, height: lines.length * lineHeight + 2 };
   });
   const bounds: Box = { x0: plot.x + 2, y0: plot.y + 2, x1: plot.x + plot.width - 2, y1: plot.y + plot.height - 2 };
-  const placements = placeLabels(requests, bounds, curveSegments);
+  // markers with an empty label are drawn bare (and kept clear of the other labels)
+  const bare = visible.map((s) => s.label === '');
+  const labelled = requests.filter((_, i) => !bare[i]);
+  const bareBoxes: Box[] = requests
+    .filter((_, i) => bare[i])
+    .map((r) => ({ x0: r.x - r.radius - 1, y0: r.y - r.radius - 1, x1: r.x + r.radius + 1, y1: r.y + r.radius + 1 }));
+  const placedLabels = placeLabels(labelled, bounds, curveSegments, bareBoxes);
+  let nextPlaced = 0;
+  const placements = visible.map((_, i) => (bare[i] ? null : placedLabels[nextPlaced++]));
 
   const pointsMarkup: string[] = [];
   visible.forEach((s, i) => {
@@ -382,6 +387,22 @@ export function diagramSvg(input: DiagramInput): string {
     const r = requests[i];
     const pl = placements[i];
     const parts: string[] = [];
+    if (pl === null) {
+      pointsMarkup.push(
+        el(
+          'g',
+          {
+            'data-role': 'special-point',
+            'data-kind': s.kind,
+            'data-branch': String(s.branch),
+            'data-parameter': String(s.parameter),
+            'data-monitor': String(s.monitor),
+          },
+          markerShape(s.kind, r.x, r.y, colour),
+        ),
+      );
+      return;
+    }
     if (pl.leader) {
       // A thin line from the marker edge to the nearest point of the label box.
       const cx = Math.min(Math.max(r.x, pl.box.x0), pl.box.x1);

@@ -90,13 +90,20 @@ function candidates(r: LabelRequest): { box: Box; leader: boolean; order: number
  * Place labels one after another (in the given order). `bounds` is where labels may go;
  * `segments` are the drawn curves; markers of every request are obstacles too.
  */
-export function placeLabels(requests: readonly LabelRequest[], bounds: Box, segments: readonly Segment[]): LabelPlacement[] {
+export function placeLabels(
+  requests: readonly LabelRequest[],
+  bounds: Box,
+  segments: readonly Segment[],
+  /** Markers drawn without a label: obstacles as well. */
+  otherMarkers: readonly Box[] = [],
+): LabelPlacement[] {
   const markerBoxes: Box[] = requests.map((r) => ({
     x0: r.x - r.radius - 1,
     y0: r.y - r.radius - 1,
     x1: r.x + r.radius + 1,
     y1: r.y + r.radius + 1,
   }));
+  markerBoxes.push(...otherMarkers);
   const placed: Box[] = [];
   const result: LabelPlacement[] = [];
   for (const r of requests) {

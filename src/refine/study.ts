@@ -542,7 +542,7 @@ export function studySvg(json: Record<string, unknown>): string {
 }
 
 /** Redraw a study's pictures: refine.svg and every grid's run pictures (the `plot` command). */
-export function drawStudyPlots(dir: string, options: { monitor?: string } = {}): { files: string[]; warnings: string[] } {
+export function drawStudyPlots(dir: string, options: { monitor?: string; maxSolutionPlots?: number } = {}): { files: string[]; warnings: string[] } {
   let json: Record<string, unknown>;
   try {
     json = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as Record<string, unknown>;

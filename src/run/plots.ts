@@ -38,13 +38,22 @@ export interface PlotOptions {
   monitor?: string;
   /** Draw the solution plots at special points (default true). */
   solutions?: boolean;
+  /**
+   * At most this many solution plots (default 60): folds, Hopf points and branch points first,
+   * branch by branch, then branch ends. Infinity draws every one.
+   */
+  maxSolutionPlots?: number;
 }
+
+export const defaultMaxSolutionPlots = 60;
 
 export interface PlotResult {
   /** Files written, relative to the run directory. */
   files: string[];
   /** Things that could not be drawn, in words. */
   warnings: string[];
+  /** Remarks that are not problems (e.g. how many solution plots were left out). */
+  notes: string[];
   /** The monitor used on the diagram. */
   monitor: string;
 }
@@ -81,6 +90,8 @@ function monitorColumns(columns: readonly string[], parameter: string, extras: r
 
 /** A monitor column in words for an axis title: `max` → `max u`, `l2-norm:v` → `L2 norm of v`. */
 export function monitorWords(monitor: string, fields: readonly string[]): string {
+  if (monitor === 'centre' && fields.length === 1) return `${fields[0]} at the centre`;
+  if (monitor === 'midspan' && fields.length === 1) return `${fields[0]} at midspan`;
   const m = /^(max|min|l2-norm)(?::(.+))?$/.exec(monitor);
   if (!m) return monitor;
   const field = m[2] ?? (fields.length === 1 ? fields[0] : undefined);
@@ -93,8 +104,9 @@ function runTitle(run: Record<string, unknown>): { name: string; summary: string
   const problem = (run.problem ?? {}) as Record<string, unknown>;
   const c = (run.case ?? {}) as Record<string, unknown>;
   const axes = (Array.isArray(problem.axes) ? problem.axes : []) as AxisInfo[];
+  const hs = axes.map((a) => formatValue(num(a.h), 4));
   const grid = axes.length
-    ? `grid ${axes.map((a) => a.intervals).join(' × ')} intervals, h = ${axes.map((a) => formatValue(num(a.h), 4)).join(', ')}; ${num(problem.unknowns)} unknowns`
+    ? `grid ${axes.map((a) => a.intervals).join(' × ')} intervals, h = ${hs.every((h) => h === hs[0]) ? hs[0] : hs.join(', ')}; ${num(problem.unknowns)} unknowns`
     : '';
   return { name: str(c.name, 'run'), summary: str(problem.summary), grid };
 }
@@ -114,6 +126,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     throw new InputError(`cannot draw: ${(e as Error).message}`);
   }
   const warnings: string[] = [];
+  const notes: string[] = [];
   const written: string[] = [];
   const parameter = str(run['continuation-parameter'], 'parameter');
   const problem = (run.problem ?? {}) as Record<string, unknown>;
@@ -172,8 +185,11 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     const m = s.monitors?.[chosen];
     const value = num(s.value);
     if (typeof m !== 'number' || !Number.isFinite(m) || !Number.isFinite(value)) continue;
-    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: 'end' } : {}) });
+    // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
+    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : {}) });
   }
+  nameCoincidentBranches(branches);
+  labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
   const svg = diagramSvg({
     title: `${title.name}: ${monitorWords(chosen, fields)} against ${parameter}${statusNote}`,
@@ -192,7 +208,15 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   const keep = new Set<string>();
   if (options.solutions !== false) {
     const axes = (Array.isArray(problem.axes) ? problem.axes : []) as AxisInfo[];
-    for (const s of specials) {
+    const withFiles = specials.filter((s) => typeof s.solution === 'string');
+    const ordered = [...withFiles.filter((s) => s.kind !== 'end'), ...withFiles.filter((s) => s.kind === 'end')];
+    const limit = options.maxSolutionPlots ?? defaultMaxSolutionPlots;
+    if (ordered.length > limit) {
+      notes.push(
+        `drew ${limit} of ${ordered.length} solution plots (folds, Hopf and branch points first, then branch ends); \`branchline plot ${dir} --all\` draws every one`,
+      );
+    }
+    for (const s of ordered.slice(0, limit)) {
       if (typeof s.solution !== 'string') continue;
       const name = basename(s.solution).replace(/\.npy$/, '');
       const file = `plots/${name}.svg`;
@@ -214,9 +238,82 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       if (/^branch-\d+-.*\.svg$/.test(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
     }
   }
-  return { files: written, warnings, monitor: chosen };
+  return { files: written, warnings, notes, monitor: chosen };
 }
 
+
+/**
+ * Symmetric problems give branches that coincide under a monitor (u and −u under l2-norm, a
+ * pattern and its mirror image under max): a branch lying entirely along an earlier one would be
+ * invisible, so its legend name says so. Tolerance: 0.3% of the plotted range (about a pixel).
+ */
+export function nameCoincidentBranches(branches: DiagramBranch[]): void {
+  let x0 = Infinity;
+  let x1 = -Infinity;
+  let y0 = Infinity;
+  let y1 = -Infinity;
+  for (const b of branches) {
+    for (const p of b.points) {
+      if (!Number.isFinite(p.parameter) || !Number.isFinite(p.monitor)) continue;
+      x0 = Math.min(x0, p.parameter);
+      x1 = Math.max(x1, p.parameter);
+      y0 = Math.min(y0, p.monitor);
+      y1 = Math.max(y1, p.monitor);
+    }
+  }
+  if (!(x1 >= x0 && y1 >= y0)) return;
+  const sx = x1 > x0 ? 1 / (x1 - x0) : 1;
+  const sy = y1 > y0 ? 1 / (y1 - y0) : 1;
+  const tol = 0.003;
+  const norm = (b: DiagramBranch): [number, number][] =>
+    b.points.filter((p) => Number.isFinite(p.parameter) && Number.isFinite(p.monitor)).map((p) => [(p.parameter - x0) * sx, (p.monitor - y0) * sy]);
+  const pts = branches.map(norm);
+  const near = (q: [number, number], line: [number, number][]): boolean => {
+    if (line.length === 1) return Math.hypot(q[0] - line[0][0], q[1] - line[0][1]) <= tol;
+    for (let k = 1; k < line.length; k++) {
+      const [ax, ay] = line[k - 1];
+      const [bx, by] = line[k];
+      if (q[0] < Math.min(ax, bx) - tol || q[0] > Math.max(ax, bx) + tol || q[1] < Math.min(ay, by) - tol || q[1] > Math.max(ay, by) + tol) continue;
+      const vx = bx - ax;
+      const vy = by - ay;
+      const vv = vx * vx + vy * vy;
+      const t = vv > 0 ? Math.min(1, Math.max(0, ((q[0] - ax) * vx + (q[1] - ay) * vy) / vv)) : 0;
+      if (Math.hypot(q[0] - ax - t * vx, q[1] - ay - t * vy) <= tol) return true;
+    }
+    return false;
+  };
+  branches.forEach((b, i) => {
+    if (pts[i].length === 0) return;
+    for (let j = 0; j < i; j++) {
+      if (pts[j].length === 0) continue;
+      if (pts[i].every((q) => near(q, pts[j]))) {
+        branches[i] = { ...b, name: `branch ${String(b.id)} (lies along branch ${String(branches[j].id)})` };
+        return;
+      }
+    }
+  });
+}
+
+/**
+ * Mirror-image branches meet the same special point twice (a secondary branch point seen from a
+ * branch and from its mirror image): one label is enough, the other marker stays bare.
+ */
+export function labelCoincidentPointsOnce(points: DiagramSpecialPoint[]): void {
+  const xs = points.map((p) => p.parameter);
+  const ys = points.map((p) => p.monitor);
+  const dx = Math.max(...xs) - Math.min(...xs) || 1;
+  const dy = Math.max(...ys) - Math.min(...ys) || 1;
+  points.forEach((p, i) => {
+    if (p.label === '') return;
+    for (let j = 0; j < i; j++) {
+      const q = points[j];
+      if (q.kind === p.kind && q.label !== '' && Math.abs(q.parameter - p.parameter) <= 0.003 * dx && Math.abs(q.monitor - p.monitor) <= 0.003 * dy) {
+        points[i] = { ...p, label: '' };
+        return;
+      }
+    }
+  });
+}
 
 /** Branch CSVs in branches/ (when run.json lists none, e.g. a run that failed early). */
 function listBranchFiles(dir: string): { id: number; file: string }[] {
@@ -250,7 +347,7 @@ function pointTitle(s: SpecialRecord): string {
 function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
   const parts = [`${ctx.parameter} = ${formatValue(num(s.value), 10)}`];
   const m = s.monitors?.[ctx.monitor];
-  if (typeof m === 'number') parts.push(`${ctx.monitor} = ${formatValue(m, 6)}`);
+  if (typeof m === 'number') parts.push(`${monitorWords(ctx.monitor, ctx.fields)} = ${formatValue(m, 6)}`);
   const extras = s['extra-unknowns'];
   if (extras && typeof extras === 'object') {
     for (const [k, v] of Object.entries(extras as Record<string, unknown>)) parts.push(`${k} = ${formatValue(num(v), 6)}`);
@@ -319,6 +416,7 @@ export function drawPlotsAfterRun(dir: string, log: (level: 'info' | 'warning', 
   try {
     const r = drawRunPlots(dir);
     for (const w of r.warnings) log('warning', `plot: ${w}`);
+    for (const n of r.notes) log('info', `plot: ${n}`);
     const n = r.files.length - 1;
     log('info', `drew diagram.svg${n > 0 ? ` and ${n} solution plot${n === 1 ? '' : 's'} in plots/` : ''}`);
   } catch (e) {

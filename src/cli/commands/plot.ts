@@ -2,7 +2,7 @@ import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { existsSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
-import { drawRunPlots } from '../../run/plots.js';
+import { defaultMaxSolutionPlots, drawRunPlots } from '../../run/plots.js';
 import { drawStudyPlots } from '../../refine/study.js';
 
 /** `branchline plot DIR`: (re)draw the SVG pictures of a run, or of a refinement study, from its files. */
@@ -12,11 +12,12 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
     .description('(re)draw the pictures of a run folder from its files: diagram.svg and plots/*.svg (or refine.svg and every grid of a refinement study)')
     .argument('<dir>', 'a run folder (with run.json) or a refinement-study folder (with refine.json)')
     .option('--monitor <name>', "monitor on the diagram's vertical axis (default: the case's plot.monitor, else max)")
-    .action((dir: string, opts: { monitor?: string }) => {
+    .option('--all', `a solution plot at every special point (default: at most ${defaultMaxSolutionPlots}, folds, Hopf and branch points first)`)
+    .action((dir: string, opts: { monitor?: string; all?: boolean }) => {
       const abs = resolve(dir);
       const shown = relative(process.cwd(), abs) || '.';
       const where = shown.startsWith('..') ? abs : shown;
-      const options = opts.monitor !== undefined ? { monitor: opts.monitor } : {};
+      const options = { ...(opts.monitor !== undefined ? { monitor: opts.monitor } : {}), ...(opts.all ? { maxSolutionPlots: Infinity } : {}) };
       if (existsSync(join(abs, 'refine.json')) && !existsSync(join(abs, 'run.json'))) {
         const r = drawStudyPlots(abs, options);
         for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
@@ -26,6 +27,7 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
       }
       const r = drawRunPlots(abs, options);
       for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
+      for (const n of r.notes) io.err(`branchline: ${n}\n`);
       io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (diagram: ${r.monitor} against the continuation parameter): ${summarise(r.files)}\n`);
       setExit(r.warnings.length ? 1 : 0);
     });
