@@ -31,7 +31,8 @@ const parameterDigits = 12;
 const monitorDigits = 5;
 
 function leadingMonitor(s: SpecialRecord, prepared: PreparedCase): string | undefined {
-  const names = prepared.problem.monitors.map((m) => m.name);
+  // the diagram's monitor first (case key plot.monitor), then the problem's order
+  const names = [prepared.case.plot?.monitor, ...prepared.problem.monitors.map((m) => m.name)].filter((n): n is string => typeof n === 'string');
   const name = names.find((n) => s.monitors[n] !== undefined);
   return name === undefined ? undefined : `${name} = ${formatValue(s.monitors[name], monitorDigits)}`;
 }
