@@ -1,0 +1,144 @@
+/**
+ * The bundled cases (cases/*.yaml): every file is a valid case with a comment header in words
+ * (and the caution where results bear on ignition or buckling); a smoke subset runs to
+ * `finished` here, the two 2D cases on coarser grids, and their headers' claims are checked
+ * against the runs. `npm run cases` runs all of them at full size.
+ */
+import { mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { afterAll, describe, expect, it } from 'vitest';
+import { parseCaseText, prepareCase, prepareCaseObject } from '../src/run/case.js';
+import { runCase } from '../src/run/run-case.js';
+import { parseXml, findAll } from './plot/xml-check.js';
+
+const tmp = mkdtempSync(join(tmpdir(), 'branchline-cases-'));
+afterAll(() => rmSync(tmp, { recursive: true, force: true }));
+const folder = resolve('cases');
+const files = readdirSync(folder).filter((f) => f.endsWith('.yaml')).sort();
+const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
+
+/** Run a bundled case (optionally on another grid) and return its run folder and points. */
+async function run(name: string, intervals?: number[]) {
+  const file = join(folder, `${name}.yaml`);
+  const doc = parseCaseText(readFileSync(file, 'utf8'), file) as Record<string, any>;
+  if (intervals) doc.grid = { ...doc.grid, intervals };
+  const prepared = await prepareCaseObject(doc, { label: file, file, baseDir: folder });
+  const out = join(tmp, name);
+  const result = await runCase(prepared, { outDir: out });
+  const points = json(join(out, 'points.json')).points as Record<string, any>[];
+  return { result, out, points, of: (kind: string, branch = 1) => points.filter((p) => p.kind === kind && p.branch === branch) };
+}
+
+/** The diagram parses and shows every branch and every labelled point kind. */
+function checkDiagram(out: string, kinds: string[]) {
+  const root = parseXml(readFileSync(join(out, 'diagram.svg'), 'utf8'));
+  const run = json(join(out, 'run.json'));
+  for (const b of run.branches) expect(findAll(root, 'path', { 'data-branch': String(b.id) }).length).toBeGreaterThan(0);
+  for (const k of kinds) expect(findAll(root, 'g', { 'data-role': 'special-point', 'data-kind': k }).length).toBeGreaterThan(0);
+  return root;
+}
+
+const discreteEigenvalue = (n: number, h: number) => (4 / h ** 2) * Math.sin((n * Math.PI * h) / 2) ** 2; // standard FD result
+
+describe('the bundled case files', () => {
+  it.each(files)('%s is a valid case with a header in words', async (f) => {
+    const text = readFileSync(join(folder, f), 'utf8');
+    const header = text.split('\n').filter((l) => l.startsWith('#'));
+    expect(text.startsWith('# ')).toBe(true);
+    expect(header.length).toBeGreaterThanOrEqual(5);
+    expect(text).toMatch(/invented scenario, invented numbers/);
+    const prepared = await prepareCase(join(folder, f));
+    if (prepared.caution && prepared.case.model !== 'reaction-diffusion') {
+      // ignition, runaway and buckling models: the caution in the header too
+      expect(header.map((l) => l.replace(/^#\s*/, '')).join(' ')).toMatch(/not a substitute for design codes, safety standards or a licensed engineer's judgement/);
+    }
+  });
+
+  it('cover the scenarios the users bring: ignition 1D and 2D, a 2D pattern with stability, a pitchfork, strut buckling, a subcritical beam, an expression model', async () => {
+    const models: Record<string, string> = {};
+    for (const f of files) {
+      const p = await prepareCase(join(folder, f));
+      models[f] = `${p.case.model} ${p.case.grid.intervals.length}D${p.case.stability.eigenvalues > 0 ? ' stability' : ''}`;
+    }
+    expect(Object.values(models)).toEqual(
+      expect.arrayContaining(['bratu 1D stability', 'bratu 2D stability', 'brusselator 2D stability', 'allen-cahn 1D stability', 'elastica 1D stability', 'beam-foundation 1D stability', 'reaction-diffusion 1D stability']),
+    );
+  });
+});
+
+describe('smoke runs of the bundled cases', () => {
+  it('alloy-strip: pitchforks from u = 0 at the grid’s Laplacian eigenvalues, both halves followed', async () => {
+    const r = await run('alloy-strip');
+    expect(r.result.status).toBe('finished');
+    const bps = r.of('branch-point');
+    expect(bps.map((p) => p.type)).toEqual(['pitchfork', 'pitchfork', 'pitchfork']);
+    bps.forEach((p, i) => expect(Math.abs(p.value - discreteEigenvalue(i + 1, 0.01))).toBeLessThan(1e-6));
+    expect(r.result.ledger.branches).toHaveLength(7);
+    const root = checkDiagram(r.out, ['branch-point', 'end']);
+    expect(readFileSync(join(r.out, 'diagram.svg'), 'utf8')).toContain('u at the centre');
+    expect(findAll(root, 'g', { 'data-role': 'caution' })).toHaveLength(0);
+  });
+
+  it('ruler-buckling: buckling loads near n²π², with the caution on the plots', async () => {
+    const r = await run('ruler-buckling');
+    expect(r.result.status).toBe('finished');
+    const bps = r.of('branch-point');
+    // Euler: n²π² for the continuum; the grid's eigenvalues (4/h²) sin²(nπh/2)
+    expect(Math.abs(bps[0].value - discreteEigenvalue(1, 0.01))).toBeLessThan(1e-6);
+    expect(Math.abs(bps[1].value - discreteEigenvalue(2, 0.01))).toBeLessThan(1e-6);
+    const root = checkDiagram(r.out, ['branch-point']);
+    expect(findAll(root, 'g', { 'data-role': 'caution' })).toHaveLength(1);
+    const profile = readFileSync(join(r.out, 'plots', 'branch-1-branch-point-1.svg'), 'utf8');
+    expect(profile).toContain('data-role="caution"');
+  });
+
+  it('rail-buckling: buckles at P = EI μ + kf/μ and the buckled branches fall back to lower loads (subcritical)', async () => {
+    const r = await run('rail-buckling');
+    expect(r.result.status).toBe('finished');
+    const bp = r.of('branch-point')[0];
+    const mu = discreteEigenvalue(1, 1 / 200);
+    // Timoshenko & Gere: P_n = EI μ_n + kf/μ_n (exact for the grid with the discrete μ_n)
+    expect(Math.abs(bp.value - (mu + 100 / mu))).toBeLessThan(1e-6);
+    for (const b of r.result.ledger.branches.filter((x) => x.id > 1)) expect(b.last!).toBeLessThan(bp.value - 5);
+    checkDiagram(r.out, ['branch-point', 'end']);
+  });
+
+  it('catalyst-pellet: ignition near Da = 0.34 and extinction near Da = 0.068', async () => {
+    const r = await run('catalyst-pellet');
+    expect(r.result.status).toBe('finished');
+    const folds = r.of('fold');
+    expect(folds.map((f) => f.turn)).toEqual(['maximum', 'minimum']);
+    expect(Math.abs(folds[0].value - 0.34)).toBeLessThan(0.01);
+    expect(Math.abs(folds[1].value - 0.068)).toBeLessThan(0.002);
+    const root = checkDiagram(r.out, ['fold']);
+    expect(findAll(root, 'path', { 'data-stability': 'unstable' }).length).toBeGreaterThan(0);
+    expect(readFileSync(join(r.out, 'plots', 'branch-1-fold-1.svg'), 'utf8')).toMatch(/data-field="c"[\s\S]*data-field="T"/);
+  });
+
+  it('chip-pile (on 32 × 32 here): the fold near λ = 6.81', async () => {
+    const r = await run('chip-pile', [32, 32]);
+    expect(r.result.status).toBe('finished');
+    const fold = r.of('fold');
+    expect(fold).toHaveLength(1);
+    // 6.8081244 for the continuum (widely reported, from memory); 32 intervals are within 2e-3
+    expect(Math.abs(fold[0].value - 6.8081244)).toBeLessThan(2e-3);
+    checkDiagram(r.out, ['fold']);
+    expect(readFileSync(join(r.out, 'plots', 'branch-1-fold-1.svg'), 'utf8')).toContain('data-role="colour-bar"');
+  });
+
+  it('turing-spots (on 16 × 16 here): the checkerboard pattern sets in near b = 2.914 and is stable', async () => {
+    const r = await run('turing-spots', [16, 16]);
+    expect(r.result.status).toBe('finished');
+    const bp = r.of('branch-point')[0];
+    // continuum neutral curve b = (1 + Du k²)(a² + Dv k²)/(Dv k²) with k² = 2(π/L)² (standard linear analysis)
+    const k2 = 2 * (Math.PI / 5.3) ** 2;
+    const bT = ((1 + k2) * (4 + 8 * k2)) / (8 * k2);
+    expect(Math.abs(bp.value - bT)).toBeLessThan(0.01);
+    expect(r.result.ledger.branches).toHaveLength(3);
+    const csv = readFileSync(join(r.out, 'branches', '2.csv'), 'utf8').trim().split('\n');
+    const stable = csv[0].split(',').indexOf('stable');
+    expect(csv[csv.length - 1].split(',')[stable]).toBe('true');
+    checkDiagram(r.out, ['branch-point']);
+  });
+});
