@@ -440,7 +440,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
         if (b.stopReason === undefined) {
           b.stopReason = 'stopped';
           b.stopText = stopReasonText.stopped;
-          b.message = 'the run was stopped on request';
+          b.message = 'the run can go on with branchline resume';
         }
       }
       log('warning', 'stopped on request');

@@ -6,7 +6,10 @@ import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { registerModels } from './models.js';
 import { registerRun } from './run.js';
+import { registerResume } from './resume.js';
+import { registerCheck } from './check.js';
+import { registerNew } from './new.js';
 import { registerRefine } from './refine.js';
 import { registerPlot } from './plot.js';
 
-export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerModels, registerRefine, registerPlot];
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot];

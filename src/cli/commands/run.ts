@@ -1,51 +1,121 @@
+import { relative } from 'node:path';
 import type { Command } from 'commander';
-import type { CommandContext } from '../io.js';
-import { prepareCase } from '../../run/case.js';
-import { outputDirectory, runCase } from '../../run/run-case.js';
+import { type CommandContext, type Io, processIo } from '../io.js';
+import { type CaseOutcome, batchLines, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
+import { InputError } from '../../run/errors.js';
+import { type ProgressView, progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
+import { toJson } from '../../run/writers.js';
 
-/** `branchline run CASE`: trace a case and write its run directory. */
+/** Most worker processes `--jobs` accepts. */
+const maxJobs = 64;
+
+/**
+ * SIGINT/SIGTERM while runs go: the first stops them cleanly (the current step is finished, a
+ * checkpoint written, run.json marked stopped); a second leaves at once (every run can still be
+ * resumed from its last checkpoint). Returns the stop signal and a function that removes the handlers.
+ */
+export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { signal: AbortSignal; release: () => void } {
+  const controller = new AbortController();
+  let count = 0;
+  const onSignal = (signal: NodeJS.Signals): void => {
+    count++;
+    if (count > 1) {
+      view()?.close();
+      io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
+      killWorkers();
+      process.exit(130);
+    }
+    view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`);
+    controller.abort();
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+  return {
+    signal: controller.signal,
+    release: () => {
+      process.off('SIGINT', onSignal);
+      process.off('SIGTERM', onSignal);
+    },
+  };
+}
+
+/** Whether progress bars go to a terminal (only for the real process streams). */
+export function onTerminal(io: Io): boolean {
+  return io === processIo && process.stderr.isTTY === true;
+}
+
+/** After the summary of a stopped run: how to go on. */
+export function resumeHint(o: CaseOutcome): string {
+  if (o.status !== 'stopped') return '';
+  const r = relative(process.cwd(), o.directory);
+  return `To continue: branchline resume ${r === '' ? '.' : r.startsWith('..') ? o.directory : r}\n`;
+}
+
+export function parseJobs(text: string | undefined): number {
+  if (text === undefined) return 1;
+  const n = Number(text);
+  if (!/^\s*\d+\s*$/.test(text) || !Number.isInteger(n) || n < 1 || n > maxJobs) {
+    throw new InputError(`--jobs: '${text}' is not accepted (accepted: a whole number from 1 to ${maxJobs})`);
+  }
+  return n;
+}
+
+/** `branchline run CASE...`: trace cases and write their run directories. */
 export function registerRun(program: Command, { io, setExit }: CommandContext): void {
   program
     .command('run')
-    .description('trace the steady states of a case file and write a run directory (run.json, points.json, branches/*.csv, solutions/*.npy)')
-    .argument('<case>', 'case file (YAML or JSON)')
-    .option('--out <dir>', "output folder (default: the case's output.directory, else runs/<case name>)")
+    .description('trace the steady states of case files and write a run directory per case (run.json, points.json, branches/*.csv, solutions/*.npy)')
+    .argument('<case...>', 'case files (YAML or JSON); all are checked before any run starts')
+    .option('--out <dir>', "output folder (default: the case's output.directory, else runs/<case name>); with several cases, a parent folder holding one folder per case name")
     .option('--force', 'replace an earlier run in a non-empty output folder (only a folder holding a branchline run)')
-    .option('--quiet', 'no progress log lines on stderr')
-    .action(async (file: string, opts: { out?: string; force?: boolean; quiet?: boolean }) => {
-      // everything is checked (and the problem built) before the output folder is touched
-      const prepared = await prepareCase(file);
-      const controller = new AbortController();
-      let interrupts = 0;
-      const onSignal = (signal: NodeJS.Signals): void => {
-        interrupts++;
-        if (interrupts > 1) {
-          io.err(`branchline: second ${signal}: leaving at once\n`);
-          process.exit(130);
-        }
-        io.err(`branchline: ${signal}: finishing the current step and writing the files (again to leave at once)\n`);
-        controller.abort();
-      };
-      process.on('SIGINT', onSignal);
-      process.on('SIGTERM', onSignal);
-      try {
-        const result = await runCase(prepared, {
-          outDir: outputDirectory(prepared, opts.out),
-          ...(opts.force ? { force: true } : {}),
-          signal: controller.signal,
-          log: opts.quiet
-            ? (level, message) => {
-                if (level === 'warning') io.err(`branchline: warning: ${message}\n`);
-              }
-            : (level, message) => io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`),
-        });
-        io.out(formatSummary(result, prepared));
-        setExit(result.status === 'finished' ? 0 : 1);
-      } finally {
-        process.off('SIGINT', onSignal);
-        process.off('SIGTERM', onSignal);
+    .option('--jobs <n>', 'run up to n cases at a time, each in its own process (default 1: one after another)')
+    .option('--quiet', 'no progress and no log lines on stderr, only warnings')
+    .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
+    .addHelpText(
+      'after',
+      `
+Progress: a bar per running case on a terminal; otherwise a plain line per case every 10 s.
+Checkpoints: every run writes checkpoint.bin in its folder (case keys checkpoint.every-points,
+default 25, and checkpoint.every-seconds, default 60); \`branchline resume DIR\` continues a run
+that was stopped or killed, losing at most the points since its last checkpoint.
+Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped,
+and cases not yet started are skipped; press again to leave at once.
+Exit codes: 0 every run finished; 1 a run failed or was stopped; 2 bad input (a case file, an
+option or an output folder), found before any run starts.`,
+    )
+    .action(async (files: string[], opts: { out?: string; force?: boolean; jobs?: string; quiet?: boolean; json?: boolean }) => {
+      const jobs = parseJobs(opts.jobs);
+      // every case is checked (and its problem built) before any output folder is touched
+      const { targets, problems } = await prepareTargets(files, { ...(opts.out !== undefined ? { out: opts.out } : {}), force: opts.force === true, jobs });
+      if (problems.length) {
+        for (const p of problems) io.err(`branchline: ${p}\n`);
+        if (files.length > 1) io.err(`branchline: nothing was run: ${problems.length} of ${files.length} cases cannot run\n`);
+        setExit(2);
+        return;
       }
+      const several = targets.length > 1;
+      const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: several });
+      const stop = stopOnSignals(io, () => view);
+      let outcomes: CaseOutcome[];
+      try {
+        outcomes = await runBatch(targets, {
+          jobs,
+          force: opts.force === true,
+          signal: stop.signal,
+          view,
+          onOutcome: (t, o) => {
+            if (opts.json) return;
+            if (o.result) io.out(formatSummary(o.result, t.prepared) + resumeHint(o) + (several ? '\n' : ''));
+            else if (o.status === 'failed') io.err(`branchline: ${several ? `${o.name}: ` : ''}run failed: ${o.reason}\n`);
+          },
+        });
+      } finally {
+        view.close();
+        stop.release();
+      }
+      if (opts.json) io.out(toJson(jsonSummary(outcomes)));
+      else if (several) io.out(batchLines(outcomes).join('\n') + '\n');
+      setExit(outcomes.every((o) => o.status === 'finished') ? 0 : 1);
     });
-
 }

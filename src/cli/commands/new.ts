@@ -1,0 +1,245 @@
+import type { Command } from 'commander';
+import type { CommandContext } from '../io.js';
+import { models } from '../../../discretisations/index.js';
+import type { OptionSpec } from '../../../discretisations/models/options.js';
+import type { ParameterSpec, Problem } from '../../problem/problem.js';
+import { defaultCheckpoint } from '../../run/case.js';
+import { InputError } from '../../run/errors.js';
+
+/**
+ * Where a study of each built-in model usually starts: the continuation parameter, its range per
+ * dimension, and whether branch switching and stability are worth switching on. Models without
+ * an entry get a generic range around the parameter's default.
+ */
+interface Suggestion {
+  parameter: string;
+  bounds: (dim: number) => [number, number];
+  step: { initial: number; min: number; max: number };
+  maxPoints: number;
+  depth: number;
+  eigenvalues: number;
+  stopWhen?: string;
+  /** Domain length per axis (default 1). */
+  length?: number;
+  note: string;
+}
+
+const suggestions: Record<string, Suggestion> = {
+  bratu: {
+    parameter: 'lambda',
+    bounds: (d) => [0, [4, 8, 12][d - 1]],
+    step: { initial: 0.05, min: 1e-8, max: 0.5 },
+    maxPoints: 400,
+    depth: 0,
+    eigenvalues: 4,
+    stopWhen: '{monitor: max, above: 10}',
+    note: 'the lower states lose stability at the fold (ignition); past it the branch turns back through unstable states',
+  },
+  'allen-cahn': {
+    parameter: 'lambda',
+    bounds: () => [0, 100],
+    step: { initial: 0.5, min: 1e-8, max: 2 },
+    maxPoints: 300,
+    depth: 1,
+    eigenvalues: 4,
+    note: 'u = 0 is a solution for every lambda; pitchforks leave it where lambda crosses the Laplacian eigenvalues',
+  },
+  'gray-scott': {
+    parameter: 'F',
+    bounds: () => [0.01, 0.1],
+    step: { initial: 0.002, min: 1e-10, max: 0.01 },
+    maxPoints: 300,
+    depth: 1,
+    eigenvalues: 6,
+    note: 'from the uniform state (1, 0); start from initial: pulse to follow spot patterns instead',
+  },
+  brusselator: {
+    parameter: 'b',
+    bounds: () => [1, 8],
+    step: { initial: 0.05, min: 1e-8, max: 0.25 },
+    maxPoints: 300,
+    depth: 0,
+    eigenvalues: 6,
+    length: 10,
+    note: 'the uniform state (a, b/a) meets Turing branch points and a Hopf point as b grows (length 10 leaves room for patterns; set branch-switching depth 1 to follow the patterns, a longer run)',
+  },
+  elastica: {
+    parameter: 'lambda',
+    bounds: () => [0, 50],
+    step: { initial: 0.5, min: 1e-8, max: 2 },
+    maxPoints: 300,
+    depth: 1,
+    eigenvalues: 4,
+    note: 'the straight strut buckles at branch points near lambda = n²π²',
+  },
+  'beam-foundation': {
+    parameter: 'P',
+    bounds: () => [0, 60],
+    step: { initial: 0.5, min: 1e-8, max: 2 },
+    maxPoints: 300,
+    depth: 1,
+    eigenvalues: 4,
+    note: 'the straight beam buckles at branch points; a softening foundation (k3 > 0) makes them subcritical',
+  },
+};
+
+/** A line with its comment aligned (the comment starts at column 34). */
+const c = (text: string, comment: string): string => `${text.padEnd(32)} # ${comment}`;
+
+const gridFor = (dim: number): number[] => new Array(dim).fill([100, 64, 24][dim - 1]);
+
+/** Numbers as YAML reads them back (exponents in the 1.0e-8 form that YAML 1.1 readers also take). */
+function yamlNumber(x: number): string {
+  const t = String(x);
+  return /e/.test(t) && !/\./.test(t.split('e')[0]) ? t.replace('e', '.0e') : t;
+}
+
+function genericSuggestion(p: ParameterSpec): Suggestion {
+  const lo = p.min ?? p.default - Math.max(1, Math.abs(p.default));
+  const hi = p.max ?? p.default + Math.max(1, 3 * Math.abs(p.default));
+  const span = hi - lo;
+  return {
+    parameter: p.name,
+    bounds: () => [lo, hi],
+    step: { initial: span / 100, min: span * 1e-9, max: span / 10 },
+    maxPoints: 300,
+    depth: 1,
+    eigenvalues: 4,
+    note: 'set the bounds to the range you want to explore',
+  };
+}
+
+function optionLines(specs: readonly OptionSpec[]): string[] {
+  const lines: string[] = [];
+  for (const o of specs) {
+    if (o.name === 'grid' || o.name === 'parameters') continue;
+    if (o.choices) {
+      lines.push(`# ${o.description} (one of: ${o.choices.join(', ')})`);
+      lines.push(`${o.name}: ${o.choices[0]}`);
+    } else {
+      lines.push(`# ${o.description}`);
+      lines.push(`# ${o.name}: false`);
+    }
+  }
+  return lines;
+}
+
+function commonTail(s: Suggestion, parameter: string, start: number, monitors: string[], dim: number): string[] {
+  const [lo, hi] = s.bounds(dim);
+  return [
+    'continuation:',
+    `  parameter: ${parameter}`,
+    c(`  bounds: [${yamlNumber(lo)}, ${yamlNumber(hi)}]`, `the branch stops when ${parameter} reaches either end`),
+    c(`  direction: ${start >= hi ? 'decrease' : 'increase'}`, `which way ${parameter} moves at the start: increase | decrease`),
+    c('  method: arclength', 'arclength (passes folds) | natural (stops at the first fold)'),
+    c(`  step: {initial: ${yamlNumber(s.step.initial)}, min: ${yamlNumber(s.step.min)}, max: ${yamlNumber(s.step.max)}}`, `arclength steps in the weighted (grid-independent) norm`),
+    c(`  max-points: ${s.maxPoints}`, `per branch`),
+    s.stopWhen ? `  stop-when: [${s.stopWhen}]` : `  # stop-when: [{monitor: ${monitors[0] ?? 'max'}, above: 10}]`,
+    `  # monitors of this model: ${monitors.join(', ')}`,
+    c(`  branch-switching: {depth: ${s.depth}}`, `follow the branches crossing at branch points, this many levels deep (0: none)`),
+    '  # newton: {tolerance: 1.0e-9, max-iterations: 10}',
+    '  # locate: {folds: true, branch-points: true}',
+    'stability:',
+    c(`  eigenvalues: ${s.eigenvalues}`, `rightmost eigenvalues per point, for stability and Hopf points (0: none)`),
+    'output:',
+    c('  solutions: special', 'node arrays (.npy) at special points | none | all (every point)'),
+    '  # directory: runs/my-study     # default: runs/<name> in the current folder',
+    'checkpoint:',
+    c(`  every-points: ${defaultCheckpoint.everyPoints}`, `write a checkpoint (for \`branchline resume\`) this often...`),
+    c(`  every-seconds: ${defaultCheckpoint.everySeconds}`, `...and at least this often`),
+  ];
+}
+
+/** A commented starter case for a built-in model (valid as it stands: `run` accepts it). */
+export function starterCase(id: string, dimension?: number): string {
+  const entry = Object.hasOwn(models, id) ? models[id] : undefined;
+  if (!entry) throw new InputError(`'${id}' is not a known model (accepted: ${Object.keys(models).join(', ')})`);
+  const dim = dimension ?? entry.dimensions[0];
+  if (!entry.dimensions.includes(dim)) {
+    throw new InputError(`--dimensions: model '${id}' supports ${entry.dimensions.map((d) => `${d}D`).join(', ')}, not ${dim}D`);
+  }
+  const intervals = gridFor(dim);
+  const head = [
+    `# A starter case for the model '${id}': ${entry.description}.`,
+    '# Every value below is a starting point to edit; `branchline models` lists the keys of every',
+    '# model. Check it, then run it:',
+    `#   branchline check ${id}-study.yaml && branchline run ${id}-study.yaml`,
+    `name: ${id}-study`,
+    `model: ${id}`,
+  ];
+  if (id === 'reaction-diffusion') {
+    const s: Suggestion = {
+      parameter: 'mu',
+      bounds: () => [0, 4],
+      step: { initial: 0.05, min: 1e-8, max: 0.5 },
+      maxPoints: 400,
+      depth: 0,
+      eigenvalues: 4,
+      stopWhen: '{monitor: max, above: 10}',
+      note: '',
+    };
+    const lines = [
+      ...head,
+      '# The model is given by expressions: the fields, their reaction terms and diffusion',
+      '# coefficients, the boundary conditions and the initial state. This one is an exothermic',
+      '# reaction in one field u with strength mu (edit freely; more fields: fields: [u, v] and',
+      '# one entry per field below).',
+      'fields: [u]',
+      c('parameters:', 'names with start values (or {default, description, min, max})'),
+      '  mu: 0.1',
+      c('reaction:', 'expressions in the fields, the parameters and x, y, z'),
+      '  u: mu * exp(u)',
+      c('diffusion:', 'a number, a parameter name or an expression in the parameters'),
+      '  u: 1',
+      c('boundary: dirichlet', 'neumann | dirichlet | periodic, or per side / per field (see `branchline models`)'),
+      '# initial: {u: 0}                # initial state per field (default 0)',
+      'grid:',
+      c(`  intervals: [${intervals.join(', ')}]`, `intervals per axis (1 to 3 axes); h = length / intervals`),
+      `  length: [${intervals.map(() => 1).join(', ')}]`,
+      ...commonTail(s, 'mu', 0.1, ['max', 'min', 'l2-norm'], dim),
+      `# Caution: ${entry.caution ?? ''}`,
+    ];
+    return lines.join('\n') + '\n';
+  }
+  // build the problem with the default options on a small grid: its own parameters and monitors
+  const problem: Problem = entry.factory({ grid: { intervals: intervals.map(() => 8), length: intervals.map(() => 1) } });
+  const params = problem.parameters;
+  const s = suggestions[id] ?? genericSuggestion(params[0]);
+  const start = params.find((p) => p.name === s.parameter)?.default ?? 0;
+  const [lo, hi] = s.bounds(dim);
+  const startValue = start >= lo && start < hi ? start : lo + (hi - lo) / 100;
+  const lines = [
+    ...head,
+    ...optionLines(entry.options),
+    'grid:',
+    c(`  intervals: [${intervals.join(', ')}]`, `intervals per axis (${entry.dimensions.map((d) => `${d}D`).join(', ')}); h = length / intervals`),
+    c(`  length: [${intervals.map(() => s.length ?? 1).join(', ')}]`, `domain length per axis`),
+    c('parameters:', 'start values (the model\'s defaults)'),
+    ...params.map((p) => {
+      const text = `${p.name}: ${yamlNumber(p.name === s.parameter ? startValue : p.default)}`;
+      return c(`  ${text}`, p.description);
+    }),
+    `# ${s.note}`,
+    ...commonTail(s, s.parameter, startValue, problem.monitors.map((m) => m.name), dim),
+  ];
+  if (entry.caution) lines.push(`# Caution: ${entry.caution}`);
+  return lines.join('\n') + '\n';
+}
+
+/** `branchline new MODEL`: print a commented starter case. */
+export function registerNew(program: Command, { io }: CommandContext): void {
+  program
+    .command('new')
+    .description('print a commented starter case for a model on stdout (save it, edit it, run it)')
+    .argument('<model>', `a model id: ${Object.keys(models).join(', ')}`)
+    .option('--dimensions <d>', 'number of space dimensions (1, 2 or 3, as the model supports; default its first)')
+    .addHelpText('after', '\nExample:\n  branchline new bratu > slab.yaml && branchline run slab.yaml\nExit codes: 0 printed; 2 unknown model or dimension.')
+    .action((id: string, opts: { dimensions?: string }) => {
+      let dim: number | undefined;
+      if (opts.dimensions !== undefined) {
+        dim = Number(opts.dimensions);
+        if (!Number.isInteger(dim) || dim < 1 || dim > 3) throw new InputError(`--dimensions: '${opts.dimensions}' is not accepted (accepted: 1, 2 or 3)`);
+      }
+      io.out(starterCase(id, dim));
+    });
+}

@@ -1,0 +1,506 @@
+/**
+ * Running cases from the command line: one case in this process, or several — one after another,
+ * or at most `jobs` at a time, each in its own worker process (src/run/batch-worker.ts).
+ *
+ *  - Every case file is checked (and its problem built) and every output folder checked before
+ *    any run starts: a bad case stops the whole call with exit code 2 and nothing written.
+ *  - With several cases and `--out DIR`, DIR is a parent folder: each case writes DIR/<case name>.
+ *  - Each run writes checkpoints (src/run/checkpoint.ts) as its case asks.
+ *  - A run that fails (numerically, or its worker process dies) is recorded with its reason; the
+ *    other cases still run. A stop request (SIGINT/SIGTERM) stops the running cases cleanly
+ *    (checkpoint written, run.json `stopped`) and starts no new ones.
+ *
+ * No argument parsing and no process.exit here: the `run` and `resume` commands call these.
+ */
+import { type ChildProcess, fork } from 'node:child_process';
+import { existsSync, readFileSync, readdirSync, statSync, statfsSync } from 'node:fs';
+import { hostname, totalmem } from 'node:os';
+import { dirname, join, resolve } from 'node:path';
+import { estimateFactorMemory } from '../../discretisations/index.js';
+import { fileURLToPath } from 'node:url';
+import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
+import { CheckpointError, Checkpointer, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
+import { InputError } from './errors.js';
+import type { ProgressView } from './progress.js';
+import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
+import { runFormat } from './run-directory.js';
+import { writeJsonAtomic } from './writers.js';
+
+/** A case ready to run: checked, its problem built, its output folder decided. */
+export interface RunTarget {
+  /** The case file as the user named it. */
+  label: string;
+  prepared: PreparedCase;
+  outDir: string;
+}
+
+export type OutcomeStatus = 'finished' | 'failed' | 'stopped' | 'not-started';
+
+/** How one case of a call went (the --json summary lists these). */
+export interface CaseOutcome {
+  name: string;
+  caseFile: string | null;
+  directory: string;
+  status: OutcomeStatus;
+  /** Why it failed or stopped (absent when finished). */
+  reason?: string;
+  /** The run's result, when the run got as far as writing its files. */
+  result?: RunResult;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Checking before anything runs
+
+/** Why `path` cannot take a new run (undefined when it can); the policy of RunDirectory.create, read-only. */
+export function outputFolderProblem(path: string, force: boolean): string | undefined {
+  if (!existsSync(path)) return undefined;
+  if (!statSync(path).isDirectory()) return `output folder ${path} exists and is a file, not a folder`;
+  const entries = readdirSync(path);
+  if (entries.length === 0) return undefined;
+  const ours = isRunDirectory(path);
+  if (!force) return `output folder ${path} is not empty (${ours ? 'it holds an earlier run' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier run`;
+  if (!ours) return `output folder ${path} is not empty and holds no earlier branchline run; --force replaces only an earlier run, choose another folder with --out`;
+  return undefined;
+}
+
+function readRunJson(dir: string): Record<string, unknown> | undefined {
+  try {
+    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
+    return doc && doc.format === runFormat ? doc : undefined;
+  } catch {
+    return undefined;
+  }
+}
+
+function isRunDirectory(dir: string): boolean {
+  return readRunJson(dir) !== undefined;
+}
+
+/**
+ * Check every case file and output folder. Returns the targets, or the problems (one line each,
+ * naming the file and field) when any case cannot run — then nothing may run.
+ */
+export async function prepareTargets(files: readonly string[], options: { out?: string; force?: boolean; jobs?: number } = {}): Promise<{ targets: RunTarget[]; problems: string[] }> {
+  const targets: RunTarget[] = [];
+  const problems: string[] = [];
+  const several = files.length > 1;
+  for (const file of files) {
+    let prepared: PreparedCase;
+    try {
+      prepared = await prepareCase(file);
+    } catch (e) {
+      problems.push(e instanceof InputError ? e.message : `${file}: ${e instanceof Error ? e.message.split('\n')[0] : String(e)}`);
+      continue;
+    }
+    // several cases: --out is a parent folder with one sub-folder per case name
+    const outDir = several && options.out !== undefined ? resolve(options.out, prepared.case.name) : outputDirectory(prepared, options.out);
+    const same = targets.find((t) => t.outDir === outDir);
+    if (same) {
+      problems.push(`${file}: writes to the same output folder as ${same.label} (${outDir}); give the cases different names`);
+      continue;
+    }
+    const folder = outputFolderProblem(outDir, options.force === true);
+    if (folder) {
+      problems.push(folder);
+      continue;
+    }
+    targets.push({ label: file, prepared, outDir });
+  }
+  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1));
+  return { targets, problems };
+}
+
+function bytesText(b: number): string {
+  if (b >= 1024 ** 4) return `${(b / 1024 ** 4).toFixed(1)} TiB`;
+  if (b >= 1024 ** 3) return `${(b / 1024 ** 3).toFixed(1)} GiB`;
+  if (b >= 1024 ** 2) return `${(b / 1024 ** 2).toFixed(0)} MiB`;
+  return `${Math.ceil(b / 1024)} KiB`;
+}
+
+/**
+ * Estimates of what a run needs: memory for the sparse LU factors (the continuation system's,
+ * and with stability the eigen solver's as well) and disk for one branch of `max-points`
+ * points (CSV rows, solution files with output.solutions: all, two checkpoints).
+ */
+export function runNeeds(prepared: PreparedCase): { memory: number; disk: number; points: number } {
+  const d = prepared.problem.describe();
+  const n = prepared.problem.size;
+  const fields = Math.max(1, d.fields.length);
+  const factor = estimateFactorMemory(d.axes.map((a) => a.nodes), fields, prepared.problem.extraUnknowns.length + 1).bytes;
+  const eigen = prepared.case.stability.eigenvalues;
+  // Krylov basis (about 2k + 20 vectors) and the states the engine keeps (a dozen vectors)
+  const vectors = (eigen > 0 ? 2 * eigen + 20 : 0) + 12;
+  const memory = factor * (eigen > 0 ? 2 : 1) + vectors * 8 * (n + 1);
+  const points = prepared.settings.maxPoints;
+  const nodes = d.axes.reduce((a, ax) => a * ax.nodes, 1) * fields;
+  const columns = 8 + prepared.problem.monitors.length + (eigen > 0 ? 4 : 0);
+  const row = columns * 24;
+  const solutions = prepared.case.output.solutions === 'all' ? nodes * 8 + 128 : 0;
+  const checkpoint = 2 * 8 * (n + 1) * (16 + 2 * eigen);
+  return { memory, disk: points * (row + solutions) + checkpoint, points };
+}
+
+/** Requests that cannot fit this machine, refused before anything runs (with the estimates). */
+function resourceProblems(targets: readonly RunTarget[], jobs: number): string[] {
+  const problems: string[] = [];
+  const machine = totalmem();
+  const needs = targets.map((t) => ({ t, ...runNeeds(t.prepared) }));
+  for (const x of needs) {
+    if (x.memory > 0.8 * machine) {
+      problems.push(`${x.t.label}: grid.intervals: the run would need about ${bytesText(x.memory)} of memory (sparse LU factors${x.t.prepared.case.stability.eigenvalues > 0 ? ' for the continuation and the eigenvalues' : ''}), more than this machine has (${bytesText(machine)}); use fewer intervals`);
+    }
+  }
+  const parallel = Math.min(jobs, targets.length);
+  if (problems.length === 0 && parallel > 1) {
+    const worst = needs.map((x) => x.memory).sort((a, b) => b - a).slice(0, parallel).reduce((a, b) => a + b, 0);
+    if (worst > 0.8 * machine) problems.push(`--jobs ${jobs}: the largest ${parallel} cases together would need about ${bytesText(worst)} of memory, more than this machine has (${bytesText(machine)}); use fewer jobs`);
+  }
+  // disk: one branch of max-points points per case, summed per file system
+  const byDevice = new Map<number, { free: number; need: number; where: string; labels: string[] }>();
+  for (const x of needs) {
+    let probe = x.t.outDir;
+    while (!existsSync(probe) && dirname(probe) !== probe) probe = dirname(probe);
+    let free: number;
+    let dev: number;
+    try {
+      const fs = statfsSync(probe);
+      free = fs.bavail * fs.bsize;
+      dev = statSync(probe).dev;
+    } catch {
+      continue;
+    }
+    const e = byDevice.get(dev) ?? { free, need: 0, where: probe, labels: [] };
+    e.need += x.disk;
+    e.labels.push(x.t.label);
+    byDevice.set(dev, e);
+  }
+  for (const e of byDevice.values()) {
+    if (e.need > e.free) {
+      problems.push(
+        `${e.labels.join(', ')}: continuation.max-points: a branch of max-points points would write about ${bytesText(e.need)} (rows, solution files, checkpoints), but only ${bytesText(e.free)} is free under ${e.where}; lower max-points or output.solutions, or choose another folder with --out`,
+      );
+    }
+  }
+  return problems;
+}
+
+// ---------------------------------------------------------------------------------------------
+// One run in this process
+
+export interface ResumePlan {
+  checkpoint: CheckpointDocument;
+  /** The checkpoint file used, and newer ones that could not be (damaged). */
+  file: string;
+  skipped: string[];
+  /** run.json's status before resuming. */
+  previousStatus: string;
+}
+
+export interface SessionOptions {
+  outDir: string;
+  force?: boolean;
+  signal?: AbortSignal;
+  view: ProgressView;
+  /** Name shown in progress and log lines. */
+  name: string;
+  resume?: ResumePlan;
+}
+
+/** Run (or resume) one case here, with checkpoints and progress. */
+export async function runSession(prepared: PreparedCase, o: SessionOptions): Promise<RunResult> {
+  const c = o.resume?.checkpoint;
+  const checkpointer = new Checkpointer(prepared.case.checkpoint, c ? { sequence: c.sequence, points: c.ledger.points } : {});
+  o.view.start(o.name, prepared.settings.parameter, prepared.settings.maxPoints);
+  try {
+    return await runCase(prepared, {
+      outDir: o.outDir,
+      ...(o.force ? { force: true } : {}),
+      ...(o.signal ? { signal: o.signal } : {}),
+      log: (level, message) => o.view.log(o.name, level, message),
+      progress: (p: ProgressInfo) => o.view.update(o.name, p),
+      checkpoint: checkpointer.hook,
+      ...(c
+        ? {
+            resume: {
+              ledger: c.ledger,
+              engineState: c.engine,
+              started: c.run.started,
+              previousSeconds: c.run.seconds,
+              resumes: c.run.resumes,
+              checkpoint: { file: o.resume!.file, sequence: c.sequence, written: c.written, points: c.ledger.points },
+            },
+          }
+        : {}),
+    });
+  } finally {
+    o.view.end(o.name);
+  }
+}
+
+/** The outcome of a finished session. */
+export function outcomeOf(target: { prepared: PreparedCase; outDir: string }, result: RunResult): CaseOutcome {
+  return {
+    name: target.prepared.case.name,
+    caseFile: target.prepared.file ?? null,
+    directory: result.directory,
+    status: result.status,
+    ...(result.status === 'failed' ? { reason: result.failure ?? 'unknown reason' } : {}),
+    ...(result.status === 'stopped' ? { reason: 'stopped on request' } : {}),
+    result,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Resuming
+
+function processAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (e) {
+    return (e as NodeJS.ErrnoException).code === 'EPERM';
+  }
+}
+
+/**
+ * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
+ * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
+ * problem that matches the saved state. InputError (one line) otherwise.
+ */
+export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  const dir = resolve(dirGiven);
+  if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
+  if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
+  const run = readRunJson(dir);
+  if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
+  const status = String(run.status);
+  if (status === 'finished') throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
+  if (status === 'running') {
+    const proc = run.process as { pid?: unknown; host?: unknown } | undefined;
+    const pid = typeof proc?.pid === 'number' ? proc.pid : undefined;
+    if (pid !== undefined && proc?.host === hostname() && pid !== process.pid && processAlive(pid) && !options.force) {
+      throw new InputError(
+        `${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`,
+      );
+    }
+  }
+  let found;
+  try {
+    found = readCheckpoint(dir);
+  } catch (e) {
+    if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
+    throw e;
+  }
+  const c = found.document;
+  const caseFile = c.run.caseFile;
+  const prepared = await prepareCaseObject(c.case, {
+    label: `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`,
+    ...(caseFile ? { file: caseFile } : {}),
+    baseDir: caseFile ? dirname(caseFile) : dir,
+  });
+  // the saved state must belong to this problem (a code model may have changed since)
+  const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;
+  const x = engine?.current?.x;
+  const saved = x instanceof Float64Array ? x.length - 1 : engine?.rowScale instanceof Float64Array ? engine.rowScale.length : undefined;
+  if (saved !== undefined && saved !== prepared.problem.size) {
+    throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
+  }
+  return { prepared, outDir: dir, plan: { checkpoint: c, file: found.file, skipped: found.skipped, previousStatus: status } };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Several cases
+
+export interface BatchOptions {
+  jobs: number;
+  force?: boolean;
+  signal: AbortSignal;
+  view: ProgressView;
+  /** Called as each case ends (in the order they end). */
+  onOutcome?: (target: RunTarget, outcome: CaseOutcome) => void;
+}
+
+const workers = new Set<ChildProcess>();
+
+/** End every worker at once (a second Ctrl-C): their runs resume from their last checkpoints. */
+export function killWorkers(): void {
+  for (const w of workers) w.kill('SIGKILL');
+}
+
+/** Run the targets one after another here (jobs 1 or a single case), or in worker processes. */
+export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): Promise<CaseOutcome[]> {
+  const outcomes: CaseOutcome[] = new Array(targets.length);
+  const finish = (i: number, out: CaseOutcome): void => {
+    outcomes[i] = out;
+    o.onOutcome?.(targets[i], out);
+  };
+  const notStarted = (t: RunTarget): CaseOutcome => ({ name: t.prepared.case.name, caseFile: t.prepared.file ?? null, directory: t.outDir, status: 'not-started', reason: 'not started: the call was stopped first' });
+
+  if (o.jobs <= 1 || targets.length === 1) {
+    for (let i = 0; i < targets.length; i++) {
+      const t = targets[i];
+      if (o.signal.aborted) {
+        finish(i, notStarted(t));
+        continue;
+      }
+      try {
+        const result = await runSession(t.prepared, { outDir: t.outDir, ...(o.force ? { force: true } : {}), signal: o.signal, view: o.view, name: t.prepared.case.name });
+        finish(i, outcomeOf(t, result));
+      } catch (e) {
+        finish(i, { name: t.prepared.case.name, caseFile: t.prepared.file ?? null, directory: t.outDir, status: 'failed', reason: e instanceof Error ? e.message : String(e) });
+      }
+    }
+    return outcomes;
+  }
+
+  const script = workerScript();
+  let next = 0;
+  const launch = (i: number): Promise<void> =>
+    new Promise((done) => {
+      const t = targets[i];
+      const name = t.prepared.case.name;
+      const child = fork(script, [], { serialization: 'advanced', stdio: ['ignore', 'pipe', 'pipe', 'ipc'], execArgv: [] });
+      workers.add(child);
+      let result: RunResult | undefined;
+      let error: { message: string; input: boolean } | undefined;
+      const relay = (chunk: Buffer): void => {
+        for (const l of chunk.toString('utf8').split('\n')) if (l.trim()) o.view.log(name, 'warning', l.replace(/^branchline:\s*/, ''));
+      };
+      child.stdout?.on('data', relay);
+      child.stderr?.on('data', relay);
+      child.on('message', (m: WorkerMessage) => {
+        switch (m.type) {
+          case 'progress':
+            o.view.update(name, m.info);
+            break;
+          case 'log':
+            o.view.log(name, m.level, m.message);
+            break;
+          case 'result':
+            result = m.result;
+            break;
+          case 'error':
+            error = { message: m.message, input: m.input };
+            break;
+        }
+      });
+      const onAbort = (): void => {
+        child.kill('SIGTERM');
+      };
+      o.signal.addEventListener('abort', onAbort, { once: true });
+      child.on('exit', (code, signal) => {
+        workers.delete(child);
+        o.signal.removeEventListener('abort', onAbort);
+        o.view.end(name);
+        if (result) {
+          finish(i, outcomeOf(t, result));
+        } else {
+          const reason = error?.message ?? `the worker process ended ${signal ? `by signal ${signal}` : `with exit code ${code}`} before the run finished`;
+          if (!error) markAbandoned(t.outDir, reason);
+          finish(i, { name, caseFile: t.prepared.file ?? null, directory: t.outDir, status: 'failed', reason });
+        }
+        done();
+      });
+      o.view.start(name, t.prepared.settings.parameter, t.prepared.settings.maxPoints);
+      const start: WorkerStart = { type: 'run', file: t.prepared.file ?? resolve(t.label), label: t.label, outDir: t.outDir, force: o.force === true };
+      child.send(start);
+    });
+
+  const lane = async (): Promise<void> => {
+    for (;;) {
+      const i = next++;
+      if (i >= targets.length) return;
+      if (o.signal.aborted) {
+        finish(i, notStarted(targets[i]));
+        continue;
+      }
+      await launch(i);
+    }
+  };
+  await Promise.all(Array.from({ length: Math.min(o.jobs, targets.length) }, lane));
+  return outcomes;
+}
+
+/**
+ * A worker died without saying how its run ended: run.json still says `running`; make it true
+ * (`failed`, with the reason). The run's checkpoint stays, so `resume` can continue it.
+ */
+function markAbandoned(dir: string, reason: string): void {
+  const run = readRunJson(dir);
+  if (!run || run.status !== 'running') return;
+  const { process: _gone, ...rest } = run;
+  writeJsonAtomic(join(dir, 'run.json'), { ...rest, status: 'failed', failure: reason, ended: new Date().toISOString() });
+}
+
+/** The compiled worker entry (dist/ when running from the TypeScript sources, e.g. in tests). */
+function workerScript(): string {
+  const here = dirname(fileURLToPath(import.meta.url));
+  const sibling = join(here, 'batch-worker.js');
+  if (existsSync(sibling)) return sibling;
+  const built = resolve(here, '../../dist/src/run/batch-worker.js');
+  if (existsSync(built)) return built;
+  throw new Error(`the worker program is missing (${built}); run \`npm run build\` in the package folder`);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Messages between the batch and its workers
+
+export interface WorkerStart {
+  type: 'run';
+  /** Absolute path of the case file, and the name the user gave it (for messages). */
+  file: string;
+  label: string;
+  outDir: string;
+  force: boolean;
+}
+
+export type WorkerMessage =
+  | { type: 'progress'; info: ProgressInfo }
+  | { type: 'log'; level: 'info' | 'warning'; message: string }
+  | { type: 'result'; result: RunResult }
+  | { type: 'error'; message: string; input: boolean };
+
+// ---------------------------------------------------------------------------------------------
+// Summaries
+
+/** The machine-readable summary of a call (`--json`). */
+export function jsonSummary(outcomes: readonly CaseOutcome[]): Record<string, unknown> {
+  const overall = outcomes.every((c) => c.status === 'finished') ? 'finished' : outcomes.some((c) => c.status === 'failed') ? 'failed' : 'stopped';
+  return {
+    status: overall,
+    cases: outcomes.map((c) => ({
+      name: c.name,
+      'case-file': c.caseFile,
+      directory: c.directory,
+      status: c.status,
+      ...(c.reason !== undefined ? { reason: c.reason } : {}),
+      ...(c.result
+        ? {
+            seconds: c.result.seconds,
+            points: c.result.ledger.points,
+            branches: c.result.ledger.branches.map((b) => ({
+              id: b.id,
+              points: b.points,
+              ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, message: b.message } : {}),
+            })),
+            'special-points': c.result.ledger.specials,
+          }
+        : {}),
+    })),
+  };
+}
+
+/** Lines of the text summary of a call with several cases (after each case's own summary). */
+export function batchLines(outcomes: readonly CaseOutcome[]): string[] {
+  const count = (s: OutcomeStatus): number => outcomes.filter((c) => c.status === s).length;
+  const parts = [`${count('finished')} finished`];
+  if (count('failed')) parts.push(`${count('failed')} failed`);
+  if (count('stopped')) parts.push(`${count('stopped')} stopped`);
+  if (count('not-started')) parts.push(`${count('not-started')} not started`);
+  const lines = [`${outcomes.length} cases: ${parts.join(', ')}.`];
+  for (const c of outcomes) {
+    if (c.status === 'finished') continue;
+    lines.push(`  ${c.name} ${c.status === 'not-started' ? 'was not started' : c.status}: ${c.reason ?? 'no reason recorded'}${c.status === 'stopped' ? ` (continue with: branchline resume ${c.directory})` : ''}`);
+  }
+  return lines;
+}

@@ -1,0 +1,201 @@
+/**
+ * Overnight safety with real processes (the built binary): a run killed with SIGKILL at random
+ * instants — also while it is being resumed — and resumed until it finishes ends with the same
+ * branch files as a run that was never interrupted (every number within 1e-10, the same rows);
+ * a run stopped with SIGINT or SIGTERM exits 1 with run.json `stopped` and resumes to the same
+ * files. The case is small and 1D but exercises what a resume must carry: branch switching (the
+ * queue of branches), stability (eigen-solver warm starts), special points and their solutions.
+ *
+ * The kill instants are drawn at random (printed with any failure): the run is killed when its
+ * branch files have reached a random fraction of their final size, after a random extra delay.
+ */
+import { type ChildProcess, spawn, spawnSync } from 'node:child_process';
+import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { main } from '../../src/cli/main.js';
+import { readCsv, readNpy } from '../../src/run/writers.js';
+
+const tmp = mkdtempSync(join(tmpdir(), 'branchline-kill-'));
+afterAll(() => rmSync(tmp, { recursive: true, force: true }));
+const bin = resolve('bin/branchline.js');
+
+const caseText = `name: kill-me
+model: allen-cahn
+grid: {intervals: [64]}
+parameters: {lambda: 1}
+continuation:
+  parameter: lambda
+  bounds: [0, 45]
+  step: {initial: 0.5, min: 1.0e-8, max: 1}
+  max-points: 80
+  branch-switching: {depth: 1}
+stability: {eigenvalues: 2}
+checkpoint: {every-points: 3, every-seconds: 0.05}
+`;
+const caseFile = join(tmp, 'kill-me.yaml');
+const reference = join(tmp, 'reference');
+
+function csvBytes(dir: string): number {
+  const b = join(dir, 'branches');
+  if (!existsSync(b)) return 0;
+  let total = 0;
+  for (const f of readdirSync(b)) {
+    try {
+      total += statSync(join(b, f)).size;
+    } catch {
+      /* removed meanwhile */
+    }
+  }
+  return total;
+}
+
+interface Ended {
+  code: number | null;
+  signal: NodeJS.Signals | null;
+  out: string;
+  err: string;
+}
+
+function start(args: string[]): { child: ChildProcess; ended: Promise<Ended> } {
+  const child = spawn(process.execPath, [bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'] });
+  let out = '';
+  let err = '';
+  child.stdout!.on('data', (d: Buffer) => (out += d.toString()));
+  child.stderr!.on('data', (d: Buffer) => (err += d.toString()));
+  const ended = new Promise<Ended>((done) => child.on('exit', (code, signal) => done({ code, signal, out, err })));
+  return { child, ended };
+}
+
+const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
+
+/** Send `signal` once the run's branch files reach `bytes` (plus `extraMs`); false when the run ended first. */
+async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: string, bytes: number, extraMs: number, signal: NodeJS.Signals): Promise<boolean> {
+  let done = false;
+  void p.ended.then(() => (done = true));
+  while (!done && csvBytes(dir) < bytes) await sleep(3);
+  if (extraMs > 0) await sleep(extraMs);
+  if (done) return false;
+  return p.child.kill(signal);
+}
+
+const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
+
+/** Every number of the branch files, points.json and the special solutions within 1e-10 of the reference's. */
+function expectSameFiles(dir: string, what: string): void {
+  const files = readdirSync(join(reference, 'branches')).sort();
+  expect(readdirSync(join(dir, 'branches')).sort(), what).toEqual(files);
+  let worst = 0;
+  const compare = (a: number, b: number, where: string): void => {
+    if (Object.is(a, b)) return;
+    const d = Math.abs(a - b) / Math.max(1, Math.abs(b));
+    if (!(d <= 1e-10)) expect.fail(`${what}: ${where}: ${a} differs from the uninterrupted run's ${b}`);
+    worst = Math.max(worst, d);
+  };
+  for (const f of files) {
+    const a = readCsv(join(dir, 'branches', f));
+    const b = readCsv(join(reference, 'branches', f));
+    expect(a.columns, `${what}: ${f}`).toEqual(b.columns);
+    expect(a.rows.length, `${what}: rows of ${f}`).toBe(b.rows.length);
+    a.rows.forEach((row, i) => row.forEach((v, j) => compare(v, b.rows[i][j], `${f} row ${i + 1} ${b.columns[j]}`)));
+  }
+  const pa = json(join(dir, 'points.json')).points as Record<string, any>[];
+  const pb = json(join(reference, 'points.json')).points as Record<string, any>[];
+  expect(pa.map((p) => [p.kind, p.branch, p.solution]), `${what}: special points`).toEqual(pb.map((p) => [p.kind, p.branch, p.solution]));
+  pa.forEach((p, i) => {
+    compare(p.value, pb[i].value, `points.json ${p.kind} on branch ${p.branch}`);
+    for (const [m, v] of Object.entries(pb[i].monitors as Record<string, number>)) compare(p.monitors[m], v, `points.json ${p.kind} ${m}`);
+    if (p.solution) {
+      const na = readNpy(join(dir, p.solution));
+      const nb = readNpy(join(reference, p.solution));
+      expect(na.shape).toEqual(nb.shape);
+      na.data.forEach((v, k) => compare(v, nb.data[k], `${p.solution}[${k}]`));
+    }
+  });
+  expect(readdirSync(join(dir, 'solutions')).sort(), `${what}: solution files`).toEqual(readdirSync(join(reference, 'solutions')).sort());
+  const run = json(join(dir, 'run.json'));
+  expect(run.status, what).toBe('finished');
+  expect(run.counts, what).toEqual(json(join(reference, 'run.json')).counts);
+  // a finished run keeps no checkpoint (nothing is left to resume)
+  expect(existsSync(join(dir, 'checkpoint.bin')), what).toBe(false);
+  expect(worst).toBeLessThanOrEqual(1e-10);
+}
+
+let totalBytes = 0;
+
+let errors = '';
+beforeAll(async () => {
+  // compile to dist/ as `npm run build` does
+  spawnSync(process.execPath, [resolve('node_modules/typescript/bin/tsc'), '-p', 'tsconfig.json'], { stdio: 'ignore' });
+  writeFileSync(caseFile, caseText);
+  const r = await main(['node', 'branchline', 'run', caseFile, '--out', reference, '--quiet'], { out: () => {}, err: (s) => (errors += s) });
+  if (r !== 0) throw new Error(`the uninterrupted run failed: ${errors}`);
+  totalBytes = csvBytes(reference);
+}, 60_000);
+
+describe('kill -9 at random instants, then resume', () => {
+  it('ends with the same branch files as the uninterrupted run (several trials, kills during resumes too)', async () => {
+    expect(readdirSync(join(reference, 'branches')).length).toBeGreaterThan(2); // branch switching happened
+    const trial = async (k: number): Promise<string> => {
+      const dir = join(tmp, `killed-${k}`);
+      const notes: string[] = [];
+      // kill points: a random fraction of the final branch-file size, in increasing order
+      const kills = (k === 0 ? [0.1 + 0.8 * Math.random()] : [0.1 + 0.35 * Math.random(), 0.5 + 0.4 * Math.random()]).map((f) => ({ f, extra: Math.floor(25 * Math.random()) }));
+      let args = ['run', caseFile, '--out', dir, '--quiet'];
+      for (const kill of kills) {
+        const p = start(args);
+        const killed = await signalAt(p, dir, kill.f * totalBytes, kill.extra, 'SIGKILL');
+        const e = await p.ended;
+        notes.push(`killed at ${(100 * kill.f).toFixed(1)}% + ${kill.extra} ms: ${killed ? `signal ${e.signal}` : `ended first (code ${e.code})`}`);
+        if (!killed) break;
+        expect(e.signal, notes.join('; ')).toBe('SIGKILL');
+        // killed: run.json still says running (nobody was left to change it), and resume accepts it
+        expect(json(join(dir, 'run.json')).status, notes.join('; ')).toBe('running');
+        args = ['resume', dir, '--quiet'];
+      }
+      if (args[0] === 'resume') {
+        const last = start(args);
+        const e = await last.ended;
+        expect(e.code, `${notes.join('; ')}: ${e.err}`).toBe(0);
+        expect(e.err).toBe('');
+        expect(e.out).toMatch(/Finished in/);
+      }
+      expectSameFiles(dir, `trial ${k} (${notes.join('; ')})`);
+      return notes.join('; ');
+    };
+    const notes = await Promise.all([0, 1].map(trial));
+    expect(notes.join('\n')).toMatch(/signal SIGKILL/);
+  }, 120_000);
+});
+
+describe('SIGINT and SIGTERM stop a run cleanly', () => {
+  it('exit 1, run.json stopped, a checkpoint; resume finishes with the same files', async () => {
+    const trial = async (signal: 'SIGINT' | 'SIGTERM'): Promise<void> => {
+      const dir = join(tmp, `stopped-${signal}`);
+      const p = start(['run', caseFile, '--out', dir]);
+      const fraction = 0.2 + 0.6 * Math.random();
+      const sent = await signalAt(p, dir, fraction * totalBytes, Math.floor(20 * Math.random()), signal);
+      const e = await p.ended;
+      if (sent) {
+        expect(e.code, e.err).toBe(1);
+        expect(e.err).toMatch(new RegExp(`${signal}: finishing the current step, writing a checkpoint and stopping`));
+        expect(e.out).toMatch(/Stopped on request after/);
+        expect(e.out).toMatch(/To continue: branchline resume /);
+        const run = json(join(dir, 'run.json'));
+        expect(run.status).toBe('stopped');
+        expect(run.process).toBeUndefined();
+        expect(run.checkpoint.points).toBeGreaterThan(0);
+        expect(existsSync(join(dir, 'checkpoint.bin'))).toBe(true);
+        const r = start(['resume', dir, '--quiet']);
+        const re = await r.ended;
+        expect(re.code, re.err).toBe(0);
+        expect(json(join(dir, 'run.json')).resumed).toHaveLength(1);
+      } else {
+        expect(e.code).toBe(0); // the run ended before the signal could be sent
+      }
+      expectSameFiles(dir, `${signal} at ${(100 * fraction).toFixed(1)}%`);
+    };
+    await Promise.all([trial('SIGINT'), trial('SIGTERM')]);
+  }, 60_000);
+});
