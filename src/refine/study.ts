@@ -200,13 +200,14 @@ interface GridTask {
 }
 
 /** What a finished (or failed) grid run left in its folder. */
-function readOutcome(task: GridTask, studyDir: string, thrown?: string): GridRun & { specials: SpecialRecord[] } {
+function readOutcome(task: GridTask, studyDir: string, thrown?: string, stopped = false): GridRun & { specials: SpecialRecord[] } {
   const abs = join(studyDir, task.directory);
   const base = { grid: task.grid, intervals: task.intervals, directory: task.directory };
   let run: Record<string, unknown>;
   try {
     run = JSON.parse(readFileSync(join(abs, 'run.json'), 'utf8')) as Record<string, unknown>;
   } catch {
+    if (stopped) return { ...base, status: 'stopped', failure: 'not run: the study was stopped', specials: [] };
     return { ...base, status: 'failed', failure: thrown ?? 'the run wrote no run.json', specials: [] };
   }
   const problem = (run.problem ?? {}) as { unknowns?: number; axes?: { h: number }[] };
@@ -278,7 +279,7 @@ function runInWorker(task: GridTask, studyDir: string, script: string, options: 
     };
     child.on('error', (e) => finish(`the worker process failed: ${e.message}`));
     child.on('exit', (code, signal) => {
-      if (code === 0) finish(undefined);
+      if (code === 0 || (signal !== null && options.signal?.aborted)) finish(undefined);
       else finish(`the worker process ended with ${signal ?? `exit code ${code}`}${stderr.trim() ? `: ${stderr.trim().split('\n').pop()}` : ''}`);
     });
     child.send({ doc: task.doc, label: task.label, baseDir: task.baseDir, outDir: join(studyDir, task.directory) });
@@ -351,14 +352,14 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
       log('info', `grid ${gridLabel(task.intervals)}: running (${task.prepared.problem.size} unknowns)`);
       const err = script ? await runInWorker(task, studyDir, script, options, children) : await runHere(task, studyDir, options);
       thrown.set(task, err);
-      const o = readOutcome(task, studyDir, err);
+      const o = readOutcome(task, studyDir, err, options.signal?.aborted);
       log(o.status === 'finished' ? 'info' : 'warning', `grid ${gridLabel(task.intervals)}: ${o.status}${o.failure ? ` (${o.failure})` : ''}${o.seconds !== undefined ? ` in ${o.seconds.toFixed(1)} s` : ''}`);
     });
   } finally {
     options.signal?.removeEventListener('abort', onAbort);
   }
 
-  const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t)));
+  const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t), options.signal?.aborted));
   return finishStudy(prepared, { studyDir, branch, parameter, expected, point: options.point, outcomes, stopped: options.signal?.aborted ?? false });
 }
 
@@ -626,7 +627,8 @@ export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string 
   if (r.status === 'stopped') out.push('Study stopped on request; the files hold what was computed.');
   const where = relative(cwd, r.directory) || '.';
   const shown = where.startsWith('..') ? r.directory : where;
-  out.push(`Files in ${shown}: ${[...r.files, ...r.runs.map((x) => `${x.directory}/`)].join(', ')} (each grid-* folder is a run folder)`);
+  const folders = r.runs.filter((x) => existsSync(join(r.directory, x.directory))).map((x) => `${x.directory}/`);
+  out.push(`Files in ${shown}: ${[...r.files, ...folders].join(', ')}${folders.length ? ' (each grid-* folder is a run folder)' : ''}`);
   if (r.caution) out.push(`Caution: ${r.caution}`);
   return out.join('\n') + '\n';
 }

@@ -185,6 +185,26 @@ describe('refine at a branch point (1D Allen–Cahn, u = 0 on the walls)', () =>
   });
 });
 
+describe('refine at a Hopf point (1D Brusselator, uniform state)', () => {
+  it('finds the Hopf point of the uniform state at b = 1 + a² on every grid', async () => {
+    const out = fresh('hopf');
+    const prepared = await prepare({
+      name: 'oscillator',
+      model: 'brusselator',
+      grid: { intervals: [8] },
+      parameters: { a: 2, b: 4, Du: 1, Dv: 8 },
+      continuation: { parameter: 'b', bounds: [4, 5.5], step: { initial: 0.1, max: 0.25 }, 'branch-switching': { depth: 0 } },
+      stability: { eigenvalues: 2 },
+      output: { solutions: 'none' },
+    });
+    const r = await runStudy(prepared, { grids: [8, 16, 32], outDir: out, point: { kind: 'hopf', index: 1 } });
+    // Hopf of the uniform state at b = 1 + a² (Prigogine & Lefever 1968): the uniform mode does
+    // not feel the grid, so every grid gives it to the location tolerance
+    for (const run of r.runs) expect(Math.abs(run.value! - 5)).toBeLessThan(1e-7);
+    expect(json(join(out, 'refine.json')).point).toBe('Hopf point 1 on branch 1');
+  });
+});
+
 describe('grids and folders', () => {
   it('scales every axis alike and refuses fractional intervals', () => {
     expect(scaledGrids([32, 16], [32, 48, 64])).toEqual([[32, 16], [48, 24], [64, 32]]);
