@@ -3,7 +3,8 @@
  * words (special points with their located parameter values and one leading monitor, then why
  * the branch ended), where the files went, and the model's caution when it has one.
  */
-import { relative } from 'node:path';
+import { existsSync, readdirSync } from 'node:fs';
+import { join, relative } from 'node:path';
 import { stopReasonText } from '../continuation/types.js';
 import type { PreparedCase } from './case.js';
 import type { BranchRecord, SpecialRecord } from './run-directory.js';
@@ -149,6 +150,10 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const files = ['run.json', 'points.json'];
   if (nBranches) files.push(nBranches === 1 ? `branches/${result.ledger.branches[0].id}.csv` : `branches/ (${nBranches} files)`);
   if (result.ledger.solutions) files.push(`solutions/ (${result.ledger.solutions} .npy file${result.ledger.solutions === 1 ? '' : 's'})`);
+  // the pictures drawn at the end of the run (src/run/plots.ts)
+  if (existsSync(join(result.directory, 'diagram.svg'))) files.push('diagram.svg');
+  const pictures = existsSync(join(result.directory, 'plots')) ? readdirSync(join(result.directory, 'plots')).filter((f) => f.endsWith('.svg')).length : 0;
+  if (pictures) files.push(`plots/ (${pictures} .svg file${pictures === 1 ? '' : 's'})`);
   out.push(`Files in ${shown}: ${files.join(', ')}`);
   if (result.ledger.warnings.length) out.push(`${result.ledger.warnings.length} warning${result.ledger.warnings.length === 1 ? '' : 's'} (listed in run.json).`);
   if (prepared.caution) out.push(`Caution: ${prepared.caution}`);
