@@ -85,8 +85,8 @@ export function progressView(o: ProgressOptions): ProgressView {
       multi = new cliProgress.MultiBar(
         {
           stream: o.stream ?? process.stderr,
-          format: '{name} {bar} point {value}/{total} of branch {branch} | {parameter} = {current} | step {step} | {rate} points/s | limit in {eta}',
-          barsize: 20,
+          format: '{name} {bar} branch {branch}, point {value}/{total} | {parameter} = {current} | step {step} | {rate} points/s | limit in {left}',
+          barsize: 16,
           hideCursor: true,
           clearOnComplete: true,
           stopOnComplete: false,
@@ -106,7 +106,7 @@ export function progressView(o: ProgressOptions): ProgressView {
       const t: Track = { parameter, maxPoints, started: now(), firstPoints: undefined, lastLine: now() };
       tracks.set(name, t);
       if (o.quiet) return;
-      if (o.tty) t.bar = bars().create(maxPoints, 0, { name, branch: 1, parameter, current: '-', step: '-', rate: '?', eta: '?' });
+      if (o.tty) t.bar = bars().create(maxPoints, 0, { name, branch: 1, parameter, current: '-', step: '-', rate: '?', left: '?' });
     },
     update(name, p) {
       const t = tracks.get(name);
@@ -117,10 +117,10 @@ export function progressView(o: ProgressOptions): ProgressView {
         name,
         branch: p.branch,
         parameter: t.parameter,
-        current: formatValue(p.parameter, 8),
+        current: formatValue(p.parameter, 7),
         step: formatValue(p.step, 3),
         rate: rateText(rate),
-        eta: duration(eta),
+        left: duration(eta),
       };
       if (t.bar) {
         t.bar.setTotal(p.maxPoints);
@@ -130,7 +130,7 @@ export function progressView(o: ProgressOptions): ProgressView {
         o.write(
           line(
             name,
-            `${o.showNames ? '' : `${name}: `}branch ${p.branch}, point ${p.index + 1} of at most ${p.maxPoints}, ${t.parameter} = ${payload.current}, step ${payload.step}, ${payload.rate} points/s, ${p.points} points in all, point limit in ${payload.eta} at most`,
+            `${o.showNames ? '' : `${name}: `}branch ${p.branch}, point ${p.index + 1} of at most ${p.maxPoints}, ${t.parameter} = ${payload.current}, step ${payload.step}, ${payload.rate} points/s, ${p.points} points in all, point limit in ${payload.left} at most`,
           ),
         );
       }

@@ -9,12 +9,13 @@
  * The kill instants are drawn at random (printed with any failure): the run is killed when its
  * branch files have reached a random fraction of their final size, after a random extra delay.
  */
-import { type ChildProcess, spawn, spawnSync } from 'node:child_process';
+import { type ChildProcess, spawn } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
+import { ensureBuilt } from './built.js';
 import { readCsv, readNpy } from '../../src/run/writers.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-kill-'));
@@ -126,8 +127,7 @@ let totalBytes = 0;
 
 let errors = '';
 beforeAll(async () => {
-  // compile to dist/ as `npm run build` does
-  spawnSync(process.execPath, [resolve('node_modules/typescript/bin/tsc'), '-p', 'tsconfig.json'], { stdio: 'ignore' });
+  ensureBuilt();
   writeFileSync(caseFile, caseText);
   const r = await main(['node', 'branchline', 'run', caseFile, '--out', reference, '--quiet'], { out: () => {}, err: (s) => (errors += s) });
   if (r !== 0) throw new Error(`the uninterrupted run failed: ${errors}`);
