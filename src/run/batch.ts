@@ -305,6 +305,16 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (saved !== undefined && saved !== prepared.problem.size) {
     throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
   }
+  // the branch files must still hold every row the checkpoint counts (checked before any is touched)
+  for (const [file, length] of Object.entries(c.ledger.csvLengths)) {
+    let size: number;
+    try {
+      size = statSync(join(dir, file)).size;
+    } catch {
+      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
+    }
+    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
+  }
   return { prepared, outDir: dir, plan: { checkpoint: c, file: found.file, skipped: found.skipped, previousStatus: status } };
 }
 

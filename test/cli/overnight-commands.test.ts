@@ -155,6 +155,18 @@ describe('resume refuses what it cannot continue (exit 2, one line)', () => {
     expectRefusal(await cli('resume', out), /cannot resume: no usable checkpoint: checkpoint\.bin is truncated \(18 bytes\); checkpoint\.previous\.bin is not a branchline checkpoint/);
   });
 
+  it('a branch file cut short by hand (checked before anything is touched)', async () => {
+    const dir = join(tmp, 'cut');
+    const stopper = new AbortController();
+    const checkpointer = new Checkpointer({ everyPoints: 2, everySeconds: 60 });
+    await runCase(await prepareCase(slab), { outDir: dir, signal: stopper.signal, checkpoint: checkpointer.hook, progress: (p) => p.points >= 12 && stopper.abort() });
+    const before = readFileSync(join(dir, 'points.json'), 'utf8');
+    writeFileSync(join(dir, 'branches/1.csv'), 'point,arclength\n');
+    expectRefusal(await cli('resume', dir), /cut: cannot resume: branches\/1\.csv has 16 bytes, fewer than the \d+ the checkpoint counts/);
+    expect(readFileSync(join(dir, 'points.json'), 'utf8')).toBe(before);
+    expect(json(join(dir, 'run.json')).status).toBe('stopped');
+  });
+
   it('a run whose writer process is still alive (unless --force)', async () => {
     const dir = join(tmp, 'live');
     const stopper = new AbortController();
