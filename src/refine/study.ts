@@ -28,6 +28,7 @@ import { fileURLToPath } from 'node:url';
 import { formatValue, refinementSvg } from '../plot/index.js';
 import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.js';
 import { InputError } from '../run/errors.js';
+import { formatValue as plainValue } from '../run/summary.js';
 import { drawRunPlots } from '../run/plots.js';
 import { runCase } from '../run/run-case.js';
 import type { SpecialRecord } from '../run/run-directory.js';
@@ -578,7 +579,7 @@ export function drawStudyPlots(dir: string, options: { monitor?: string; maxSolu
 
 function fmt(x: number | null | undefined, digits: number): string {
   if (x === null || x === undefined || !Number.isFinite(x)) return '';
-  return formatValue(x, digits);
+  return plainValue(x, digits);
 }
 
 /** A short table of the grids, the extrapolation and the warnings, in words (ends with a newline). */
@@ -594,7 +595,7 @@ export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string 
       gridLabel(run.intervals),
       run.unknowns !== undefined ? String(run.unknowns) : '',
       fmt(run.h, 6),
-      run.value !== undefined ? formatValue(run.value, 12) : run.status === 'finished' ? 'not found' : run.status,
+      run.value !== undefined ? plainValue(run.value, 12) : run.status === 'finished' ? 'not found' : run.status,
       fmt(g?.difference, 4),
       fmt(g?.observedOrder, 4),
     ]);
@@ -604,16 +605,16 @@ export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string 
   if (a && a.extrapolated !== null) {
     const how =
       a.orderSource === 'observed'
-        ? `Richardson extrapolation with the observed order ${formatValue(a.order!, 4)}`
+        ? `Richardson extrapolation with the observed order ${plainValue(a.order!, 4)}`
         : a.orderSource === 'assumed'
-          ? `Richardson extrapolation with the assumed order ${formatValue(a.order!, 4)}`
+          ? `Richardson extrapolation with the assumed order ${plainValue(a.order!, 4)}`
           : 'the finest values agree to round-off';
-    out.push(`Extrapolated: ${r.parameter} = ${formatValue(a.extrapolated, 12)} (${how}).`);
+    out.push(`Extrapolated: ${r.parameter} = ${plainValue(a.extrapolated, 12)} (${how}).`);
     if (a.errorEstimate !== null) {
-      const parts: string[] = [];
-      if (a.gciAbsolute !== null) parts.push(`the grid convergence index of the finest grid, safety factor ${a.safetyFactor} (Roache 1994)`);
-      if (a.extrapolationSpread !== null) parts.push(`the spread of the two finest extrapolations (${formatValue(a.extrapolationSpread, 2)})`);
-      out.push(`Error estimate: ± ${formatValue(a.errorEstimate, 2)}${parts.length ? ` (${parts.join(', or ')}${parts.length > 1 ? ', the larger' : ''})` : ''}.`);
+      const gci = a.gciAbsolute !== null ? `the grid convergence index of the finest grid, safety factor ${a.safetyFactor} (Roache 1994)` : undefined;
+      const spread = a.extrapolationSpread !== null ? `the spread of the two finest extrapolations, ${plainValue(a.extrapolationSpread, 2)}` : undefined;
+      const why = gci && spread ? ` (the larger of ${gci}, and ${spread})` : gci ? ` (${gci})` : spread ? ` (${spread})` : '';
+      out.push(`Error estimate: ± ${plainValue(a.errorEstimate, 2)}${why}.`);
     }
   } else if (a) {
     out.push('No extrapolation: see the warnings.');
