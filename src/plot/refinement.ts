@@ -42,6 +42,18 @@ export interface RefinementPlotInput {
 const POINT_COLOUR = SERIES[0];
 const FIT_COLOUR = SERIES[1];
 
+/**
+ * The value with as many digits as its error estimate resolves (two digits of the error, trailing
+ * zeros kept: 1.8883000 ± 8e-7 reads differently from 1.8883 ± 8e-7); 7 significant digits
+ * without an estimate.
+ */
+export function valueToError(v: number, err: number | null): string {
+  if (err === null || !(err > 0) || !Number.isFinite(v) || v === 0) return formatValue(v, 7);
+  const digits = Math.floor(Math.log10(Math.abs(v))) - Math.floor(Math.log10(err)) + 2;
+  if (Math.abs(v) >= 1e6 || Math.abs(v) < 1e-4) return formatValue(v, Math.min(15, Math.max(3, digits)));
+  return v.toPrecision(Math.min(15, Math.max(3, digits))).replace('-', '\u2212');
+}
+
 function dot(x: number, y: number, extra: Record<string, string | number> = {}): string {
   return el('circle', { cx: x, cy: y, r: 4.2, fill: POINT_COLOUR, stroke: PAPER, 'stroke-width': 1.4, ...extra });
 }
@@ -124,7 +136,7 @@ export function refinementSvg(input: RefinementPlotInput): string {
     // A ring at h = 0: where the sequence is heading.
     left.push(el('circle', { cx: xL.scale.map(0), cy: ey, r: 4.5, fill: PAPER, stroke: FIT_COLOUR, 'stroke-width': 1.8 }));
     const label =
-      `extrapolated ${formatValue(ext, 7)}` + (errEst !== null ? ` ± ${formatValue(errEst, 2)}` : '');
+      `extrapolated ${valueToError(ext, errEst)}` + (errEst !== null ? ` ± ${formatValue(errEst, 2)}` : '');
     // Put the label on the side of the line away from the data near the right end.
     const last = pts[0];
     const above = yL.scale.map(last.value) > ey;

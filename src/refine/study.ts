@@ -26,6 +26,7 @@ import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } fr
 import { join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { formatValue, refinementSvg } from '../plot/index.js';
+import { valueToError } from '../plot/refinement.js';
 import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.js';
 import { InputError } from '../run/errors.js';
 import { formatValue as plainValue } from '../run/summary.js';
@@ -527,7 +528,7 @@ export function studySvg(json: Record<string, unknown>): string {
   const grids = values.map((v) => v.grid).join(', ');
   const parts = [`grids ${grids}`];
   if (order !== null) parts.push(`${json['order-source'] === 'assumed' ? 'assumed' : 'observed'} order ${formatValue(order, 3)}`);
-  if (extrapolated !== null) parts.push(`extrapolated ${parameter} = ${formatValue(extrapolated, 9)}${error !== null ? ` ± ${formatValue(error, 2)}` : ''}`);
+  if (extrapolated !== null) parts.push(`extrapolated ${parameter} = ${valueToError(extrapolated, error)}${error !== null ? ` ± ${formatValue(error, 2)}` : ''}`);
   const range = json['asymptotic-range'];
   if (range === 'not-reached') parts.push('NOT in the asymptotic range (see refine.json warnings)');
   return refinementSvg({
