@@ -181,10 +181,11 @@ export class Continuation {
    * The run layer calls this after writing a checkpoint, so that a resumed run repeats the
    * uninterrupted one bit for bit (kept pivot orders and random vectors otherwise differ in the
    * last digits, and eigenvalues and located Hopf points inherit such differences up to their
-   * tolerances). Costs one fresh factorisation per checkpoint.
+   * tolerances). Costs one factorisation with fresh pivots (instead of a refactorisation) per
+   * call; the symbolic analyses are kept (they are deterministic).
    */
   restartLinearAlgebra(): void {
-    this.sys.dispose();
+    this.sys.restart();
     this.chordStamp = -1;
     this.stab?.restart();
   }

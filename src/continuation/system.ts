@@ -150,7 +150,8 @@ export class ContinuationSystem {
     this.stamp++;
     const t0 = performance.now();
     try {
-      const done = this.solver().update(this.bordered.values, fresh);
+      const done = this.solver().update(this.bordered.values, fresh || this.freshPending);
+      this.freshPending = false;
       if (done === 'factor') this.factorisations++;
       else this.refactorisations++;
     } finally {
@@ -204,6 +205,17 @@ export class ContinuationSystem {
     for (let i = 0; i < this.n; i++) s += w[i] * x[i] * x[i];
     return Math.sqrt(s);
   }
+
+  /**
+   * Forget the kept pivot order: the next factorisation takes fresh pivots, exactly as a new
+   * system's first one would (the symbolic analysis is deterministic and is kept).
+   */
+  restart(): void {
+    this.freshPending = true;
+    this.stamp++;
+  }
+
+  private freshPending = false;
 
   dispose(): void {
     this.lu?.dispose();

@@ -1209,11 +1209,15 @@ export class EigenTracker {
    * from it repeats the same computations bit for bit).
    */
   restart(): void {
-    this.lu?.dispose();
-    this.lu = null;
+    // keep the symbolic analysis (deterministic for a pattern); the next factorisation takes
+    // fresh pivots, exactly as a new tracker's first one would
+    this.freshNext = true;
     this.random = makeRandom(this.options.seed);
     this.warm = null;
   }
+
+  /** The next factorisation takes fresh pivots (set by restart). */
+  private freshNext = false;
 
   dispose(): void {
     this.lu?.dispose();
@@ -1584,7 +1588,8 @@ export class EigenTracker {
     const mass = this.options.mass;
     for (let i = 0; i < this.n; i++) v[this.diagPos[i]] -= sigma * (mass ? mass[i] : 1);
     if (!this.lu) this.lu = new SparseLU(this.shiftedPattern, this.options.lu ?? {});
-    this.lu.update(v);
+    this.lu.update(v, this.freshNext);
+    this.freshNext = false;
   }
 
   private denseResult(J: CscMatrix): RightmostResult {
