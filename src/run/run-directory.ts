@@ -31,7 +31,7 @@ export const runFormatVersion = 1;
 export type RunStatus = 'running' | 'finished' | 'stopped' | 'failed';
 
 /** Entries of a run directory that belong to us (removed by `force`). */
-const ownEntries = ['run.json', 'points.json', 'branches', 'solutions'];
+const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots'];
 const ownEntryPattern = /^(checkpoint.*|\..*\.tmp)$/;
 
 // ---------------------------------------------------------------------------------------------
