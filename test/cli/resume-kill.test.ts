@@ -199,3 +199,42 @@ describe('SIGINT and SIGTERM stop a run cleanly', () => {
     await Promise.all([trial('SIGINT'), trial('SIGTERM')]);
   }, 60_000);
 });
+
+describe('a batch whose worker process is killed', () => {
+  it('records that case as failed with the reason, runs the others, and the killed run resumes to the same files', async () => {
+    const out = join(tmp, 'batch');
+    const other = join(tmp, 'other.yaml');
+    writeFileSync(other, caseText.replace('name: kill-me', 'name: other'));
+    const p = start(['run', caseFile, other, '--out', out, '--jobs', '2', '--json', '--quiet']);
+    // the worker writing kill-me/ names itself in run.json while it runs
+    const runJson = join(out, 'kill-me', 'run.json');
+    let pid: number | undefined;
+    let done = false;
+    void p.ended.then(() => (done = true));
+    while (!done && pid === undefined) {
+      await sleep(3);
+      try {
+        const run = json(runJson);
+        if (run.status === 'running' && run.process?.pid && csvBytes(join(out, 'kill-me')) > 0.2 * totalBytes) pid = run.process.pid;
+      } catch {
+        /* not written yet */
+      }
+    }
+    if (pid !== undefined) process.kill(pid, 'SIGKILL');
+    const e = await p.ended;
+    if (pid === undefined) return expect(e.code).toBe(0); // the batch finished before the kill
+    expect(e.code, e.err).toBe(1);
+    const summary = JSON.parse(e.out);
+    expect(summary.cases.map((c: any) => [c.name, c.status])).toEqual([
+      ['kill-me', 'failed'],
+      ['other', 'finished'],
+    ]);
+    expect(summary.cases[0].reason).toBe('the worker process ended by signal SIGKILL before the run finished');
+    // run.json tells the truth: failed, with the reason; its checkpoint lets resume go on
+    expect(json(runJson)).toMatchObject({ status: 'failed', failure: summary.cases[0].reason });
+    const r = start(['resume', join(out, 'kill-me'), '--quiet']);
+    const re = await r.ended;
+    expect(re.code, re.err).toBe(0);
+    expectSameFiles(join(out, 'kill-me'), 'the killed worker resumed');
+  }, 60_000);
+});
