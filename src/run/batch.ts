@@ -60,7 +60,18 @@ export function outputFolderProblem(path: string, force: boolean): string | unde
   const ours = isRunDirectory(path);
   if (!force) return `output folder ${path} is not empty (${ours ? 'it holds an earlier run' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier run`;
   if (!ours) return `output folder ${path} is not empty and holds no earlier branchline run; --force replaces only an earlier run, choose another folder with --out`;
+  const writer = liveWriter(path);
+  if (writer !== undefined) return `output folder ${path} holds a run that is still going (process ${writer} on this machine); stop it first, or choose another folder with --out`;
   return undefined;
+}
+
+/** The pid of a live process on this machine that run.json names as the run's writer, if any. */
+function liveWriter(dir: string): number | undefined {
+  const run = readRunJson(dir);
+  if (run?.status !== 'running') return undefined;
+  const proc = run.process as { pid?: unknown; host?: unknown } | undefined;
+  const pid = typeof proc?.pid === 'number' ? proc.pid : undefined;
+  return pid !== undefined && proc?.host === hostname() && pid !== process.pid && processAlive(pid) ? pid : undefined;
 }
 
 function readRunJson(dir: string): Record<string, unknown> | undefined {
@@ -275,14 +286,9 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
   const status = String(run.status);
   if (status === 'finished') throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
-  if (status === 'running') {
-    const proc = run.process as { pid?: unknown; host?: unknown } | undefined;
-    const pid = typeof proc?.pid === 'number' ? proc.pid : undefined;
-    if (pid !== undefined && proc?.host === hostname() && pid !== process.pid && processAlive(pid) && !options.force) {
-      throw new InputError(
-        `${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`,
-      );
-    }
+  const pid = liveWriter(dir);
+  if (pid !== undefined && !options.force) {
+    throw new InputError(`${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`);
   }
   let found;
   try {

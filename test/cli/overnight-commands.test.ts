@@ -178,6 +178,10 @@ describe('resume refuses what it cannot continue (exit 2, one line)', () => {
     expect(run.status).toBe('stopped');
     writeFileSync(join(dir, 'run.json'), JSON.stringify({ ...run, status: 'running', process: { pid: process.ppid, host: hostname() } }));
     expectRefusal(await cli('resume', dir), new RegExp(`the run is still going \\(process ${process.ppid} on this machine\\); stop it first`));
+    // nor does run --force replace it
+    const replaced = await cli('run', slab, '--out', dir, '--force');
+    expect(replaced.code).toBe(2);
+    expect(replaced.err).toMatch(/holds a run that is still going \(process \d+ on this machine\); stop it first/);
     const forced = await cli('resume', dir, '--force', '--quiet');
     expect(forced.code, forced.err).toBe(0);
     expect(json(join(dir, 'run.json')).status).toBe('finished');

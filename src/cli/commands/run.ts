@@ -80,7 +80,8 @@ Checkpoints: every run writes checkpoint.bin in its folder (case keys checkpoint
 default 25, and checkpoint.every-seconds, default 60); \`branchline resume DIR\` continues a run
 that was stopped or killed, losing at most the points since its last checkpoint.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped,
-and cases not yet started are skipped; press again to leave at once.
+and cases not yet started are skipped; press again to leave at once (exit code 130; resume
+continues from the last checkpoint).
 Exit codes: 0 every run finished; 1 a run failed or was stopped; 2 bad input (a case file, an
 option or an output folder), found before any run starts.`,
     )
