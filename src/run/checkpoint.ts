@@ -27,11 +27,13 @@
  * `readCheckpoint` falls back to. Before a checkpoint records the CSV byte lengths, the CSVs are
  * fsynced (`RunDirectory.syncAll`), so the recorded rows are on the disk.
  *
- * The `Checkpointer` decides when to write: after the first point (so any run that got going can
- * be resumed), then whenever `every-points` points were computed or `every-seconds` passed since
- * the last checkpoint (case keys `checkpoint.every-points`, `checkpoint.every-seconds`), and once
- * more when the run stops on request — always at a moment when the engine's state is complete
- * (between steps), never in the middle of a step's events.
+ * The `Checkpointer` decides when to write, only ever at sync points (run-case.ts, `syncEvery`:
+ * between steps, where the engine has just restarted its linear algebra, so that a resumed run
+ * repeats the uninterrupted one bit for bit): after the first point (so any run that got going
+ * can be resumed), then at the first sync point after `every-points` points were computed or
+ * `every-seconds` passed since the last checkpoint (case keys `checkpoint.every-points`,
+ * `checkpoint.every-seconds`), and once more when the run stops on request — from the last sync
+ * point, so a stop costs at most `syncEvery - 1` points that the resumed run computes again.
  */
 import { createHash } from 'node:crypto';
 import { closeSync, existsSync, fsyncSync, openSync, readFileSync, renameSync, unlinkSync, writeSync } from 'node:fs';
