@@ -106,7 +106,7 @@ compile bl_klu "$HERE/glue/bl_klu.c" "${KLU_INC[@]}" -I"$METIS/include"
 EXPORTS='["_bl_create","_bl_destroy","_bl_colptr","_bl_rowind","_bl_values","_bl_perm","_bl_set_options","_bl_analyze","_bl_factor","_bl_refactor","_bl_bad_index","_bl_singular_col","_bl_structural_rank","_bl_nblocks","_bl_noffdiag","_bl_lnz","_bl_unz","_bl_nzoff","_bl_symbolic_lnz","_bl_symbolic_unz","_bl_rgrowth","_bl_rcond","_bl_condest","_bl_solve","_bl_tsolve","_bl_logdet","_bl_malloc","_bl_free"]'
 LINK=(-O3 -s MODULARIZE=1 -s EXPORT_NAME=createKluModule -s ENVIRONMENT=node
       -s ALLOW_MEMORY_GROWTH=1 -s MAXIMUM_MEMORY=4GB -s INITIAL_MEMORY=32MB -s TOTAL_STACK=4MB
-      -s FILESYSTEM=0 -s EXIT_RUNTIME=0
+      -s FILESYSTEM=0 -s EXIT_RUNTIME=0 -s NODEJS_CATCH_EXIT=0 -s NODEJS_CATCH_REJECTION=0
       -s "EXPORTED_FUNCTIONS=$EXPORTS")
 if [ "$SIMD" = 1 ]; then LINK+=(-msimd128); fi
 emcc "${LINK[@]}" "${objs[@]}" -o "$WORK/klu.js"

@@ -25,7 +25,20 @@
  * (log of a negative number, sqrt of a negative number, ...) the value is NaN rather than the
  * complex number mathjs itself would return.
  */
-import { parse, derivative } from 'mathjs';
+import { createRequire } from 'node:module';
+import type * as MathJs from 'mathjs';
+
+/**
+ * mathjs is loaded on first use (it takes most of a second to load, and only expression-defined
+ * models need it), synchronously through its CommonJS build.
+ */
+let mathjs: typeof MathJs | undefined;
+function math(): typeof MathJs {
+  mathjs ??= createRequire(import.meta.url)('mathjs') as typeof MathJs;
+  return mathjs;
+}
+const parse = (text: string) => math().parse(text);
+const derivative = (...args: Parameters<typeof MathJs.derivative>) => math().derivative(...args);
 
 // ---------------------------------------------------------------------------------------------
 // Vocabulary
