@@ -5,7 +5,7 @@
  *
  * Both problems are built and warmed up before timing, and their runs are interleaved so that
  * JIT state and machine load affect both alike. Run on its own after `npm run build`:
- *   node dist/test/bench/expression.js [intervals] [repeats]
+ *   node dist/tools/bench/expression.js [intervals] [repeats]
  */
 import { performance } from 'node:perf_hooks';
 import { pathToFileURL } from 'node:url';

@@ -1,8 +1,8 @@
 /**
  * Runs one benchmark case in this process and prints its result as JSON on the last line
  * (spawned by run.ts so that peak resident memory belongs to the case alone).
- *   node dist/test/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
- *   node dist/test/bench/worker.js branch <n> <eigenvalues>
+ *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
+ *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
 
