@@ -141,6 +141,16 @@ export interface PreparedCase {
 // Showing values in messages
 
 /** A short, safe rendering of any value for messages (never throws). */
+/** `parent.key` for plain keys; just `parent` when the key itself is odd (empty, spaces…). */
+function keyPath(parent: string, key: string): string {
+  return /^[\w:-]+$/.test(key) ? `${parent}.${key}` : parent;
+}
+
+/** For odd keys, the message names the key itself (it cannot appear in the field path). */
+function keyNote(key: string): string {
+  return /^[\w:-]+$/.test(key) ? '' : `the name ${JSON.stringify(key)}: `;
+}
+
 export function showValue(v: unknown): string {
   const text = render(v, 0);
   return text.length > 60 ? text.slice(0, 57) + '...' : text;
@@ -438,7 +448,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     factoryOptions.parameters = givenParams;
   } else {
     for (const [k, v] of Object.entries(givenParams)) {
-      if (typeof v !== 'number' || !Number.isFinite(v)) fail(`parameters.${k}`, `${showValue(v)} is not accepted (accepted: a finite number)`);
+      if (typeof v !== 'number' || !Number.isFinite(v)) fail(keyPath('parameters', k), `${keyNote(k)}${showValue(v)} is not accepted (accepted: a finite number)`);
     }
   }
 
@@ -491,8 +501,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       if (!knownParams.includes(k)) {
         const variant = kind === 'built-in' && modelEntry(modelId).parameters.some((s) => s.name === k);
         fail(
-          `parameters.${k}`,
-          `unknown parameter for model '${modelId}' (accepted: ${knownParams.join(', ') || 'none'})` +
+          keyPath('parameters', k),
+          `${keyNote(k)}unknown parameter for model '${modelId}' (accepted: ${knownParams.join(', ') || 'none'})` +
             (variant ? `; '${k}' belongs to another variant of the model (see \`branchline models\`)` : ''),
         );
       }
