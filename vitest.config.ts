@@ -4,6 +4,7 @@ export default defineConfig({
   test: {
     include: ['test/**/*.test.ts'],
     globalSetup: ['test/setup/build.ts'],
+    setupFiles: ['test/setup/fast-check.ts'],
     testTimeout: 120_000,
     hookTimeout: 120_000,
     pool: 'forks',
