@@ -36,10 +36,11 @@
  * point, so a stop costs at most `syncEvery - 1` points that the resumed run computes again.
  */
 import { createHash } from 'node:crypto';
-import { closeSync, existsSync, fsyncSync, openSync, readFileSync, renameSync, unlinkSync, writeSync } from 'node:fs';
+import { existsSync, readFileSync, renameSync, unlinkSync } from 'node:fs';
 import { join } from 'node:path';
 import type { RunLedger } from './run-directory.js';
 import type { CheckpointContext } from './run-case.js';
+import { fsyncDirectory, writeTemporary } from './writers.js';
 
 export const checkpointFile = 'checkpoint.bin';
 export const previousCheckpointFile = 'checkpoint.previous.bin';
@@ -254,43 +255,14 @@ function checkDocument(doc: CheckpointDocument, where: string): void {
 // ---------------------------------------------------------------------------------------------
 // Files
 
-function fsyncDirectory(dir: string): void {
-  let fd: number | undefined;
-  try {
-    fd = openSync(dir, 'r');
-    fsyncSync(fd);
-  } catch {
-    // some platforms cannot fsync a directory; the renames are still atomic there
-  } finally {
-    if (fd !== undefined) closeSync(fd);
-  }
-}
-
-let tempCounter = 0;
-
 /**
  * Write `doc` as the run directory's checkpoint, keeping the previous one until the new one is
  * complete and in place (see the header). Returns the number of bytes written.
  */
 export function writeCheckpoint(dir: string, doc: CheckpointDocument): number {
   const bytes = encodeCheckpoint(doc);
-  const tmp = join(dir, `.${checkpointFile}.${process.pid}.${++tempCounter}.tmp`);
-  const fd = openSync(tmp, 'w');
-  try {
-    let off = 0;
-    while (off < bytes.length) off += writeSync(fd, bytes, off, bytes.length - off);
-    fsyncSync(fd);
-  } catch (e) {
-    closeSync(fd);
-    try {
-      unlinkSync(tmp);
-    } catch {
-      /* already gone */
-    }
-    throw e;
-  }
-  closeSync(fd);
   const current = join(dir, checkpointFile);
+  const tmp = writeTemporary(current, bytes);
   if (existsSync(current)) renameSync(current, join(dir, previousCheckpointFile));
   renameSync(tmp, current);
   fsyncDirectory(dir);

@@ -91,7 +91,8 @@ export function parseJsonNumber(v: unknown): number {
 // ---------------------------------------------------------------------------------------------
 // Atomic replacement
 
-function fsyncDirectory(dir: string): void {
+/** fsync a folder so that renames inside it are durable (best effort where unsupported). */
+export function fsyncDirectory(dir: string): void {
   let fd: number | undefined;
   try {
     fd = openSync(dir, 'r');
@@ -106,13 +107,11 @@ function fsyncDirectory(dir: string): void {
 let tempCounter = 0;
 
 /**
- * Replace `path` atomically with `data`: write a temporary file in the same folder, fsync it,
- * rename it over the target, fsync the folder. A reader (or a crash at any instant) sees either
- * the old complete file or the new complete file, never a mixture.
+ * Write `data` completely to a new temporary file next to `path` and fsync it; returns the
+ * temporary file's path (removed again when writing fails). The caller renames it into place.
  */
-export function writeFileAtomic(path: string, data: string | Uint8Array): void {
-  const dir = dirname(path);
-  const tmp = join(dir, `.${basename(path)}.${process.pid}.${++tempCounter}.tmp`);
+export function writeTemporary(path: string, data: string | Uint8Array): string {
+  const tmp = join(dirname(path), `.${basename(path)}.${process.pid}.${++tempCounter}.tmp`);
   const fd = openSync(tmp, 'w');
   try {
     const bytes = typeof data === 'string' ? Buffer.from(data, 'utf8') : data;
@@ -129,8 +128,17 @@ export function writeFileAtomic(path: string, data: string | Uint8Array): void {
     throw e;
   }
   closeSync(fd);
-  renameSync(tmp, path);
-  fsyncDirectory(dir);
+  return tmp;
+}
+
+/**
+ * Replace `path` atomically with `data`: write a temporary file in the same folder, fsync it,
+ * rename it over the target, fsync the folder. A reader (or a crash at any instant) sees either
+ * the old complete file or the new complete file, never a mixture.
+ */
+export function writeFileAtomic(path: string, data: string | Uint8Array): void {
+  renameSync(writeTemporary(path, data), path);
+  fsyncDirectory(dirname(path));
 }
 
 /** Atomic JSON replacement (see toJson for the number conventions). */
