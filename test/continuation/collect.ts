@@ -48,3 +48,39 @@ export function runProblem(problem: Problem, given: Record<string, number>, s: C
 export function observedOrder(coarse: number, medium: number, fine: number, r = 2): number {
   return Math.log(Math.abs((coarse - medium) / (medium - fine))) / Math.log(r);
 }
+
+/**
+ * A small algebraic problem (no grid) from its residual, Jacobian (dense, row-major) and parameter
+ * derivative: for tests of the engine's logic on cases whose answer is known in closed form.
+ */
+export function toyProblem(
+  size: number,
+  residual: (u: Float64Array, lambda: number, out: Float64Array) => void,
+  jacobian: (u: Float64Array, lambda: number) => number[][],
+  parameterDerivative: (u: Float64Array, lambda: number, out: Float64Array) => void,
+  initial: number[],
+): Problem {
+  const colPtr = Int32Array.from({ length: size + 1 }, (_, j) => j * size);
+  const rowIdx = Int32Array.from({ length: size * size }, (_, k) => k % size);
+  const pattern = { rows: size, cols: size, colPtr, rowIdx };
+  return {
+    model: 'toy',
+    size,
+    gridUnknowns: size,
+    extraUnknowns: [],
+    parameters: [{ name: 'lambda', default: 0, description: 'parameter' }],
+    weights: new Float64Array(size).fill(1),
+    pattern: () => pattern,
+    residual: (u, p, out) => residual(u, p.lambda, out),
+    jacobian: (u, p, values) => {
+      const d = jacobian(u, p.lambda);
+      for (let j = 0; j < size; j++) for (let i = 0; i < size; i++) values[j * size + i] = d[i][j];
+    },
+    parameterDerivative: (u, p, _name, out) => parameterDerivative(u, p.lambda, out),
+    initialGuess: () => Float64Array.from(initial),
+    monitors: [{ name: 'max', description: 'first unknown', evaluate: (u) => u[0] }],
+    describe: () => ({ model: 'toy', summary: 'toy problem', fields: ['u'], axes: [] }),
+    toNodeArray: (u) => ({ shape: [size], data: u.slice() }),
+    fromNodeArray: (_s, d) => d.slice(),
+  };
+}
