@@ -14,8 +14,13 @@ import type { NewtonSettings, PointStability } from './types.js';
 /** Imaginary parts below this fraction of the spectrum's scale count as real. */
 const REAL_TOLERANCE = 1e-8;
 
+/** Eigen-solver tolerance while locating Hopf points (the crossing pair's real part decides). */
+const LOCATION_TOLERANCE = 1e-11;
+
 export class StabilityAnalyser {
   private readonly tracker: EigenTracker;
+  /** A tighter solver for locating Hopf points, made on first use. */
+  private precise: EigenTracker | undefined;
   private readonly values: Float64Array;
 
   constructor(
@@ -32,15 +37,26 @@ export class StabilityAnalyser {
   seconds = 0;
 
   get totals(): { calls: number; solves: number; factorisations: number } {
-    return this.tracker.totals;
+    const a = this.tracker.totals;
+    const b = this.precise?.totals ?? { calls: 0, solves: 0, factorisations: 0 };
+    return { calls: a.calls + b.calls, solves: a.solves + b.solves, factorisations: a.factorisations + b.factorisations };
   }
 
-  /** Rightmost eigenvalues at x = (u, λ), warm-started from `warm` (null: cold start). */
-  analyse(x: Float64Array, warm: EigenWarmStart | null): { stability: PointStability; warm: EigenWarmStart } {
+  /**
+   * Rightmost eigenvalues at x = (u, λ), warm-started from `warm` (null: cold start); `precise`
+   * uses a tolerance of 1e-11 (for locating Hopf points).
+   */
+  analyse(x: Float64Array, warm: EigenWarmStart | null, precise = false): { stability: PointStability; warm: EigenWarmStart } {
     const n = this.sys.n;
     const t0 = performance.now();
     this.sys.problem.jacobian(x.subarray(0, n), this.sys.params(x[n]), this.values);
-    const r = this.tracker.compute(this.values, { warmStart: warm });
+    let tracker = this.tracker;
+    if (precise) {
+      const problem = this.sys.problem;
+      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE });
+      tracker = this.precise;
+    }
+    const r = tracker.compute(this.values, { warmStart: warm });
     this.seconds += (performance.now() - t0) / 1000;
     return { stability: summarise(r, this.count), warm: r.warmStart };
   }
@@ -48,10 +64,12 @@ export class StabilityAnalyser {
   /** Start the eigen solver afresh, as a new analyser would (see EigenTracker.restart). */
   restart(): void {
     this.tracker.restart();
+    this.precise?.restart();
   }
 
   dispose(): void {
     this.tracker.dispose();
+    this.precise?.dispose();
   }
 }
 
@@ -157,7 +175,7 @@ export function locateHopf(
     if (!(s > lo.s + 1e-3 * span && s < hi.s - 1e-3 * span)) s = lo.s + 0.5 * span;
     const x = arcPoint(sys, xa, ta, s, newton);
     if (!x) return { converged: false, x: lo.x, frequency: lo.im, stability: last?.stability ?? emptyStability(), s: lo.s, message: 'a point on the arc did not converge while locating a Hopf point' };
-    const a = analyser.analyse(x, w);
+    const a = analyser.analyse(x, w, true);
     w = a.warm;
     // follow the pair: the eigenvalue nearest to the interpolation between the bracket's ends
     const theta = (s - lo.s) / (hi.s - lo.s);

@@ -26,8 +26,8 @@ describe('stability along branches', () => {
     expect(hopfs).toHaveLength(1);
     // Prigogine & Lefever 1968: Hopf of the uniform state at b = 1 + a², frequency ω = a
     expect(hopfs[0].located).toBe(true);
-    expect(Math.abs(hopfs[0].value - (1 + a * a))).toBeLessThan(1e-7);
-    expect(Math.abs(hopfs[0].frequency - a)).toBeLessThan(1e-6);
+    expect(Math.abs(hopfs[0].value - (1 + a * a))).toBeLessThan(1e-8);
+    expect(Math.abs(hopfs[0].frequency - a)).toBeLessThan(1e-8);
     expect(hopfs[0].crossing).toBe('destabilising');
     for (const p of run.points) {
       const expectedUnstable = p.parameter > 1 + a * a;
