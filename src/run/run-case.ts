@@ -319,6 +319,13 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
           b.points++;
           if (b.first === undefined) b.first = p.parameter;
           b.last = p.parameter;
+          // (a branch's first point at a branch point is singular there: its eigenvalue count says nothing)
+          if (p.stability && !(p.index === 0 && b.origin.kind === 'branch-point')) {
+            const st = (b.stability ??= []);
+            const last = st[st.length - 1];
+            if (last && last.stable === p.stability.stable && last.unstable === p.stability.unstableCount) last.to = p.parameter;
+            else st.push({ from: p.parameter, to: p.parameter, stable: p.stability.stable, unstable: p.stability.unstableCount });
+          }
         }
         break;
       }

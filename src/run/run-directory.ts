@@ -50,6 +50,11 @@ export interface BranchRecord {
   stopReason?: StopReason;
   stopText?: string;
   message?: string;
+  /**
+   * Stretches of equal stability along the branch, in order: the parameter at the first and last
+   * point of each, whether it is stable (null: not certified) and its unstable-eigenvalue count.
+   */
+  stability?: { from: number; to: number; stable: boolean | null; unstable: number }[];
 }
 
 /** A special point as written to points.json (keys in our lowercase words). */

@@ -117,8 +117,20 @@ export function branchLines(result: RunResult, prepared: PreparedCase): string[]
     if (specials.length === 0 && b.points > 0) parts.push('no fold or branch point');
     parts.push(`ended: ${endText(b, end, prepared)}`);
     lines.push(`Branch ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
+    if (b.stability?.length) lines.push(`  stability: ${stabilityText(b.stability, prepared.settings.parameter)}`);
   }
   return lines;
+}
+
+/** Stretches of equal stability in words, e.g. "stable for lambda 0.05 → 1.888; 1 unstable eigenvalue for lambda 1.888 → 0.004". */
+function stabilityText(stretches: NonNullable<BranchRecord['stability']>, parameter: string): string {
+  const shown = stretches.slice(0, 6).map((s) => {
+    const what = s.stable === true ? 'stable' : s.unstable > 0 ? `${s.unstable} unstable eigenvalue${s.unstable === 1 ? '' : 's'}` : 'stability not certified';
+    const range = s.from === s.to ? `at ${parameter} = ${formatValue(s.from, monitorDigits)}` : `for ${parameter} ${formatValue(s.from, monitorDigits)} → ${formatValue(s.to, monitorDigits)}`;
+    return `${what} ${range}`;
+  });
+  if (stretches.length > 6) shown.push(`${stretches.length - 6} more changes (see the CSV)`);
+  return shown.join('; ');
 }
 
 function seconds(s: number): string {

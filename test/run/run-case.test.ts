@@ -157,6 +157,22 @@ describe('a run on the scripted engine', () => {
   });
 });
 
+describe('the summary says where each branch is stable', () => {
+  it('1D Bratu: stable up to the fold, one unstable eigenvalue after it', async () => {
+    // the lower branch of Bratu's problem is stable and the upper one has one positive eigenvalue (from memory)
+    const c = await prepareCaseObject({ ...baseCase(), stability: { eigenvalues: 3 }, continuation: { parameter: 'lambda', bounds: [0, 4], 'stop-when': [{ monitor: 'max', above: 3 }] } }, { label: 'slab', baseDir: tmp });
+    const result = await runCase(c, { outDir: fresh() });
+    const text = formatSummary(result, c);
+    const line = text.split('\n').find((l) => l.startsWith('  stability:'));
+    expect(line).toMatch(/^  stability: stable for lambda 0\.2 → 3\.5\d*; 1 unstable eigenvalue for lambda 3\.5\d* → /);
+    const stretches = result.ledger.branches[0].stability!;
+    expect(stretches.map((s) => [s.stable, s.unstable])).toEqual([
+      [true, 0],
+      [false, 1],
+    ]);
+  });
+});
+
 function baseCase(): Record<string, unknown> {
   return { name: 'slab-1d', model: 'bratu', grid: { intervals: [32] }, parameters: { lambda: 0.2 }, continuation: { parameter: 'lambda', bounds: [0, 4], 'max-points': 200 } };
 }
