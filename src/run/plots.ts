@@ -67,7 +67,7 @@ interface AxisInfo {
 }
 
 /** Columns of a branch CSV that are not monitors. */
-const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step', 'stable', 'unstable-count', 'leading-real', 'leading-imag']);
+const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
 
 const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
 
@@ -85,7 +85,7 @@ function num(v: unknown): number {
 
 /** Monitors available in a run: the CSV columns that are monitors (not the parameter, not extras). */
 function monitorColumns(columns: readonly string[], parameter: string, extras: readonly string[]): string[] {
-  return columns.filter((c) => c !== parameter && !nonMonitorColumns.has(c) && !extras.includes(c));
+  return columns.filter((c) => c !== parameter && !nonMonitorColumns.has(c) && !/^eigenvalue-\d+-(real|imag)$/.test(c) && !extras.includes(c));
 }
 
 /** A monitor column in words for an axis title: `max` → `max u`, `l2-norm:v` → `L2 norm of v`. */

@@ -186,7 +186,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   const log = options.log ?? (() => {});
   const outDir = options.outDir !== undefined ? resolve(options.outDir) : outputDirectory(prepared);
   const stabilityColumnsOn = prepared.case.stability.eigenvalues > 0;
-  const plan: ColumnPlan = columnPlan(problem, parameter, stabilityColumnsOn);
+  const plan: ColumnPlan = columnPlan(problem, parameter, prepared.case.stability.eigenvalues);
   const ledger: RunLedger = options.resume ? structuredClone(options.resume.ledger) : emptyLedger();
 
   // the only step that may refuse (bad output folder) happens before anything is written

@@ -98,18 +98,39 @@ export interface ColumnPlan {
   monitors: string[];
   extras: string[];
   stability: boolean;
+  /** Eigenvalues written per point (real and imaginary part each): stability.eigenvalues. */
+  eigenvalues: number;
+}
+
+/** Per-point eigenvalue columns: `eigenvalue-1-real`, `eigenvalue-1-imag`, … (rightmost first). */
+export function eigenvalueColumns(count: number): string[] {
+  const out: string[] = [];
+  for (let k = 1; k <= count; k++) out.push(`eigenvalue-${k}-real`, `eigenvalue-${k}-imag`);
+  return out;
 }
 
 /**
  * Columns of a branch CSV: point, arclength, the continuation parameter, the monitors (in the
  * problem's order: max, min, l2-norm per field, then model monitors), the extra unknowns by
- * name, newton-iterations, step, and the stability columns when asked for.
+ * name, newton-iterations, step, and with stability analysis (`eigenvalues` > 0) the stability
+ * columns, `search-complete` (whether every eigenvalue with real part ≥ 0 was certified found)
+ * and the real and imaginary parts of the `eigenvalues` rightmost eigenvalues.
  */
-export function columnPlan(problem: Problem, parameter: string, stability: boolean): ColumnPlan {
+export function columnPlan(problem: Problem, parameter: string, eigenvalues: number): ColumnPlan {
   const monitors = problem.monitors.map((m) => m.name);
   const extras = problem.extraUnknowns.map((e) => e.name).filter((n) => !monitors.includes(n));
-  const columns = ['point', 'arclength', parameter, ...monitors, ...extras, 'newton-iterations', 'step', ...(stability ? stabilityColumns : [])];
-  return { columns, monitors, extras, stability };
+  const stability = eigenvalues > 0;
+  const columns = [
+    'point',
+    'arclength',
+    parameter,
+    ...monitors,
+    ...extras,
+    'newton-iterations',
+    'step',
+    ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues)] : []),
+  ];
+  return { columns, monitors, extras, stability, eigenvalues };
 }
 
 /** The stability data a point carries when the engine computes eigenvalues (see types.ts). */
@@ -118,6 +139,8 @@ interface PointStabilityCells {
   unstableCount?: number;
   leadingReal?: number;
   leadingImag?: number;
+  complete?: boolean;
+  eigenvalues?: { re: number; im: number }[];
 }
 
 /** Whether a point carries stability data. */
@@ -133,7 +156,11 @@ export function pointRow(plan: ColumnPlan, problem: Problem, p: BranchPoint): Cs
   if (plan.stability) {
     // empty cells when the point has no stability data (or `stable` is not certified: null)
     const s = (p as { stability?: PointStabilityCells }).stability;
-    row.push(s?.stable, s?.unstableCount, s?.leadingReal, s?.leadingImag);
+    row.push(s?.stable, s?.unstableCount, s?.leadingReal, s?.leadingImag, s?.complete);
+    for (let k = 0; k < plan.eigenvalues; k++) {
+      const e = s?.eigenvalues?.[k];
+      row.push(e?.re, e?.im);
+    }
   }
   return row;
 }

@@ -227,7 +227,7 @@ describe('stability columns from the real engine', () => {
     expect(r.code, r.err).toBe(0);
     const text = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
     const header = text[0].split(',');
-    expect(header.slice(-4)).toEqual(['stable', 'unstable-count', 'leading-real', 'leading-imag']);
+    expect(header.slice(-9)).toEqual(['stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete', 'eigenvalue-1-real', 'eigenvalue-1-imag', 'eigenvalue-2-real', 'eigenvalue-2-imag']);
     const rows = text.slice(1, -1).map((l) => l.split(','));
     const col = (name: string): string[] => rows.map((row) => row[header.indexOf(name)]);
     const lambda = col('lambda').map(Number);
@@ -239,5 +239,12 @@ describe('stability columns from the real engine', () => {
     expect(col('unstable-count').slice(top + 1).every((c) => c === '1')).toBe(true);
     expect(Number(col('leading-real')[0])).toBeLessThan(0);
     expect(Number(col('leading-real')[rows.length - 1])).toBeGreaterThan(0);
+    // both eigenvalues per point, rightmost first; a 1D Dirichlet diffusion operator has real ones
+    expect(col('search-complete').every((c) => c === 'true')).toBe(true);
+    for (const row of rows) {
+      expect(Number(row[header.indexOf('eigenvalue-1-real')])).toBe(Number(row[header.indexOf('leading-real')]));
+      expect(Number(row[header.indexOf('eigenvalue-2-real')])).toBeLessThan(Number(row[header.indexOf('eigenvalue-1-real')]));
+      expect(Number(row[header.indexOf('eigenvalue-2-imag')])).toBe(0);
+    }
   });
 });

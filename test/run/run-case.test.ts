@@ -148,9 +148,11 @@ describe('a run on the scripted engine', () => {
     const out = fresh();
     await runCase(c, { outDir: out, engine: fakeEngine({ ...defaultScript, stability: true }) });
     const csv = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
-    expect(csv[0]).toBe('point,arclength,b,max:u,min:u,l2-norm:u,max:v,min:v,l2-norm:v,drift-x,newton-iterations,step,stable,unstable-count,leading-real,leading-imag');
-    expect(csv[1].endsWith(',true,0,-1,0')).toBe(true);
-    expect(csv[2].endsWith(',,1,-0.9,0')).toBe(true); // stable not certified: empty cell
+    const eigen = [1, 2, 3, 4].flatMap((k) => [`eigenvalue-${k}-real`, `eigenvalue-${k}-imag`]).join(',');
+    expect(csv[0]).toBe(`point,arclength,b,max:u,min:u,l2-norm:u,max:v,min:v,l2-norm:v,drift-x,newton-iterations,step,stable,unstable-count,leading-real,leading-imag,search-complete,${eigen}`);
+    // (the scripted engine gives no eigenvalue list: those cells stay empty)
+    expect(csv[1].endsWith(',true,0,-1,0,true,,,,,,,,')).toBe(true);
+    expect(csv[2].endsWith(',,1,-0.9,0,true,,,,,,,,')).toBe(true); // stable not certified: empty cell
     const points = json(join(out, 'points.json')).points;
     expect(points[0]['extra-unknowns']).toEqual({ 'drift-x': 0.25 * 0.5 });
     expect(readNpy(join(out, points[0].solution)).shape).toEqual([2, 16]);
