@@ -302,17 +302,22 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
     }
     for (let f = 0; f < nf; f++) D[f] = diff[f].value(q);
     bd.resolve(p);
+    averageEliminated(bd.value, elimVal);
+  }
+
+  /** out[e] = mean of the (up to three) boundary data slots of eliminated node e. */
+  function averageEliminated(slots: ArrayLike<number>, out: Float64Array): void {
     for (let e = 0; e < nElim; e++) {
       let v = 0;
       let c = 0;
       for (let k = 0; k < 3; k++) {
         const s = elimSlot[3 * e + k];
         if (s >= 0) {
-          v += bd.value[s];
+          v += slots[s];
           c++;
         }
       }
-      elimVal[e] = v / c;
+      out[e] = v / c;
     }
   }
 
@@ -469,18 +474,7 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
   }
 
   function elimDerivative(): void {
-    for (let e = 0; e < nElim; e++) {
-      let v = 0;
-      let c = 0;
-      for (let k = 0; k < 3; k++) {
-        const s = elimSlot[3 * e + k];
-        if (s >= 0) {
-          v += bdDer.value[s];
-          c++;
-        }
-      }
-      elimDer[e] = v / c;
-    }
+    averageEliminated(bdDer.value, elimDer);
   }
 
   function elimDirection(t: number, out: Float64Array): void {

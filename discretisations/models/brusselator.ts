@@ -7,9 +7,8 @@
  * (Turing) patterns at b = (1 + a √(Du/Dv))² on large domains.
  */
 import type { GridOptions, ParameterSpec, Problem } from '../../src/problem/problem.js';
-import type { FieldBoundaries } from '../grid.js';
 import { createReactionDiffusion, type ReactionTerms } from '../reaction-diffusion.js';
-import { type OptionSpec, checkOptions, choice, dimensionCheck, flag, gridOption } from './options.js';
+import { type OptionSpec, checkOptions, choice, dimensionCheck, gridOption, patternDomain } from './options.js';
 
 export const brusselatorOptions: readonly OptionSpec[] = [
   gridOption,
@@ -77,11 +76,8 @@ export function brusselator(options: Record<string, unknown> & { grid: GridOptio
   const m = 'brusselator';
   checkOptions(m, options, brusselatorOptions);
   dimensionCheck(m, options.grid, [1, 2]);
-  const boundary = choice<'neumann' | 'periodic'>(m, options, brusselatorOptions[1]);
+  const { boundary, phase, boundaries: bc } = patternDomain(m, options, brusselatorOptions[1]);
   const initial = choice<'uniform' | 'perturbed'>(m, options, brusselatorOptions[2]);
-  const phase = flag(m, options, 'phase-condition');
-  if (phase && boundary !== 'periodic') throw new Error(`model '${m}': option 'phase-condition' needs boundary 'periodic'`);
-  const bc: FieldBoundaries = boundary === 'periodic' ? { all: { kind: 'periodic' } } : { all: { kind: 'neumann', flux: 0 } };
   const lx = options.grid.length ? options.grid.length[0] : 1;
   return createReactionDiffusion({
     model: m,

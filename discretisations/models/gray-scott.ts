@@ -6,9 +6,8 @@
  * The uniform state (u, v) = (1, 0) exists for all parameters; patterned states need a pulse.
  */
 import type { GridOptions, ParameterSpec, Problem } from '../../src/problem/problem.js';
-import type { FieldBoundaries } from '../grid.js';
 import { createReactionDiffusion, type ReactionTerms } from '../reaction-diffusion.js';
-import { type OptionSpec, checkOptions, choice, dimensionCheck, domainCentre, flag, gridOption } from './options.js';
+import { type OptionSpec, checkOptions, choice, dimensionCheck, domainCentre, gridOption, patternDomain } from './options.js';
 
 export const grayScottOptions: readonly OptionSpec[] = [
   gridOption,
@@ -79,11 +78,8 @@ export function grayScott(options: Record<string, unknown> & { grid: GridOptions
   const m = 'gray-scott';
   checkOptions(m, options, grayScottOptions);
   dimensionCheck(m, options.grid, [1, 2]);
-  const boundary = choice<'periodic' | 'neumann'>(m, options, grayScottOptions[1]);
+  const { boundary, phase, boundaries: bc } = patternDomain(m, options, grayScottOptions[1]);
   const initial = choice<'uniform' | 'pulse'>(m, options, grayScottOptions[2]);
-  const phase = flag(m, options, 'phase-condition');
-  if (phase && boundary !== 'periodic') throw new Error(`model '${m}': option 'phase-condition' needs boundary 'periodic'`);
-  const bc: FieldBoundaries = boundary === 'periodic' ? { all: { kind: 'periodic' } } : { all: { kind: 'neumann', flux: 0 } };
   const centre = domainCentre(options.grid);
   return createReactionDiffusion({
     model: m,

@@ -2,6 +2,7 @@
  * Option handling shared by the built-in model factories: unknown keys and bad values give a
  * one-line error naming the model, the option, the value and what is accepted.
  */
+import type { FieldBoundaries } from '../grid.js';
 import type { GridOptions } from '../../src/problem/problem.js';
 
 export interface OptionSpec {
@@ -57,4 +58,20 @@ export function dimensionCheck(model: string, grid: GridOptions, allowed: readon
 /** Centre of the domain (physical coordinates). */
 export function domainCentre(grid: GridOptions): number[] {
   return grid.intervals.map((_n, a) => (grid.length ? grid.length[a] : 1) / 2);
+}
+
+/**
+ * The domain options of the two-field pattern models (gray-scott, brusselator): `boundary`
+ * (periodic or no-flux on every side) and `phase-condition` (periodic only), as boundary data.
+ */
+export function patternDomain(
+  model: string,
+  options: Record<string, unknown>,
+  boundarySpec: OptionSpec,
+): { boundary: 'periodic' | 'neumann'; phase: boolean; boundaries: FieldBoundaries } {
+  const boundary = choice<'periodic' | 'neumann'>(model, options, boundarySpec);
+  const phase = flag(model, options, 'phase-condition');
+  if (phase && boundary !== 'periodic') throw new Error(`model '${model}': option 'phase-condition' needs boundary 'periodic'`);
+  const boundaries: FieldBoundaries = boundary === 'periodic' ? { all: { kind: 'periodic' } } : { all: { kind: 'neumann', flux: 0 } };
+  return { boundary, phase, boundaries };
 }

@@ -16,6 +16,7 @@
  * has τ1 as one root; the other root is the new branch's tangent. F_xx comes from second central
  * differences of the residual along the directions.
  */
+import { axpy, infNorm, scaleInPlace } from '../linalg/vector.js';
 import { type ContinuationSystem, allFinite } from './system.js';
 import { correct, correctWork } from './newton.js';
 import type { NewtonSettings } from './types.js';
@@ -180,7 +181,7 @@ function bilinear(sys: ContinuationSystem, x: Float64Array, psi: Float64Array, a
 export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, tau1In: Float64Array): BranchDirections | { error: string } {
   const n = sys.n;
   const tau1 = tau1In.slice();
-  scale(tau1, 1 / sys.norm(tau1));
+  scaleInPlace(tau1, 1 / sys.norm(tau1));
   sys.assemble(xStar.subarray(0, n), xStar[n]);
   sys.setTangentRow(tau1);
   try {
@@ -210,22 +211,22 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
   for (let k = 0; k < 3; k++) {
     sys.solve(y, tmp);
     y.set(tmp);
-    scale(y, 1 / sys.norm(y));
+    scaleInPlace(y, 1 / sys.norm(y));
     sys.solveTranspose(z, tmp);
     z.set(tmp);
-    scale(z, 1 / maxAbs(z));
+    scaleInPlace(z, 1 / (infNorm(z) || 1));
   }
   if (!allFinite(y) || !allFinite(z)) return { error: 'null vectors at the branch point are not finite' };
   // τ2 ⟂ τ1 (weighted)
   const tau2 = y.slice();
   axpy(tau2, -sys.dot(tau2, tau1), tau1);
-  scale(tau2, 1 / sys.norm(tau2));
+  scaleInPlace(tau2, 1 / sys.norm(tau2));
   const psi = z.slice(0, n);
   // the critical mode: the kernel combination with no λ component
   const phi = new Float64Array(n);
   for (let i = 0; i < n; i++) phi[i] = tau2[n] * tau1[i] - tau1[n] * tau2[i];
   const pn = sys.normU(phi);
-  if (pn > 0) scale(phi, 1 / pn);
+  if (pn > 0) scaleInPlace(phi, 1 / pn);
   // algebraic bifurcation equation
   const work = new Float64Array(n + 1);
   const q11 = bilinear(sys, xStar, psi, tau1, tau1, work);
@@ -242,7 +243,7 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
   }
   const direction = new Float64Array(n + 1);
   for (let i = 0; i <= n; i++) direction[i] = r * tau1[i] + tau2[i];
-  scale(direction, 1 / sys.norm(direction));
+  scaleInPlace(direction, 1 / sys.norm(direction));
   // critical eigenvalue along the old branch: μ(s) ≈ s · ψᵀ F_xx[τ1, (φ, 0)] / ψᵀ M φ
   const phiX = new Float64Array(n + 1);
   phiX.set(phi);
@@ -254,18 +255,4 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
   const side = Math.sign(muPrime * tau1[n]);
   const unstableSide = Number.isFinite(side) && Math.abs(tau1[n]) > 1e-6 ? side : 0;
   return { tau1, tau2, direction, psi, phi, unstableSide, q: { q11, q12, q22 } };
-}
-
-function scale(a: Float64Array, s: number): void {
-  for (let i = 0; i < a.length; i++) a[i] *= s;
-}
-
-function axpy(y: Float64Array, a: number, x: Float64Array): void {
-  for (let i = 0; i < y.length; i++) y[i] += a * x[i];
-}
-
-function maxAbs(a: Float64Array): number {
-  let m = 0;
-  for (let i = 0; i < a.length; i++) m = Math.max(m, Math.abs(a[i]));
-  return m || 1;
 }

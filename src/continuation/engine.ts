@@ -14,6 +14,7 @@ import { correct, correctWork, type NewtonResult } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
 import { StabilityAnalyser, crossingPair, locateCountChange, locateHopf } from './stability.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
+import { difference } from '../linalg/vector.js';
 import type {
   BranchInfo,
   BranchPoint,
@@ -333,7 +334,7 @@ export class Continuation {
     this.state.branches.push(p.info);
     const events: EngineEvent[] = [{ type: 'branch-start', branch: p.info }, this.pointEvent(b, 0, 0, this.sys.residual(p.origin.subarray(0, n), p.origin[n]))];
     // the first converged point off the branch point
-    const ds = this.sys.norm(sub(p.first, p.origin));
+    const ds = this.sys.norm(difference(p.first, p.origin));
     b.x = p.first.slice();
     b.arclength = ds;
     b.index = 1;
@@ -502,7 +503,7 @@ export class Continuation {
         const before = b.stability;
         b.x = xb;
         b.tangent = tangent;
-        b.arclength += this.sys.norm(sub(xb, xOld));
+        b.arclength += this.sys.norm(difference(xb, xOld));
         b.index++;
         this.analyse(b);
         events.push(this.pointEvent(b, ds * theta, r.iterations, r.residual));
@@ -512,7 +513,7 @@ export class Continuation {
         return events;
       }
     }
-    b.arclength += st.method === 'arclength' ? ds : this.sys.norm(sub(xNew, xOld));
+    b.arclength += st.method === 'arclength' ? ds : this.sys.norm(difference(xNew, xOld));
     b.x = xNew;
     b.tangent = tangent;
     b.chordRow = st.method === 'arclength' ? tOld : undefined;
@@ -548,7 +549,7 @@ export class Continuation {
     if (!allFinite(b.x)) return { reason: 'non-finite', message: 'non-finite values in the state' };
     // closed loop: back near the first point, heading the same way, after a real excursion
     if (b.index >= 10) {
-      const d = this.sys.norm(sub(b.x, b.firstX));
+      const d = this.sys.norm(difference(b.x, b.firstX));
       if (d < 0.5 * Math.max(b.step, st.step.min) && this.sys.dot(b.tangent, b.firstTangent) > 0.9 && b.arclength > 4 * d) {
         return { reason: 'closed-loop', message: 'the branch closed on itself' };
       }
@@ -564,7 +565,7 @@ export class Continuation {
       kind: 'fold',
       branch: b.info.id,
       value: loc.x[n],
-      arclength: b.arclength + (loc.converged ? this.sys.norm(sub(loc.x, xa)) : 0),
+      arclength: b.arclength + (loc.converged ? this.sys.norm(difference(loc.x, xa)) : 0),
       u: loc.x.slice(0, n),
       monitors: this.monitors(loc.x),
       residual: loc.residual,
@@ -608,14 +609,14 @@ export class Continuation {
     }
     // already seen (a branch that returns to a known branch point)?
     for (const k of this.state.knownBranchPoints) {
-      if (this.sys.norm(sub(k, xs)) <= 1e-4 * (1 + this.sys.norm(xs))) {
+      if (this.sys.norm(difference(k, xs)) <= 1e-4 * (1 + this.sys.norm(xs))) {
         event.note = 'already known: its branches are followed from where it was first found';
         return events;
       }
     }
     this.state.knownBranchPoints.push(xs.slice());
     // the old branch's tangent at the point: the secant of the final bracket, or the tangent
-    let tau1 = sub(loc.hi.x, loc.lo.x);
+    let tau1 = difference(loc.hi.x, loc.lo.x);
     if (!(this.sys.norm(tau1) > 0) || loc.hi.s - loc.lo.s > 1e-3) tau1 = ta.slice();
     if (this.sys.dot(tau1, ta) < 0) for (let i = 0; i <= n; i++) tau1[i] = -tau1[i];
     const dirs = branchDirections(this.sys, xs, tau1);
@@ -636,7 +637,7 @@ export class Continuation {
         const x = xp.slice();
         const r = correct(this.sys, x, d, xp, { ...this.newtonSettings(true), maxUpdate: 2 * h }, this.work);
         if (!r.converged) continue;
-        const v = sub(x, xs);
+        const v = difference(x, xs);
         const cosOld = Math.abs(this.sys.dot(v, dirs.tau1)) / this.sys.norm(v);
         if (cosOld > 0.95) continue; // fell back onto the old branch
         const { tangent } = this.tangentFrom(d, x, r.factored, true);
@@ -784,11 +785,6 @@ function countCrossings(a: PointStability, b: PointStability): number {
   return real + pairs;
 }
 
-function sub(a: Float64Array, b: Float64Array): Float64Array {
-  const c = new Float64Array(a.length);
-  for (let i = 0; i < a.length; i++) c[i] = a[i] - b[i];
-  return c;
-}
 
 function inRange(v: number, lo: number, hi: number): boolean {
   return v >= lo && v <= hi;

@@ -14,7 +14,7 @@
  * pattern. The borders b, c are refreshed from v and ψ at every iteration.
  */
 import { matTVec } from '../linalg/sparse.js';
-import { derivativeEvaluator } from '../problem/derivatives.js';
+import { derivativeEvaluator, directionalJacobian } from '../problem/derivatives.js';
 import { type ContinuationSystem, allFinite } from './system.js';
 
 export interface FoldLocation {
@@ -24,12 +24,6 @@ export interface FoldLocation {
   iterations: number;
   residual: number;
   message?: string;
-}
-
-function infNorm(a: Float64Array, n = a.length): number {
-  let m = 0;
-  for (let i = 0; i < n; i++) m = Math.max(m, Math.abs(a[i]));
-  return m;
 }
 
 /**
@@ -96,15 +90,9 @@ export function locateFold(
     sys.solveTranspose(rhs, sol);
     psi.set(sol.subarray(0, n));
     // g_u = −(J'_v)ᵀ ψ, J'_v from Jacobian values differenced along v
-    const nv = infNorm(v);
-    const eps = nv > 0 ? (Math.cbrt(Number.EPSILON) * Math.max(1, infNorm(u))) / nv : 0;
-    if (eps > 0) {
-      for (let i = 0; i < n; i++) shifted[i] = u[i] + eps * v[i];
-      problem.jacobian(shifted, p, jp);
-      for (let i = 0; i < n; i++) shifted[i] = u[i] - eps * v[i];
-      problem.jacobian(shifted, p, jm);
-      for (let k = 0; k < nz; k++) jp[k] = -(jp[k] - jm[k]) / (2 * eps);
+    if (directionalJacobian(problem, u, p, v, jp, jm, shifted)) {
       matTVec({ ...pattern, values: jp }, psi, gu);
+      for (let i = 0; i < n; i++) gu[i] = -gu[i];
     } else {
       gu.fill(0);
     }

@@ -73,9 +73,16 @@ export class StabilityAnalyser {
   }
 }
 
+/** The size of the eigenvalues found (at least 1): imaginary parts below REAL_TOLERANCE of it count as real. */
+function spectralScale(values: readonly { re: number; im: number }[]): number {
+  let m = 1;
+  for (const v of values) m = Math.max(m, Math.hypot(v.re, v.im));
+  return m;
+}
+
 export function summarise(r: RightmostResult, count: number): PointStability {
   const vals = r.values;
-  const scale = Math.max(1, ...vals.map((v) => Math.hypot(v.re, v.im)));
+  const scale = spectralScale(vals);
   let unstable = 0;
   let unstableComplex = 0;
   for (const v of vals) {
@@ -107,7 +114,7 @@ export function summarise(r: RightmostResult, count: number): PointStability {
 export function pairNear(s: PointStability, target: { re: number; im: number }): { re: number; im: number } | undefined {
   let best: { re: number; im: number } | undefined;
   let bestDistance = Infinity;
-  const scale = Math.max(1, ...s.eigenvalues.map((v) => Math.hypot(v.re, v.im)));
+  const scale = spectralScale(s.eigenvalues);
   for (const v of s.eigenvalues) {
     if (v.im <= REAL_TOLERANCE * scale) continue;
     const d = Math.hypot(v.re - target.re, v.im - target.im);
@@ -121,7 +128,7 @@ export function pairNear(s: PointStability, target: { re: number; im: number }):
 
 /** The complex pair that crossed between a and b: the one whose real part changed sign. */
 export function crossingPair(a: PointStability, b: PointStability): { a: { re: number; im: number }; b: { re: number; im: number } } | undefined {
-  const scale = Math.max(1, ...a.eigenvalues.map((v) => Math.hypot(v.re, v.im)));
+  const scale = spectralScale(a.eigenvalues);
   let best: { a: { re: number; im: number }; b: { re: number; im: number }; gap: number } | undefined;
   for (const va of a.eigenvalues) {
     if (va.im <= REAL_TOLERANCE * scale) continue;

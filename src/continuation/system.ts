@@ -66,9 +66,7 @@ export class ContinuationSystem {
 
   /** this.f = F(u, λ); returns the scaled weighted residual norm ‖D⁻¹F‖_w. */
   residual(u: Float64Array, lambda: number): number {
-    const t0 = performance.now();
-    this.problem.residual(u, this.params(lambda), this.f);
-    this.seconds.residual += (performance.now() - t0) / 1000;
+    this.timed('residual', () => this.problem.residual(u, this.params(lambda), this.f));
     return this.scaledNorm(this.f);
   }
 
@@ -100,14 +98,14 @@ export class ContinuationSystem {
 
   /** Fill J and F_λ at (u, λ) and put them into the bordered matrix. */
   assemble(u: Float64Array, lambda: number): void {
-    const t0 = performance.now();
-    const p = this.params(lambda);
-    this.problem.jacobian(u, p, this.jacobian);
-    this.problem.parameterDerivative(u, p, this.parameter, this.fParameter);
-    this.bordered.setInner(this.jacobian);
-    this.bordered.setColumn(0, this.fParameter);
+    this.timed('assembly', () => {
+      const p = this.params(lambda);
+      this.problem.jacobian(u, p, this.jacobian);
+      this.problem.parameterDerivative(u, p, this.parameter, this.fParameter);
+      this.bordered.setInner(this.jacobian);
+      this.bordered.setColumn(0, this.fParameter);
+    });
     this.assemblies++;
-    this.seconds.assembly += (performance.now() - t0) / 1000;
   }
 
   /** Border row: (w ∘ τ_u, τ_λ) — the weighted tangent. */
@@ -148,35 +146,30 @@ export class ContinuationSystem {
    */
   factor(fresh: boolean): void {
     this.stamp++;
-    const t0 = performance.now();
-    try {
-      const done = this.solver().update(this.bordered.values, fresh || this.freshPending);
-      this.freshPending = false;
-      if (done === 'factor') this.factorisations++;
-      else this.refactorisations++;
-    } finally {
-      this.seconds.factorisation += (performance.now() - t0) / 1000;
-    }
+    const done = this.timed('factorisation', () => this.solver().update(this.bordered.values, fresh || this.freshPending));
+    this.freshPending = false;
+    if (done === 'factor') this.factorisations++;
+    else this.refactorisations++;
   }
 
   /** Solve with the current factorisation (length n+1, in place into out). */
   solve(rhs: Float64Array, out?: Float64Array): Float64Array {
     this.solves++;
-    const t0 = performance.now();
-    try {
-      return this.solver().solve(rhs, out);
-    } finally {
-      this.seconds.solves += (performance.now() - t0) / 1000;
-    }
+    return this.timed('solves', () => this.solver().solve(rhs, out));
   }
 
   solveTranspose(rhs: Float64Array, out?: Float64Array): Float64Array {
     this.solves++;
+    return this.timed('solves', () => this.solver().solveTranspose(rhs, out));
+  }
+
+  /** Run `f`, adding its time to the phase `phase` (also when it throws). */
+  private timed<T>(phase: keyof ContinuationSystem['seconds'], f: () => T): T {
     const t0 = performance.now();
     try {
-      return this.solver().solveTranspose(rhs, out);
+      return f();
     } finally {
-      this.seconds.solves += (performance.now() - t0) / 1000;
+      this.seconds[phase] += (performance.now() - t0) / 1000;
     }
   }
 

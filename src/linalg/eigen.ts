@@ -99,6 +99,7 @@ import { EigenvalueDecomposition, Matrix, inverse } from 'ml-matrix';
 import { SparseLU, SparseLUError, type LUOptions } from './lu.js';
 import { type CscMatrix, type CscPattern, embedPattern, entryIndex, matVec, nnz, patternUnion, transpose, validatePattern } from './sparse.js';
 import { blockEigenvalue, orderSchur, realSchur, schurBlocks, schurEigenvector, type Complex } from './schur.js';
+import { axpy, dot, norm2, scaleInPlace } from './vector.js';
 
 export type { Complex } from './schur.js';
 
@@ -206,28 +207,7 @@ export interface ComputeExtras {
 export interface RightmostOptions extends EigenOptions, ComputeExtras {}
 
 // ---------------------------------------------------------------------------------------------
-// Small vector helpers
-
-function dot(a: Float64Array, b: Float64Array): number {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += a[i] * b[i];
-  return s;
-}
-
-function norm2(a: Float64Array): number {
-  let s = 0;
-  for (let i = 0; i < a.length; i++) s += a[i] * a[i];
-  return Math.sqrt(s);
-}
-
-function axpy(y: Float64Array, a: number, x: Float64Array): void {
-  if (a === 0) return;
-  for (let i = 0; i < y.length; i++) y[i] += a * x[i];
-}
-
-function scaleInPlace(x: Float64Array, a: number): void {
-  for (let i = 0; i < x.length; i++) x[i] *= a;
-}
+// Small vector helpers: see vector.ts
 
 /** Classical Gram–Schmidt with one full reorthogonalisation; returns the coefficients. */
 function orthogonalize(w: Float64Array, basis: Float64Array[]): Float64Array {
@@ -545,25 +525,23 @@ function priorityFor(spec: { mode: 'nearest' | 'cayley'; sigma: number; tau: num
   };
 }
 
-function wantedBlockCount(st: SchurState, spec: SearchSpec, sigma: number): number {
-  let want = spec.wanted;
-  if (spec.mode === 'cayley') {
-    const w = sigma - spec.tau;
-    let g = 0;
-    for (const b of st.blocks) {
-      const c = cabs(1 + w * b.theta.re, w * b.theta.im);
-      if (c >= 1 + spec.eta) g += b.size;
-    }
-    want = Math.max(want, Math.min(g, spec.maxWanted));
-  }
-  let count = 0;
-  let nb = 0;
+/**
+ * For the Cayley ordering, the size of the primary group (Ritz values right of the line,
+ * |1 + (σ − τ)θ| ≥ 1 + eta), capped at maxWanted; 0 for shift-invert.
+ */
+function primaryGroupSize(st: SchurState, spec: SearchSpec, sigma: number): number {
+  if (spec.mode !== 'cayley') return 0;
+  const w = sigma - spec.tau;
+  let g = 0;
   for (const b of st.blocks) {
-    if (count >= want) break;
-    count += b.size;
-    nb++;
+    const c = cabs(1 + w * b.theta.re, w * b.theta.im);
+    if (c >= 1 + spec.eta) g += b.size;
   }
-  return nb;
+  return Math.min(g, spec.maxWanted);
+}
+
+function wantedBlockCount(st: SchurState, spec: SearchSpec, sigma: number): number {
+  return blocksFor(st, Math.max(spec.wanted, primaryGroupSize(st, spec, sigma)));
 }
 
 /**
@@ -573,17 +551,7 @@ function wantedBlockCount(st: SchurState, spec: SearchSpec, sigma: number): numb
  * region we are about to claim.
  */
 function requiredBlockCount(st: SchurState, spec: SearchSpec, sigma: number): number {
-  let need = spec.required;
-  if (spec.mode === 'cayley') {
-    const w = sigma - spec.tau;
-    let g = 0;
-    for (const b of st.blocks) {
-      const c = cabs(1 + w * b.theta.re, w * b.theta.im);
-      if (c >= 1 + spec.eta) g += b.size;
-    }
-    need = Math.max(need, Math.min(g, spec.maxWanted));
-  }
-  return blocksFor(st, need);
+  return blocksFor(st, Math.max(spec.required, primaryGroupSize(st, spec, sigma)));
 }
 
 /**

@@ -391,13 +391,7 @@ export function diagramSvg(input: DiagramInput): string {
       pointsMarkup.push(
         el(
           'g',
-          {
-            'data-role': 'special-point',
-            'data-kind': s.kind,
-            'data-branch': String(s.branch),
-            'data-parameter': String(s.parameter),
-            'data-monitor': String(s.monitor),
-          },
+          pointAttributes(s),
           markerShape(s.kind, r.x, r.y, colour),
         ),
       );
@@ -444,13 +438,7 @@ export function diagramSvg(input: DiagramInput): string {
     pointsMarkup.push(
       el(
         'g',
-        {
-          'data-role': 'special-point',
-          'data-kind': s.kind,
-          'data-branch': String(s.branch),
-          'data-parameter': String(s.parameter),
-          'data-monitor': String(s.monitor),
-        },
+        pointAttributes(s),
         parts.join(''),
       ),
     );
@@ -515,4 +503,15 @@ export function diagramSvg(input: DiagramInput): string {
     background: PAPER,
     body: body.join('\n'),
   });
+}
+
+/** Attributes of a special point's group (tests and users find points by them). */
+function pointAttributes(s: { kind: string; branch: string | number; parameter: number; monitor: number }): Record<string, string> {
+  return {
+    'data-role': 'special-point',
+    'data-kind': s.kind,
+    'data-branch': String(s.branch),
+    'data-parameter': String(s.parameter),
+    'data-monitor': String(s.monitor),
+  };
 }

@@ -14,6 +14,8 @@
  *
  * `derivativeEvaluator(problem)` allocates its workspace once; its calls allocate nothing.
  */
+import { matVec } from '../linalg/sparse.js';
+import { infNorm } from '../linalg/vector.js';
 import type { Params, Problem } from './problem.js';
 
 /** δ = ε_mach^(1/3). */
@@ -30,13 +32,39 @@ export interface DerivativeEvaluator {
   mixedDerivative(u: Float64Array, p: Params, name: string, a: Float64Array, out: Float64Array): void;
 }
 
-function infNorm(a: Float64Array): number {
-  let m = 0;
-  for (let i = 0; i < a.length; i++) {
-    const v = Math.abs(a[i]);
-    if (v > m) m = v;
+/** The central-difference step along a at u: δ·max(1, ‖u‖∞)/‖a‖∞ (0 when a = 0). */
+export function directionStep(u: Float64Array, a: Float64Array): number {
+  const na = infNorm(a);
+  return na === 0 ? 0 : (centralDifferenceStep * Math.max(1, infNorm(u))) / na;
+}
+
+/**
+ * Values of the directional derivative of the Jacobian, d/dε J(u + εa) at ε = 0, on J's pattern,
+ * by central differences (two Jacobian evaluations): out = (J(u + εa) − J(u − εa)) / (2ε).
+ * `work` holds n values and `minus` nnz values of scratch. Returns false (out zeroed) when a = 0.
+ */
+export function directionalJacobian(
+  problem: Problem,
+  u: Float64Array,
+  p: Params,
+  a: Float64Array,
+  out: Float64Array,
+  minus: Float64Array,
+  work: Float64Array,
+): boolean {
+  const eps = directionStep(u, a);
+  if (eps === 0) {
+    out.fill(0);
+    return false;
   }
-  return m;
+  const n = u.length;
+  for (let i = 0; i < n; i++) work[i] = u[i] + eps * a[i];
+  problem.jacobian(work, p, out);
+  for (let i = 0; i < n; i++) work[i] = u[i] - eps * a[i];
+  problem.jacobian(work, p, minus);
+  const s = 1 / (2 * eps);
+  for (let k = 0; k < out.length; k++) out[k] = (out[k] - minus[k]) * s;
+  return true;
 }
 
 /** Finite-difference second derivatives for any Problem (workspace allocated here, once). */
@@ -50,33 +78,18 @@ export function finiteDifferenceDerivatives(problem: Problem): DerivativeEvaluat
   const fp = new Float64Array(n);
   const fm = new Float64Array(n);
 
-  const stepFor = (u: Float64Array, a: Float64Array): number => {
-    const na = infNorm(a);
-    if (na === 0) return 0;
-    return (centralDifferenceStep * Math.max(1, infNorm(u))) / na;
-  };
-
   return {
     exactSecond: false,
     exactMixed: false,
     secondDerivative(u, p, a, b, out) {
-      const eps = stepFor(u, a);
-      out.fill(0);
-      if (eps === 0) return;
-      for (let i = 0; i < n; i++) w[i] = u[i] + eps * a[i];
-      problem.jacobian(w, p, vp);
-      for (let i = 0; i < n; i++) w[i] = u[i] - eps * a[i];
-      problem.jacobian(w, p, vm);
-      const s = 1 / (2 * eps);
-      const { colPtr, rowIdx } = pat;
-      for (let j = 0; j < n; j++) {
-        const bj = b[j];
-        if (bj === 0) continue;
-        for (let k = colPtr[j]; k < colPtr[j + 1]; k++) out[rowIdx[k]] += (vp[k] - vm[k]) * s * bj;
+      if (!directionalJacobian(problem, u, p, a, vp, vm, w)) {
+        out.fill(0);
+        return;
       }
+      matVec({ ...pat, values: vp }, b, out);
     },
     mixedDerivative(u, p, name, a, out) {
-      const eps = stepFor(u, a);
+      const eps = directionStep(u, a);
       if (eps === 0) {
         out.fill(0);
         return;
