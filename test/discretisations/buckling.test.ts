@@ -72,7 +72,7 @@ describe('elastica', () => {
       const unstable = got.filter((x) => x > 0).length;
       expect(unstable).toBe(lambda < mu(1) ? 0 : 1);
     }
-    // the continuum limit of the first load is Euler's π²
+    // the continuum limit of the first load is Euler's π² (Euler; Timoshenko & Gere)
     expect(Math.abs(mu(1) - Math.PI ** 2)).toBeLessThan(0.02);
   });
 
@@ -138,6 +138,7 @@ describe('beam-foundation', () => {
   });
 
   it('pinned: w = 0 is stable below the smallest P_n = EI μ_n + kf/μ_n and singular at each P_n', () => {
+    // Timoshenko & Gere, Theory of Elastic Stability: P_n = EI μ_n + kf/μ_n, exact with the discrete μ_n
     const Pn = Array.from({ length: 4 }, (_, k) => EI * mu(k + 1) + kf / mu(k + 1));
     const Pmin = Math.min(...Pn);
     expect(Math.max(...eigs(pinned, { P: 0.99 * Pmin, EI, kf, k3: 5 }))).toBeLessThan(0);
@@ -149,6 +150,7 @@ describe('beam-foundation', () => {
   });
 
   it('clamped, no foundation: the first buckling load tends to 4π²EI/L² at order 2', () => {
+    // Euler load of a strut clamped at both ends, 4π²EI/L² (Timoshenko & Gere, Theory of Elastic Stability)
     const errs: number[] = [];
     for (const n of [16, 32, 64]) {
       const pr = beamFoundation({ grid: { intervals: [n], length: [L] }, ends: 'clamped' });

@@ -79,6 +79,7 @@ describe('uniform states and their linear stability', () => {
       const got = spectrum(denseJacobian(pr, u, p));
       expectSameSpectrum(got, want, 1e-9);
       if (b === 1 + a * a) {
+        // Hopf of the uniform state at b = 1 + a², ω = a (Prigogine & Lefever 1968):
         // the uniform mode's pair sits on the imaginary axis at ±i a
         const crit = got.filter((e) => Math.abs(e.re) < 1e-12);
         expect(crit.map((e) => Math.abs(e.im))).toEqual([expect.closeTo(a, 10), expect.closeTo(a, 10)]);
