@@ -23,7 +23,7 @@ import { readdirSync, rmSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
-import type { BranchPoint, ContinuationSettings, EngineEvent, StopReason } from '../continuation/types.js';
+import type { ContinuationPoint, ContinuationSettings, EngineEvent, StopReason } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { type PreparedCase, caseDocument } from './case.js';
@@ -302,7 +302,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
         break;
       }
       case 'point': {
-        const p: BranchPoint = ev.point;
+        const p: ContinuationPoint = ev.point;
         dir.appendRow(p.branch, pointRow(plan, problem, p), ledger);
         if (stabilityColumnsOn && !stabilityWarned && !hasStability(p)) {
           stabilityWarned = true;
