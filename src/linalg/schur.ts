@@ -9,8 +9,11 @@
  *
  * Methods (all published, implemented here from their descriptions):
  * - Householder reduction to upper Hessenberg form, then the Francis double-shift QR iteration
- *   with deflation on negligible subdiagonal entries and exceptional shifts every 10 iterations
- *   (Francis 1961; Golub & Van Loan, *Matrix Computations*, §7.4–7.5).
+ *   with deflation on negligible subdiagonal entries and exceptional shifts at the 10th and 20th
+ *   iteration on a window (Francis 1961; Golub & Van Loan, *Matrix Computations*, §7.4–7.5). The
+ *   shifts and the first column of the double-shift polynomial are formed without cancellation,
+ *   as in LAPACK's DLAHQR, so that clusters of nearly equal eigenvalues (multiple eigenvalues of
+ *   symmetric grids, seen through a Krylov space) still converge.
  * - Standardisation of 2×2 blocks by one rotation, following the case analysis of LAPACK's
  *   DLANV2 (equal diagonal for complex pairs, triangular for real pairs).
  * - Reordering by swapping adjacent 1×1/2×2 blocks with the direct method of Bai & Demmel
@@ -242,15 +245,43 @@ export function realSchur(A: Float64Array | ArrayLike<number>, n: number): RealS
   return { n, T, Z, converged };
 }
 
-/** Francis double-shift QR on an upper Hessenberg H (in place), accumulating into Z. */
+/**
+ * The two shifts of a Francis step: the eigenvalues of the 2×2 matrix [[h11, h12], [h21, h22]],
+ * computed after scaling and without cancellation (the discriminant as (h11 − tr)(h22 − tr) −
+ * h12·h21). Two real eigenvalues give one double shift, the one nearer h22 (as LAPACK's DLAHQR):
+ * for a cluster of nearly equal eigenvalues the product form s1·s2 of the shifts would lose
+ * every digit that separates them, and the iteration would stagnate.
+ */
+function francisShifts(h11: number, h12: number, h21: number, h22: number): { r1: number; r2: number; im: number } {
+  const s = Math.abs(h11) + Math.abs(h12) + Math.abs(h21) + Math.abs(h22);
+  if (s === 0) return { r1: 0, r2: 0, im: 0 };
+  h11 /= s;
+  h12 /= s;
+  h21 /= s;
+  h22 /= s;
+  const tr = 0.5 * (h11 + h22);
+  const det = (h11 - tr) * (h22 - tr) - h12 * h21;
+  const rtdisc = Math.sqrt(Math.abs(det));
+  if (det >= 0) return { r1: tr * s, r2: tr * s, im: rtdisc * s };
+  const a = tr + rtdisc;
+  const b = tr - rtdisc;
+  const r = (Math.abs(a - h22) <= Math.abs(b - h22) ? a : b) * s;
+  return { r1: r, r2: r, im: 0 };
+}
+
+/**
+ * Francis double-shift QR on an upper Hessenberg H (in place), accumulating into Z. Shifts from
+ * the trailing 2×2 block (francisShifts), exceptional shifts at the 10th and 20th iteration on a
+ * window; the first column of (H − s1)(H − s2) is formed from differences h − s (no
+ * cancellation), as in LAPACK's DLAHQR. At most 30·max(10, n) iterations per deflation.
+ */
 function francisQR(H: Float64Array, Z: Float64Array, n: number): boolean {
   let norm = 0;
   for (let i = 0; i < n * n; i++) norm += Math.abs(H[i]);
   if (norm === 0) return true;
   let hi = n - 1;
   let iter = 0;
-  let total = 0;
-  const maxTotal = 60 * n + 60;
+  const maxIter = 30 * Math.max(10, n);
   const v = [0, 0, 0];
   while (hi >= 0) {
     // look for a negligible subdiagonal entry
@@ -276,34 +307,31 @@ function francisQR(H: Float64Array, Z: Float64Array, n: number): boolean {
       continue;
     }
     iter++;
-    total++;
-    if (total > maxTotal) return false;
-    // shifts: eigenvalues of the trailing 2×2 block (or an exceptional shift)
-    let sShift: number;
-    let tShift: number;
-    if (iter % 10 === 0) {
+    if (iter > maxIter) return false;
+    // shifts: eigenvalues of the trailing 2×2 block, or an exceptional shift
+    let sh: { r1: number; r2: number; im: number };
+    if (iter % 20 === 10) {
+      const s = Math.abs(H[(l + 1) * n + l]) + Math.abs(H[(l + 2) * n + l + 1]);
+      const h11 = 0.75 * s + H[l * n + l];
+      sh = francisShifts(h11, -0.4375 * s, s, h11);
+    } else if (iter % 20 === 0) {
       const s = Math.abs(H[hi * n + hi - 1]) + Math.abs(H[(hi - 1) * n + hi - 2]);
       const h11 = 0.75 * s + H[hi * n + hi];
-      const h12 = -0.4375 * s;
-      const h21 = s;
-      sShift = 2 * h11;
-      tShift = h11 * h11 - h12 * h21;
+      sh = francisShifts(h11, -0.4375 * s, s, h11);
     } else {
-      const a = H[(hi - 1) * n + hi - 1];
-      const b = H[(hi - 1) * n + hi];
-      const c = H[hi * n + hi - 1];
-      const d = H[hi * n + hi];
-      sShift = a + d;
-      tShift = a * d - b * c;
+      sh = francisShifts(H[(hi - 1) * n + hi - 1], H[(hi - 1) * n + hi], H[hi * n + hi - 1], H[hi * n + hi]);
     }
+    // first column of (H − s1 I)(H − s2 I), scaled, from the window's top rows
     const h00 = H[l * n + l];
     const h01 = H[l * n + l + 1];
     const h10 = H[(l + 1) * n + l];
     const h11v = H[(l + 1) * n + l + 1];
     const h21 = H[(l + 2) * n + l + 1];
-    let x = h00 * h00 + h01 * h10 - sShift * h00 + tShift;
-    let y = h10 * (h00 + h11v - sShift);
-    let z = h10 * h21;
+    const sc = Math.abs(h00 - sh.r2) + Math.abs(sh.im) + Math.abs(h10);
+    const h10s = sc > 0 ? h10 / sc : 0;
+    let x = h10s * h01 + (h00 - sh.r1) * ((h00 - sh.r2) / sc) + sh.im * (sh.im / sc);
+    let y = h10s * (h00 + h11v - sh.r1 - sh.r2);
+    let z = h10s * h21;
     for (let k = l; k <= hi - 2; k++) {
       // Householder reflector P = I − β v vᵀ with P·[x, y, z]ᵀ = [*, 0, 0]ᵀ
       const nrm = Math.hypot(x, y, z);
@@ -384,6 +412,41 @@ export function blockEigenvalue(T: Float64Array, n: number, start: number, size:
   const disc = p * p + b * c;
   if (disc >= 0) return { re: 0.5 * (a + d) + Math.sqrt(disc), im: 0 };
   return { re: 0.5 * (a + d), im: Math.sqrt(-disc) };
+}
+
+/**
+ * Split the 2×2 blocks whose eigenvalues are real to working accuracy — a pair a ± i·s with
+ * s ≤ relTol·|a + i·s| is two (nearly) equal real eigenvalues that the standardisation left as
+ * a pair — into two 1×1 blocks, by dropping the smaller off-diagonal entry of the standardised
+ * block [[a, b], [c, a]] (a backward error of at most s, since min(|b|, |c|)² ≤ |b·c| = s²).
+ * Returns the number of blocks split.
+ */
+export function splitNearlyReal(T: Float64Array, Z: Float64Array, n: number, relTol: number): number {
+  let split = 0;
+  for (const bl of schurBlocks(T, n)) {
+    if (bl.size !== 2) continue;
+    const j = bl.start;
+    const k = j + 1;
+    const ev = blockEigenvalue(T, n, j, 2);
+    if (!(ev.im <= relTol * Math.hypot(ev.re, ev.im))) continue;
+    if (Math.abs(T[k * n + j]) > Math.abs(T[j * n + k])) {
+      // rotate by 90° first: [[a, b], [c, d]] → [[d, −c], [−b, a]]
+      const a = T[j * n + j];
+      const b = T[j * n + k];
+      const c = T[k * n + j];
+      const d = T[k * n + k];
+      T[j * n + j] = d;
+      T[j * n + k] = -c;
+      T[k * n + j] = -b;
+      T[k * n + k] = a;
+      rotRows(T, n, j, k, 0, 1, k + 1, n);
+      rotCols(T, n, j, k, 0, 1, 0, j);
+      rotCols(Z, n, j, k, 0, 1, 0, n);
+    }
+    T[k * n + j] = 0;
+    split++;
+  }
+  return split;
 }
 
 /** All eigenvalues of a quasi-triangular T in diagonal order (pairs as +im, −im). */
@@ -632,8 +695,15 @@ export function orderSchur(T: Float64Array, Z: Float64Array, n: number, priority
  * Eigenvector of the quasi-triangular T for the block at `start` (for a 2×2 block, the
  * eigenvalue with positive imaginary part), by back substitution. Returns real and imaginary
  * parts (length n, zero below the block), normalised to unit 2-norm.
+ *
+ * A block above with the same eigenvalue to within `cluster`·|λ| (another copy of a multiple
+ * eigenvalue) is not divided by its tiny pivot: a 1×1 copy gets a zero component, a 2×2 copy
+ * (B − λI of rank one) the rank-one pseudo-inverse solution. The vector is then the copy's own
+ * eigenvector, independent of the copies above it, rather than one dominated by the first copy
+ * (what the tiny pivot would make of it). For a semisimple cluster the residual this leaves is
+ * the coupling inside the cluster, as small as its spread.
  */
-export function schurEigenvector(T: Float64Array, n: number, start: number, size: 1 | 2): { re: Float64Array; im: Float64Array; value: Complex } {
+export function schurEigenvector(T: Float64Array, n: number, start: number, size: 1 | 2, cluster = 0): { re: Float64Array; im: Float64Array; value: Complex } {
   const xr = new Float64Array(n);
   const xi = new Float64Array(n);
   const lam = blockEigenvalue(T, n, start, size);
@@ -669,6 +739,25 @@ export function schurEigenvector(T: Float64Array, n: number, start: number, size
       }
       rr[k] = -sr;
       ri[k] = -si;
+    }
+    const ev = blockEigenvalue(T, n, r0, bl.size);
+    const copy = cluster > 0 && Math.hypot(ev.re - lam.re, ev.im - lam.im) <= cluster * Math.hypot(lam.re, lam.im);
+    if (copy && bl.size === 1) continue;
+    if (copy) {
+      // another copy of a complex pair: B − λI has rank one, and for a semisimple cluster the
+      // rhs lies in its range; take the rank-one pseudo-inverse solution y = (B − λI)ᴴ rhs / ‖B − λI‖²_F
+      const a11r = T[r0 * n + r0] - lam.re;
+      const a12 = T[r0 * n + r0 + 1];
+      const a21 = T[(r0 + 1) * n + r0];
+      const a22r = T[(r0 + 1) * n + r0 + 1] - lam.re;
+      const ai = -lam.im;
+      const f = a11r * a11r + a22r * a22r + 2 * ai * ai + a12 * a12 + a21 * a21;
+      // conj(a11)·r1 + a21·r2 and a12·r1 + conj(a22)·r2
+      xr[r0] = (a11r * rr[0] + ai * ri[0] + a21 * rr[1]) / f;
+      xi[r0] = (a11r * ri[0] - ai * rr[0] + a21 * ri[1]) / f;
+      xr[r0 + 1] = (a12 * rr[0] + a22r * rr[1] + ai * ri[1]) / f;
+      xi[r0 + 1] = (a12 * ri[0] + a22r * ri[1] - ai * rr[1]) / f;
+      continue;
     }
     if (bl.size === 1) {
       let dr = T[r0 * n + r0] - lam.re;
