@@ -138,3 +138,124 @@ export function laplacian2dEigenvalues(nx: number, ny: number, lx: number, ly: n
   }
   return out.sort((x, y) => y - x);
 }
+
+/** A tridiagonal Toeplitz factor tridiag(sub, diag, sup) of order m. */
+export interface TridiagonalFactor {
+  m: number;
+  diag: number;
+  sub: number;
+  sup: number;
+}
+
+/**
+ * Exact eigenvalues of tridiag(sub, diag, sup) of order m: diag + 2·sqrt(sub·sup)·cos(kπ/(m+1)),
+ * k = 1..m, a conjugate pair family when sub·sup < 0 (the standard result for tridiagonal
+ * Toeplitz matrices, e.g. G. D. Smith, Numerical Solution of Partial Differential Equations,
+ * from memory). With sub·sup ≠ 0 they are distinct, so the matrix is diagonalisable.
+ */
+export function tridiagonalEigenvalues(f: TridiagonalFactor): { re: number; im: number }[] {
+  const p = f.sub * f.sup;
+  const out: { re: number; im: number }[] = [];
+  for (let k = 1; k <= f.m; k++) {
+    const c = 2 * Math.cos((k * Math.PI) / (f.m + 1)) * Math.sqrt(Math.abs(p));
+    const re = f.diag + (p >= 0 ? c : 0);
+    const im = p >= 0 ? 0 : c;
+    out.push({ re, im: Math.abs(im) < 1e-15 * Math.max(1, Math.abs(f.diag)) ? 0 : im });
+  }
+  return out;
+}
+
+/**
+ * The Kronecker sum F₁ ⊕ F₂ ⊕ … of tridiagonal factors (sparse, order Π mᵢ), scrambled by a
+ * random symmetric permutation and a random positive diagonal similarity (neither changes the
+ * spectrum), plus `shift`·I. Its eigenvalues are exactly the sums λ_{i₁}(F₁) + λ_{i₂}(F₂) + … +
+ * shift (Horn & Johnson, Topics in Matrix Analysis, §4.4, from memory): equal factors give
+ * repeated eigenvalues (2 for two equal factors, up to 6 for three), and factors with
+ * sub·sup < 0 give complex pairs, repeated too.
+ */
+export function kroneckerSum(factors: TridiagonalFactor[], shift: number, seed: number): { J: CscMatrix; spectrum: { re: number; im: number }[] } {
+  const r = rng(seed);
+  const n = factors.reduce((p, f) => p * f.m, 1);
+  const perm = Array.from({ length: n }, (_, i) => i);
+  for (let i = n - 1; i > 0; i--) {
+    const j = Math.floor(r() * (i + 1));
+    [perm[i], perm[j]] = [perm[j], perm[i]];
+  }
+  const d = Array.from({ length: n }, () => Math.exp(r() - 0.5));
+  const tb = new TripletBuilder(n, n, 3 * factors.length * n);
+  const add = (i: number, j: number, v: number) => tb.add(perm[i], perm[j], (v * d[i]) / d[j]);
+  let stride = 1;
+  for (const f of factors) {
+    // the factor acts on digit (index / stride) mod m of the multi-index
+    for (let i = 0; i < n; i++) {
+      const digit = Math.floor(i / stride) % f.m;
+      add(i, i, f.diag);
+      if (digit > 0) add(i, i - stride, f.sub);
+      if (digit < f.m - 1) add(i, i + stride, f.sup);
+    }
+    stride *= f.m;
+  }
+  for (let i = 0; i < n; i++) add(i, i, shift);
+  let spectrum = [{ re: shift, im: 0 }];
+  for (const f of factors) {
+    const ev = tridiagonalEigenvalues(f);
+    spectrum = spectrum.flatMap((s) => ev.map((e) => ({ re: s.re + e.re, im: s.im + e.im })));
+  }
+  // conjugate parts that cancel (i·a − i·a) leave rounding: those sums are real
+  const size = Math.abs(shift) + factors.reduce((t, f) => t + Math.abs(f.diag) + 2 * Math.sqrt(Math.abs(f.sub * f.sup)), 0);
+  for (const v of spectrum) if (Math.abs(v.im) <= 1e-14 * size) v.im = 0;
+  return { J: tb.toCsc(), spectrum: spectrum.sort((a, b) => b.re - a.re || b.im - a.im) };
+}
+
+type C = { re: number; im: number };
+
+/** Equal to the solver's cluster rule: relative 1e-6 (the tests below avoid the borderline). */
+export function sameEigenvalue(a: C, b: C, scale: number): boolean {
+  return Math.hypot(a.re - b.re, a.im - b.im) <= 1e-6 * Math.max(Math.hypot(a.re, a.im), Math.hypot(b.re, b.im), 1e-3 * scale);
+}
+
+/**
+ * Whether `got` is a correct answer for `count` rightmost values of the exact spectrum: at least
+ * `count` values, every exact eigenvalue right of its last real part listed, and every value
+ * listed with all its copies (its whole cluster, its conjugate). Values with equal real parts are
+ * equally rightmost, so which of them close the list is free. Values agree to relTol·scale.
+ */
+export function rightmostListProblem(got: C[], sorted: C[], count: number, scale: number, relTol = 1e-8): string | null {
+  const tol = relTol * scale;
+  if (got.length < count) return `only ${got.length} values`;
+  const last = Math.min(...got.map((v) => v.re));
+  const mustHave = sorted.filter((v) => v.re > last + tol);
+  if (missingFrom(mustHave, got, () => tol) > 0) return `an eigenvalue right of ${last} is missing`;
+  for (const v of got) {
+    const copies = (a: C[]) => a.filter((w) => sameEigenvalue(w, v, scale)).length;
+    if (copies(got) !== copies(sorted)) return `${v.re} ${v.im}i listed ${copies(got)} times, multiplicity ${copies(sorted)}`;
+    if (v.im !== 0 && !got.some((w) => w.re === v.re && w.im === -v.im)) return `the pair of ${v.re} ${v.im}i is split`;
+  }
+  return null;
+}
+
+/** How many of `values` find no distinct partner in `pool` within tol(partner). */
+export function missingFrom(values: C[], pool: C[], tol: (w: C) => number): number {
+  const used = new Array<boolean>(pool.length).fill(false);
+  let missing = 0;
+  for (const g of values) {
+    let bi = -1;
+    let bd = Infinity;
+    pool.forEach((w, i) => {
+      if (used[i]) return;
+      const d = Math.hypot(g.re - w.re, g.im - w.im);
+      if (d < bd) {
+        bd = d;
+        bi = i;
+      }
+    });
+    if (bi < 0 || bd > tol(pool[bi])) missing++;
+    else used[bi] = true;
+  }
+  return missing;
+}
+
+/** Whether two multisets are equal within tol. */
+export function sameMultiset(got: C[], want: C[], tol: (w: C) => number): boolean {
+  return got.length === want.length && missingFrom(got, want, tol) === 0;
+}

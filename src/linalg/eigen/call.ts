@@ -14,11 +14,12 @@ import { SparseLU, SparseLUError } from '../lu.js';
 import type { Complex } from '../schur.js';
 import type { CscMatrix } from '../sparse.js';
 import { norm2, scaleInPlace } from '../vector.js';
-import { type Enclosure, normEstimate, searchedRegion } from './certification.js';
-import { type KnownPair, closeConjugates, fmt, pencilResidual, selectRightmost, sortRightmost } from './eigenpairs.js';
+import { orthogonalize } from './krylov-schur.js';
+import { type Enclosure, normEstimate, reaches, searchedRegion } from './certification.js';
+import { type KnownPair, closeConjugates, fmt, listFloor, pencilResidual, sameCluster, selectRightmost, sortRightmost } from './eigenpairs.js';
 import type { SearchOutcome, SearchSpec } from './search.js';
 import { type Purify, makeWarmStart } from './seeding.js';
-import { type ShiftOperator, cabs } from './transform.js';
+import { type ShiftOperator, apolloniusDisc, cabs, cayleyImage } from './transform.js';
 import type { EigenValue, RightmostResult, SearchDisc } from './types.js';
 
 /** What a call needs from its tracker. */
@@ -27,6 +28,8 @@ export interface CallSetup {
   mass?: Float64Array;
   count: number;
   guard: number;
+  /** Certify every eigenvalue right of this line (see EigenOptions.certifyAbove). */
+  certifyAbove?: number;
   tolerance: number;
   basisSize: number;
   maxRestarts: number;
@@ -57,6 +60,8 @@ export class EigenCall {
   readonly notes: string[] = [];
   allConverged = true;
   lastOutcome: SearchOutcome | null = null;
+  /** Members of clusters whose copies may be incomplete (multiplicity.ts): not vouched for. */
+  unverified: Complex[] = [];
 
   constructor(readonly setup: CallSetup) {
     const { J, mass } = setup;
@@ -137,14 +142,29 @@ export class EigenCall {
     return Math.max(100 * this.setup.tolerance * ((jNorm + Math.abs(sigma) * mMax) / (jNorm + cabs(mu.re, mu.im) * mMax)), 1e-12);
   }
 
-  /** The search settings common to every search of this call. */
-  spec(op: ShiftOperator, mode: SearchSpec['mode'], tau: number, eta: number, minDim: number): SearchSpec {
+  /**
+   * How many rightmost values the call must find, given the values known (sorted): `count`, or
+   * with `certifyAbove` every known value right of the line plus the first one left of it, so
+   * that the line falls between the count-th value and the next.
+   */
+  effectiveCount(values: { re: number }[]): number {
+    const { count, certifyAbove } = this.setup;
+    if (certifyAbove === undefined) return count;
+    let above = 0;
+    for (const v of values) if (v.re >= certifyAbove) above++;
+    return Math.max(count, above + 1);
+  }
+
+  /** The search settings for `count` wanted values (default: the call's count). */
+  spec(op: ShiftOperator, mode: SearchSpec['mode'], tau: number, eta: number, minDim: number, count = this.setup.count): SearchSpec {
+    const wanted = count + this.setup.guard;
+    const basisSize = Math.min(Math.max(this.m, 2 * wanted + 4), this.n);
     return {
       op,
-      wanted: this.kw,
-      required: this.setup.count,
-      maxWanted: this.maxWanted,
-      basisSize: this.m,
+      wanted,
+      required: count,
+      maxWanted: Math.max(wanted, Math.floor(basisSize / 2)),
+      basisSize,
       tolerance: this.setup.tolerance,
       maxRestarts: this.setup.maxRestarts,
       purify: this.singularMass,
@@ -153,6 +173,28 @@ export class EigenCall {
       eta,
       minDim,
     };
+  }
+
+  /**
+   * Shrink every claimed disc holding μ until it no longer does (a Cayley disc to the Apollonius
+   * ratio just above μ's Cayley image, a shift-invert disc to just inside |μ − σ|).
+   */
+  exclude(mu: Complex): void {
+    for (let i = 0; i < this.discs.length; i++) {
+      const d = this.discs[i];
+      if (cabs(mu.re - d.center, mu.im) > d.radius) continue;
+      if (d.transform === 'cayley') {
+        const rho = cayleyImage(mu, d.shift, d.pole!) * (1 + 1e-9);
+        if (!(rho > 1 && Number.isFinite(rho))) {
+          this.discs.splice(i--, 1);
+          continue;
+        }
+        const ad = apolloniusDisc(d.shift, d.pole!, rho);
+        this.discs[i] = { ...d, center: ad.center, radius: ad.radius };
+      } else {
+        this.discs[i] = { ...d, radius: cabs(mu.re - d.shift, mu.im) * (1 - 1e-9) };
+      }
+    }
   }
 
   /** Take in a search's outcome: its checked values join the known ones, its disc the discs. */
@@ -168,27 +210,69 @@ export class EigenCall {
         if (v.converged) this.notes.push(`a Ritz value ${fmt(v.mu)} met the Krylov test but its residual on J, M is ${r.relativeResidual.toExponential(1)}`);
         continue;
       }
-      const tolMatch = Math.max(1e3 * tol, 1e-9) * (cabs(v.mu.re, v.mu.im) + this.floor + Math.abs(sigma));
-      let hit = -1;
-      for (let i = 0; i < known.length; i++) {
-        if (matched.has(i)) continue;
-        if (cabs(known[i].mu.re - v.mu.re, known[i].mu.im - v.mu.im) <= tolMatch) {
-          hit = i;
-          break;
-        }
-      }
       const entry: KnownPair = { mu: v.mu, xr: v.xr, xi: v.xi, residual: r.residual, relativeResidual: r.relativeResidual, converged: true };
-      if (hit >= 0) {
-        matched.add(hit);
-        if (r.relativeResidual < known[hit].relativeResidual) known[hit] = entry;
-      } else {
+      // a value of a known cluster is a further copy when its vector leaves the span of the
+      // copies known (the copies of a multiple eigenvalue are told apart by their vectors, never
+      // by their values); otherwise it is one of them seen again
+      if (!this.repeatsKnownVector(entry)) {
         known.push(entry);
         matched.add(known.length - 1);
+        continue;
       }
+      let hit = -1;
+      let best = Infinity;
+      for (let i = 0; i < known.length; i++) {
+        if (matched.has(i) || !sameCluster(known[i].mu, v.mu, this.floor)) continue;
+        const d = cabs(known[i].mu.re - v.mu.re, known[i].mu.im - v.mu.im);
+        if (d < best) {
+          best = d;
+          hit = i;
+        }
+      }
+      if (hit < 0) continue;
+      matched.add(hit);
+      // a better approximation replaces a simple value (in a cluster it would change the span)
+      const simple = known.filter((k) => sameCluster(k.mu, v.mu, this.floor)).length === 1;
+      if (simple && r.relativeResidual < known[hit].relativeResidual) known[hit] = entry;
     }
     this.known = closeConjugates(known, tol, this.floor);
     if (out.disc) this.discs.push(out.disc);
     this.lastOutcome = out;
+  }
+
+  /**
+   * Whether the eigenvector of `entry` lies (to 1 %) in the span of the vectors of the known
+   * values of its cluster (and of its conjugate's): then it is one of them seen again, not a
+   * further copy. (A Krylov space with locked eigenpairs can return a second Ritz value next to a
+   * locked one whose Ritz vector is mostly the locked vector; counted as a copy, it would be a
+   * false multiple eigenvalue. And a search's copies of a multiple eigenvalue come in any order
+   * within the eigenspace: matched by value, a new direction could pass for a known copy.)
+   */
+  private repeatsKnownVector(entry: KnownPair): boolean {
+    const basis: Float64Array[] = [];
+    for (const k of this.known) {
+      if (!sameCluster(k.mu, entry.mu, this.floor) && !sameCluster(k.mu, { re: entry.mu.re, im: -entry.mu.im }, this.floor)) continue;
+      for (const x of k.mu.im !== 0 ? [k.xr, k.xi] : [k.xr]) {
+        const c = Float64Array.from(x);
+        const n0 = norm2(c);
+        if (!(n0 > 0)) continue;
+        orthogonalize(c, basis);
+        const nc = norm2(c);
+        if (nc > 1e-8 * n0) {
+          scaleInPlace(c, 1 / nc);
+          basis.push(c);
+        }
+      }
+    }
+    if (basis.length === 0) return false;
+    for (const x of entry.mu.im !== 0 ? [entry.xr, entry.xi] : [entry.xr]) {
+      const c = Float64Array.from(x);
+      const n0 = norm2(c);
+      if (!(n0 > 0)) continue;
+      orthogonalize(c, basis);
+      if (norm2(c) > 1e-2 * n0) return false;
+    }
+    return true;
   }
 
   /**
@@ -198,7 +282,7 @@ export class EigenCall {
   result(enclosure: Enclosure, Y: number): RightmostResult {
     const { count, maxRestarts, tolerance } = this.setup;
     const { known, counters } = this;
-    const sel = selectRightmost(known, count);
+    const sel = selectRightmost(known, count, this.floor);
     let converged = this.allConverged && sel.length >= count;
     let reason: string | undefined;
     const outValues: EigenValue[] = sel.map((k) => ({ re: k.mu.re, im: k.mu.im, residual: k.residual, relativeResidual: k.relativeResidual, converged: k.converged }));
@@ -222,17 +306,29 @@ export class EigenCall {
     }
     if (this.notes.length > 0) reason = reason ? `${reason}; ${this.notes[0]}` : undefined;
     const rightmost = known.length > 0 ? known[0].mu.re : -Infinity;
+    const region = searchedRegion(this.discs, enclosure, Y, rightmost, converged ? listFloor(sel, this.floor) : Infinity, outValues.length);
+    const carried = Math.max(this.effectiveCount(known.map((k) => k.mu)) + this.setup.guard, sel.length);
+    const line = this.setup.certifyAbove;
     return {
       values: outValues,
       converged,
       unconvergedReason: converged ? undefined : reason ?? 'not converged',
-      searchedRegion: searchedRegion(this.discs, enclosure, Y, rightmost, converged, outValues),
+      searchedRegion: region,
       solves: counters.solves,
       factorisations: counters.factorisations,
       restarts: counters.restarts,
       shifts: this.shifts,
-      warmStart: makeWarmStart(known.slice(0, Math.max(this.kw, sel.length)), this.n, this.shifts[this.shifts.length - 1] ?? 0),
+      warmStart: makeWarmStart(known.slice(0, carried), this.n, this.shifts[this.shifts.length - 1] ?? 0, (mu) => !this.unverified.some((u) => sameCluster(u, mu, this.floor))),
       method: 'krylov',
+      ...(line !== undefined
+        ? {
+            rightOf: {
+              line,
+              values: known.filter((k) => k.mu.re >= line).map((k) => ({ re: k.mu.re, im: k.mu.im })),
+              certified: this.allConverged && enclosure.rigorous && reaches(region.certifiedAbove, line),
+            },
+          }
+        : {}),
     };
   }
 }

@@ -7,6 +7,7 @@ import type { Complex } from '../schur.js';
 import type { CscMatrix } from '../sparse.js';
 import { normEstimate } from './certification.js';
 import { type KnownPair, pencilResidual, selectRightmost } from './eigenpairs.js';
+import { REAL_PAIR } from './krylov-schur.js';
 import { makeWarmStart } from './seeding.js';
 import { applyShiftInvert, cabs } from './transform.js';
 import type { RightmostResult } from './types.js';
@@ -87,6 +88,9 @@ function denseEigen(
     values = th.map((t) => applyShiftInvert(t, best!.sigma));
     X = e.eigenvectorMatrix;
   }
+  // a pair with an imaginary part at rounding level is two equal real eigenvalues (the real and
+  // imaginary parts of its vector are two real eigenvectors)
+  for (const v of values) if (v.im !== 0 && Math.abs(v.im) <= REAL_PAIR * cabs(v.re, v.im)) v.im = 0;
   const outValues: Complex[] = [];
   const vectors: { re: Float64Array; im: Float64Array }[] = [];
   for (let i = 0; i < n; i++) {
@@ -116,7 +120,7 @@ function denseEigen(
 }
 
 /** The result of a call answered densely (the `count` rightmost of every finite eigenvalue; certified by construction). */
-export function denseResult(J: CscMatrix, o: { count: number; guard: number; mass?: Float64Array }): RightmostResult {
+export function denseResult(J: CscMatrix, o: { count: number; guard: number; mass?: Float64Array; certifyAbove?: number }): RightmostResult {
   const n = J.cols;
   const { values, vectors } = denseEigen(J, o.mass, true);
   const mMax = o.mass ? o.mass.reduce((a, m) => Math.max(a, Math.abs(m)), 0) : 1;
@@ -127,7 +131,7 @@ export function denseResult(J: CscMatrix, o: { count: number; guard: number; mas
     return { mu, xr: re, xi: im, residual: res, relativeResidual: res / (jNorm + cabs(mu.re, mu.im) * mMax), converged: true };
   });
   pairs.sort((a, b) => (b.mu.re !== a.mu.re ? b.mu.re - a.mu.re : b.mu.im - a.mu.im));
-  const sel = selectRightmost(pairs, o.count);
+  const sel = selectRightmost(pairs, o.count, Math.max(1e-12 * jNorm, 1e-300));
   const kw = o.count + o.guard;
   const lastRe = sel.length > 0 ? sel[sel.length - 1].mu.re : -Infinity;
   return {
@@ -145,7 +149,8 @@ export function denseResult(J: CscMatrix, o: { count: number; guard: number; mas
     factorisations: 0,
     restarts: 0,
     shifts: [],
-    warmStart: makeWarmStart(pairs.slice(0, kw), n, 0),
+    warmStart: makeWarmStart(pairs.slice(0, Math.max(kw, sel.length)), n, 0),
     method: 'dense',
+    ...(o.certifyAbove !== undefined ? { rightOf: { line: o.certifyAbove, values: values.filter((v) => v.re >= o.certifyAbove!).sort((a, b) => b.re - a.re || b.im - a.im), certified: true } } : {}),
   };
 }

@@ -46,36 +46,79 @@ export function negated(x: Float64Array): Float64Array {
   return y;
 }
 
-/** Largest number of (nearly) equal eigenvalues in the list (conjugates count apart). */
-export function multiplicity(values: { re: number; im: number }[], floor: number): number {
+/**
+ * Eigenvalues closer than this, relative to their modulus (plus an absolute floor), count as
+ * equal: one cluster, listed whole. Multiple eigenvalues of symmetric grids come out of a Krylov
+ * search equal to ~1e-10; distinct eigenvalues this close are listed together too, which is
+ * harmless.
+ */
+export const CLUSTER_TOLERANCE = 1e-6;
+
+/** Whether a and b belong to one cluster (see CLUSTER_TOLERANCE). */
+export function sameCluster(a: Complex, b: Complex, floor: number): boolean {
+  return cabs(a.re - b.re, a.im - b.im) <= CLUSTER_TOLERANCE * (Math.max(cabs(a.re, a.im), cabs(b.re, b.im)) + floor);
+}
+
+/** Largest number of equal eigenvalues in the list (conjugates count apart). */
+export function multiplicity(values: Complex[], floor: number): number {
   let best = 1;
-  for (let i = 0; i < values.length; i++) {
+  for (const a of values) {
     let c = 0;
-    for (let j = 0; j < values.length; j++) {
-      const a = values[i];
-      const b = values[j];
-      if (cabs(a.re - b.re, a.im - b.im) <= 1e-6 * (cabs(a.re, a.im) + floor)) c++;
-    }
+    for (const b of values) if (sameCluster(a, b, floor)) c++;
     best = Math.max(best, c);
   }
   return best;
 }
 
-/** The `count` rightmost of a sorted list, extended by one so that no conjugate pair is split. */
-export function selectRightmost<T extends { mu: Complex }>(sorted: T[], count: number): T[] {
+/**
+ * The `count` rightmost of a sorted list, extended so that neither a conjugate pair nor a
+ * cluster of equal eigenvalues is split at the count-th place.
+ */
+export function selectRightmost<T extends { mu: Complex }>(sorted: T[], count: number, floor: number): T[] {
   const out = sorted.slice(0, count);
-  if (out.length === count && count < sorted.length) {
-    const last = out[count - 1].mu;
-    const next = sorted[count].mu;
-    if (last.im !== 0 && next.im === -last.im && next.re === last.re) out.push(sorted[count]);
-    else if (last.im !== 0) {
-      // find the conjugate of the last one if it is not already included
-      const hasConj = out.some((v) => v.mu.re === last.re && v.mu.im === -last.im);
-      if (!hasConj) {
-        const c = sorted.find((v) => v.mu.re === last.re && v.mu.im === -last.im);
-        if (c) out.push(c);
+  if (out.length < count || count >= sorted.length) return out;
+  const ref = out[count - 1].mu;
+  const conj = { re: ref.re, im: -ref.im };
+  const reach = CLUSTER_TOLERANCE * (cabs(ref.re, ref.im) + floor);
+  for (let i = count; i < sorted.length && sorted[i].mu.re >= ref.re - 2 * reach; i++) {
+    const v = sorted[i].mu;
+    if (sameCluster(v, ref, floor) || (ref.im !== 0 && sameCluster(v, conj, floor))) out.push(sorted[i]);
+  }
+  return out;
+}
+
+/**
+ * The real part down to which a search must be certified for the list `sel` (rightmost first)
+ * to be complete: below its last value by the cluster tolerance, so that a missing member of
+ * the cluster at its end would lie inside the certified region.
+ */
+export function listFloor(sel: { mu: Complex }[], floor: number): number {
+  let low = Infinity;
+  let size = 0;
+  for (const k of sel) {
+    low = Math.min(low, k.mu.re);
+    size = Math.max(size, cabs(k.mu.re, k.mu.im));
+  }
+  return low - 2 * CLUSTER_TOLERANCE * (size + floor);
+}
+
+/** Groups of equal eigenvalues (sameCluster with the group's first member) in a sorted list. */
+export function clusters<T extends { mu: Complex }>(sorted: T[], floor: number): T[][] {
+  const out: T[][] = [];
+  const used = new Set<number>();
+  for (let i = 0; i < sorted.length; i++) {
+    if (used.has(i)) continue;
+    const group = [sorted[i]];
+    used.add(i);
+    for (let j = i + 1; j < sorted.length; j++) {
+      if (used.has(j)) continue;
+      if (sorted[j].mu.re < sorted[i].mu.re - 2 * CLUSTER_TOLERANCE * (cabs(sorted[i].mu.re, sorted[i].mu.im) + floor)) break;
+      if (sameCluster(sorted[j].mu, sorted[i].mu, floor)) {
+        group.push(sorted[j]);
+        used.add(j);
       }
     }
+    out.push(group);
   }
   return out;
 }

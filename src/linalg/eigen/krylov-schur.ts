@@ -18,7 +18,7 @@
  * relation, x ← T x / θ = x + F (B y)/θ (Ericsson & Ruhe 1980; Meerbergen & Spence 1997), at no
  * solve, which removes the components along the infinite eigenvalues.
  */
-import { blockEigenvalue, orderSchur, realSchur, schurBlocks, schurEigenvector, type Complex } from '../schur.js';
+import { blockEigenvalue, orderSchur, realSchur, schurBlocks, schurEigenvector, splitNearlyReal, type Complex } from '../schur.js';
 import { axpy, dot, norm2, scaleInPlace } from '../vector.js';
 import type { ShiftOperator } from './transform.js';
 
@@ -47,6 +47,15 @@ export function makeRandom(seed: number): () => number {
     return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
   };
 }
+
+/**
+ * A pair whose imaginary part is below this fraction of its modulus is two equal real
+ * eigenvalues (a double eigenvalue the Schur standardisation left as a pair): it is split, so
+ * that no complex pair that is not there is reported. For Ritz values the threshold is at least
+ * ten times the convergence tolerance, since a double eigenvalue seen through a Krylov space
+ * converged to tol can split into a pair of about that size.
+ */
+export const REAL_PAIR = 1e-10;
 
 export interface RitzBlock {
   start: number;
@@ -149,16 +158,17 @@ export class KrylovSchur {
     }
   }
 
-  /** Ordered real Schur form of S with Ritz residual estimates. */
-  schur(priority: (theta: Complex) => number): SchurState {
+  /** Ordered real Schur form of S with Ritz residual estimates; pairs with |Im θ| ≤ realPair·|θ| split as two reals. */
+  schur(priority: (theta: Complex) => number, realPair = REAL_PAIR): SchurState {
     const d = this.dim;
     const A = new Float64Array(d * d);
     for (let i = 0; i < d; i++) for (let j = 0; j < d; j++) A[i * d + j] = this.S[i][j];
-    const { T, Z } = realSchur(A, d);
+    const { T, Z, converged } = realSchur(A, d);
+    splitNearlyReal(T, Z, d, realPair);
     orderSchur(T, Z, d, priority);
     const blocks: RitzBlock[] = [];
     for (const bl of schurBlocks(T, d)) {
-      const ev = schurEigenvector(T, d, bl.start, bl.size);
+      const ev = schurEigenvector(T, d, bl.start, bl.size, realPair);
       const yr = new Float64Array(d);
       const yi = new Float64Array(d);
       for (let i = 0; i < d; i++) {
@@ -181,7 +191,8 @@ export class KrylovSchur {
         }
         res2 += cr * cr + ci * ci;
       }
-      blocks.push({ start: bl.start, size: bl.size, theta: blockEigenvalue(T, d, bl.start, bl.size), residual: Math.sqrt(res2), yr, yi });
+      // an unreduced Schur form (the QR iteration gave up) proves nothing: no block has converged
+      blocks.push({ start: bl.start, size: bl.size, theta: blockEigenvalue(T, d, bl.start, bl.size), residual: converged ? Math.sqrt(res2) : Infinity, yr, yi });
     }
     return { d, T, Z, blocks };
   }

@@ -21,7 +21,7 @@
  */
 import type { Complex } from '../schur.js';
 import type { SearchDisc } from './types.js';
-import { type KrylovSchur, type RitzBlock, type SchurState } from './krylov-schur.js';
+import { type KrylovSchur, REAL_PAIR, type RitzBlock, type SchurState } from './krylov-schur.js';
 import { type ShiftOperator, apolloniusDisc, applyShiftInvert, cabs } from './transform.js';
 
 export interface FoundValue {
@@ -171,7 +171,7 @@ export function runSearch(ks: KrylovSchur, spec: SearchSpec, counters: { restart
       ks.expand(spec.op);
       st = null;
       if (ks.dim >= spec.minDim && ks.dim >= spec.wanted + 1) {
-        st = ks.schur(pr);
+        st = ks.schur(pr, Math.max(REAL_PAIR, 10 * spec.tolerance));
         nb = wantedBlockCount(st, spec, sigma);
         if (st.blocks.slice(0, requiredBlockCount(st, spec, sigma)).every((b) => blockConverged(b, spec.tolerance))) {
           converged = true;
@@ -181,7 +181,7 @@ export function runSearch(ks: KrylovSchur, spec: SearchSpec, counters: { restart
     }
     if (converged) break;
     if (!st) {
-      st = ks.schur(pr);
+      st = ks.schur(pr, Math.max(REAL_PAIR, 10 * spec.tolerance));
       nb = wantedBlockCount(st, spec, sigma);
     }
     if (st.blocks.slice(0, requiredBlockCount(st, spec, sigma)).every((b) => blockConverged(b, spec.tolerance)) && ks.dim >= spec.minDim) {
@@ -217,21 +217,25 @@ export function runSearch(ks: KrylovSchur, spec: SearchSpec, counters: { restart
     const a = cabs(b.theta.re, b.theta.im);
     const est = a > 0 ? b.residual / a : Infinity;
     values.push({ mu, xr: re, xi: im, estimate: est, converged: conv });
-    if (b.size === 2) {
+    if (b.size === 2 && mu.im !== 0) {
       const nim = new Float64Array(im.length);
       for (let k = 0; k < im.length; k++) nim[k] = -im[k];
       values.push({ mu: { re: mu.re, im: -mu.im }, xr: re, xi: nim, estimate: est, converged: conv });
     }
   }
-  // claim: the longest converged prefix (in priority order) of the claimable group
+  // claim: the longest converged prefix (in priority order) of the claimable group — only when
+  // the space holds Ritz values beyond it (a space whose every Ritz value converged inside the
+  // region has seen nothing past it, and vouches for nothing there)
   let disc: SearchDisc | null = null;
   if (spec.mode === 'nearest') {
     let last: RitzBlock | null = null;
+    let run = 0;
     for (const b of state.blocks) {
       if (!blockConverged(b, spec.tolerance)) break;
       last = b;
+      run++;
     }
-    if (last) {
+    if (last && run < state.blocks.length) {
       disc = { transform: 'shift-invert', shift: sigma, pole: null, center: sigma, radius: 1 / cabs(last.theta.re, last.theta.im) };
     }
   } else {
@@ -247,14 +251,17 @@ export function runSearch(ks: KrylovSchur, spec: SearchSpec, counters: { restart
       g += b.size;
       if (!blockConverged(b, spec.tolerance)) whole = false;
     }
-    if (whole && g > spec.maxWanted) whole = false;
+    if (whole && (g > spec.maxWanted || g >= state.d)) whole = false;
     if (whole && converged) rho = 1 + spec.eta;
     else {
+      let run = 0;
       for (const b of state.blocks) {
         const c = cabs(1 + w * b.theta.re, w * b.theta.im);
         if (c < 1 + spec.eta || !blockConverged(b, spec.tolerance)) break;
         rho = Math.min(rho, c);
+        run++;
       }
+      if (run === state.blocks.length) rho = Infinity;
     }
     if (Number.isFinite(rho) && rho > 1) {
       const ad = apolloniusDisc(sigma, spec.tau, rho);

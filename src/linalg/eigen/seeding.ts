@@ -4,8 +4,8 @@
  *
  * Warm start: the orthonormal basis of the previous eigenvectors (a Schur basis of the wanted
  * invariant subspace) seeds the Krylov decomposition; with a multiple eigenvalue in it, as many
- * seed vectors as its multiplicity. After convergence, a previous direction missing from the
- * new subspace is injected and the search continued (`injectMissing`).
+ * seed vectors as its multiplicity. After convergence, a previous
+ * direction missing from the new subspace is injected and the search continued (`injectMissing`).
  *
  * Locking: for a new shift, the eigenpairs found so far enter as an invariant basis Q with
  * T Q = Q (S_μ − σI)⁻¹ (J Q = M Q S_μ by least squares), and a fresh vector explores the rest.
@@ -14,7 +14,7 @@
  * applications of T: Nour-Omid, Parlett, Ericsson & Jensen 1987; two because constraint and
  * phase-condition rows give index-2 infinite eigenvalues).
  */
-import { Matrix, inverse } from 'ml-matrix';
+import { EigenvalueDecomposition, Matrix, inverse } from 'ml-matrix';
 import { type CscMatrix, matVec } from '../sparse.js';
 import { axpy, dot, norm2, scaleInPlace } from '../vector.js';
 import type { KrylovSchur } from './krylov-schur.js';
@@ -27,18 +27,52 @@ export type Purify = (v: Float64Array) => Float64Array;
 
 /**
  * Seed `ks` from a warm start: random combinations of its basis, as many as the largest
- * multiplicity among its values (at most 3). Returns the basis (for `injectMissing`).
+ * multiplicity among its values (a block Krylov space of width b holds at most b copies of an
+ * eigenvalue: multiplicity.ts). Returns the basis (for `injectMissing`) and the block width.
  */
-export function seedFromWarm(ks: KrylovSchur, w: EigenWarmStart, purify: Purify, random: () => number, floor: number): Float64Array[] {
+export function seedFromWarm(ks: KrylovSchur, w: EigenWarmStart, purify: Purify, random: () => number, floor: number, maxWidth: number): { Q: Float64Array[]; width: number } {
   const n = ks.n;
   const Q = w.vectors.map((v) => Float64Array.from(v));
-  const blocks = Math.min(3, Q.length, Math.max(1, multiplicity(w.values, floor)));
+  const blocks = Math.max(1, Math.min(Q.length, multiplicity(w.values, floor), maxWidth));
   for (let b = 0; b < blocks; b++) {
     const v = new Float64Array(n);
     for (const q of Q) axpy(v, 0.5 + random(), q);
     if (!ks.inject(purify(v))) ks.inject(purify(ks.randomVector()));
   }
-  return Q;
+  return { Q, width: blocks };
+}
+
+/**
+ * The warm start's eigenvalues moved to the new Jacobian, for planning the first shift: the
+ * Rayleigh–Ritz values of the pencil on the span of the warm vectors, (QᵀJQ) y = μ (QᵀMQ) y,
+ * matched to the warm values in order (each keeps its `verified` flag). Eigenvalues move between
+ * continuation points; planned from the old values, the first Cayley line can fall among the new
+ * ones and cost a second shift. Null when the projected pencil is singular.
+ */
+export function movedValues(w: EigenWarmStart, J: CscMatrix, mass: Float64Array | undefined): { re: number; im: number; verified?: boolean }[] | null {
+  const n = J.cols;
+  const Q = w.vectors.map((v) => Float64Array.from(v));
+  const k = Q.length;
+  if (k === 0 || k !== w.values.length) return null;
+  const JQ = Q.map((q) => matVec(J, q, new Float64Array(n)));
+  const A = Q.map((qi) => JQ.map((jq) => dot(qi, jq)));
+  const B = Q.map((qi) =>
+    Q.map((qj) => {
+      let t = 0;
+      for (let r = 0; r < n; r++) t += qi[r] * (mass ? mass[r] : 1) * qj[r];
+      return t;
+    }),
+  );
+  try {
+    const e = new EigenvalueDecomposition(inverse(new Matrix(B)).mmul(new Matrix(A)));
+    const moved = e.realEigenvalues.map((re, i) => ({ re, im: e.imaginaryEigenvalues[i] }));
+    if (moved.some((v) => !Number.isFinite(v.re) || !Number.isFinite(v.im))) return null;
+    moved.sort((a, b) => b.re - a.re || b.im - a.im);
+    const old = w.values.slice().sort((a, b) => b.re - a.re || b.im - a.im);
+    return moved.map((v, i) => ({ ...v, verified: old[i].verified }));
+  } catch {
+    return null;
+  }
 }
 
 /**
@@ -150,7 +184,7 @@ function shiftedRayleigh(S: number[][], sigma: number): number[][] | null {
 }
 
 /** The warm start for the next call: an orthonormal basis of the eigenvectors of `pairs` and their values. */
-export function makeWarmStart(pairs: KnownPair[], n: number, shift: number): EigenWarmStart {
+export function makeWarmStart(pairs: KnownPair[], n: number, shift: number, verified: (mu: KnownPair['mu']) => boolean = () => true): EigenWarmStart {
   const Q: Float64Array[] = [];
   for (const k of pairs) {
     if (k.mu.im < 0 && pairs.some((o) => o.mu.re === k.mu.re && o.mu.im === -k.mu.im)) continue;
@@ -159,7 +193,7 @@ export function makeWarmStart(pairs: KnownPair[], n: number, shift: number): Eig
   return {
     size: n,
     vectors: Q.map((q) => Array.from(q)),
-    values: pairs.map((k) => ({ re: k.mu.re, im: k.mu.im })),
+    values: pairs.map((k) => ({ re: k.mu.re, im: k.mu.im, verified: verified(k.mu) })),
     shift,
   };
 }
@@ -173,5 +207,6 @@ export function checkWarmStart(w: EigenWarmStart, n: number): void {
   }
   for (const v of w.values) {
     if (!Number.isFinite(v.re) || !Number.isFinite(v.im)) throw new RangeError('warmStart.values holds a non-finite eigenvalue');
+    if (v.verified !== undefined && typeof v.verified !== 'boolean') throw new RangeError('warmStart.values[].verified must be a boolean');
   }
 }

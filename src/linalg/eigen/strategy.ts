@@ -24,10 +24,11 @@ import type { SparseLU } from '../lu.js';
 import type { Complex } from '../schur.js';
 import type { EigenCall } from './call.js';
 import { type Enclosure, certifiedLine, reaches } from './certification.js';
-import { selectRightmost, sortRightmost } from './eigenpairs.js';
+import { CLUSTER_TOLERANCE, listFloor, selectRightmost, sortRightmost } from './eigenpairs.js';
+import { type WidthOf, completeClusters, inClaim, lockedSearch, warmWidth } from './multiplicity.js';
 import { KrylovSchur } from './krylov-schur.js';
 import { runSearch } from './search.js';
-import { injectMissing, lockedStart, seedFromWarm } from './seeding.js';
+import { injectMissing, movedValues, seedFromWarm } from './seeding.js';
 import type { ShiftOperator } from './transform.js';
 import type { EigenWarmStart } from './types.js';
 
@@ -44,7 +45,7 @@ export function searchNearest(call: EigenCall, shift: number, warm: EigenWarmSta
   const purify = call.purifier(op);
   const ks = new KrylovSchur(call.n, call.setup.random);
   let Q: Float64Array[] = [];
-  if (warm) Q = seedFromWarm(ks, warm, purify, call.setup.random, call.floor);
+  if (warm) Q = seedFromWarm(ks, warm, purify, call.setup.random, call.floor, call.maxWanted).Q;
   else ks.inject(purify(ks.randomVector()));
   const spec = call.spec(op, 'nearest', 0, 0, call.kw + 2);
   let out = runSearch(ks, spec, call.counters);
@@ -59,57 +60,59 @@ export function searchNearest(call: EigenCall, shift: number, warm: EigenWarmSta
 
 /** Transform 'cayley': the rightmost eigenvalues, with extra shifts until the enclosure is covered. */
 export function searchRightmost(call: EigenCall, o: { count: number; shift: number; maxShifts: number }, warm: EigenWarmStart | null, factored: Factored, enclosure: Enclosure, Y: number): void {
-  const { kw, floor, m, explore, maxWanted } = call;
-  let ks: KrylovSchur;
+  const { floor, m, explore } = call;
   let first = true;
   let prevBeta = 0;
-  let Qwarm: Float64Array[] = [];
-  let knownValues: Complex[] = warm ? sortRightmost(warm.values.map((v) => ({ re: v.re, im: v.im }))) : [];
+  const moved = warm ? movedValues(warm, call.J, call.mass) ?? warm.values : [];
+  let knownValues: Complex[] = sortRightmost(moved.map((v) => ({ re: v.re, im: v.im })));
   let scaleHint = 0;
   if (knownValues.length === 0) {
     // cold start: eigenvalues nearest the shift fix the scale
     const op = operatorAt(call, o.shift, factored);
-    ks = new KrylovSchur(call.n, call.setup.random);
+    const ks = new KrylovSchur(call.n, call.setup.random);
     ks.inject(call.purifier(op)(ks.randomVector()));
-    const out = runSearch(ks, call.spec(op, 'nearest', 0, 0, kw + 2), call.counters);
+    const out = runSearch(ks, call.spec(op, 'nearest', 0, 0, call.kw + 2), call.counters);
     call.record(out, op.sigma);
     knownValues = call.known.map((k) => k.mu);
     if (out.disc) scaleHint = out.disc.radius;
     first = false;
   }
+  // coverage target: the list's last value (below its whole cluster), and the line to certify
+  const target = () => {
+    const sel = selectRightmost(call.known, call.effectiveCount(call.known.map((k) => k.mu)), floor);
+    return sel.length === 0 ? Infinity : Math.min(listFloor(sel, floor), call.setup.certifyAbove ?? Infinity);
+  };
   for (let shiftNo = 0; shiftNo < o.maxShifts && knownValues.length > 0; shiftNo++) {
+    const count = call.effectiveCount(knownValues);
+    const wanted = count + call.setup.guard;
     const R = Math.max(enclosure.realMax, knownValues[0].re);
-    const spread = Math.max(knownValues[0].re - knownValues[Math.min(kw, knownValues.length) - 1].re, scaleHint, 1e-3 * Math.max(Math.abs(knownValues[0].re), floor), floor);
+    const spread = Math.max(knownValues[0].re - knownValues[Math.min(wanted, knownValues.length) - 1].re, scaleHint, 1e-3 * Math.max(Math.abs(knownValues[0].re), floor), floor);
     const capBeta = (shiftNo === 0 ? 32 : 2048) * spread;
-    let plan = planCayley(knownValues, o.count, kw, R, Y, scaleHint, floor, shiftNo === 0 ? 0 : 2 * prevBeta, capBeta);
+    let plan = planCayley(knownValues, count, wanted, R, Y, scaleHint, floor, shiftNo === 0 ? 0 : 2 * prevBeta, capBeta);
     const op = first && factored && factored.shift > plan.alpha + 4 * plan.delta ? call.external(factored) : call.operator(plan.sigma);
     const purify = call.purifier(op);
     plan = withSigma(plan, op.sigma);
     prevBeta = plan.beta;
-    ks = new KrylovSchur(call.n, call.setup.random);
-    let minDim: number;
-    const useWarm = first && warm !== null;
-    if (useWarm) {
-      Qwarm = seedFromWarm(ks, warm!, purify, call.setup.random, floor);
-      minDim = kw + 2;
+    const spec = (minDim: number, required = count) => call.spec(op, 'cayley', plan.tau, plan.eta, minDim, Math.max(required, count));
+    const maxKeep = spec(0).maxWanted;
+    // the search: from the warm start, or with everything found so far locked in
+    let widthOf: WidthOf;
+    if (first && warm !== null) {
+      const ks = new KrylovSchur(call.n, call.setup.random);
+      const seeded = seedFromWarm(ks, warm, purify, call.setup.random, floor, maxKeep);
+      let out = runSearch(ks, spec(wanted + 2), call.counters);
+      if (out.converged && injectMissing(ks, seeded.Q, purify)) {
+        out = runSearch(ks, spec(Math.min(ks.dim + explore, m + explore)), call.counters);
+      }
+      call.record(out, op.sigma);
+      widthOf = inClaim(out.disc, warmWidth(call, moved, seeded.width));
     } else {
-      const keep = call.known.filter((k) => k.mu.re > plan.alpha).slice(0, maxWanted);
-      const d0 = lockedStart(ks, op.sigma, keep, call.J, call.mass, purify);
-      minDim = Math.min(d0 + explore, m + explore);
+      widthOf = lockedSearch(call, op, plan.alpha, maxKeep, purify, spec);
     }
-    const spec = call.spec(op, 'cayley', plan.tau, plan.eta, minDim);
-    let out = runSearch(ks, spec, call.counters);
-    if (useWarm && out.converged && injectMissing(ks, Qwarm, purify)) {
-      out = runSearch(ks, { ...spec, minDim: Math.min(ks.dim + explore, m + explore) }, call.counters);
-    }
-    call.record(out, op.sigma);
+    completeClusters(call, op, plan.alpha, maxKeep, purify, spec, widthOf, target);
     first = false;
     knownValues = call.known.map((k) => k.mu);
-    // coverage
-    const sel = selectRightmost(call.known, o.count);
-    if (sel.length === 0) continue;
-    const last = sel[sel.length - 1].mu.re;
-    if (reaches(certifiedLine(call.discs, Math.max(enclosure.realMax, knownValues[0].re), Y), last)) break;
+    if (reaches(certifiedLine(call.discs, Math.max(enclosure.realMax, knownValues[0].re), Y), target())) break;
     if (plan.beta >= capBeta * 0.999 && shiftNo > 0) break;
   }
 }
@@ -144,8 +147,9 @@ function planCayley(known: Complex[], count: number, wantedCount: number, R: num
   const L = known[Math.min(wantedCount, known.length) - 1].re;
   const s = Math.max(rho1 - L, scaleHint, 1e-3 * Math.max(Math.abs(rho1), Math.abs(L)), floor);
   let next: number | undefined;
+  const reach = 2 * CLUSTER_TOLERANCE * (Math.hypot(known[ki].re, known[ki].im) + floor);
   for (let i = ki + 1; i < known.length; i++) {
-    if (known[i].re < rk) {
+    if (known[i].re < rk - reach) {
       next = known[i].re;
       break;
     }
@@ -184,6 +188,15 @@ function planCayley(known: Complex[], count: number, wantedCount: number, R: num
   const betaCov = Math.sqrt(Math.max(0, delta * (needed - alpha)));
   let beta = Math.max(betaMin, betaCov, minBeta);
   beta = Math.min(beta, Math.max(capBeta, betaMin));
-  const sigma = alpha + beta;
+  // keep σ clear of the known eigenvalues (moving it right only widens the claimed disc): an
+  // eigenvalue next to σ, above all a multiple one, would fill the Krylov space by itself
+  let sigma = alpha + beta;
+  const clearance = 0.05 * s;
+  for (let pass = 0; pass <= known.length; pass++) {
+    const near = known.find((k) => Math.hypot(k.re - sigma, k.im) < clearance);
+    if (!near) break;
+    sigma = near.re + Math.sqrt(clearance * clearance - near.im * near.im) * (1 + 1e-9);
+  }
+  beta = sigma - alpha;
   return { sigma, tau: alpha - beta, alpha, beta, eta: (2 * delta) / (beta - delta), delta };
 }

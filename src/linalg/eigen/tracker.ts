@@ -24,7 +24,7 @@ import type { ComputeExtras, EigenOptions, EigenWarmStart, RightmostOptions, Rig
  */
 export class EigenTracker {
   readonly n: number;
-  private readonly options: Required<Omit<EigenOptions, 'mass' | 'imaginaryReach' | 'lu'>> & Pick<EigenOptions, 'mass' | 'imaginaryReach' | 'lu'>;
+  private readonly options: Required<Omit<EigenOptions, 'mass' | 'imaginaryReach' | 'lu' | 'certifyAbove'>> & Pick<EigenOptions, 'mass' | 'imaginaryReach' | 'lu' | 'certifyAbove'>;
   private readonly pattern: CscPattern;
   private readonly shiftedPattern: CscPattern;
   private readonly embed: Int32Array;
@@ -54,6 +54,9 @@ export class EigenTracker {
     const kw = options.count + guard;
     const basis = options.basisSize ?? Math.max(20, 2 * kw + 4);
     if (!Number.isInteger(basis) || basis < kw + 3) throw new RangeError(`basisSize must be an integer ≥ count + guard + 3 = ${kw + 3}, got ${basis}`);
+    if (options.certifyAbove !== undefined && !Number.isFinite(options.certifyAbove)) {
+      throw new RangeError(`certifyAbove must be a finite number, got ${options.certifyAbove}`);
+    }
     if (options.imaginaryReach !== undefined && !(options.imaginaryReach >= 0)) {
       throw new RangeError(`imaginaryReach must be ≥ 0, got ${options.imaginaryReach}`);
     }
@@ -68,6 +71,7 @@ export class EigenTracker {
       imaginaryReach: options.imaginaryReach,
       maxShifts: options.maxShifts ?? 3,
       guard,
+      certifyAbove: options.certifyAbove,
       seed: options.seed ?? 20240917,
       lu: options.lu,
     };

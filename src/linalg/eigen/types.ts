@@ -21,8 +21,11 @@ export interface EigenWarmStart {
   size: number;
   /** Orthonormal basis of the invariant subspace of the eigenvalues below (each length `size`). */
   vectors: number[][];
-  /** The eigenvalues found at the previous point (count + guard of them), rightmost first. */
-  values: { re: number; im: number }[];
+  /**
+   * The eigenvalues found at the previous point (count + guard of them), rightmost first;
+   * `verified`: the copies of its cluster of equal eigenvalues were shown complete.
+   */
+  values: { re: number; im: number; verified?: boolean }[];
   /** Last shift used. */
   shift: number;
 }
@@ -67,10 +70,24 @@ export interface RightmostResult {
   warmStart: EigenWarmStart;
   /** 'krylov' normally; 'dense' for problems too small for a Krylov basis. */
   method: 'krylov' | 'dense';
+  /** With `certifyAbove`: every eigenvalue found with real part ≥ the line (however many), and whether that list is certified complete. */
+  rightOf?: RightOfLine;
+}
+
+/** The eigenvalues right of a line Re μ = line, found and (when `certified`) proved to be all there are. */
+export interface RightOfLine {
+  line: number;
+  /** Every eigenvalue found with real part ≥ line, rightmost first (may be more than `count`). */
+  values: { re: number; im: number }[];
+  /** Every eigenvalue with real part ≥ line is among `values` (converged searches, a rigorous enclosure, covered discs). */
+  certified: boolean;
 }
 
 export interface EigenOptions {
-  /** How many rightmost eigenvalues are wanted (k). */
+  /**
+   * How many rightmost eigenvalues are wanted (k). Where the k-th belongs to a cluster of equal
+   * eigenvalues (relative 1e-6) the whole cluster is returned, as a conjugate pair is never split.
+   */
   count: number;
   /** Diagonal of M (undefined = identity); zeros mark algebraic unknowns. */
   mass?: Float64Array;
@@ -90,6 +107,12 @@ export interface EigenOptions {
   maxShifts?: number;
   /** Extra eigenvalues computed beyond `count` (they sharpen the searched region); default max(2, ⌈count/3⌉). */
   guard?: number;
+  /**
+   * Also find every eigenvalue with real part ≥ this line, however many there are, and certify
+   * that none is missing (`RightmostResult.rightOf`); stability analysis passes 0. The search
+   * then goes on past `count` values until its certified region reaches the line.
+   */
+  certifyAbove?: number;
   /** Seed of the pseudo-random start vectors (results are deterministic for a given seed). */
   seed?: number;
   /** Options for the sparse LU of J − σM. */
