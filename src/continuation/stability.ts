@@ -29,7 +29,7 @@ export class StabilityAnalyser {
   ) {
     const problem = sys.problem;
     const pattern = problem.pattern();
-    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal });
+    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal, certifyAbove: 0 });
     this.values = new Float64Array(pattern.colPtr[pattern.cols]);
   }
 
@@ -53,7 +53,7 @@ export class StabilityAnalyser {
     let tracker = this.tracker;
     if (precise) {
       const problem = this.sys.problem;
-      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE });
+      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE, certifyAbove: 0 });
       tracker = this.precise;
     }
     const r = tracker.compute(this.values, { warmStart: warm });
@@ -80,20 +80,26 @@ function spectralScale(values: readonly { re: number; im: number }[]): number {
   return m;
 }
 
+/**
+ * Stability of a point from its eigenvalue search. The unstable count is the number of
+ * eigenvalues with positive real part found right of the imaginary axis (all of them, also
+ * beyond `count`: the tracker certifies Re μ ≥ 0); `complete` says that list is certified
+ * complete, and only then is a point with no unstable eigenvalue called stable.
+ */
 export function summarise(r: RightmostResult, count: number): PointStability {
   const vals = r.values;
-  const scale = spectralScale(vals);
+  const right = r.rightOf?.values ?? vals;
+  const scale = spectralScale([...vals, ...right]);
   let unstable = 0;
   let unstableComplex = 0;
-  for (const v of vals) {
+  for (const v of right) {
     if (v.re > 0) {
       unstable++;
       if (Math.abs(v.im) > REAL_TOLERANCE * scale) unstableComplex++;
     }
   }
   const lead = vals[0] ?? { re: NaN, im: NaN };
-  const certified = r.searchedRegion.certifiedAbove;
-  const complete = r.converged && certified !== null && certified <= 0;
+  const complete = r.rightOf ? r.rightOf.certified : r.converged && r.searchedRegion.certifiedAbove !== null && r.searchedRegion.certifiedAbove <= 0;
   let stable: boolean | null;
   if (lead.re > 0) stable = false;
   else if (complete) stable = true;
