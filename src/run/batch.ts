@@ -13,17 +13,19 @@
  * No argument parsing and no process.exit here: the `run` and `resume` commands call these.
  */
 import { type ChildProcess, fork } from 'node:child_process';
-import { existsSync, readFileSync, readdirSync, statSync, statfsSync } from 'node:fs';
-import { hostname, totalmem } from 'node:os';
+import { existsSync, statSync, statfsSync } from 'node:fs';
+import { totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
 import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
 import { CheckpointError, Checkpointer, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
+import { folderWriteProblem } from './folders.js';
+import { FolderLock, holderText, lockHolder } from './lock.js';
 import type { ProgressView } from './progress.js';
 import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
-import { runFormat } from './run-directory.js';
+import { newRunProblem, readRunRecord } from './run-directory.js';
 import { writeJsonAtomic } from './writers.js';
 
 /** A case ready to run: checked, its problem built, its output folder decided. */
@@ -51,40 +53,17 @@ export interface CaseOutcome {
 // ---------------------------------------------------------------------------------------------
 // Checking before anything runs
 
-/** Why `path` cannot take a new run (undefined when it can); the policy of RunDirectory.create, read-only. */
+/**
+ * Why `path` cannot take a new run (undefined when it can), read-only: a folder that cannot be
+ * written (read-only, no permission, a dangling link), a live writer holding it, or the policy of
+ * RunDirectory.create on non-empty folders.
+ */
 export function outputFolderProblem(path: string, force: boolean): string | undefined {
-  if (!existsSync(path)) return undefined;
-  if (!statSync(path).isDirectory()) return `output folder ${path} exists and is a file, not a folder`;
-  const entries = readdirSync(path);
-  if (entries.length === 0) return undefined;
-  const ours = isRunDirectory(path);
-  if (!force) return `output folder ${path} is not empty (${ours ? 'it holds an earlier run' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier run`;
-  if (!ours) return `output folder ${path} is not empty and holds no earlier branchline run; --force replaces only an earlier run, choose another folder with --out`;
-  const writer = liveWriter(path);
-  if (writer !== undefined) return `output folder ${path} holds a run that is still going (process ${writer} on this machine); stop it first, or choose another folder with --out`;
-  return undefined;
-}
-
-/** The pid of a live process on this machine that run.json names as the run's writer, if any. */
-function liveWriter(dir: string): number | undefined {
-  const run = readRunJson(dir);
-  if (run?.status !== 'running') return undefined;
-  const proc = run.process as { pid?: unknown; host?: unknown } | undefined;
-  const pid = typeof proc?.pid === 'number' ? proc.pid : undefined;
-  return pid !== undefined && proc?.host === hostname() && pid !== process.pid && processAlive(pid) ? pid : undefined;
-}
-
-function readRunJson(dir: string): Record<string, unknown> | undefined {
-  try {
-    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
-    return doc && doc.format === runFormat ? doc : undefined;
-  } catch {
-    return undefined;
-  }
-}
-
-function isRunDirectory(dir: string): boolean {
-  return readRunJson(dir) !== undefined;
+  const write = folderWriteProblem(path);
+  if (write) return write;
+  const holder = lockHolder(path);
+  if (holder) return `output folder ${path} is being written by ${holderText(holder.writer, holder.liveness)}; wait for it to end or stop it, or choose another folder with --out`;
+  return newRunProblem(path, force);
 }
 
 /**
@@ -215,6 +194,8 @@ export interface SessionOptions {
   /** Name shown in progress and log lines. */
   name: string;
   resume?: ResumePlan;
+  /** The folder's lock when the caller holds it (resume); otherwise runCase takes it. */
+  lock?: FolderLock;
 }
 
 /** Run (or resume) one case here, with checkpoints and progress. */
@@ -230,6 +211,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       log: (level, message) => o.view.log(o.name, level, message),
       progress: (p: ProgressInfo) => o.view.update(o.name, p),
       checkpoint: checkpointer.hook,
+      ...(o.lock ? { lock: o.lock } : {}),
       ...(c
         ? {
             resume: {
@@ -264,32 +246,35 @@ export function outcomeOf(target: { prepared: PreparedCase; outDir: string }, re
 // ---------------------------------------------------------------------------------------------
 // Resuming
 
-function processAlive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch (e) {
-    return (e as NodeJS.ErrnoException).code === 'EPERM';
-  }
-}
-
 /**
- * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
- * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
- * problem that matches the saved state. InputError (one line) otherwise.
+ * Everything `resume DIR` needs, checked: the run directory is ours and not finished, the folder
+ * can be written, its lock is taken (no other process writes it: a live writer makes this refuse;
+ * one on another host is taken over only with `force`), a usable checkpoint exists, and its case
+ * builds a problem that matches the saved state. InputError (one line) otherwise, with the lock
+ * released. The caller releases `lock` when the resumed run has ended.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
-  const run = readRunJson(dir);
+  if (!readRunRecord(dir)) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
+  const problem = folderWriteProblem(dir, 'run folder');
+  if (problem) throw new InputError(problem);
+  // from here on no other process can start writing the folder: what is read below stays true
+  const lock = FolderLock.acquire(dir, { purpose: 'resume', takeOverForeign: options.force === true, label: dirGiven });
+  try {
+    return { ...(await checkResumable(dir, dirGiven)), lock };
+  } catch (e) {
+    lock.release();
+    throw e;
+  }
+}
+
+async function checkResumable(dir: string, dirGiven: string): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  const run = readRunRecord(dir);
   if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
   const status = String(run.status);
   if (status === 'finished') throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
-  const pid = liveWriter(dir);
-  if (pid !== undefined && !options.force) {
-    throw new InputError(`${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`);
-  }
   let found;
   try {
     found = readCheckpoint(dir);
@@ -337,10 +322,19 @@ export interface BatchOptions {
 }
 
 const workers = new Set<ChildProcess>();
+/** Set when the call leaves at once: the reason recorded in the runs of the workers it ends. */
+let leavingAtOnce: string | undefined;
 
-/** End every worker at once (a second Ctrl-C): their runs resume from their last checkpoints. */
-export function killWorkers(): void {
+/**
+ * End every worker at once (a second Ctrl-C): their runs resume from their last checkpoints.
+ * Resolves when they are gone and their run.json files say `stopped` with `reason` (at most a
+ * few seconds).
+ */
+export async function killWorkers(reason: string): Promise<void> {
+  leavingAtOnce = reason;
+  const gone = [...workers].map((w) => new Promise<void>((done) => (w.exitCode !== null || w.signalCode !== null ? done() : w.once('exit', () => setImmediate(done)))));
   for (const w of workers) w.kill('SIGKILL');
+  await Promise.race([Promise.all(gone), new Promise((r) => setTimeout(r, 3000).unref())]);
 }
 
 /** Run the targets one after another here (jobs 1 or a single case), or in worker processes. */
@@ -442,10 +436,22 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
  * (`failed`, with the reason). The run's checkpoint stays, so `resume` can continue it.
  */
 function markAbandoned(dir: string, reason: string): void {
-  const run = readRunJson(dir);
-  if (!run || run.status !== 'running') return;
-  const { process: _gone, ...rest } = run;
-  writeJsonAtomic(join(dir, 'run.json'), { ...rest, status: 'failed', failure: reason, ended: new Date().toISOString() });
+  // under the folder's lock (the dead worker's is stale): a resume that already took the folder over is left alone
+  let lock: FolderLock;
+  try {
+    lock = FolderLock.acquire(dir, { purpose: 'recording a worker that ended' });
+  } catch {
+    return;
+  }
+  try {
+    const run = readRunRecord(dir);
+    if (!run || run.status !== 'running') return;
+    const { process: _gone, ...rest } = run;
+    const doc = leavingAtOnce ? { ...rest, status: 'stopped', note: leavingAtOnce } : { ...rest, status: 'failed', failure: reason };
+    writeJsonAtomic(join(dir, 'run.json'), { ...doc, ended: new Date().toISOString() });
+  } finally {
+    lock.release();
+  }
 }
 
 /** The compiled worker entry (dist/ when running from the TypeScript sources, e.g. in tests). */

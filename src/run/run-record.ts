@@ -6,9 +6,10 @@
  * `status` is `running` from the first write until the run ends, then `finished`, `stopped` or
  * `failed` (with `failure`); while it is `running`, `process` names the writer.
  */
-import { hostname } from 'node:os';
 import type { PreparedCase } from './case.js';
 import { caseDocument } from './case.js';
+import { selfIdentity } from './lock.js';
+import type { Manifest } from './manifest.js';
 import type { CheckpointWritten } from './run-hooks.js';
 import { type ColumnPlan, type RunDirectory, type RunLedger, type RunStatus, runFormat, runFormatVersion } from './run-directory.js';
 import { softwareVersion } from './version.js';
@@ -26,11 +27,14 @@ export class RunRecord {
   continuationSeconds = 0;
   /** When run.json was last written (ms). */
   lastWritten = 0;
+  /** A remark on how the run ended (e.g. left at once), recorded as `note`. */
+  note: string | undefined;
 
   constructor(
     private readonly prepared: PreparedCase,
     private readonly plan: ColumnPlan,
     private readonly ledger: RunLedger,
+    private readonly manifest: Manifest,
     readonly times: {
       /** Date.now() when this session began. */
       t0: number;
@@ -60,12 +64,13 @@ export class RunRecord {
       software: { ...softwareVersion(), node: process.version },
       status,
       ...(failure !== undefined ? { failure } : {}),
+      ...(this.note !== undefined ? { note: this.note } : {}),
       'case-file': prepared.file ?? null,
       started,
       ended: status === 'running' ? null : isoNow(),
       ...(resumes.length ? { resumed: resumes } : {}),
-      // who writes this run while it goes (resume refuses to start a second writer)
-      ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
+      // who writes this run while it goes (the folder's lock, writer.lock, holds the same identity)
+      ...(status === 'running' ? { process: { ...selfIdentity() } } : {}),
       ...(this.lastCheckpoint && status !== 'finished' ? { checkpoint: { ...this.lastCheckpoint } } : {}),
       problem: {
         model: description.model,
@@ -105,6 +110,8 @@ export class RunRecord {
       ...(ledger.warnings.length ? { warnings: ledger.warnings } : {}),
       ...(prepared.caution ? { caution: prepared.caution } : {}),
       case: caseDocument(prepared.case),
+      // every file the run wrote (or is about to write): what --force and resume may remove
+      files: this.manifest.list(),
     };
   }
 

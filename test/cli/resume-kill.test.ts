@@ -16,7 +16,7 @@ import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { ensureBuilt } from './built.js';
-import { readCsv, readNpy } from '../../src/run/writers.js';
+import { expectSameFiles as expectReference } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-kill-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -83,45 +83,7 @@ async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: 
 
 const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 
-/** Every number of the branch files, points.json and the special solutions within 1e-10 of the reference's. */
-function expectSameFiles(dir: string, what: string): void {
-  const files = readdirSync(join(reference, 'branches')).sort();
-  expect(readdirSync(join(dir, 'branches')).sort(), what).toEqual(files);
-  let worst = 0;
-  const compare = (a: number, b: number, where: string): void => {
-    if (Object.is(a, b)) return;
-    const d = Math.abs(a - b) / Math.max(1, Math.abs(b));
-    if (!(d <= 1e-10)) expect.fail(`${what}: ${where}: ${a} differs from the uninterrupted run's ${b}`);
-    worst = Math.max(worst, d);
-  };
-  for (const f of files) {
-    const a = readCsv(join(dir, 'branches', f));
-    const b = readCsv(join(reference, 'branches', f));
-    expect(a.columns, `${what}: ${f}`).toEqual(b.columns);
-    expect(a.rows.length, `${what}: rows of ${f}`).toBe(b.rows.length);
-    a.rows.forEach((row, i) => row.forEach((v, j) => compare(v, b.rows[i][j], `${f} row ${i + 1} ${b.columns[j]}`)));
-  }
-  const pa = json(join(dir, 'points.json')).points as Record<string, any>[];
-  const pb = json(join(reference, 'points.json')).points as Record<string, any>[];
-  expect(pa.map((p) => [p.kind, p.branch, p.solution]), `${what}: special points`).toEqual(pb.map((p) => [p.kind, p.branch, p.solution]));
-  pa.forEach((p, i) => {
-    compare(p.value, pb[i].value, `points.json ${p.kind} on branch ${p.branch}`);
-    for (const [m, v] of Object.entries(pb[i].monitors as Record<string, number>)) compare(p.monitors[m], v, `points.json ${p.kind} ${m}`);
-    if (p.solution) {
-      const na = readNpy(join(dir, p.solution));
-      const nb = readNpy(join(reference, p.solution));
-      expect(na.shape).toEqual(nb.shape);
-      na.data.forEach((v, k) => compare(v, nb.data[k], `${p.solution}[${k}]`));
-    }
-  });
-  expect(readdirSync(join(dir, 'solutions')).sort(), `${what}: solution files`).toEqual(readdirSync(join(reference, 'solutions')).sort());
-  const run = json(join(dir, 'run.json'));
-  expect(run.status, what).toBe('finished');
-  expect(run.counts, what).toEqual(json(join(reference, 'run.json')).counts);
-  // a finished run keeps no checkpoint (nothing is left to resume)
-  expect(existsSync(join(dir, 'checkpoint.bin')), what).toBe(false);
-  expect(worst).toBeLessThanOrEqual(1e-10);
-}
+const expectSameFiles = (dir: string, what: string): void => expectReference(dir, reference, what);
 
 let totalBytes = 0;
 

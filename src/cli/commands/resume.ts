@@ -1,6 +1,8 @@
 import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
-import { outcomeOf, prepareResume, runSession } from '../../run/batch.js';
+import { type ResumePlan, outcomeOf, prepareResume, runSession } from '../../run/batch.js';
+import type { PreparedCase } from '../../run/case.js';
+import type { FolderLock } from '../../run/lock.js';
 import { InputError } from '../../run/errors.js';
 import { progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
@@ -14,7 +16,7 @@ export function registerResume(program: Command, { io, setExit }: CommandContext
     .command('resume')
     .description('continue a stopped or killed run from its last checkpoint, in its own folder')
     .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin)')
-    .option('--force', 'resume even though run.json names a live process as the run\'s writer (when that process is not branchline)')
+    .option('--force', 'take the folder over from a writer on another host that cannot be checked from here (never from a live process on this machine)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
     .addHelpText(
@@ -28,26 +30,34 @@ Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder h
 a finished run, or no usable checkpoint.`,
     )
     .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
-      const { prepared, outDir, plan } = await prepareResume(dirGiven, { force: opts.force === true });
-      const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
-      for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
-      const c = plan.checkpoint;
-      view.log(undefined, 'info', `resuming ${prepared.case.name} (was ${plan.previousStatus}) from ${plan.file} written ${c.written}: ${c.ledger.points} points on ${c.ledger.branches.length} branch${c.ledger.branches.length === 1 ? '' : 'es'}`);
-      const stop = stopOnSignals(io, () => view);
-      let result;
+      const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true });
       try {
-        result = await runSession(prepared, { outDir, signal: stop.signal, view, name: prepared.case.name, resume: plan });
-      } catch (e) {
-        // the files disagree with the checkpoint (a branch file cut short or replaced by hand)
-        if (e instanceof InputError) throw e;
-        throw new InputError(`${dirGiven}: cannot resume: ${e instanceof Error ? e.message : String(e)}`);
+        await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);
       } finally {
-        view.close();
-        stop.release();
+        lock.release();
       }
-      const outcome = outcomeOf({ prepared, outDir }, result);
-      if (opts.json) io.out(toJson(jsonSummary([outcome])));
-      else io.out(formatSummary(result, prepared) + resumeHint(outcome));
-      setExit(result.status === 'finished' ? 0 : 1);
     });
+
+  async function resumeHere(prepared: PreparedCase, outDir: string, plan: ResumePlan, lock: FolderLock, dirGiven: string, opts: { quiet?: boolean; json?: boolean }): Promise<void> {
+    const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
+    for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
+    const c = plan.checkpoint;
+    view.log(undefined, 'info', `resuming ${prepared.case.name} (was ${plan.previousStatus}) from ${plan.file} written ${c.written}: ${c.ledger.points} points on ${c.ledger.branches.length} branch${c.ledger.branches.length === 1 ? '' : 'es'}`);
+    const stop = stopOnSignals(io, () => view);
+    let result;
+    try {
+      result = await runSession(prepared, { outDir, signal: stop.signal, view, name: prepared.case.name, resume: plan, lock });
+    } catch (e) {
+      // the files disagree with the checkpoint (a branch file cut short or replaced by hand)
+      if (e instanceof InputError) throw e;
+      throw new InputError(`${dirGiven}: cannot resume: ${e instanceof Error ? e.message : String(e)}`);
+    } finally {
+      view.close();
+      stop.release();
+    }
+    const outcome = outcomeOf({ prepared, outDir }, result);
+    if (opts.json) io.out(toJson(jsonSummary([outcome])));
+    else io.out(formatSummary(result, prepared) + resumeHint(outcome));
+    setExit(result.status === 'finished' ? 0 : 1);
+  }
 }

@@ -3,6 +3,7 @@ import type { Command } from 'commander';
 import { type CommandContext, type Io, processIo } from '../io.js';
 import { type CaseOutcome, batchLines, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
+import { leaveAtOnce } from '../../run/leave.js';
 import { type ProgressView, progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
@@ -20,11 +21,17 @@ export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { s
   let count = 0;
   const onSignal = (signal: NodeJS.Signals): void => {
     count++;
+    if (count > 2) process.exit(130);
     if (count > 1) {
       view()?.close();
       io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
-      killWorkers();
-      process.exit(130);
+      // every run this call writes says `stopped` in its run.json and releases its folder's lock
+      const reason = `left at once on a second ${signal}; resume goes on from the last checkpoint`;
+      void killWorkers(reason).finally(() => {
+        leaveAtOnce(reason);
+        process.exit(130);
+      });
+      return;
     }
     view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`);
     controller.abort();
