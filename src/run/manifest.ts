@@ -43,8 +43,10 @@ export function isRunFileEntry(entry: string): boolean {
   return s !== null && solutionName.test(s[1]);
 }
 
-/** The temporary-file name of an atomic write of `name` (writers.ts writeTemporary). */
-const temporaryOf = (name: string): RegExp => new RegExp(`^\\.${name.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}\\.\\d+\\.\\d+\\.tmp$`);
+/** Whether a file name in plots/ is one a run draws (`<solution name>.svg`), not a user's figure. */
+export function isRunPlotName(name: string): boolean {
+  return name.endsWith('.svg') && solutionName.test(name.slice(0, -4));
+}
 
 export class Manifest {
   private readonly entries: string[];
