@@ -19,7 +19,7 @@ import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
 import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
-import { CheckpointError, Checkpointer, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
+import { CheckpointError, Checkpointer, type CheckpointDocument, checkpointFile, previousCheckpointFile, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
 import { folderWriteProblem } from './folders.js';
 import { FolderLock, holderText, lockHolder } from './lock.js';
@@ -178,12 +178,15 @@ function resourceProblems(targets: readonly RunTarget[], jobs: number): string[]
 // One run in this process
 
 export interface ResumePlan {
-  checkpoint: CheckpointDocument;
+  /** The checkpoint to continue from; absent when the run ended before its first one (`restart`). */
+  checkpoint?: CheckpointDocument;
   /** The checkpoint file used, and newer ones that could not be (damaged). */
-  file: string;
+  file?: string;
   skipped: string[];
   /** run.json's status before resuming. */
   previousStatus: string;
+  /** No checkpoint was ever written: the run starts over from its recorded case (its first start and earlier resumes). */
+  restart?: { started: string; resumes: string[] };
 }
 
 export interface SessionOptions {
@@ -212,6 +215,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       progress: (p: ProgressInfo) => o.view.update(o.name, p),
       checkpoint: checkpointer.hook,
       ...(o.lock ? { lock: o.lock } : {}),
+      ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
       ...(c
         ? {
             resume: {
@@ -220,7 +224,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
               started: c.run.started,
               previousSeconds: c.run.seconds,
               resumes: c.run.resumes,
-              checkpoint: { file: o.resume!.file, sequence: c.sequence, written: c.written, points: c.ledger.points },
+              checkpoint: { file: o.resume!.file ?? checkpointFile, sequence: c.sequence, written: c.written, points: c.ledger.points },
             },
           }
         : {}),
@@ -270,6 +274,14 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   }
 }
 
+/**
+ * The case stored in a run folder (a checkpoint's or run.json's), prepared as the case file it
+ * came from would be: paths relative to that file's folder, or to the run folder when unknown.
+ */
+export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: string | null, dir: string, label: string): Promise<PreparedCase> {
+  return prepareCaseObject(doc, { label, ...(caseFile ? { file: caseFile } : {}), baseDir: caseFile ? dirname(caseFile) : dir });
+}
+
 async function checkResumable(dir: string, dirGiven: string): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
   const run = readRunRecord(dir);
   if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
@@ -279,16 +291,23 @@ async function checkResumable(dir: string, dirGiven: string): Promise<{ prepared
   try {
     found = readCheckpoint(dir);
   } catch (e) {
-    if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
-    throw e;
+    if (!(e instanceof CheckpointError)) throw e;
+    // killed before its first checkpoint: nothing resumable was computed; start over from the
+    // case run.json records (unless run.json says a checkpoint was written: then it went missing)
+    const none = !existsSync(join(dir, checkpointFile)) && !existsSync(join(dir, previousCheckpointFile));
+    if (none && run.checkpoint === undefined && run.case && typeof run.case === 'object') {
+      const caseFile = typeof run['case-file'] === 'string' ? run['case-file'] : null;
+      const prepared = await caseFromRunFolder(run.case as Record<string, unknown>, caseFile, dir, `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})`);
+      const started = typeof run.started === 'string' ? run.started : new Date().toISOString();
+      const resumes = Array.isArray(run.resumed) ? run.resumed.filter((t): t is string => typeof t === 'string') : [];
+      return { prepared, outDir: dir, plan: { skipped: [], previousStatus: status, restart: { started, resumes } } };
+    }
+    if (none) throw new InputError(`${dirGiven}: cannot resume: run.json records a checkpoint, but neither ${checkpointFile} nor ${previousCheckpointFile} is there (removed?)`);
+    throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
   }
   const c = found.document;
   const caseFile = c.run.caseFile;
-  const prepared = await prepareCaseObject(c.case, {
-    label: `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`,
-    ...(caseFile ? { file: caseFile } : {}),
-    baseDir: caseFile ? dirname(caseFile) : dir,
-  });
+  const prepared = await caseFromRunFolder(c.case, caseFile, dir, `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`);
   // the saved state must belong to this problem (a code model may have changed since)
   const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;
   const x = engine?.current?.x;
@@ -324,6 +343,11 @@ export interface BatchOptions {
 const workers = new Set<ChildProcess>();
 /** Set when the call leaves at once: the reason recorded in the runs of the workers it ends. */
 let leavingAtOnce: string | undefined;
+
+/** Whether worker processes are running. */
+export function hasWorkers(): boolean {
+  return workers.size > 0;
+}
 
 /**
  * End every worker at once (a second Ctrl-C): their runs resume from their last checkpoints.

@@ -94,6 +94,11 @@ export interface RunCaseOptions {
   /** Continue an interrupted run (the resume command): reopen `outDir` with this state. */
   resume?: ResumeState;
   /**
+   * Start an interrupted run over in its own folder (the resume command, when the run ended before
+   * its first checkpoint): the run's files are removed (the user's stay), the times carried on.
+   */
+  restart?: { started: string; resumes: string[] };
+  /**
    * The folder's lock, when the caller took it (the resume command takes it before it reads the
    * run's state); otherwise runCase takes it before touching the folder and releases it at the end.
    */
@@ -148,19 +153,23 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
   // 1. the only step that may refuse (bad output folder, a writer already there) happens before
   //    anything is written; the folder's lock is held from here to the end
   const { run, lock } = takeFolder(outDir, options, () =>
-    options.resume ? resumeRunFolder(prepared, outDir, options.resume) : prepareRunFolder(prepared, outDir, options.force === true, log),
+    options.resume
+      ? resumeRunFolder(prepared, outDir, options.resume)
+      : options.restart
+        ? restartRunFolder(prepared, outDir)
+        : prepareRunFolder(prepared, outDir, options.force === true, log),
   );
   let unregister: (() => void) | undefined;
   try {
     // 2. run.json says `running` from here on, and lists each file before it is created
-    const resume = options.resume;
+    const resume = options.resume ?? options.restart;
     const record = new RunRecord(prepared, run.plan, run.ledger, run.dir.manifest, {
       t0,
       started: resume?.started ?? isoNow(),
       resumes: [...(resume?.resumes ?? []), ...(resume ? [isoNow()] : [])],
-      previousSeconds: resume?.previousSeconds ?? 0,
+      previousSeconds: options.resume?.previousSeconds ?? 0,
     });
-    record.lastCheckpoint = resume?.checkpoint;
+    record.lastCheckpoint = options.resume?.checkpoint;
     run.dir.onManifestChange(() => record.write(run.dir));
     record.write(run.dir);
     // leaving at once (a second Ctrl-C): run.json says `stopped` (resume goes on from the last checkpoint)
@@ -187,10 +196,11 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
  * then `open` it. On a refusal the lock is released and a folder made here removed again.
  */
 function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun): { run: OpenRun; lock: FolderLock | undefined } {
-  const made = options.resume || options.lock ? false : makeFolder(outDir);
+  const continuing = options.resume !== undefined || options.restart !== undefined;
+  const made = continuing || options.lock ? false : makeFolder(outDir);
   let lock: FolderLock | undefined;
   try {
-    lock = options.lock ? undefined : FolderLock.acquire(outDir, { purpose: options.resume ? 'resume' : options.force ? 'run --force' : 'run' });
+    lock = options.lock ? undefined : FolderLock.acquire(outDir, { purpose: continuing ? 'resume' : options.force ? 'run --force' : 'run' });
     return { run: open(), lock };
   } catch (e) {
     lock?.release();
@@ -212,6 +222,13 @@ export function runManifest(outDir: string): Manifest {
   const run = readRunRecord(outDir);
   const m = run ? readManifest(run) : undefined;
   return m === undefined || typeof m === 'string' ? schemeManifest(outDir) : m;
+}
+
+/** Step 1 of a run started over (it ended before its first checkpoint): the run's own files removed. */
+function restartRunFolder(prepared: PreparedCase, outDir: string): OpenRun {
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const dir = RunDirectory.restart(outDir, runManifest(outDir));
+  return { outDir, dir, ledger: emptyLedger(), plan };
 }
 
 /** Step 1 of a resumed run: the folder cut back to what the checkpoint's ledger records. */

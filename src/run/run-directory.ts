@@ -260,6 +260,12 @@ export function newRunProblem(path: string, force: boolean): string | undefined 
   return undefined;
 }
 
+/**
+ * Left in place when an earlier run's files are removed: the lock, and run.json (the new run
+ * replaces it atomically at once, so that a folder never lacks one while it holds run files).
+ */
+const keptForNow = (rel: string): boolean => isLockFile(rel) || rel === 'run.json';
+
 export class RunDirectory {
   readonly path: string;
   /** The files of the run (run.json `files`). */
@@ -285,13 +291,26 @@ export class RunDirectory {
     if (problem) throw new InputError(problem);
     let kept: string[] = [];
     if (folderEntries(path).length > 0) {
-      kept = removeRunFiles(path, readManifest(readRunRecord(path)!) as Manifest, isLockFile);
+      kept = removeRunFiles(path, readManifest(readRunRecord(path)!) as Manifest, keptForNow);
     }
     try {
       mkdirSync(join(path, 'branches'), { recursive: true });
     } catch (e) {
       throw new InputError(`output folder ${path} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
     }
+    const dir = new RunDirectory(path, new Manifest());
+    dir.kept = kept;
+    return dir;
+  }
+
+  /**
+   * Start the run in `path` over (it ended before its first checkpoint): remove the files of
+   * `manifest` (the user's stay) and begin a new manifest. The caller holds the lock.
+   */
+  static restart(path: string, manifest: Manifest): RunDirectory {
+    if (!readRunRecord(path)) throw new InputError(`${path} holds no branchline run (run.json missing or not ours)`);
+    const kept = removeRunFiles(path, manifest, keptForNow);
+    mkdirSync(join(path, 'branches'), { recursive: true });
     const dir = new RunDirectory(path, new Manifest());
     dir.kept = kept;
     return dir;

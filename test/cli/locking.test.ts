@@ -5,64 +5,25 @@
  * live process refused, and stale locks (dead writer, pid reused by another process, another
  * boot) taken over; processes racing for one stale lock: exactly one wins.
  */
-import { type ChildProcess, spawn } from 'node:child_process';
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { spawn } from 'node:child_process';
+import { existsSync, mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { hostname, tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { main } from '../../src/cli/main.js';
 import { prepareCase } from '../../src/run/case.js';
 import { Checkpointer } from '../../src/run/checkpoint.js';
 import { FolderLock, lockFile, processStart, selfIdentity } from '../../src/run/lock.js';
 import { runCase } from '../../src/run/run-case.js';
 import { ensureBuilt } from './built.js';
+import { cli, json, sleep, start, switchingCase } from './processes.js';
 import { expectSameFiles } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-lock-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
-const bin = resolve('bin/branchline.js');
 
-// branch switching, stability and special points: a resume must carry all of them
-const caseText = `name: locked
-model: allen-cahn
-grid: {intervals: [64]}
-parameters: {lambda: 1}
-continuation:
-  parameter: lambda
-  bounds: [0, 45]
-  step: {initial: 0.5, min: 1.0e-8, max: 1}
-  max-points: 80
-  branch-switching: {depth: 1}
-stability: {eigenvalues: 2}
-checkpoint: {every-points: 3, every-seconds: 60}
-`;
+const caseText = switchingCase('locked');
 const caseFile = join(tmp, 'locked.yaml');
 const reference = join(tmp, 'reference');
-
-interface Ended {
-  code: number | null;
-  out: string;
-  err: string;
-}
-
-function start(args: string[]): { child: ChildProcess; ended: Promise<Ended> } {
-  const child = spawn(process.execPath, [bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'] });
-  let out = '';
-  let err = '';
-  child.stdout!.on('data', (d: Buffer) => (out += d.toString()));
-  child.stderr!.on('data', (d: Buffer) => (err += d.toString()));
-  return { child, ended: new Promise((done) => child.on('exit', (code) => done({ code, out, err }))) };
-}
-
-async function cli(...args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await main(['node', 'branchline', ...args], { out: (s) => (out += s), err: (s) => (err += s) });
-  return { code, out, err };
-}
-
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
-const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
 
 /** A run of the case stopped (as by Ctrl-C) after `points` points, with its checkpoint. */
 async function stoppedRun(dir: string, points: number): Promise<void> {

@@ -148,8 +148,8 @@ describe('resume refuses what it cannot continue (exit 2, one line)', () => {
     const out = join(tmp, 'no-checkpoint');
     expect((await cli('run', slab, '--out', out, '--quiet')).code).toBe(0);
     const run = json(join(out, 'run.json'));
-    writeFileSync(join(out, 'run.json'), JSON.stringify({ ...run, status: 'stopped' }));
-    expectRefusal(await cli('resume', out), /cannot resume: no checkpoint was written/);
+    writeFileSync(join(out, 'run.json'), JSON.stringify({ ...run, status: 'stopped', checkpoint: { file: checkpointFile, sequence: 3, points: 20 } }));
+    expectRefusal(await cli('resume', out), /cannot resume: run\.json records a checkpoint, but neither checkpoint\.bin nor checkpoint\.previous\.bin is there \(removed\?\)/);
     writeFileSync(join(out, checkpointFile), 'BLCHKPT1 cut short');
     writeFileSync(join(out, previousCheckpointFile), Buffer.alloc(100, 7));
     expectRefusal(await cli('resume', out), /cannot resume: no usable checkpoint: checkpoint\.bin is truncated \(18 bytes\); checkpoint\.previous\.bin is not a branchline checkpoint/);

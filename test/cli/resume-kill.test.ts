@@ -9,32 +9,20 @@
  * The kill instants are drawn at random (printed with any failure): the run is killed when its
  * branch files have reached a random fraction of their final size, after a random extra delay.
  */
-import { type ChildProcess, spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import type { ChildProcess } from 'node:child_process';
+import { existsSync, mkdtempSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join, resolve } from 'node:path';
+import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { ensureBuilt } from './built.js';
+import { type Ended, json, sleep, start, switchingCase } from './processes.js';
 import { expectSameFiles as expectReference } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-kill-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
-const bin = resolve('bin/branchline.js');
 
-const caseText = `name: kill-me
-model: allen-cahn
-grid: {intervals: [64]}
-parameters: {lambda: 1}
-continuation:
-  parameter: lambda
-  bounds: [0, 45]
-  step: {initial: 0.5, min: 1.0e-8, max: 1}
-  max-points: 80
-  branch-switching: {depth: 1}
-stability: {eigenvalues: 2}
-checkpoint: {every-points: 3, every-seconds: 0.05}
-`;
+const caseText = switchingCase('kill-me', '{every-points: 3, every-seconds: 0.05}');
 const caseFile = join(tmp, 'kill-me.yaml');
 const reference = join(tmp, 'reference');
 
@@ -52,25 +40,6 @@ function csvBytes(dir: string): number {
   return total;
 }
 
-interface Ended {
-  code: number | null;
-  signal: NodeJS.Signals | null;
-  out: string;
-  err: string;
-}
-
-function start(args: string[]): { child: ChildProcess; ended: Promise<Ended> } {
-  const child = spawn(process.execPath, [bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'] });
-  let out = '';
-  let err = '';
-  child.stdout!.on('data', (d: Buffer) => (out += d.toString()));
-  child.stderr!.on('data', (d: Buffer) => (err += d.toString()));
-  const ended = new Promise<Ended>((done) => child.on('exit', (code, signal) => done({ code, signal, out, err })));
-  return { child, ended };
-}
-
-const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
-
 /** Send `signal` once the run's branch files reach `bytes` (plus `extraMs`); false when the run ended first. */
 async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: string, bytes: number, extraMs: number, signal: NodeJS.Signals): Promise<boolean> {
   let done = false;
@@ -81,7 +50,6 @@ async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: 
   return p.child.kill(signal);
 }
 
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 
 const expectSameFiles = (dir: string, what: string): void => expectReference(dir, reference, what);
 

@@ -26,8 +26,9 @@ The branch files are cut back to the last checkpoint (checkpoint.bin, or checkpo
 when the newest one is damaged) and the run goes on from there; it ends with the same files as a
 run that was never interrupted. A checkpoint that is incomplete or damaged is never read.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped.
+A run that ended before its first checkpoint starts over from the case recorded in run.json.
 Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder holds no run,
-a finished run, or no usable checkpoint.`,
+a finished run, a run another process is writing, or no usable checkpoint.`,
     )
     .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
       const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true });
@@ -42,7 +43,8 @@ a finished run, or no usable checkpoint.`,
     const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
     for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
     const c = plan.checkpoint;
-    view.log(undefined, 'info', `resuming ${prepared.case.name} (was ${plan.previousStatus}) from ${plan.file} written ${c.written}: ${c.ledger.points} points on ${c.ledger.branches.length} branch${c.ledger.branches.length === 1 ? '' : 'es'}`);
+    if (c) view.log(undefined, 'info', `resuming ${prepared.case.name} (was ${plan.previousStatus}) from ${plan.file} written ${c.written}: ${c.ledger.points} points on ${c.ledger.branches.length} branch${c.ledger.branches.length === 1 ? '' : 'es'}`);
+    else view.log(undefined, 'info', `starting ${prepared.case.name} over from the case recorded in run.json (was ${plan.previousStatus}; it ended before its first checkpoint)`);
     const stop = stopOnSignals(io, () => view);
     let result;
     try {

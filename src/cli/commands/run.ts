@@ -1,7 +1,7 @@
 import { relative } from 'node:path';
 import type { Command } from 'commander';
 import { type CommandContext, type Io, processIo } from '../io.js';
-import { type CaseOutcome, batchLines, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
+import { type CaseOutcome, batchLines, hasWorkers, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
 import { leaveAtOnce } from '../../run/leave.js';
 import { type ProgressView, progressView } from '../../run/progress.js';
@@ -27,6 +27,10 @@ export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { s
       io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
       // every run this call writes says `stopped` in its run.json and releases its folder's lock
       const reason = `left at once on a second ${signal}; resume goes on from the last checkpoint`;
+      if (!hasWorkers()) {
+        leaveAtOnce(reason);
+        process.exit(130);
+      }
       void killWorkers(reason).finally(() => {
         leaveAtOnce(reason);
         process.exit(130);

@@ -1,0 +1,118 @@
+/**
+ * Resume from any instant, with real processes and real signals: a run killed with SIGKILL
+ * before its first checkpoint starts over from the case its run.json records and ends with the
+ * same files as an uninterrupted run; a double Ctrl-C (SIGINT twice) leaves at once with exit
+ * code 130 but leaves run.json `stopped` (never `running` for a process that is gone) and no lock,
+ * in one process and in a batch of worker processes; the run resumes to the same files.
+ */
+import { existsSync, mkdirSync, mkdtempSync, rmSync, watch, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { lockFile } from '../../src/run/lock.js';
+import { ensureBuilt } from './built.js';
+import { cli, json, sleep, start, switchingCase } from './processes.js';
+import { expectSameFiles } from './same-files.js';
+
+const tmp = mkdtempSync(join(tmpdir(), 'branchline-interrupted-'));
+afterAll(() => rmSync(tmp, { recursive: true, force: true }));
+const caseFile = join(tmp, 'early.yaml');
+const reference = join(tmp, 'reference');
+
+beforeAll(async () => {
+  ensureBuilt();
+  writeFileSync(caseFile, switchingCase('early'));
+  const r = await cli('run', caseFile, '--out', reference, '--quiet');
+  if (r.code !== 0) throw new Error(`the uninterrupted run failed: ${r.err}`);
+}, 60_000);
+
+/** Resolves when a file named `name` appears in `dir` (inotify: at once). */
+function appears(dir: string, name: string): Promise<void> {
+  return new Promise((done) => {
+    const w = watch(dir, (_e, f) => {
+      if (f === name) {
+        w.close();
+        done();
+      }
+    });
+  });
+}
+
+describe('a run killed before its first checkpoint', () => {
+  it('resume starts it over from its recorded case and ends with the files of an uninterrupted run', async () => {
+    const dir = join(tmp, 'early-kill');
+    mkdirSync(dir);
+    const p = start(['run', caseFile, '--out', dir, '--force', '--quiet']);
+    // kill -9 as soon as run.json exists: the first point and its checkpoint come much later
+    await appears(dir, 'run.json');
+    p.child.kill('SIGKILL');
+    expect((await p.ended).signal).toBe('SIGKILL');
+    expect(existsSync(join(dir, 'checkpoint.bin'))).toBe(false);
+    const before = json(join(dir, 'run.json'));
+    expect(before.status).toBe('running');
+    expect(existsSync(join(dir, lockFile))).toBe(true); // the dead writer's lock: stale
+    const r = start(['resume', dir]);
+    const e = await r.ended;
+    expect(e.code, e.err).toBe(0);
+    expect(e.err).toMatch(/starting early over from the case recorded in run\.json \(was running; it ended before its first checkpoint\)/);
+    expectSameFiles(dir, reference, 'started over');
+    const after = json(join(dir, 'run.json'));
+    expect(after.started).toBe(before.started);
+    expect(after.resumed).toHaveLength(1);
+  }, 60_000);
+});
+
+describe('a double Ctrl-C', () => {
+  it('leaves at once (exit 130) with run.json stopped, noting why, and no lock; resume finishes with the same files', async () => {
+    const dir = join(tmp, 'double');
+    mkdirSync(dir);
+    const p = start(['run', caseFile, '--out', dir, '--force']);
+    await appears(dir, 'checkpoint.previous.bin');
+    // both signals arrive within one step, as two presses do during a long one: the process is
+    // paused, receives SIGINT and SIGTERM (two of one kind would merge while pending), goes on
+    p.child.kill('SIGSTOP');
+    p.child.kill('SIGINT');
+    p.child.kill('SIGTERM');
+    p.child.kill('SIGCONT');
+    const e = await p.ended;
+    expect(e.code, e.err).toBe(130);
+    expect(e.err).toMatch(/second SIGTERM: leaving at once/);
+    const run = json(join(dir, 'run.json'));
+    expect(run.status).toBe('stopped');
+    expect(run.note).toMatch(/left at once on a second SIGTERM/);
+    expect(run.process).toBeUndefined();
+    expect(existsSync(join(dir, lockFile))).toBe(false);
+    const r = start(['resume', dir, '--quiet']);
+    const re = await r.ended;
+    expect(re.code, re.err).toBe(0);
+    expectSameFiles(dir, reference, 'after a double Ctrl-C');
+  }, 60_000);
+
+  it('in a batch of worker processes: every run says stopped, none running, no lock left', async () => {
+    const other = join(tmp, 'other.yaml');
+    writeFileSync(other, switchingCase('other'));
+    const out = join(tmp, 'batch');
+    mkdirSync(out);
+    const p = start(['run', caseFile, other, '--out', out, '--jobs', '2', '--quiet']);
+    while (!existsSync(join(out, 'early', 'checkpoint.bin')) || !existsSync(join(out, 'other', 'checkpoint.bin'))) await sleep(5);
+    p.child.kill('SIGSTOP');
+    p.child.kill('SIGINT');
+    p.child.kill('SIGTERM');
+    p.child.kill('SIGCONT');
+    const e = await p.ended;
+    expect(e.code, e.err).toBe(130);
+    for (const name of ['early', 'other']) {
+      const dir = join(out, name);
+      const run = json(join(dir, 'run.json'));
+      // the worker stopped cleanly on the first signal, or was ended by the second
+      expect(['stopped', 'finished'], `${name}: ${run.status}`).toContain(run.status);
+      expect(existsSync(join(dir, lockFile)), name).toBe(false);
+      if (run.status === 'stopped') {
+        const r = start(['resume', dir, '--quiet']);
+        const re = await r.ended;
+        expect(re.code, re.err).toBe(0);
+      }
+    }
+    expectSameFiles(join(out, 'early'), reference, 'batch case after a double Ctrl-C');
+  }, 90_000);
+});
