@@ -5,7 +5,7 @@
  * points, counts, CSV byte lengths) follows every write, so a checkpoint taken between steps
  * describes the files exactly.
  */
-import type { BranchPoint, EngineEvent } from '../continuation/types.js';
+import type { ContinuationPoint, EngineEvent } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params } from '../problem/problem.js';
 import type { PreparedCase } from './case.js';
@@ -70,7 +70,7 @@ export class EventWriter {
         break;
       }
       case 'point': {
-        const p: BranchPoint = ev.point;
+        const p: ContinuationPoint = ev.point;
         dir.appendRow(p.branch, pointRow(plan, problem, p), ledger);
         if (plan.stability && !this.stabilityWarned && !hasStability(p)) {
           this.stabilityWarned = true;

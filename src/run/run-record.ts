@@ -80,6 +80,7 @@ export class RunRecord {
         unknowns: problem.size,
         'grid-unknowns': problem.gridUnknowns,
         'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
+        monitors: Object.fromEntries(problem.monitors.map((m) => [m.name, m.description])),
         ...(description.layout ? { layout: description.layout } : {}),
       },
       'start-parameters': { ...params },
