@@ -199,6 +199,8 @@ export interface SessionOptions {
   resume?: ResumePlan;
   /** The folder's lock when the caller holds it (resume); otherwise runCase takes it. */
   lock?: FolderLock;
+  /** The folder belongs to the caller (a study's grid folder): see RunCaseOptions.alongside. */
+  alongside?: boolean;
 }
 
 /** Run (or resume) one case here, with checkpoints and progress. */
@@ -215,6 +217,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       progress: (p: ProgressInfo) => o.view.update(o.name, p),
       checkpoint: checkpointer.hook,
       ...(o.lock ? { lock: o.lock } : {}),
+      ...(o.alongside ? { alongside: true } : {}),
       ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
       ...(c
         ? {

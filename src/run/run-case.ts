@@ -76,6 +76,8 @@ export interface RunCaseOptions {
   outDir?: string;
   /** Replace an earlier run in a non-empty output folder (see RunDirectory.create). */
   force?: boolean;
+  /** The folder belongs to the caller (a study's grid folder): files of the user in it, without a run, stay. */
+  alongside?: boolean;
   /** Stop request (SIGINT/SIGTERM): the current event is finished, files written, status `stopped`. */
   signal?: AbortSignal;
   /** Log lines (the CLI sends them to stderr). */
@@ -157,7 +159,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       ? resumeRunFolder(prepared, outDir, options.resume)
       : options.restart
         ? restartRunFolder(prepared, outDir)
-        : prepareRunFolder(prepared, outDir, options.force === true, log),
+        : prepareRunFolder(prepared, outDir, { force: options.force === true, alongside: options.alongside === true }, log),
   );
   let unregister: (() => void) | undefined;
   try {
@@ -210,9 +212,9 @@ function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun
 }
 
 /** Step 1 of a new run: the output folder emptied of an earlier run (with `force`; the user's files stay). */
-function prepareRunFolder(prepared: PreparedCase, outDir: string, force: boolean, log: RunLog): OpenRun {
+function prepareRunFolder(prepared: PreparedCase, outDir: string, folder: { force: boolean; alongside: boolean }, log: RunLog): OpenRun {
   const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
-  const dir = RunDirectory.create(outDir, { force });
+  const dir = RunDirectory.create(outDir, folder);
   if (dir.kept.length) log('info', `replaced the earlier run; kept ${dir.kept.length} file${dir.kept.length === 1 ? '' : 's'} it did not write: ${keptText(dir.kept)}`);
   return { outDir, dir, ledger: emptyLedger(), plan };
 }

@@ -283,15 +283,20 @@ export class RunDirectory {
 
   /**
    * Prepare the existing folder `path` (its lock held by the caller) for a new run; see the
-   * header for the policy on non-empty folders. Throws InputError (bad input, nothing changed)
+   * header for the policy on non-empty folders. `alongside`: the folder belongs to the caller (a
+   * study's grid folder) and may hold the user's files, which stay, as long as it holds no run. Throws InputError (bad input, nothing changed)
    * when the folder cannot be used.
    */
-  static create(path: string, options: { force?: boolean } = {}): RunDirectory {
-    const problem = newRunProblem(path, options.force === true);
-    if (problem) throw new InputError(problem);
+  static create(path: string, options: { force?: boolean; alongside?: boolean } = {}): RunDirectory {
     let kept: string[] = [];
-    if (folderEntries(path).length > 0) {
-      kept = removeRunFiles(path, readManifest(readRunRecord(path)!) as Manifest, keptForNow);
+    const entries = folderEntries(path);
+    if (options.alongside && entries.length > 0 && !readRunRecord(path)) {
+      // a folder the caller owns (a study's grid folder) that holds no run: the user's files there stay
+      kept = entries;
+    } else {
+      const problem = newRunProblem(path, options.force === true);
+      if (problem) throw new InputError(problem);
+      if (entries.length > 0) kept = removeRunFiles(path, readManifest(readRunRecord(path)!) as Manifest, keptForNow);
     }
     try {
       mkdirSync(join(path, 'branches'), { recursive: true });

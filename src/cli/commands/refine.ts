@@ -1,5 +1,6 @@
 import type { Command } from 'commander';
-import type { CommandContext } from '../io.js';
+import type { CommandContext, Io } from '../io.js';
+import { leaveAtOnce } from '../../run/leave.js';
 import { resolve } from 'node:path';
 import { prepareCase } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
@@ -20,6 +21,41 @@ function positiveInteger(text: string, what: string): number {
   return Number(text);
 }
 
+/** Log lines of a study on stderr (warnings only with `quiet`). */
+export function studyLog(io: Io, quiet: boolean): (level: 'info' | 'warning', message: string) => void {
+  return (level, message) => {
+    if (level === 'warning' || !quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
+  };
+}
+
+/**
+ * SIGINT/SIGTERM during a study: the first finishes the current steps and writes the files; a
+ * second leaves at once, with refine.json and the runs marked `stopped` (resume goes on).
+ */
+export function studySignals(io: Io): { signal: AbortSignal; release: () => void } {
+  const controller = new AbortController();
+  let interrupts = 0;
+  const onSignal = (signal: NodeJS.Signals): void => {
+    interrupts++;
+    if (interrupts > 1) {
+      io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` goes on from the checkpoints\n`);
+      leaveAtOnce(`left at once on a second ${signal}; resume goes on from the checkpoints`);
+      process.exit(130);
+    }
+    io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`);
+    controller.abort();
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+  return {
+    signal: controller.signal,
+    release: () => {
+      process.off('SIGINT', onSignal);
+      process.off('SIGTERM', onSignal);
+    },
+  };
+}
+
 /** `branchline refine CASE --grids 32,64,128`: a grid-refinement study of a special point. */
 export function registerRefine(program: Command, { io, setExit }: CommandContext): void {
   program
@@ -32,7 +68,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
     .option('--jobs <n>', 'grids run side by side in this many processes (default 1)')
     .option('--expected-order <p>', 'formal order of the discretisation, checked against the observed one (default 2; none for code models)')
     .option('--out <dir>', 'study folder (default runs/<case name>-refine)')
-    .option('--force', 'replace an earlier study in a non-empty output folder')
+    .option('--force', "replace an earlier study (finished, stopped or half-written) in a non-empty output folder: only the study's own files are removed")
     .option('--quiet', 'no progress lines on stderr')
     .action(async (file: string, opts: { grids: string; point?: string; branch?: string; jobs?: string; expectedOrder?: string; out?: string; force?: boolean; quiet?: boolean }) => {
       const grids = wholeNumbers(opts.grids, '--grids');
@@ -53,19 +89,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
         }
       }
       const prepared = await prepareCase(file);
-      const controller = new AbortController();
-      let interrupts = 0;
-      const onSignal = (signal: NodeJS.Signals): void => {
-        interrupts++;
-        if (interrupts > 1) {
-          io.err(`branchline: second ${signal}: leaving at once\n`);
-          process.exit(130);
-        }
-        io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`);
-        controller.abort();
-      };
-      process.on('SIGINT', onSignal);
-      process.on('SIGTERM', onSignal);
+      const stop = studySignals(io);
       try {
         const result = await runStudy(prepared, {
           grids,
@@ -75,16 +99,13 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
           ...(jobs !== undefined ? { jobs } : {}),
           ...(expectedOrder !== undefined ? { expectedOrder } : {}),
           ...(opts.force ? { force: true } : {}),
-          signal: controller.signal,
-          log: (level, message) => {
-            if (level === 'warning' || !opts.quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
-          },
+          signal: stop.signal,
+          log: studyLog(io, opts.quiet === true),
         });
         io.out(formatStudySummary(result));
         setExit(result.status === 'finished' ? 0 : 1);
       } finally {
-        process.off('SIGINT', onSignal);
-        process.off('SIGTERM', onSignal);
+        stop.release();
       }
     });
 }

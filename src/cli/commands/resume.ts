@@ -1,4 +1,7 @@
+import { existsSync } from 'node:fs';
+import { join, resolve } from 'node:path';
 import type { Command } from 'commander';
+import { formatStudySummary, resumeStudy } from '../../refine/study.js';
 import type { CommandContext } from '../io.js';
 import { type ResumePlan, outcomeOf, prepareResume, runSession } from '../../run/batch.js';
 import type { PreparedCase } from '../../run/case.js';
@@ -8,14 +11,15 @@ import { progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
 import { jsonSummary } from '../../run/batch.js';
+import { studyLog, studySignals } from './refine.js';
 import { onTerminal, resumeHint, stopOnSignals } from './run.js';
 
 /** `branchline resume DIR`: continue a stopped or killed run from its last checkpoint. */
 export function registerResume(program: Command, { io, setExit }: CommandContext): void {
   program
     .command('resume')
-    .description('continue a stopped or killed run from its last checkpoint, in its own folder')
-    .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin)')
+    .description('continue a stopped or killed run from its last checkpoint, in its own folder; or a refinement study (its unfinished grids, then the analysis)')
+    .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin), or a study folder (holding refine.json)')
     .option('--force', 'take the folder over from a writer on another host that cannot be checked from here (never from a live process on this machine)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
@@ -27,10 +31,25 @@ when the newest one is damaged) and the run goes on from there; it ends with the
 run that was never interrupted. A checkpoint that is incomplete or damaged is never read.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped.
 A run that ended before its first checkpoint starts over from the case recorded in run.json.
+A refinement study: finished grids are kept, stopped or killed ones resume from their
+checkpoints, grids not started yet run; then refine.csv, refine.json and refine.svg are redone.
 Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder holds no run,
 a finished run, a run another process is writing, or no usable checkpoint.`,
     )
     .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
+      const abs = resolve(dirGiven);
+      if (existsSync(join(abs, 'refine.json')) && !existsSync(join(abs, 'run.json'))) {
+        // a refinement study: its unfinished grids go on, then the analysis is redone
+        const stop = studySignals(io);
+        try {
+          const result = await resumeStudy(dirGiven, { signal: stop.signal, log: studyLog(io, opts.quiet === true), ...(opts.force ? { force: true } : {}) });
+          io.out(formatStudySummary(result));
+          setExit(result.status === 'finished' ? 0 : 1);
+        } finally {
+          stop.release();
+        }
+        return;
+      }
       const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true });
       try {
         await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);
