@@ -25,7 +25,7 @@ import { folderWriteProblem } from './folders.js';
 import { FolderLock, holderText, lockHolder } from './lock.js';
 import type { ProgressView } from './progress.js';
 import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
-import { newRunProblem, readRunRecord } from './run-directory.js';
+import { columnPlan, newRunProblem, readRunRecord } from './run-directory.js';
 import { writeJsonAtomic } from './writers.js';
 
 /** A case ready to run: checked, its problem built, its output folder decided. */
@@ -112,7 +112,7 @@ function bytesText(b: number): string {
  * and with stability the eigen solver's as well) and disk for one branch of `max-points`
  * points (CSV rows, solution files with output.solutions: all, two checkpoints).
  */
-export function runNeeds(prepared: PreparedCase): { memory: number; disk: number; points: number } {
+export function runNeeds(prepared: PreparedCase): { memory: number; disk: number; points: number; row: number } {
   const d = prepared.problem.describe();
   const n = prepared.problem.size;
   const fields = Math.max(1, d.fields.length);
@@ -123,11 +123,12 @@ export function runNeeds(prepared: PreparedCase): { memory: number; disk: number
   const memory = factor * (eigen > 0 ? 2 : 1) + vectors * 8 * (n + 1);
   const points = prepared.settings.maxPoints;
   const nodes = d.axes.reduce((a, ax) => a * ax.nodes, 1) * fields;
-  const columns = 8 + prepared.problem.monitors.length + (eigen > 0 ? 4 : 0);
-  const row = columns * 24;
+  // every column of a row (eigenvalue columns included), each at most 24 characters and a comma
+  const columns = columnPlan(prepared.problem, prepared.settings.parameter, eigen).columns.length;
+  const row = columns * 25;
   const solutions = prepared.case.output.solutions === 'all' ? nodes * 8 + 128 : 0;
   const checkpoint = 2 * 8 * (n + 1) * (16 + 2 * eigen);
-  return { memory, disk: points * (row + solutions) + checkpoint, points };
+  return { memory, disk: points * (row + solutions) + checkpoint, points, row };
 }
 
 /** Requests that cannot fit this machine, refused before anything runs (with the estimates). */

@@ -374,10 +374,15 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
 /** Step 4: close the files, write the final points.json and run.json, clean up, draw the plots. */
 function finishRun(prepared: PreparedCase, run: OpenRun, record: RunRecord, log: RunLog): RunResult {
   const { dir, ledger, outDir } = run;
-  dir.close();
-  dir.writePoints(prepared.settings.parameter, ledger.specials);
   const final = record.document();
-  dir.writeRunJson(final);
+  try {
+    dir.close();
+    dir.writePoints(prepared.settings.parameter, ledger.specials);
+    dir.writeRunJson(final);
+  } catch (e) {
+    // a full disk may refuse even these small files: the run's checkpoint still resumes it
+    log('warning', `the final run.json could not be written: ${e instanceof Error ? e.message : String(e)}`);
+  }
   const status = record.status as Exclude<RunStatus, 'running'>;
   // a finished run has nothing left to resume
   if (status === 'finished') removeCheckpoints(outDir);
