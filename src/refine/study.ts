@@ -357,7 +357,7 @@ async function inStudyFolder(
   try {
     lock = FolderLock.acquire(studyDir, lockOptions);
   } catch (e) {
-    if (made) removeIfEmpty(studyDir);
+    if (made) removeIfEmpty(studyDir, made);
     throw e;
   }
   const unregister = onLeaveAtOnce((reason) => {
@@ -372,7 +372,7 @@ async function inStudyFolder(
     } catch (e) {
       if (made) {
         lock.release();
-        removeIfEmpty(studyDir);
+        removeIfEmpty(studyDir, made);
       }
       throw e;
     }

@@ -110,26 +110,27 @@ function firstFile(p: string): string {
 
 /**
  * Create the folder `path` (and its parents) unless it exists; InputError naming the cause when
- * it cannot be created or written. Returns whether it was created here (so that a refusal that
- * follows can remove it again with `removeIfEmpty`).
+ * it cannot be created or written. Returns the first folder created here, if any (so that a
+ * refusal that follows can remove what was made with `removeIfEmpty`).
  */
-export function makeFolder(path: string, what = 'output folder'): boolean {
+export function makeFolder(path: string, what = 'output folder'): string | undefined {
   const problem = folderWriteProblem(path, what);
   if (problem) throw new InputError(problem);
-  let created = false;
   try {
-    created = mkdirSync(path, { recursive: true }) !== undefined;
+    return mkdirSync(path, { recursive: true });
   } catch (e) {
     throw new InputError(`${what} ${path} cannot be created: ${causeText(e, path)}`);
   }
-  return created;
 }
 
-/** Remove a folder made by makeFolder again when it is empty. */
-export function removeIfEmpty(path: string): void {
-  try {
-    rmdirSync(path);
-  } catch {
-    /* not empty, or gone */
+/** Remove `path` and its parents up to `made` (what makeFolder created) while they are empty. */
+export function removeIfEmpty(path: string, made: string = path): void {
+  for (let p = path; ; p = dirname(p)) {
+    try {
+      rmdirSync(p);
+    } catch {
+      return; // not empty, or gone
+    }
+    if (p === made || dirname(p) === p) return;
   }
 }

@@ -199,14 +199,14 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
  */
 function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun): { run: OpenRun; lock: FolderLock | undefined } {
   const continuing = options.resume !== undefined || options.restart !== undefined;
-  const made = continuing || options.lock ? false : makeFolder(outDir);
+  const made = continuing || options.lock ? undefined : makeFolder(outDir);
   let lock: FolderLock | undefined;
   try {
     lock = options.lock ? undefined : FolderLock.acquire(outDir, { purpose: continuing ? 'resume' : options.force ? 'run --force' : 'run' });
     return { run: open(), lock };
   } catch (e) {
     lock?.release();
-    if (made) removeIfEmpty(outDir);
+    if (made) removeIfEmpty(outDir, made);
     throw e;
   }
 }

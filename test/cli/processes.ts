@@ -14,10 +14,11 @@ export interface Ended {
 }
 
 /** Start the built binary with `args`; `ended` resolves with its exit code or signal and its output. */
-export function start(args: string[], options: { shell?: string } = {}): { child: ChildProcess; ended: Promise<Ended> } {
+export function start(args: string[], options: { shell?: string; uid?: number; gid?: number } = {}): { child: ChildProcess; ended: Promise<Ended> } {
+  const as = options.uid !== undefined ? { uid: options.uid, gid: options.gid ?? options.uid } : {};
   const child = options.shell
-    ? spawn('bash', ['-c', `${options.shell}; exec "$0" "$@"`, process.execPath, bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'] })
-    : spawn(process.execPath, [bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'] });
+    ? spawn('bash', ['-c', `${options.shell}; exec "$0" "$@"`, process.execPath, bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'], ...as })
+    : spawn(process.execPath, [bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'], ...as });
   let out = '';
   let err = '';
   child.stdout!.on('data', (d: Buffer) => (out += d.toString()));
