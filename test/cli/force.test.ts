@@ -8,22 +8,15 @@ import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, 
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { main } from '../../src/cli/main.js';
 import { prepareCase } from '../../src/run/case.js';
 import { Checkpointer } from '../../src/run/checkpoint.js';
 import { runCase } from '../../src/run/run-case.js';
+import { cli, json } from './processes.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-force-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 const slab = resolve('test/fixtures/run/bratu-1d.yaml');
 
-async function cli(...args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await main(['node', 'branchline', ...args], { out: (s) => (out += s), err: (s) => (err += s) });
-  return { code, out, err };
-}
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 const write = (file: string, text: string): void => {
   mkdirSync(join(file, '..'), { recursive: true });
   writeFileSync(file, text);

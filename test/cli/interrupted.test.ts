@@ -11,7 +11,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { lockFile } from '../../src/run/lock.js';
 import { ensureBuilt } from './built.js';
-import { cli, json, sleep, start, switchingCase } from './processes.js';
+import { cli, json, sleep, start, switchingCase, twoSignalsAtOnce } from './processes.js';
 import { expectSameFiles } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-interrupted-'));
@@ -68,12 +68,7 @@ describe('a double Ctrl-C', () => {
     mkdirSync(dir);
     const p = start(['run', caseFile, '--out', dir, '--force']);
     await appears(dir, 'checkpoint.previous.bin');
-    // both signals arrive within one step, as two presses do during a long one: the process is
-    // paused, receives SIGINT and SIGTERM (two of one kind would merge while pending), goes on
-    p.child.kill('SIGSTOP');
-    p.child.kill('SIGINT');
-    p.child.kill('SIGTERM');
-    p.child.kill('SIGCONT');
+    twoSignalsAtOnce(p.child);
     const e = await p.ended;
     expect(e.code, e.err).toBe(130);
     expect(e.err).toMatch(/second SIGTERM: leaving at once/);
@@ -95,10 +90,7 @@ describe('a double Ctrl-C', () => {
     mkdirSync(out);
     const p = start(['run', caseFile, other, '--out', out, '--jobs', '2', '--quiet']);
     while (!existsSync(join(out, 'early', 'checkpoint.bin')) || !existsSync(join(out, 'other', 'checkpoint.bin'))) await sleep(5);
-    p.child.kill('SIGSTOP');
-    p.child.kill('SIGINT');
-    p.child.kill('SIGTERM');
-    p.child.kill('SIGCONT');
+    twoSignalsAtOnce(p.child);
     const e = await p.ended;
     expect(e.code, e.err).toBe(130);
     for (const name of ['early', 'other']) {

@@ -57,3 +57,15 @@ stability: {eigenvalues: 2}
 checkpoint: ${checkpoint}
 `;
 }
+
+/**
+ * Two stop signals that arrive within one step, as two Ctrl-C presses do during a long one: the
+ * process is paused, receives SIGINT and SIGTERM (two of one kind would merge while pending), and
+ * goes on — its handlers then see both, the second while the first is still being honoured.
+ */
+export function twoSignalsAtOnce(child: ChildProcess): void {
+  child.kill('SIGSTOP');
+  child.kill('SIGINT');
+  child.kill('SIGTERM');
+  child.kill('SIGCONT');
+}

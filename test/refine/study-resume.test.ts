@@ -10,7 +10,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ensureBuilt } from '../cli/built.js';
-import { cli, json, sleep, start } from '../cli/processes.js';
+import { cli, json, sleep, start, twoSignalsAtOnce } from '../cli/processes.js';
 import { expectSameFiles } from '../cli/same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-study-kill-'));
@@ -99,11 +99,7 @@ describe('a study killed with kill -9', () => {
     const dir = join(tmp, 'double');
     const p = start(['refine', caseFile, '--grids', '24,48,96', '--out', dir]);
     await appears(join(dir, 'grid-48', 'checkpoint.bin'));
-    // both signals within one step (paused, SIGINT and SIGTERM, resumed: two of one kind would merge)
-    p.child.kill('SIGSTOP');
-    p.child.kill('SIGINT');
-    p.child.kill('SIGTERM');
-    p.child.kill('SIGCONT');
+    twoSignalsAtOnce(p.child);
     const e = await p.ended;
     expect(e.code, e.err).toBe(130);
     expect(json(join(dir, 'refine.json'))).toMatchObject({ status: 'stopped', note: expect.stringMatching(/left at once on a second SIGTERM/) });

@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import type { CommandContext, Io } from '../io.js';
 import { leaveAtOnce } from '../../run/leave.js';
+import { twoStageSignals } from './run.js';
 import { resolve } from 'node:path';
 import { prepareCase } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
@@ -33,27 +34,14 @@ export function studyLog(io: Io, quiet: boolean): (level: 'info' | 'warning', me
  * second leaves at once, with refine.json and the runs marked `stopped` (resume goes on).
  */
 export function studySignals(io: Io): { signal: AbortSignal; release: () => void } {
-  const controller = new AbortController();
-  let interrupts = 0;
-  const onSignal = (signal: NodeJS.Signals): void => {
-    interrupts++;
-    if (interrupts > 1) {
+  return twoStageSignals(
+    (signal) => io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`),
+    (signal) => {
       io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` goes on from the checkpoints\n`);
       leaveAtOnce(`left at once on a second ${signal}; resume goes on from the checkpoints`);
       process.exit(130);
-    }
-    io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`);
-    controller.abort();
-  };
-  process.on('SIGINT', onSignal);
-  process.on('SIGTERM', onSignal);
-  return {
-    signal: controller.signal,
-    release: () => {
-      process.off('SIGINT', onSignal);
-      process.off('SIGTERM', onSignal);
     },
-  };
+  );
 }
 
 /** `branchline refine CASE --grids 32,64,128`: a grid-refinement study of a special point. */

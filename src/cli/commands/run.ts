@@ -12,17 +12,40 @@ import { toJson } from '../../run/writers.js';
 const maxJobs = 64;
 
 /**
- * SIGINT/SIGTERM while runs go: the first stops them cleanly (the current step is finished, a
- * checkpoint written, run.json marked stopped); a second leaves at once (every run can still be
- * resumed from its last checkpoint). Returns the stop signal and a function that removes the handlers.
+ * SIGINT/SIGTERM handlers in two stages: the first signal calls `first` and aborts the returned
+ * signal (the work stops cleanly); any later one calls `second` (leave at once). Returns the stop
+ * signal and a function that removes the handlers.
  */
-export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { signal: AbortSignal; release: () => void } {
+export function twoStageSignals(first: (s: NodeJS.Signals) => void, second: (s: NodeJS.Signals, count: number) => void): { signal: AbortSignal; release: () => void } {
   const controller = new AbortController();
   let count = 0;
   const onSignal = (signal: NodeJS.Signals): void => {
     count++;
-    if (count > 2) process.exit(130);
-    if (count > 1) {
+    if (count > 1) return second(signal, count);
+    first(signal);
+    controller.abort();
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+  return {
+    signal: controller.signal,
+    release: () => {
+      process.off('SIGINT', onSignal);
+      process.off('SIGTERM', onSignal);
+    },
+  };
+}
+
+/**
+ * SIGINT/SIGTERM while runs go: the first stops them cleanly (the current step is finished, a
+ * checkpoint written, run.json marked stopped); a second leaves at once (every run is marked
+ * stopped and can be resumed from its last checkpoint; worker processes are ended first).
+ */
+export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { signal: AbortSignal; release: () => void } {
+  return twoStageSignals(
+    (signal) => view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`),
+    (signal, count) => {
+      if (count > 2) process.exit(130);
       view()?.close();
       io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
       // every run this call writes says `stopped` in its run.json and releases its folder's lock
@@ -35,20 +58,8 @@ export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { s
         leaveAtOnce(reason);
         process.exit(130);
       });
-      return;
-    }
-    view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`);
-    controller.abort();
-  };
-  process.on('SIGINT', onSignal);
-  process.on('SIGTERM', onSignal);
-  return {
-    signal: controller.signal,
-    release: () => {
-      process.off('SIGINT', onSignal);
-      process.off('SIGTERM', onSignal);
     },
-  };
+  );
 }
 
 /** Whether progress bars go to a terminal (only for the real process streams). */
