@@ -96,15 +96,26 @@ describe('a study killed with kill -9', () => {
   }, 120_000);
 
   it('a double Ctrl-C leaves at once (exit 130) with refine.json and the grid run stopped, no lock left; resume finishes it', async () => {
-    const dir = join(tmp, 'double');
-    const p = start(['refine', caseFile, '--grids', '24,48,96', '--out', dir]);
-    await appears(join(dir, 'grid-48', 'checkpoint.bin'));
-    twoSignalsAtOnce(p.child);
-    const e = await p.ended;
-    expect(e.code, e.err).toBe(130);
-    expect(json(join(dir, 'refine.json'))).toMatchObject({ status: 'stopped', note: expect.stringMatching(/left at once on a second SIGTERM/) });
-    expect(json(join(dir, 'grid-48', 'run.json')).status).toBe('stopped');
-    for (const f of ['writer.lock', 'grid-48/writer.lock']) expect(existsSync(join(dir, f)), f).toBe(false);
+    // repeated until the second signal lands before the first stop is done (else: exit 1, stopped)
+    let dir = '';
+    let leftAtOnce = false;
+    for (let k = 0; k < 5 && !leftAtOnce; k++) {
+      dir = join(tmp, `double-${k}`);
+      const p = start(['refine', caseFile, '--grids', '24,48,96', '--out', dir]);
+      await appears(join(dir, 'grid-48', 'checkpoint.bin'));
+      twoSignalsAtOnce(p.child);
+      const e = await p.ended;
+      expect(json(join(dir, 'grid-48', 'run.json')).status).toBe('stopped');
+      for (const f of ['writer.lock', 'grid-48/writer.lock']) expect(existsSync(join(dir, f)), f).toBe(false);
+      if (e.code === 130) {
+        leftAtOnce = true;
+        expect(json(join(dir, 'refine.json'))).toMatchObject({ status: 'stopped', note: expect.stringMatching(/left at once on a second SIG(INT|TERM)/) });
+      } else {
+        expect(e.code, e.err).toBe(1);
+        expect(json(join(dir, 'refine.json')).status).toBe('stopped');
+      }
+    }
+    expect(leftAtOnce).toBe(true);
     const r = await start(['resume', dir, '--quiet']).ended;
     expect(r.code, r.err).toBe(0);
     expectSameStudy(dir, 'after a double Ctrl-C');
