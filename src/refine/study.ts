@@ -323,14 +323,20 @@ export async function resumeStudy(dirGiven: string, options: Omit<StudyOptions, 
       const holder = lockHolder(join(studyDir, r.directory));
       if (holder) throw new InputError(`${join(dirGiven, r.directory)}: is being written by ${holderText(holder.writer, holder.liveness)}; wait for it to end, then resume the study`);
     }
-    const tasks: GridTask[] = plan.runs.map((r) => {
+    const tasks: GridTask[] = [];
+    for (const r of plan.runs) {
       const dir = join(studyDir, r.directory);
       const run = readRunRecord(dir);
-      const job: GridJob | undefined = run?.status === 'finished' ? undefined : run ? { kind: 'resume', outDir: dir } : freshJob(plan, r, studyDir, label);
-      return { ...r, job };
-    });
+      if (run?.status === 'finished') tasks.push({ ...r, job: undefined });
+      else if (run) tasks.push({ ...r, job: { kind: 'resume', outDir: dir } });
+      else {
+        // a grid never started: its case comes from refine.json, read as any case stored in a folder
+        const job = freshJob(plan, r, studyDir, label);
+        tasks.push({ ...r, job, prepared: await caseFromRunFolder(job.doc, plan.caseFile, plan.baseFolder, job.label) });
+      }
+    }
     return { prepared, plan, tasks };
-  }, { ...options, jobs: options.jobs });
+  }, options);
 }
 
 /** A grid's fresh run: the study's case on the grid's intervals, into the grid's folder. */

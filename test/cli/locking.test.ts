@@ -15,13 +15,13 @@ import { Checkpointer } from '../../src/run/checkpoint.js';
 import { FolderLock, lockFile, processStart, selfIdentity } from '../../src/run/lock.js';
 import { runCase } from '../../src/run/run-case.js';
 import { ensureBuilt } from './built.js';
-import { cli, json, sleep, start, switchingCase } from './processes.js';
+import { cli, json, sleep, smallSwitching, start, switchingCase } from './processes.js';
 import { expectSameFiles } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-lock-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 
-const caseText = switchingCase('locked');
+const caseText = switchingCase('locked', undefined, smallSwitching);
 const caseFile = join(tmp, 'locked.yaml');
 const reference = join(tmp, 'reference');
 

@@ -38,20 +38,23 @@ export async function cli(...args: string[]): Promise<{ code: number; out: strin
 export const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 export const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
 
+/** A smaller size of switchingCase for tests that run it many times. */
+export const smallSwitching = { intervals: 32, maxPoints: 40 };
+
 /**
  * A small 1D case that exercises what a resume must carry: branch switching (the queue of
  * branches), stability (eigen-solver warm starts), special points and their solutions.
  */
-export function switchingCase(name: string, checkpoint = '{every-points: 3, every-seconds: 60}'): string {
+export function switchingCase(name: string, checkpoint = '{every-points: 3, every-seconds: 60}', size: { intervals: number; maxPoints: number } = { intervals: 64, maxPoints: 80 }): string {
   return `name: ${name}
 model: allen-cahn
-grid: {intervals: [64]}
+grid: {intervals: [${size.intervals}]}
 parameters: {lambda: 1}
 continuation:
   parameter: lambda
   bounds: [0, 45]
   step: {initial: 0.5, min: 1.0e-8, max: 1}
-  max-points: 80
+  max-points: ${size.maxPoints}
   branch-switching: {depth: 1}
 stability: {eigenvalues: 2}
 checkpoint: ${checkpoint}

@@ -90,7 +90,7 @@ export function registerRun(program: Command, { io, setExit }: CommandContext): 
     .description('trace the steady states of case files and write a run directory per case (run.json, points.json, branches/*.csv, solutions/*.npy)')
     .argument('<case...>', 'case files (YAML or JSON); all are checked before any run starts')
     .option('--out <dir>', "output folder (default: the case's output.directory, else runs/<case name>); with several cases, a parent folder holding one folder per case name")
-    .option('--force', 'replace an earlier run in a non-empty output folder (only a folder holding a branchline run)')
+    .option('--force', "replace an earlier run in a non-empty output folder: only the files that run wrote (run.json lists them) are removed, yours stay")
     .option('--jobs <n>', 'run up to n cases at a time, each in its own process (default 1: one after another)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
@@ -104,6 +104,7 @@ that was stopped or killed, losing at most the points since its last checkpoint.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped,
 and cases not yet started are skipped; press again to leave at once (exit code 130; resume
 continues from the last checkpoint).
+One writer per folder: a folder another live process writes (its writer.lock) is refused.
 Exit codes: 0 every run finished; 1 a run failed or was stopped; 2 bad input (a case file, an
 option or an output folder), found before any run starts.`,
     )
