@@ -261,27 +261,17 @@ export class FolderLock {
         sleepSync(20);
         continue;
       }
-      // stale: its writer is gone
-      breakStale(dir, found.text);
+      // stale: its writer is gone (another process may be taking it over this instant: a pause)
+      if (!breakStale(dir, found.text)) sleepSync(5);
     }
     throw new InputError(`${options.label ?? dir}: could not take the folder's lock (${path}): other processes keep taking it`);
-  }
-
-  /** Whether the lock file still holds this process's identity. */
-  held(): boolean {
-    if (this.released) return false;
-    try {
-      return readFileSync(this.path, 'utf8') === this.text;
-    } catch {
-      return false;
-    }
   }
 
   /** Remove the lock (only if it is still ours). */
   release(): void {
     if (this.released) return;
     this.released = true;
-    if (!this.heldFile()) return;
+    if (!this.held()) return;
     try {
       unlinkSync(this.path);
     } catch {
@@ -289,7 +279,8 @@ export class FolderLock {
     }
   }
 
-  private heldFile(): boolean {
+  /** Whether the lock file still holds this process's identity. */
+  held(): boolean {
     try {
       return readFileSync(this.path, 'utf8') === this.text;
     } catch {
@@ -302,7 +293,7 @@ export class FolderLock {
  * Remove a stale lock whose content was `staleText`, under the break lock, and only if it still
  * holds exactly that content (another process may have taken the folder over meanwhile).
  */
-function breakStale(dir: string, staleText: string): void {
+function breakStale(dir: string, staleText: string): boolean {
   const breakPath = join(dir, lockFile + '.break');
   const me = JSON.stringify({ ...selfIdentity(), purpose: 'taking over a stale lock', since: new Date().toISOString() }) + '\n';
   if (!createExclusive(breakPath, me)) {
@@ -311,17 +302,17 @@ function breakStale(dir: string, staleText: string): void {
     try {
       text = readFileSync(breakPath, 'utf8');
     } catch {
-      return;
+      return false;
     }
     const w = parseIdentity(text);
-    if (w && liveness(w) !== 'dead') return;
+    if (w && liveness(w) !== 'dead') return false;
     // a dead breaker (or an unreadable break lock): remove it if unchanged, then retry from the top
     try {
       if (readFileSync(breakPath, 'utf8') === text) unlinkSync(breakPath);
     } catch {
       /* gone */
     }
-    return;
+    return false;
   }
   try {
     let now: string | undefined;
@@ -338,6 +329,7 @@ function breakStale(dir: string, staleText: string): void {
       /* gone */
     }
   }
+  return true;
 }
 
 /** Whether `name` (in a locked folder) is a file of the locking itself (never the user's, never the run's). */
