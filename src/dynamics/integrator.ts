@@ -185,7 +185,7 @@ export class TimeIntegration {
         nextSnapshot: nextSnapshotTime(settings.snapshots, settings.end, 0),
         watch: emptyWatch(problem.monitors.map((m) => m.name)),
         startMax: 0,
-        counters: { steps: 0, rejected: 0, newtonIterations: 0, newtonFailures: 0, residuals: 0, jacobians: 0, factorisations: 0, refactorisations: 0, solves: 0 },
+        counters: { steps: 0, rejected: 0, newtonIterations: 0, newtonFailures: 0, residuals: 0, jacobians: 0, factorisations: 0, refactorisations: 0, solves: 0, polish: { attempts: 0, iterations: 0, factorisations: 0 } },
       };
     }
   }
@@ -209,7 +209,7 @@ export class TimeIntegration {
 
   get counters(): DynamicsCounters {
     this.syncCounters();
-    return { ...this.state.counters };
+    return structuredClone(this.state.counters);
   }
 
   /** Current time and state (a copy). */
@@ -526,7 +526,15 @@ export class TimeIntegration {
     const measure = Math.min(s.residual, derivative);
     if (measure <= st.steadyTolerance && measure < s.polishFailedAt / 10) {
       const u = s.u.slice();
-      const r = polishSteadyState(this.problem, this.params, u, this.matrix, (f) => this.scaledNorm(f), st.newton);
+      // the polish's linear algebra is counted apart from the integration's
+      this.syncCounters();
+      const m = this.matrix;
+      const before = m.factorisations + m.refactorisations;
+      const r = polishSteadyState(this.problem, this.params, u, m, (f) => this.scaledNorm(f), st.newton);
+      s.counters.polish.attempts++;
+      s.counters.polish.iterations += r.iterations;
+      s.counters.polish.factorisations += m.factorisations + m.refactorisations - before;
+      this.matrixCounts = { jacobians: m.jacobians, factorisations: m.factorisations, refactorisations: m.refactorisations, solves: m.solves };
       // the polish used the iteration matrix: the integration's factors are gone
       this.restartLinearAlgebra();
       const diff = new Float64Array(this.n);

@@ -122,6 +122,8 @@ export interface DynamicsCounters {
   factorisations: number;
   refactorisations: number;
   solves: number;
+  /** The Newton polish of steady states (its factorisations are not in the counts above). */
+  polish: { attempts: number; iterations: number; factorisations: number };
 }
 
 /** An outcome in one sentence. */

@@ -32,6 +32,8 @@ export interface WatchState {
   /** Keep every `trendStride`-th sample (doubles when the buffer fills). */
   trendStride: number;
   trendCount: number;
+  /** The latest (t, residual), whatever the stride. */
+  latest: [number, number] | null;
 }
 
 export interface OscillationReport {
@@ -55,7 +57,7 @@ const keep = 10;
 const trendSamples = 64;
 
 export function emptyWatch(names: readonly string[]): WatchState {
-  return { signals: names.map((name) => ({ name, samples: [], maxima: [], minima: [] })), trend: [], trendStride: 1, trendCount: 0 };
+  return { signals: names.map((name) => ({ name, samples: [], maxima: [], minima: [] })), trend: [], trendStride: 1, trendCount: 0, latest: null };
 }
 
 /** The vertex of the parabola through three samples (t0 < t1 < t2). */
@@ -82,6 +84,7 @@ export function observe(w: WatchState, t: number, values: ArrayLike<number>, res
     else if (b[1] < a[1] && b[1] <= c[1]) pushLimited(s.minima, parabolaVertex(a, b, c));
   });
   if (Number.isFinite(residual) && residual > 0) {
+    w.latest = [t, residual];
     if (w.trendCount++ % w.trendStride === 0) w.trend.push([t, residual]);
     if (w.trend.length >= trendSamples) {
       w.trend = w.trend.filter((_x, i) => i % 2 === 0);
@@ -172,11 +175,13 @@ export function transientOscillation(w: WatchState, now: number): OscillationRep
  */
 export function residualTrend(w: WatchState): { timePerDecade: number; falling: boolean } | undefined {
   const n = w.trend.length;
-  if (n < 4) return undefined;
-  const tEnd = w.trend[n - 1][0];
+  if (n < 4 || !w.latest) return undefined;
+  const to = w.latest;
+  const tEnd = to[0];
   const tStart = w.trend[0][0];
-  const from = w.trend.find(([t]) => t >= tEnd - 0.2 * (tEnd - tStart)) ?? w.trend[0];
-  const to = w.trend[n - 1];
+  // the last sample at or before the start of the last fifth (at least one interval back)
+  const before = w.trend.filter(([t]) => t <= tEnd - 0.2 * (tEnd - tStart));
+  const from = before.length ? before[before.length - 1] : w.trend[0];
   if (to[0] <= from[0]) return undefined;
   const slope = (Math.log10(to[1]) - Math.log10(from[1])) / (to[0] - from[0]);
   if (slope === 0 || !Number.isFinite(slope)) return undefined;

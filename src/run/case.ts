@@ -54,6 +54,7 @@ import {
   type RunPoint,
   extrasForSolutionFile,
   extrasVector,
+  finalPoint,
   parsePointSpec,
   pointSpecAccepted,
   pointSpecText,
@@ -324,6 +325,12 @@ export function parseCaseText(text: string, label: string, json = false): unknow
 
 /** Read and check a case file, build its problem; nothing is written. */
 export async function prepareCase(file: string, options: { label?: string } = {}): Promise<PreparedCase> {
+  const { raw, opts } = readCaseFile(file, options);
+  return prepareCaseObject(raw, opts);
+}
+
+/** Read and parse a case file (one-line CaseErrors); the options for `prepareCaseObject` and its siblings. */
+export function readCaseFile(file: string, options: { label?: string } = {}): { raw: unknown; opts: PrepareObjectOptions } {
   const label = options.label ?? file;
   const abs = resolve(file);
   if (!existsSync(abs)) throw new CaseError(label, '', 'no such file');
@@ -336,7 +343,7 @@ export async function prepareCase(file: string, options: { label?: string } = {}
   }
   const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
   const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
-  return prepareCaseObject(raw, { label, file: abs, baseDir: dirname(abs), defaultName });
+  return { raw, opts: { label, file: abs, baseDir: dirname(abs), defaultName } };
 }
 
 export interface PrepareObjectOptions {
@@ -747,7 +754,7 @@ function resolveStartKey(
   fail: (field: string, detail: string) => never,
 ): StartKey | undefined {
   if (start === undefined) return undefined;
-  const accepted = '{solution: file.npy} or {run: folder, point: fold[:N], branch: K}';
+  const accepted = '{solution: file.npy}, {run: folder, point: fold[:N], branch: K} or {run: folder, point: final}';
   if (start.solution !== undefined && start.run !== undefined) fail('start', `gives both solution and run (accepted: ${accepted})`);
   if (start.solution !== undefined) {
     if (start.point !== undefined || start.branch !== undefined) fail('start', `point and branch go with run, not with solution (accepted: ${accepted})`);
@@ -756,6 +763,14 @@ function resolveStartKey(
   }
   if (start.run === undefined) fail('start', `names neither a solution file nor a run (accepted: ${accepted})`);
   if (start.point === undefined) fail('start.point', `is missing (accepted: ${pointSpecAccepted})`);
+  if (start.point!.trim().toLowerCase() === 'final') {
+    const dir = resolve(baseDir, start.run!);
+    try {
+      return { resolved: { run: dir, point: 'final', branch: 1 }, point: finalPoint(dir) };
+    } catch (e) {
+      return fail('start.run', (e as Error).message);
+    }
+  }
   const spec = parsePointSpec(start.point!);
   if (!spec) fail('start.point', `${showValue(start.point)} is not accepted (accepted: ${pointSpecAccepted})`);
   const dir = resolve(baseDir, start.run!);
