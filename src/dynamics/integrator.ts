@@ -88,8 +88,9 @@ export interface IntegratorState {
   polishFailedAt: number;
   nextSnapshot: number;
   watch: WatchState;
-  /** Largest |u| at the start (blow-up classification). */
+  /** Largest |u| and the scaled residual at the start (blow-up classification). */
   startMax: number;
+  startResidual: number;
   counters: DynamicsCounters;
 }
 
@@ -126,6 +127,7 @@ export class TimeIntegration {
   private readonly mass: Float64Array;
   private readonly algebraic: Uint8Array;
   private readonly differentialWeightSum: number;
+  private readonly weightSum: number;
   private state: IntegratorState;
   private quiescent = true;
   /** Step index at which the Jacobian of the factors was evaluated (−1: none, or stale). */
@@ -154,6 +156,7 @@ export class TimeIntegration {
     let ws = 0;
     for (let i = 0; i < n; i++) if (!this.algebraic[i]) ws += problem.weights[i];
     this.differentialWeightSum = ws > 0 ? ws : 1;
+    this.weightSum = problem.weights.reduce((x, y) => x + y, 0) || 1;
     this.f = new Float64Array(n);
     this.g = new Float64Array(n);
     this.d = new Float64Array(n);
@@ -185,6 +188,7 @@ export class TimeIntegration {
         nextSnapshot: nextSnapshotTime(settings.snapshots, settings.end, 0),
         watch: emptyWatch(problem.monitors.map((m) => m.name)),
         startMax: 0,
+        startResidual: Number.NaN,
         counters: { steps: 0, rejected: 0, newtonIterations: 0, newtonFailures: 0, residuals: 0, jacobians: 0, factorisations: 0, refactorisations: 0, solves: 0, polish: { attempts: 0, iterations: 0, factorisations: 0 } },
       };
     }
@@ -268,18 +272,22 @@ export class TimeIntegration {
     return Math.sqrt(sum);
   }
 
-  /** Weighted RMS of v over the differential unknowns in tolerance units (scale from a and b). */
-  private errorNorm(v: Float64Array, a: Float64Array, b?: Float64Array): number {
+  /**
+   * Weighted RMS of v in tolerance units (scale from a and b), over the differential unknowns
+   * (the local error) or, with `all`, over every unknown (Newton's updates: the algebraic ones
+   * must converge too).
+   */
+  private errorNorm(v: Float64Array, a: Float64Array, b?: Float64Array, all = false): number {
     const w = this.problem.weights;
     const { relativeTolerance: rt, absoluteTolerance: at } = this.settings;
     let sum = 0;
     for (let i = 0; i < this.n; i++) {
-      if (this.algebraic[i]) continue;
+      if (this.algebraic[i] && !all) continue;
       const scale = at + rt * Math.max(Math.abs(a[i]), b ? Math.abs(b[i]) : 0);
       const e = v[i] / scale;
       sum += w[i] * e * e;
     }
-    return Math.sqrt(sum / this.differentialWeightSum);
+    return Math.sqrt(sum / (all ? this.weightSum : this.differentialWeightSum));
   }
 
   private monitorsOf(u: Float64Array): Record<string, number> {
@@ -317,6 +325,7 @@ export class TimeIntegration {
     if (!Number.isFinite(s.residual)) throw new DynamicsError('the residual is not finite at the initial state');
     for (let i = 0; i < this.n; i++) s.startDerivative[i] = this.algebraic[i] ? 0 : this.f[i] / this.mass[i];
     s.startMax = infNorm(s.u);
+    s.startResidual = s.residual;
     if (settings.fixedStep !== undefined) s.h = settings.fixedStep;
     else if (settings.initialStep !== undefined) s.h = settings.initialStep;
     else {
@@ -435,7 +444,7 @@ export class TimeIntegration {
         throw e;
       }
       if (scale !== 1) for (let i = 0; i < n; i++) d[i] *= scale;
-      const norm = this.errorNorm(d, x);
+      const norm = this.errorNorm(d, x, undefined, true);
       if (!Number.isFinite(norm)) return { ok: false, iterations: k + 1 };
       if (k > 0) {
         const theta = norm / previousNorm;
@@ -585,7 +594,9 @@ export class TimeIntegration {
   private collapse(h: number): Outcome {
     const s = this.state;
     const max = infNorm(s.u);
-    if (max > 100 * Math.max(1, s.startMax)) {
+    // a step size that collapses while the state or its rate of change grows a lot: a singularity
+    // forms (blow-up in finite time), rather than a failure of the method
+    if (max > 10 * Math.max(1, s.startMax) || s.residual > 1e6 * Math.max(s.startResidual, this.settings.steadyTolerance)) {
       return { kind: 'blown-up', time: s.t, max, limit: this.settings.blowUp, collapsed: true };
     }
     return { kind: 'failed', time: s.t, message: `the step size fell to ${fmt(h)} (Newton's method or the error test failed at every smaller step)` };
