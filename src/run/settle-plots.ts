@@ -20,7 +20,7 @@ import { readRunJson } from './start.js';
 import { readCsv, readNpy, writeFileAtomic } from './writers.js';
 
 /** Columns of monitors.csv that are not monitors. */
-const bookkeeping = new Set(['step', 'time', 'step-size', 'residual', 'newton-iterations', 'factorised']);
+const bookkeeping = new Set(['step', 'time', 'time-step', 'residual', 'newton-iterations', 'factorised']);
 
 const words: Record<string, string> = { max: 'max', min: 'min', 'l2-norm': 'L2 norm' };
 

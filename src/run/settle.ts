@@ -8,7 +8,7 @@
  *                        monitors, extra unknowns, and its stability when eigenvalues were asked
  *                        for), the initial state (where it came from, the noise seed), the
  *                        snapshots, counts (steps, rejections, factorisations) and timings
- *   monitors.csv         one row per accepted step: step, time, step-size, the monitors, extra
+ *   monitors.csv         one row per accepted step: step, time, time-step, the monitors, extra
  *                        unknowns, residual, newton-iterations, factorised
  *   snapshots/*.npy      the state at t = 0 and at the scheduled times (node arrays, as in runs)
  *   solutions/final.npy  the final state (polished by Newton when steady)
@@ -105,7 +105,7 @@ export function snapshotName(time: number): string {
 export function settleColumns(prepared: PreparedSettleCase): { columns: string[]; monitors: string[]; extras: string[] } {
   const monitors = prepared.problem.monitors.map((m) => m.name);
   const extras = prepared.problem.extraUnknowns.map((e) => e.name).filter((n) => !monitors.includes(n));
-  return { columns: ['step', 'time', 'step-size', ...monitors, ...extras, 'residual', 'newton-iterations', 'factorised'], monitors, extras };
+  return { columns: ['step', 'time', 'time-step', ...monitors, ...extras, 'residual', 'newton-iterations', 'factorised'], monitors, extras };
 }
 
 /** Integrate a prepared settle case to its end (or a stop request); never throws for numerical trouble. */

@@ -82,7 +82,7 @@ describe('branchline settle (in process)', () => {
   it('writes one monitors.csv row per step and a final state whose residual is at round-off', async () => {
     const run = json(join(out, 'run.json'));
     const csv = readCsv(join(out, 'monitors.csv'));
-    expect(csv.columns).toEqual(['step', 'time', 'step-size', 'max:u', 'min:u', 'l2-norm:u', 'max:v', 'min:v', 'l2-norm:v', 'residual', 'newton-iterations', 'factorised']);
+    expect(csv.columns).toEqual(['step', 'time', 'time-step', 'max:u', 'min:u', 'l2-norm:u', 'max:v', 'min:v', 'l2-norm:v', 'residual', 'newton-iterations', 'factorised']);
     expect(csv.rows).toHaveLength(run.counts.steps + 1);
     expect(csv.rows.map((r) => r[0])).toEqual(csv.rows.map((_r, i) => i));
     // the saved final state, read back and checked with the model's residual
