@@ -2,7 +2,7 @@
  * The heat equation u_t = u″ on (0, 1) with u = 0 at both ends (allen-cahn with λ = 0), from
  * u(x, 0) = sin(πx): on the grid, sin(πx_i) is an eigenvector of the discrete Laplacian, so the
  * semi-discrete solution is exactly e^{−μt} sin(πx_i) with the grid's own eigenvalue
- * μ = (4/h²) sin²(πh/2) (standard FD result). The integrator must reproduce that decay rate, and
+ * μ = (4/h²) sin²(πh/2) (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory). The integrator must reproduce that decay rate, and
  * its error at a fixed time must fall with the step size at its nominal order 2 (BDF2).
  */
 import { describe, expect, it } from 'vitest';
@@ -16,7 +16,7 @@ const h = 1 / N;
 const problem = models['allen-cahn'].factory({ grid: { intervals: [N] } });
 const p = resolveParameters(problem, { lambda: 0 });
 const u0 = Float64Array.from({ length: problem.size }, (_, i) => Math.sin(Math.PI * (i + 1) * h));
-// standard FD result: the discrete Dirichlet Laplacian's first eigenvalue
+// LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory: the discrete Dirichlet Laplacian's first eigenvalue
 const mu = (4 / h ** 2) * Math.sin((Math.PI * h) / 2) ** 2;
 
 describe('the heat equation from sin(πx)', () => {

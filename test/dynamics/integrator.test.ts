@@ -81,7 +81,7 @@ describe('snapshots, drift and oscillation reports', () => {
   const p = resolveParameters(heat, { lambda: 0 });
   const h = 1 / 20;
   const u0 = Float64Array.from({ length: heat.size }, (_, i) => Math.sin(Math.PI * (i + 1) * h));
-  const mu = (4 / h ** 2) * Math.sin((Math.PI * h) / 2) ** 2; // standard FD result
+  const mu = (4 / h ** 2) * Math.sin((Math.PI * h) / 2) ** 2; // LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory
 
   it('hands out states at the scheduled times (interpolated) and reports the residual’s fall at the time limit', () => {
     const r = integrate(heat, p, { end: 0.3, snapshots: { every: 0.05 }, relativeTolerance: 1e-7, absoluteTolerance: 1e-11, steadyTolerance: 1e-14 }, { start: u0 });
