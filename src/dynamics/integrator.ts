@@ -38,6 +38,7 @@ import { algebraicIndexProblem, algebraicUnknowns, consistentStart } from './alg
 import { bdfFormula, combine, correctorConstant, hermitePredict, lagrangeWeights, predictorConstant } from './bdf2.js';
 import { IterationMatrix } from './iteration-matrix.js';
 import { polishSteadyState } from './polish.js';
+import { type SteadyStability, steadyStability } from './stability.js';
 import type { DynamicsCounters, DynamicsEvent, Outcome, SnapshotSchedule, StepRecord, TimeSettings } from './types.js';
 import { type WatchState, emptyWatch, observe, residualTrend, steadyOscillation, transientOscillation } from './watch.js';
 
@@ -58,6 +59,8 @@ const maxNewton = 7;
 const etaFloor = 0.05;
 /** The polished state must lie within this relative distance of the integrated one. */
 const polishDistance = 0.01;
+/** After an unstable steady state, steady states count again once the residual has risen this far above the tolerance. */
+const rearm = 100;
 
 interface Past {
   t: number;
@@ -86,6 +89,12 @@ export interface IntegratorState {
   residual: number;
   /** The steady-test value at which the last polish failed (polish again only well below it). */
   polishFailedAt: number;
+  /**
+   * An unstable steady state the state is near (found by the polish, eigenvalues asked for): no
+   * steady state counts until the residual has risen `rearm`-fold above the steady tolerance, and
+   * steps stay below 1/(its rightmost eigenvalue) so that the departure is resolved.
+   */
+  nearUnstable: { time: number; leading: number } | null;
   nextSnapshot: number;
   watch: WatchState;
   /** Largest |u| and the scaled residual at the start (blow-up classification). */
@@ -185,6 +194,7 @@ export class TimeIntegration {
         rowScale: new Float64Array(n).fill(1),
         residual: Number.NaN,
         polishFailedAt: Infinity,
+        nearUnstable: null,
         nextSnapshot: nextSnapshotTime(settings.snapshots, settings.end, 0),
         watch: emptyWatch(problem.monitors.map((m) => m.name)),
         startMax: 0,
@@ -468,7 +478,7 @@ export class TimeIntegration {
     const st = this.settings;
     const minStep = 1e-14 * Math.max(1, s.t, st.end * 1e-6);
     const left = st.end - s.t;
-    let h = Math.min(s.h, st.maxStep ?? Infinity);
+    let h = Math.min(s.h, st.maxStep ?? Infinity, s.nearUnstable ? 1 / s.nearUnstable.leading : Infinity);
     if (left <= h * (1 + 1e-9)) h = left;
     // a last step much shorter than the one before would be a poor ratio: split the rest in two
     else if (st.fixedStep === undefined && left < 1.5 * h) h = left / 2;
@@ -533,40 +543,30 @@ export class TimeIntegration {
     if (max > st.blowUp) return this.finish({ kind: 'blown-up', time: s.t, max, limit: st.blowUp }, events);
     // steady?
     const measure = Math.min(s.residual, derivative);
-    if (measure <= st.steadyTolerance && measure < s.polishFailedAt / 10) {
-      const u = s.u.slice();
-      // the polish's linear algebra is counted apart from the integration's
-      this.syncCounters();
-      const m = this.matrix;
-      const before = m.factorisations + m.refactorisations;
-      const r = polishSteadyState(this.problem, this.params, u, m, (f) => this.scaledNorm(f), st.newton);
-      s.counters.polish.attempts++;
-      s.counters.polish.iterations += r.iterations;
-      s.counters.polish.factorisations += m.factorisations + m.refactorisations - before;
-      this.matrixCounts = { jacobians: m.jacobians, factorisations: m.factorisations, refactorisations: m.refactorisations, solves: m.solves };
-      // the polish used the iteration matrix: the integration's factors are gone
-      this.restartLinearAlgebra();
-      const diff = new Float64Array(this.n);
-      for (let i = 0; i < this.n; i++) diff[i] = u[i] - s.u[i];
-      const w = this.problem.weights;
-      const relative = Math.sqrt(weightedDot(w, diff, diff) / Math.max(weightedDot(w, s.u, s.u), 1e-300));
-      if (r.converged && relative <= polishDistance) {
-        const integratedResidual = s.residual;
-        s.u = u;
-        s.residual = r.residual;
-        return this.finish(
-          { kind: 'steady', time: s.t, integratedResidual, residual: r.residual, newtonIterations: r.iterations, distance: this.errorNorm(diff, u) },
-          events,
-        );
+    const saddle = s.nearUnstable;
+    if (saddle && measure > rearm * st.steadyTolerance) {
+      // the dynamics has left the unstable steady state: steady states count again
+      s.nearUnstable = null;
+      events.push({ type: 'log', level: 'info', message: `at t = ${fmt(s.t)} the state has left the unstable steady state met at t = ${fmt(saddle.time)}` });
+    }
+    if (!s.nearUnstable && measure <= st.steadyTolerance && measure < s.polishFailedAt / 10) {
+      const found = this.polished(measure, events);
+      if (found && found.stability?.stable === false) {
+        // passed near an unstable steady state: go on (steps kept short enough to see it leave)
+        s.nearUnstable = { time: s.t, leading: found.stability.leading!.re };
+        events.push({
+          type: 'log',
+          level: 'info',
+          message: `at t = ${fmt(s.t)} the state is near a steady state that is unstable (rightmost eigenvalue ${fmt(found.stability.leading!.re)}): integrating on`,
+        });
+      } else if (found) {
+        return this.finishSteady(found, events);
       }
-      s.polishFailedAt = measure;
-      events.push({
-        type: 'log',
-        level: 'info',
-        message: r.converged
-          ? `at t = ${fmt(s.t)} the residual is ${fmt(measure)}, but Newton's method went to a steady state ${fmt(100 * relative)}% away: integrating on`
-          : `at t = ${fmt(s.t)} the residual is ${fmt(measure)}, but Newton's method did not converge (${r.message}): integrating on`,
-      });
+    }
+    if (s.nearUnstable && (s.t >= st.end || s.counters.steps >= st.maxSteps)) {
+      // it never left (an exactly symmetric state cannot): that unstable steady state is the result
+      const found = this.polished(Math.min(s.residual, derivative), events);
+      if (found) return this.finishSteady(found, events);
     }
     const osc = steadyOscillation(s.watch);
     if (osc) {
@@ -588,6 +588,72 @@ export class TimeIntegration {
       );
     }
     return events;
+  }
+
+  /**
+   * Polish the current state by Newton's method. A steady state when it converges within 1% of the
+   * integrated state (then, with eigenvalues asked for, with its stability); else undefined, and a
+   * log line says why.
+   */
+  private polished(measure: number, events: DynamicsEvent[]): { u: Float64Array; residual: number; iterations: number; distance: number; stability?: SteadyStability } | undefined {
+    const s = this.state;
+    const st = this.settings;
+    const u = s.u.slice();
+    // the polish's linear algebra is counted apart from the integration's
+    this.syncCounters();
+    const m = this.matrix;
+    const before = m.factorisations + m.refactorisations;
+    const r = polishSteadyState(this.problem, this.params, u, m, (f) => this.scaledNorm(f), st.newton);
+    s.counters.polish.attempts++;
+    s.counters.polish.iterations += r.iterations;
+    s.counters.polish.factorisations += m.factorisations + m.refactorisations - before;
+    this.matrixCounts = { jacobians: m.jacobians, factorisations: m.factorisations, refactorisations: m.refactorisations, solves: m.solves };
+    // the polish used the iteration matrix: the integration's factors are gone
+    this.restartLinearAlgebra();
+    const diff = new Float64Array(this.n);
+    for (let i = 0; i < this.n; i++) diff[i] = u[i] - s.u[i];
+    const w = this.problem.weights;
+    const relative = Math.sqrt(weightedDot(w, diff, diff) / Math.max(weightedDot(w, s.u, s.u), 1e-300));
+    if (r.converged && relative <= polishDistance) {
+      const k = st.stability?.eigenvalues ?? 0;
+      let stability: SteadyStability | undefined;
+      if (k > 0) {
+        try {
+          stability = steadyStability(this.problem, this.params, u, k);
+        } catch (e) {
+          events.push({ type: 'log', level: 'warning', message: `the eigenvalues of the steady state could not be computed: ${(e as Error).message}` });
+        }
+      }
+      return { u, residual: r.residual, iterations: r.iterations, distance: this.errorNorm(diff, u), ...(stability ? { stability } : {}) };
+    }
+    s.polishFailedAt = measure;
+    events.push({
+      type: 'log',
+      level: 'info',
+      message: r.converged
+        ? `at t = ${fmt(s.t)} the residual is ${fmt(measure)}, but Newton's method went to a steady state ${fmt(100 * relative)}% away: integrating on`
+        : `at t = ${fmt(s.t)} the residual is ${fmt(measure)}, but Newton's method did not converge (${r.message}): integrating on`,
+    });
+    return undefined;
+  }
+
+  private finishSteady(found: NonNullable<ReturnType<TimeIntegration['polished']>>, events: DynamicsEvent[]): DynamicsEvent[] {
+    const s = this.state;
+    const integratedResidual = s.residual;
+    s.u = found.u;
+    s.residual = found.residual;
+    return this.finish(
+      {
+        kind: 'steady',
+        time: s.t,
+        integratedResidual,
+        residual: found.residual,
+        newtonIterations: found.iterations,
+        distance: found.distance,
+        ...(found.stability ? { stability: found.stability } : {}),
+      },
+      events,
+    );
   }
 
   /** The step size fell below the smallest allowed: a blow-up when the state grew a lot, else a failure. */

@@ -2,6 +2,7 @@
  * Types of the time integration to a steady state (src/dynamics/): its settings, the events it
  * yields to the run layer, and how it ends. No I/O here or anywhere in src/dynamics/.
  */
+import type { SteadyStability } from './stability.js';
 
 /** When to hand out states for snapshot files: never, at 1, 2, 5 × 10^k time units, or every T. */
 export type SnapshotSchedule = 'none' | 'auto' | { every: number };
@@ -30,6 +31,11 @@ export interface TimeSettings {
   snapshots: SnapshotSchedule;
   /** Tests: constant steps of this size, no error control (order studies). */
   fixedStep?: number;
+  /**
+   * Rightmost eigenvalues of a steady state (0 or absent: none). With them, a steady state found
+   * unstable is passed by (the integration goes on until the state leaves it).
+   */
+  stability?: { eigenvalues: number };
 }
 
 export const defaultTimeSettings: Omit<TimeSettings, 'end'> = {
@@ -54,6 +60,8 @@ export type Outcome =
       newtonIterations: number;
       /** Weighted RMS distance between the integrated and the polished state, in tolerance units. */
       distance: number;
+      /** Its stability, when eigenvalues were asked for (unstable only when the state never left it). */
+      stability?: SteadyStability;
     }
   | {
       kind: 'oscillating';
@@ -131,7 +139,10 @@ export function outcomeText(o: Outcome): string {
   const t = (x: number) => Number(x.toPrecision(6)).toString();
   switch (o.kind) {
     case 'steady':
-      return `steady state reached at t = ${t(o.time)} (residual ${o.integratedResidual.toExponential(2)}, polished by Newton to ${o.residual.toExponential(2)})`;
+      return (
+        `steady state reached at t = ${t(o.time)} (residual ${o.integratedResidual.toExponential(2)}, polished by Newton to ${o.residual.toExponential(2)})` +
+        (o.stability?.stable === false ? ': an unstable one, which the state did not leave by the limit (a symmetric state cannot; noise on the initial state lets it)' : '')
+      );
     case 'oscillating':
       return `oscillating with period ${t(o.period)} (read from ${o.monitor}; amplitude ${t(o.amplitudes[o.monitor] ?? NaN)}) at t = ${t(o.time)}: no steady state reached`;
     case 'drifting': {

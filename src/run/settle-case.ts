@@ -181,7 +181,7 @@ export async function prepareSettleCaseObject(raw: unknown, opts: PrepareObjectO
     case: resolved,
     problem,
     params: Object.freeze({ ...params }),
-    time: timeSettings(time),
+    time: { ...timeSettings(time), stability: { eigenvalues: resolved.stability.eigenvalues } },
     ...(parts.caution ? { caution: parts.caution } : {}),
     ...(parts.start ? { start: parts.start } : {}),
   };

@@ -37,7 +37,7 @@ export function formatSettleSummary(result: SettleResult, prepared: PreparedSett
   if (o) out.push(`${outcomeText(o).replace(/^./, (c) => c.toUpperCase())}.`);
   if (result.stability) out.push(`  The steady state is ${stabilityWords(result.stability)}.`);
   if (result.stability?.stable === false) {
-    out.push('  The integration came close to this state, but the dynamics leaves it: start from it with noise on top (start: {run: DIR, point: final}, initial: {noise: ...}) to follow where it goes.');
+    out.push('  The state stayed at this unstable steady state to the limit: start from it with noise on top (start: {run: DIR, point: final}, initial: {noise: ...}) to follow where the dynamics goes.');
   }
   const final = result.record.final as { monitors?: Record<string, number> } | undefined;
   if (final?.monitors) {

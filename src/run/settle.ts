@@ -24,7 +24,7 @@ import { mkdirSync, readdirSync, rmSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { join, resolve } from 'node:path';
 import { TimeIntegration, type IntegratorState } from '../dynamics/integrator.js';
-import { type SteadyStability, steadyStability, stabilityWords } from '../dynamics/stability.js';
+import { type SteadyStability, stabilityWords } from '../dynamics/stability.js';
 import { type DynamicsCounters, type Outcome, outcomeText } from '../dynamics/types.js';
 import { type CheckpointDocument, checkpointFile, checkpointFormat, checkpointVersion, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
@@ -290,15 +290,9 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
                 ...(extraValues(problem, ev.u) ? { 'extra-unknowns': extraValues(problem, ev.u) } : {}),
               };
             }
-            if (outcome.kind === 'steady' && prepared.case.stability.eigenvalues > 0) {
-              try {
-                stability = steadyStability(problem, params, ev.u, prepared.case.stability.eigenvalues);
-                final!.stability = { ...stability, text: stabilityWords(stability) };
-              } catch (e) {
-                const w = `the eigenvalues of the steady state could not be computed: ${(e as Error).message}`;
-                ledger.warnings.push(w);
-                log('warning', w);
-              }
+            if (outcome.kind === 'steady' && outcome.stability) {
+              stability = outcome.stability;
+              if (final) final.stability = { ...stability, text: stabilityWords(stability) };
             }
             break;
           }
