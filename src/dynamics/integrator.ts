@@ -57,7 +57,7 @@ export const maxGrowth = 2;
 const kappa = 0.05;
 const maxNewton = 7;
 const etaFloor = 0.05;
-/** The polished state must lie within this relative distance of the integrated one. */
+/** The polished state must lie within this relative distance of the integrated one (or within the tolerances). */
 const polishDistance = 0.01;
 /** After an unstable steady state, steady states count again once the residual has risen this far above the tolerance. */
 const rearm = 100;
@@ -614,7 +614,8 @@ export class TimeIntegration {
     for (let i = 0; i < this.n; i++) diff[i] = u[i] - s.u[i];
     const w = this.problem.weights;
     const relative = Math.sqrt(weightedDot(w, diff, diff) / Math.max(weightedDot(w, s.u, s.u), 1e-300));
-    if (r.converged && relative <= polishDistance) {
+    const distance = this.errorNorm(diff, u);
+    if (r.converged && (relative <= polishDistance || distance <= 1)) {
       const k = st.stability?.eigenvalues ?? 0;
       let stability: SteadyStability | undefined;
       if (k > 0) {
@@ -624,7 +625,7 @@ export class TimeIntegration {
           events.push({ type: 'log', level: 'warning', message: `the eigenvalues of the steady state could not be computed: ${(e as Error).message}` });
         }
       }
-      return { u, residual: r.residual, iterations: r.iterations, distance: this.errorNorm(diff, u), ...(stability ? { stability } : {}) };
+      return { u, residual: r.residual, iterations: r.iterations, distance, ...(stability ? { stability } : {}) };
     }
     s.polishFailedAt = measure;
     events.push({

@@ -5,10 +5,10 @@
  * oscillation watch on known signals, and bit-for-bit resumption from a snapshot.
  */
 import { describe, expect, it } from 'vitest';
-import { models } from '../../discretisations/index.js';
+import { initialStateBuilder, models } from '../../discretisations/index.js';
 import { DynamicsError, TimeIntegration } from '../../src/dynamics/integrator.js';
 import { algebraicIndexProblem } from '../../src/dynamics/algebraic.js';
-import { defaultTimeSettings } from '../../src/dynamics/types.js';
+import { defaultTimeSettings, outcomeText } from '../../src/dynamics/types.js';
 import { emptyWatch, observe, steadyOscillation, transientOscillation } from '../../src/dynamics/watch.js';
 import { resolveParameters } from '../../src/problem/problem.js';
 import { toyProblem } from '../continuation/collect.js';
@@ -73,6 +73,35 @@ describe('ignition (Bratu–Gelfand, u_t = u″ + λeᵘ, cold walls)', () => {
     const r = integrate(bratu, p, { end: 100, blowUp: 1e3 });
     expect(r.outcome.kind).toBe('blown-up');
     if (r.outcome.kind === 'blown-up') expect(r.outcome.time).toBeLessThan(5);
+  });
+});
+
+describe('unstable steady states', () => {
+  // Allen–Cahn at λ = 20 (between π² and 4π²): u = 0 is unstable with one positive eigenvalue
+  // λ − μ₁ (μ₁ the grid's first Laplacian eigenvalue), the one-signed states ±u₁ are stable
+  // (Chafee & Infante 1974)
+  const ac = models['allen-cahn'].factory({ grid: { intervals: [30] } });
+  const p = resolveParameters(ac, { lambda: 20 });
+  const u0 = initialStateBuilder(ac, { values: { u: 0 }, noise: { amplitude: 1e-9, seed: 5 } }).build(p);
+
+  it('are taken as the result without eigenvalues, and passed by with them, on to a stable state', () => {
+    const blind = integrate(ac, p, { end: 100 }, { start: u0 });
+    expect(blind.outcome).toMatchObject({ kind: 'steady', time: 0 });
+    expect(Math.max(...blind.final.map(Math.abs))).toBeLessThan(1e-12);
+    const seeing = integrate(ac, p, { end: 100, stability: { eigenvalues: 2 } }, { start: u0 });
+    expect(seeing.logs.some((l) => /near a steady state that is unstable/.test(l))).toBe(true);
+    expect(seeing.logs.some((l) => /has left the unstable steady state/.test(l))).toBe(true);
+    expect(seeing.outcome.kind).toBe('steady');
+    if (seeing.outcome.kind === 'steady') expect(seeing.outcome.stability?.stable).toBe(true);
+    expect(Math.max(...seeing.final.map(Math.abs))).toBeGreaterThan(0.5);
+    expect(new Set(Array.from(seeing.final, Math.sign)).size).toBe(1);
+  });
+
+  it('are the result when the state never leaves them (an exactly symmetric start), and say so', () => {
+    const r = integrate(ac, p, { end: 50, stability: { eigenvalues: 2 } }, { start: new Float64Array(ac.size) });
+    expect(r.outcome.kind).toBe('steady');
+    if (r.outcome.kind === 'steady') expect(r.outcome.stability?.stable).toBe(false);
+    expect(outcomeText(r.outcome)).toMatch(/an unstable one, which the state did not leave/);
   });
 });
 
