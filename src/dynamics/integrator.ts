@@ -61,6 +61,8 @@ const etaFloor = 0.05;
 const polishDistance = 0.01;
 /** After an unstable steady state, steady states count again once the residual has risen this far above the tolerance. */
 const rearm = 100;
+/** ...or once this many e-folding times of its rightmost eigenvalue have passed. */
+const rearmGrowth = 20;
 
 interface Past {
   t: number;
@@ -544,8 +546,9 @@ export class TimeIntegration {
     // steady?
     const measure = Math.min(s.residual, derivative);
     const saddle = s.nearUnstable;
-    if (saddle && measure > rearm * st.steadyTolerance) {
-      // the dynamics has left the unstable steady state: steady states count again
+    if (saddle && (measure > rearm * st.steadyTolerance || s.t - saddle.time > rearmGrowth / saddle.leading)) {
+      // the dynamics has left the unstable steady state (the residual rose, or any disturbance has
+      // grown e^20-fold since): steady states count again
       s.nearUnstable = null;
       events.push({ type: 'log', level: 'info', message: `at t = ${fmt(s.t)} the state has left the unstable steady state met at t = ${fmt(saddle.time)}` });
     }
