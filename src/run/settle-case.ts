@@ -21,38 +21,19 @@ import { z } from 'zod';
 import { algebraicIndexProblem } from '../dynamics/algebraic.js';
 import { type SnapshotSchedule, type TimeSettings, defaultTimeSettings } from '../dynamics/types.js';
 import type { Params, Problem } from '../problem/problem.js';
-import { type CaseParts, type ModelKind, type PrepareObjectOptions, type ResolvedStart, defaultCheckpoint, prepareCaseParts, readCaseFile, showValue } from './case.js';
-import { type ResolvedInitial, initialDocument } from './initial.js';
+import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, defaultCheckpoint, prepareCaseParts, readCaseFile, showValue } from './case.js';
+import { initialDocument } from './initial.js';
 
-export interface ResolvedTime {
-  end: number;
-  maxSteps: number;
-  tolerance: { relative: number; absolute: number };
-  initialStep?: number;
-  maxStep?: number;
-  steadyTolerance: number;
-  newton: { tolerance: number; maxIterations: number };
-  blowUp: number;
-  snapshots: SnapshotSchedule;
-}
+/** The `time:` section, resolved: the integrator's settings (every default filled in). */
+export type ResolvedTime = Omit<TimeSettings, 'stability' | 'fixedStep'>;
 
-export interface ResolvedSettleCase {
-  name: string;
-  model: string;
-  modelKind: ModelKind;
-  modelOptions: Record<string, unknown>;
-  grid: { intervals: number[]; length: number[] };
-  parameters: Record<string, number>;
-  parameterDeclarations?: Record<string, unknown>;
+/** A resolved settle case: what every case has (as for runs) and the `time:` section. */
+export type ResolvedSettleCase = Omit<ResolvedCase, 'continuation' | 'output' | 'plot'> & {
   time: ResolvedTime;
   output: { directory?: string };
-  stability: { eigenvalues: number };
-  checkpoint: { everyPoints: number; everySeconds: number };
-  start?: ResolvedStart;
-  initial?: ResolvedInitial;
   /** The `continuation:` section, kept as given (for `branchline run` on the same file). */
   continuation?: unknown;
-}
+};
 
 export interface PreparedSettleCase {
   label: string;
@@ -115,29 +96,14 @@ export function resolveTime(raw: unknown, fail: (field: string, detail: string) 
   return {
     end: t.end,
     maxSteps: t['max-steps'] ?? d.maxSteps,
-    tolerance: { relative: t.tolerance?.relative ?? d.relativeTolerance, absolute: t.tolerance?.absolute ?? d.absoluteTolerance },
+    relativeTolerance: t.tolerance?.relative ?? d.relativeTolerance,
+    absoluteTolerance: t.tolerance?.absolute ?? d.absoluteTolerance,
     ...(t['initial-step'] !== undefined ? { initialStep: t['initial-step'] } : {}),
     ...(t['max-step'] !== undefined ? { maxStep: t['max-step'] } : {}),
     steadyTolerance: t['steady-tolerance'] ?? d.steadyTolerance,
     newton: { tolerance: t.newton?.tolerance ?? d.newton.tolerance, maxIterations: t.newton?.['max-iterations'] ?? d.newton.maxIterations },
     blowUp: t['blow-up'] ?? d.blowUp,
     snapshots,
-  };
-}
-
-/** The integrator's settings from the resolved `time:` section. */
-export function timeSettings(t: ResolvedTime): TimeSettings {
-  return {
-    end: t.end,
-    maxSteps: t.maxSteps,
-    relativeTolerance: t.tolerance.relative,
-    absoluteTolerance: t.tolerance.absolute,
-    ...(t.initialStep !== undefined ? { initialStep: t.initialStep } : {}),
-    ...(t.maxStep !== undefined ? { maxStep: t.maxStep } : {}),
-    steadyTolerance: t.steadyTolerance,
-    newton: { ...t.newton },
-    blowUp: t.blowUp,
-    snapshots: t.snapshots,
   };
 }
 
@@ -181,7 +147,7 @@ export async function prepareSettleCaseObject(raw: unknown, opts: PrepareObjectO
     case: resolved,
     problem,
     params: Object.freeze({ ...params }),
-    time: { ...timeSettings(time), stability: { eigenvalues: resolved.stability.eigenvalues } },
+    time: { ...time, newton: { ...time.newton }, stability: { eigenvalues: resolved.stability.eigenvalues } },
     ...(parts.caution ? { caution: parts.caution } : {}),
     ...(parts.start ? { start: parts.start } : {}),
   };
@@ -201,7 +167,7 @@ export function settleCaseDocument(c: ResolvedSettleCase): Record<string, unknow
     time: {
       end: t.end,
       'max-steps': t.maxSteps,
-      tolerance: { ...t.tolerance },
+      tolerance: { relative: t.relativeTolerance, absolute: t.absoluteTolerance },
       ...(t.initialStep !== undefined ? { 'initial-step': t.initialStep } : {}),
       ...(t.maxStep !== undefined ? { 'max-step': t.maxStep } : {}),
       'steady-tolerance': t.steadyTolerance,

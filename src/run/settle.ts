@@ -32,6 +32,7 @@ import { RunDirectory, type RunStatus, emptyLedger, extraValues, runFormat, runF
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
 import { softwareVersion } from './version.js';
+import { problemDocument } from './run-record.js';
 import { CsvWriter, type CsvCell, formatNumber, writeJsonAtomic, writeNpy } from './writers.js';
 import { checkRecordedLengths, resumableCheckpoint } from './batch.js';
 
@@ -129,7 +130,6 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
   const previousSeconds = resume?.checkpoint.run.seconds ?? 0;
   let sequence = resume?.checkpoint.sequence ?? 0;
   let lastCheckpoint = resume ? { file: resume.file, sequence, written: resume.checkpoint.written, steps: resume.checkpoint.ledger.points } : undefined;
-  const description = problem.describe();
   let status: RunStatus = 'running';
   let failure: string | undefined;
   let outcome: Outcome | undefined;
@@ -153,16 +153,7 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
     ...(resumes.length ? { resumed: resumes } : {}),
     ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
     ...(lastCheckpoint && status !== 'finished' ? { checkpoint: { ...lastCheckpoint } } : {}),
-    problem: {
-      model: description.model,
-      summary: description.summary,
-      fields: description.fields,
-      axes: description.axes.map((a) => ({ name: a.name, intervals: a.intervals, length: a.length, h: a.h, nodes: a.nodes })),
-      unknowns: problem.size,
-      'grid-unknowns': problem.gridUnknowns,
-      'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
-      ...(description.layout ? { layout: description.layout } : {}),
-    },
+    problem: problemDocument(problem),
     'start-parameters': { ...params },
     'initial-state': { from: prepared.start?.from ?? "the model's initial guess", ...(noise ? { 'noise-seed': noise.seed } : {}) },
     method: 'variable-step BDF2 (order 2, L-stable), backward Euler first step',
