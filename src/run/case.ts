@@ -857,6 +857,17 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
   };
 }
 
+/** The keys every resolved case writes first: name, model, the model's own keys, grid, parameters. */
+export function caseDocumentHead(c: Pick<ResolvedCase, 'name' | 'model' | 'modelOptions' | 'grid' | 'modelKind' | 'parameterDeclarations' | 'parameters'>): Record<string, unknown> {
+  return {
+    name: c.name,
+    model: c.model,
+    ...c.modelOptions,
+    grid: { intervals: c.grid.intervals, length: c.grid.length },
+    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+  };
+}
+
 /**
  * The resolved case in the case-file format (every default filled in), as stored in run.json;
  * `prepareCaseObject` reads it back (issue: resume).
@@ -864,11 +875,7 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
 export function caseDocument(c: ResolvedCase): Record<string, unknown> {
   const k = c.continuation;
   return {
-    name: c.name,
-    model: c.model,
-    ...c.modelOptions,
-    grid: { intervals: c.grid.intervals, length: c.grid.length },
-    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+    ...caseDocumentHead(c),
     continuation: {
       parameter: k.parameter,
       bounds: k.bounds,

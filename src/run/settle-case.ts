@@ -21,7 +21,7 @@ import { z } from 'zod';
 import { algebraicIndexProblem } from '../dynamics/algebraic.js';
 import { type SnapshotSchedule, type TimeSettings, defaultTimeSettings } from '../dynamics/types.js';
 import type { Params, Problem } from '../problem/problem.js';
-import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, defaultCheckpoint, prepareCaseParts, readCaseFile, showValue } from './case.js';
+import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, caseDocumentHead, defaultCheckpoint, prepareCaseParts, readCaseFile, showValue } from './case.js';
 import { initialDocument } from './initial.js';
 
 /** The `time:` section, resolved: the integrator's settings (every default filled in). */
@@ -157,11 +157,7 @@ export async function prepareSettleCaseObject(raw: unknown, opts: PrepareObjectO
 export function settleCaseDocument(c: ResolvedSettleCase): Record<string, unknown> {
   const t = c.time;
   return {
-    name: c.name,
-    model: c.model,
-    ...c.modelOptions,
-    grid: { intervals: c.grid.intervals, length: c.grid.length },
-    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+    ...caseDocumentHead(c),
     ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
     ...(c.start ? { start: { ...c.start } } : {}),
     time: {

@@ -21,18 +21,16 @@
  * command-line concerns here (no process.exit, no stdout).
  */
 import { mkdirSync, readdirSync, rmSync } from 'node:fs';
-import { hostname } from 'node:os';
 import { join, resolve } from 'node:path';
 import { TimeIntegration, type IntegratorState } from '../dynamics/integrator.js';
 import { type SteadyStability, stabilityWords } from '../dynamics/stability.js';
 import { type DynamicsCounters, type Outcome, outcomeText } from '../dynamics/types.js';
 import { type CheckpointDocument, checkpointFile, checkpointFormat, checkpointVersion, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
-import { RunDirectory, type RunStatus, emptyLedger, extraValues, runFormat, runFormatVersion } from './run-directory.js';
+import { RunDirectory, type RunStatus, emptyLedger, extraValues } from './run-directory.js';
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
-import { softwareVersion } from './version.js';
-import { problemDocument } from './run-record.js';
+import { isoNow, problemDocument, runHeader } from './run-record.js';
 import { CsvWriter, type CsvCell, formatNumber, writeJsonAtomic, writeNpy } from './writers.js';
 import { checkRecordedLengths, resumableCheckpoint } from './batch.js';
 
@@ -91,10 +89,6 @@ export function settleDirectory(prepared: PreparedSettleCase, outOverride?: stri
   return resolve('runs', prepared.case.name);
 }
 
-function isoNow(): string {
-  return new Date().toISOString();
-}
-
 const tick = (): Promise<void> => new Promise((r) => setImmediate(r));
 
 /** `time-0.05.npy`: snapshot files are named by their time. */
@@ -141,18 +135,8 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
   const noise = prepared.case.initial?.noise;
 
   const record = (): Record<string, unknown> => ({
-    format: runFormat,
-    'format-version': runFormatVersion,
+    ...runHeader({ status, ...(failure !== undefined ? { failure } : {}), caseFile: prepared.file ?? null, started, resumes, ...(lastCheckpoint ? { checkpoint: lastCheckpoint } : {}) }),
     kind: 'settle',
-    software: { ...softwareVersion(), node: process.version },
-    status,
-    ...(failure !== undefined ? { failure } : {}),
-    'case-file': prepared.file ?? null,
-    started,
-    ended: status === 'running' ? null : isoNow(),
-    ...(resumes.length ? { resumed: resumes } : {}),
-    ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
-    ...(lastCheckpoint && status !== 'finished' ? { checkpoint: { ...lastCheckpoint } } : {}),
     problem: problemDocument(problem),
     'start-parameters': { ...params },
     'initial-state': { from: prepared.start?.from ?? "the model's initial guess", ...(noise ? { 'noise-seed': noise.seed } : {}) },
