@@ -33,6 +33,7 @@ import { drawSettlePlots } from './settle-plots.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
 import { CsvWriter, type CsvCell, formatNumber, writeJsonAtomic, writeNpy } from './writers.js';
 import { checkRecordedLengths, resumableCheckpoint } from './batch.js';
+import { outputDirectory } from './run-case.js';
 
 /** Sync points: the first step, then every this many accepted steps (see the header). */
 export const settleSyncEvery = 50;
@@ -83,11 +84,7 @@ export interface SettleResult {
 }
 
 /** Output folder: `outOverride`, else the case's output.directory (relative to the case file), else runs/<name>. */
-export function settleDirectory(prepared: PreparedSettleCase, outOverride?: string): string {
-  if (outOverride !== undefined) return resolve(outOverride);
-  if (prepared.case.output.directory !== undefined) return resolve(prepared.baseDir, prepared.case.output.directory);
-  return resolve('runs', prepared.case.name);
-}
+export const settleDirectory = outputDirectory;
 
 const tick = (): Promise<void> => new Promise((r) => setImmediate(r));
 
