@@ -112,10 +112,13 @@ export function initialDocument(r: ResolvedInitial): unknown {
   return { ...(from !== undefined ? { from } : {}), ...r.values, ...(r.noise ? { noise: { amplitude: r.noise.amplitude, seed: r.noise.seed } } : {}) };
 }
 
-/** The state in words (for messages): `the initial state u = 1, v = 0.25*exp(...) with noise 0.01 (seed 7)`. */
+/** The state in words (for messages): `the initial state of the case (u and v written down, noise 0.001 with seed 7)`. */
 export function initialWords(r: ResolvedInitial): string {
-  const parts = Object.entries(r.values).map(([k, v]) => `${k} = ${typeof v === 'string' && v.length > 30 ? v.slice(0, 27) + '...' : v}`);
+  const names = Object.keys(r.values);
+  const parts: string[] = [];
   const from = r.file ?? r.named;
-  const noise = r.noise ? ` with noise ${typeof r.noise.amplitude === 'number' ? r.noise.amplitude : JSON.stringify(r.noise.amplitude)} (seed ${r.noise.seed})` : '';
-  return `the initial state${from !== undefined ? ` from ${from}` : ''}${parts.length ? ` ${parts.join(', ')}` : ''}${noise}`;
+  if (from !== undefined) parts.push(`from ${from}`);
+  if (names.length) parts.push(`${names.length > 1 ? `${names.slice(0, -1).join(', ')} and ${names[names.length - 1]}` : names[0]} written down`);
+  if (r.noise) parts.push(`noise ${typeof r.noise.amplitude === 'number' ? r.noise.amplitude : JSON.stringify(r.noise.amplitude)} with seed ${r.noise.seed}`);
+  return `the initial state of the case${parts.length ? ` (${parts.join(', ')})` : ''}`;
 }
