@@ -228,6 +228,11 @@ export class TimeIntegration {
     return structuredClone(this.state.counters);
   }
 
+  /** Accepted steps so far. */
+  get steps(): number {
+    return this.state.counters.steps;
+  }
+
   /** Current time and state (a copy). */
   get current(): { t: number; u: Float64Array; residual: number; step: number } {
     return { t: this.state.t, u: this.state.u.slice(), residual: this.state.residual, step: this.state.counters.steps };

@@ -181,7 +181,9 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
     ? { state: saved.integrator, ledger: structuredClone(ledger), steps: saved.integrator.counters.steps }
     : undefined;
   let lastSyncStep = saved ? saved.integrator.counters.steps : -1;
+  // the last checkpoint's and the last run.json refresh's times (ms)
   let lastWritten = Date.now();
+  let lastRecord = Date.now();
   let checkpointSteps = lastSync?.steps ?? 0;
   const tc = Date.now();
 
@@ -271,7 +273,7 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
         }
         // between steps: sync points, checkpoints, run.json refreshes, the event loop
         if (integration.canSnapshot && !outcome) {
-          const steps = integration.current.step;
+          const steps = integration.steps;
           const due = lastSyncStep < 0 ? steps >= 1 : Math.floor(steps / settleSyncEvery) > Math.floor(lastSyncStep / settleSyncEvery);
           if (due) {
             integration.restartLinearAlgebra();
@@ -282,11 +284,11 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
               checkpoint(lastSync.state, lastSync.ledger, lastCheckpoint === undefined ? 'first-point' : steps - checkpointSteps >= policy.everyPoints ? 'points' : 'time');
             }
           }
-          if (Date.now() - lastWritten > 10_000) {
+          if (Date.now() - lastRecord > 10_000) {
             counters = integration.counters;
             integrationSeconds = (Date.now() - tc) / 1000;
             writeRecord();
-            lastWritten = Date.now();
+            lastRecord = Date.now();
           }
           await tick();
         }
