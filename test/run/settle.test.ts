@@ -13,6 +13,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { prepareSettleCase } from '../../src/run/settle-case.js';
 import { prepareSettleResume, settleCase } from '../../src/run/settle.js';
+import { settleView, settledFraction } from '../../src/run/settle-progress.js';
 import { readCsv, readNpy } from '../../src/run/writers.js';
 import { parseXml, findAll } from '../plot/xml-check.js';
 import { ensureBuilt } from '../cli/built.js';
@@ -99,6 +100,15 @@ describe('branchline settle (in process)', () => {
     const root = parseXml(readFileSync(join(out, 'monitors.svg'), 'utf8'));
     expect(findAll(root, 'g', { 'data-role': 'panel' }).map((g) => g.attrs['data-panel'])).toEqual(['u', 'v', 'scaled residual']);
     for (const f of ['plots/initial.svg', 'plots/final.svg']) expect(readFileSync(join(out, f), 'utf8')).toMatch(/data-field="v"/);
+  });
+
+  it('is redrawn by plot, and its case is checked by check', async () => {
+    const r = await cli('plot', out);
+    expect(r.code, r.err).toBe(0);
+    expect(r.out).toMatch(/Drew 3 pictures in .* \(a time integration\): monitors\.svg, plots\/ \(2 files\)/);
+    const c = await cli('check', caseFile(pulse()));
+    expect(c.code, c.out + c.err).toBe(0);
+    expect(c.out).toMatch(/The Jacobian and the parameter derivatives agree with finite differences/);
   });
 
   it('hands its final state to a continuation: start: {run: DIR, point: final}', async () => {
@@ -194,3 +204,22 @@ describe('bad settle cases', () => {
     expect(r.err).toMatch(/: continuation: is missing .*a case with time: only is for `branchline settle`/);
   });
 });
+
+describe('the progress of an integration', () => {
+  it('fills the bar by the residual’s way down to the tolerance (log scale) or the time, whichever is further, and prints plain lines off a terminal', () => {
+    const p = { step: 10, time: 5, end: 100, stepSize: 0.5, residual: 1e-4, steadyTolerance: 1e-6, maxSteps: 1000 };
+    // from 1e-2 to 1e-6: 1e-4 is half way on a log scale; the time is 5% of the way
+    expect(settledFraction(p, 1e-2)).toBeCloseTo(0.5, 12);
+    expect(settledFraction({ ...p, time: 80 }, 1e-2)).toBeCloseTo(0.8, 12);
+    let text = '';
+    let now = 0;
+    const view = settleView({ tty: false, quiet: false, write: (s) => (text += s), intervalSeconds: 10, now: () => now });
+    view.progress(p);
+    now = 11_000;
+    view.progress({ ...p, step: 20, time: 9 });
+    view.log(undefined, 'info', 'a line');
+    view.close();
+    expect(text).toMatch(/^branchline: step 20, t = 9 of 100, step size 0\.5, residual 1\.0e-4 \(steady below 1e-6\), [\d.]+ steps\/s\nbranchline: a line\n$/);
+  });
+});
+
