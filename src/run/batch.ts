@@ -255,13 +255,13 @@ export function outcomeOf(target: { prepared: PreparedCase; outDir: string }, re
 // Resuming
 
 /**
- * Everything `resume DIR` needs, checked: the run directory is ours and not finished, the folder
- * can be written, its lock is taken (no other process writes it: a live writer makes this refuse;
- * one on another host is taken over only with `force`), a usable checkpoint exists, and its case
- * builds a problem that matches the saved state. InputError (one line) otherwise, with the lock
- * released. The caller releases `lock` when the resumed run has ended.
+ * The checks every resume starts with (runs and time integrations): the folder holds a run of
+ * ours, can be written, and its lock is taken (no other process writes it: a live writer makes
+ * this refuse; one on another host is taken over only with `force`); then, under the lock, the
+ * run must not have finished. InputError (one line) otherwise, with the lock released. The caller
+ * releases `lock` when the resumed run has ended.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
+export function lockForResume(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; lock: FolderLock } {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
@@ -270,11 +270,41 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (problem) throw new InputError(problem);
   // from here on no other process can start writing the folder: what is read below stays true
   const lock = FolderLock.acquire(dir, { purpose: 'resume', takeOverForeign: options.force === true, label: dirGiven });
-  try {
-    return { ...(await checkResumable(dir, dirGiven)), lock };
-  } catch (e) {
+  const run = readRunRecord(dir);
+  const status = String(run?.status);
+  if (!run || status === 'finished') {
     lock.release();
+    if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
+    throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
+  }
+  return { dir, run, status, lock };
+}
+
+/**
+ * lockForResume, and a usable checkpoint (InputError when there is none, the lock released): what
+ * a time integration resumes from.
+ */
+export function resumableCheckpoint(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint>; lock: FolderLock } {
+  const taken = lockForResume(dirGiven, options);
+  try {
+    return { ...taken, found: readCheckpoint(taken.dir) };
+  } catch (e) {
+    taken.lock.release();
+    if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
     throw e;
+  }
+}
+
+/** The CSV files must still hold every row the checkpoint counts (checked before any is touched). */
+export function checkRecordedLengths(dirGiven: string, dir: string, csvLengths: Record<string, number>): void {
+  for (const [file, length] of Object.entries(csvLengths)) {
+    let size: number;
+    try {
+      size = statSync(join(dir, file)).size;
+    } catch {
+      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
+    }
+    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
   }
 }
 
@@ -286,11 +316,23 @@ export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: 
   return prepareCaseObject(doc, { label, ...(caseFile ? { file: caseFile } : {}), baseDir: caseFile ? dirname(caseFile) : dir });
 }
 
-async function checkResumable(dir: string, dirGiven: string): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
-  const run = readRunRecord(dir);
-  if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
-  const status = String(run.status);
-  if (status === 'finished') throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
+/**
+ * Everything `resume DIR` needs, checked (lockForResume, then): a usable checkpoint whose case
+ * builds a problem that matches the saved state, and branch files that still hold every row it
+ * counts — or, for a run killed before its first checkpoint, its recorded case to start over
+ * from. InputError (one line) otherwise, with the lock released. The caller releases `lock`.
+ */
+export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
+  const { dir, run, status, lock } = lockForResume(dirGiven, options);
+  try {
+    return { ...(await checkResumable(dir, dirGiven, run, status)), lock };
+  } catch (e) {
+    lock.release();
+    throw e;
+  }
+}
+
+async function checkResumable(dir: string, dirGiven: string, run: Record<string, unknown>, status: string): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
   let found;
   try {
     found = readCheckpoint(dir);
@@ -319,16 +361,7 @@ async function checkResumable(dir: string, dirGiven: string): Promise<{ prepared
   if (saved !== undefined && saved !== prepared.problem.size) {
     throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
   }
-  // the branch files must still hold every row the checkpoint counts (checked before any is touched)
-  for (const [file, length] of Object.entries(c.ledger.csvLengths)) {
-    let size: number;
-    try {
-      size = statSync(join(dir, file)).size;
-    } catch {
-      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
-    }
-    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
-  }
+  checkRecordedLengths(dirGiven, dir, c.ledger.csvLengths);
   return { prepared, outDir: dir, plan: { checkpoint: c, file: found.file, skipped: found.skipped, previousStatus: status } };
 }
 

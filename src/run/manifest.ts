@@ -10,6 +10,8 @@
  *   solutions/<name>.npy                 a special point's (or a point's) state
  *   solutions/branch-<id>-point-*.npy    every point's state of one branch (output.solutions: all;
  *                                        `*` stands for a point number)
+ *   monitors.csv, monitors.svg, solutions/final.npy, plots/initial.svg, plots/final.svg,
+ *   snapshots/time-*.npy                 a time integration's (`settle`; `*` stands for a time)
  *
  * and, derived: plots/<name>.svg for every solution file, and the temporary files of the atomic
  * writes of any of them (`.<file>.<pid>.<n>.tmp` beside it). A file is added to the manifest, and
@@ -27,8 +29,13 @@ export const previousCheckpointFile = 'checkpoint.previous.bin';
 /** Files every run has (or may have) under fixed names. */
 export const fixedRunFiles = ['run.json', 'points.json', 'diagram.svg', checkpointFile, previousCheckpointFile] as const;
 
+/** Files a time integration (`settle`) has under fixed names, besides run.json and the checkpoints. */
+const fixedSettleFiles = ['monitors.csv', 'monitors.svg', 'solutions/final.npy', 'plots/initial.svg', 'plots/final.svg', 'snapshots/time-*.npy'];
+
 /** Sub-folders a run writes into. */
-const runFolders = ['branches', 'solutions', 'plots'] as const;
+const runFolders = ['branches', 'solutions', 'plots', 'snapshots'] as const;
+
+const snapshotFile = /^snapshots\/time-(-?inf|nan|[-+0-9.e]+)\.npy$/;
 
 const solutionName = /^branch-\d+-[a-z]+(?:-[a-z]+)*-\d+$/;
 const branchFile = /^branches\/\d+\.csv$/;
@@ -37,7 +44,7 @@ const pointFamily = /^solutions\/branch-(\d+)-point-\*\.npy$/;
 
 /** Whether `entry` is a name a run writes (see the header); a manifest with any other entry is unusable. */
 export function isRunFileEntry(entry: string): boolean {
-  if ((fixedRunFiles as readonly string[]).includes(entry)) return true;
+  if ((fixedRunFiles as readonly string[]).includes(entry) || fixedSettleFiles.includes(entry)) return true;
   if (branchFile.test(entry) || pointFamily.test(entry)) return true;
   const s = solutionFile.exec(entry);
   return s !== null && solutionName.test(s[1]);
@@ -76,6 +83,7 @@ export class Manifest {
   covers(rel: string): boolean {
     if (this.entries.includes(rel)) return true;
     if (this.families.some((r) => r.test(rel))) return true;
+    if (snapshotFile.test(rel) && this.entries.includes('snapshots/time-*.npy')) return true;
     const slash = rel.lastIndexOf('/');
     const folder = slash < 0 ? '' : rel.slice(0, slash + 1);
     const base = rel.slice(slash + 1);

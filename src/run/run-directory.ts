@@ -282,14 +282,15 @@ export class RunDirectory {
   }
 
   /**
-   * Prepare the existing folder `path` (its lock held by the caller) for a new run; see the
-   * header for the policy on non-empty folders. `alongside`: the folder belongs to the caller (a
-   * study's grid folder) and may hold the user's files, which stay, as long as it holds no run. Throws InputError (bad input, nothing changed)
-   * when the folder cannot be used.
+   * Prepare the folder `path` (its lock held by the caller) for a new run; see the header for the
+   * policy on non-empty folders. `alongside`: the folder belongs to the caller (a study's grid
+   * folder) and may hold the user's files, which stay, as long as it holds no run. `folders`: the
+   * sub-folders to make (default branches/). Throws InputError (bad input, nothing changed) when
+   * the folder cannot be used.
    */
-  static create(path: string, options: { force?: boolean; alongside?: boolean } = {}): RunDirectory {
+  static create(path: string, options: { force?: boolean; alongside?: boolean; folders?: readonly string[] } = {}): RunDirectory {
     let kept: string[] = [];
-    const entries = folderEntries(path);
+    const entries = existsSync(path) && statSync(path).isDirectory() ? folderEntries(path) : [];
     if (options.alongside && entries.length > 0 && !readRunRecord(path)) {
       // a folder the caller owns (a study's grid folder) that holds no run: the user's files there stay
       kept = entries;
@@ -299,7 +300,8 @@ export class RunDirectory {
       if (entries.length > 0) kept = removeRunFiles(path, readManifest(readRunRecord(path)!) as Manifest, keptForNow);
     }
     try {
-      mkdirSync(join(path, 'branches'), { recursive: true });
+      mkdirSync(path, { recursive: true });
+      for (const f of options.folders ?? ['branches']) mkdirSync(join(path, f), { recursive: true });
     } catch (e) {
       throw new InputError(`output folder ${path} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
     }

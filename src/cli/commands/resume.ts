@@ -13,12 +13,14 @@ import { toJson } from '../../run/writers.js';
 import { jsonSummary } from '../../run/batch.js';
 import { studyLog, studySignals } from './refine.js';
 import { onTerminal, resumeHint, stopOnSignals } from './run.js';
+import { resumeSettle } from './settle.js';
+import { runKind } from '../../run/start.js';
 
 /** `branchline resume DIR`: continue a stopped or killed run from its last checkpoint. */
 export function registerResume(program: Command, { io, setExit }: CommandContext): void {
   program
     .command('resume')
-    .description('continue a stopped or killed run from its last checkpoint, in its own folder; or a refinement study (its unfinished grids, then the analysis)')
+    .description('continue a stopped or killed run (or time integration) from its last checkpoint, in its own folder; or a refinement study (its unfinished grids, then the analysis)')
     .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin), or a study folder (holding refine.json)')
     .option('--force', 'take the folder over from a writer on another host that cannot be checked from here (never from a live process on this machine)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
@@ -50,6 +52,7 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
         }
         return;
       }
+      if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit });
       const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true });
       try {
         await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);

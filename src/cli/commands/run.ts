@@ -41,7 +41,7 @@ export function twoStageSignals(first: (s: NodeJS.Signals) => void, second: (s: 
  * checkpoint written, run.json marked stopped); a second leaves at once (every run is marked
  * stopped and can be resumed from its last checkpoint; worker processes are ended first).
  */
-export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { signal: AbortSignal; release: () => void } {
+export function stopOnSignals(io: Io, view: () => Pick<ProgressView, 'log' | 'close'> | undefined): { signal: AbortSignal; release: () => void } {
   return twoStageSignals(
     (signal) => view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`),
     (signal, count) => {
