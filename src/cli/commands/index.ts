@@ -11,5 +11,7 @@ import { registerCheck } from './check.js';
 import { registerNew } from './new.js';
 import { registerRefine } from './refine.js';
 import { registerPlot } from './plot.js';
+import { registerCollect } from './collect.js';
+import { registerTask } from './task.js';
 
-export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot];
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot, registerCollect, registerTask];
