@@ -206,6 +206,13 @@ export function checkEarlierJob(collection: string, replace: boolean): void {
   if (!replace) throw new InputError(`${collection} holds an earlier Slurm job (${jobFolder(collection)}); choose another folder with --out, or pass --force to replace it`);
 }
 
+/** Remove an earlier run from its folder (only our own entries; see RunDirectory.create), leaving the folder as a new run finds it. */
+function clearEarlierRun(dir: string): void {
+  RunDirectory.create(dir, { force: true });
+  const branches = join(dir, 'branches');
+  if (existsSync(branches) && readdirSync(branches).length === 0) rmSync(branches, { recursive: true, force: true });
+}
+
 /** The branchline entry script of this installation (bin/branchline.js). */
 export function entryScript(): string {
   let dir = dirname(fileURLToPath(import.meta.url));
@@ -309,7 +316,7 @@ export class SlurmExecutor implements RunExecutor {
     // an earlier job that is done (check() refused anything else), and with --force the earlier
     // runs in the pieces' folders (a task finds a finished run and leaves it alone otherwise)
     if (hasJob(collection)) rmSync(jobFolder(collection), { recursive: true, force: true });
-    if (this.o.force) for (const p of pieces) if (existsSync(join(p.outDir, 'run.json'))) RunDirectory.create(p.outDir, { force: true });
+    if (this.o.force) for (const p of pieces) if (existsSync(join(p.outDir, 'run.json'))) clearEarlierRun(p.outDir);
     const job: JobRecord = {
       format: jobFormat,
       'format-version': jobFormatVersion,
@@ -521,7 +528,7 @@ function judgeTask(collection: string, job: JobRecord, task: JobTask): TaskOutco
   const withResult = result ? { result } : {};
   // the run ended by itself with a failure (numerical, or a case that no longer builds)
   if (fresh && !fresh.stop && (fresh.error !== undefined || result?.status === 'failed')) {
-    return { ...base, ...withResult, status: 'failed', reason: `failed: ${fresh.error ?? result?.failure ?? run.failure ?? 'no reason recorded'}${where}`, resubmit: false };
+    return { ...base, ...withResult, status: 'failed', reason: `the run failed: ${fresh.error ?? result?.failure ?? run.failure ?? 'no reason recorded'}${where}`, resubmit: false };
   }
   const st = state?.state ?? 'UNKNOWN';
   if (fresh?.stop === 'time-limit' || (st === 'TIMEOUT' && result?.status === 'stopped')) {

@@ -83,7 +83,7 @@ export function reportRuns(ctx: CommandContext, pieces: readonly RunPiece[], out
     pieces.forEach((p, i) => {
       const out = outcomes[i];
       if (out.result) io.out(formatSummary(out.result, p.prepared) + (out.status !== 'finished' && out.reason ? `Slurm task: ${out.reason}\n` : '') + (pieces.length > 1 ? '\n' : ''));
-      else if (out.status !== 'submitted') io.err(`branchline: ${pieces.length > 1 ? `${p.prepared.case.name}: ` : ''}${out.status}: ${out.reason ?? 'no reason recorded'}\n`);
+      else if (out.status !== 'submitted') io.err(`branchline: ${pieces.length > 1 ? `${p.prepared.case.name}: ` : ''}${out.reason ?? `${out.status} (no reason recorded)`}\n`);
     });
     const count = (s: string): number => outcomes.filter((x) => x.status === s).length;
     const parts = ['finished', 'failed', 'stopped', 'submitted', 'not-started'].filter((s) => count(s) > 0).map((s) => `${count(s)} ${s === 'submitted' ? 'still queued or running' : s.replace('-', ' ')}`);
