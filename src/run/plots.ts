@@ -118,6 +118,8 @@ export interface RunDiagramData {
   /** The monitor on the vertical axis, and the problem's fields (for words). */
   monitor: string;
   fields: string[];
+  /** Monitor descriptions from run.json (older runs: none). */
+  descriptions: Record<string, string>;
   branches: DiagramBranch[];
   /** Special points on the drawn branches (ends as bare markers). */
   shown: DiagramSpecialPoint[];
@@ -199,7 +201,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
     // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
     shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : {}) });
   }
-  return { run, specials, parameter, monitor: chosen, fields, branches, shown, ...(caution ? { caution } : {}), warnings };
+  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings };
 }
 
 /**
@@ -207,7 +209,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
  * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
  */
 export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
-  const { run, specials, parameter, monitor: chosen, fields, branches, shown, caution, warnings } = readRunDiagram(dir, options.monitor);
+  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings } = readRunDiagram(dir, options.monitor);
   const notes: string[] = [];
   const written: string[] = [];
   const problem = (run.problem ?? {}) as Record<string, unknown>;

@@ -238,6 +238,7 @@ function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, piece
   const points: DiagramSpecialPoint[] = [];
   let monitor = prepared.case.plot.monitor;
   let fields: readonly string[] = prepared.problem.describe().fields;
+  let descriptions: Record<string, string> = {};
   pieces.forEach((p, i) => {
     if (!existsSync(join(p.outDir, 'run.json'))) return;
     let d;
@@ -249,6 +250,7 @@ function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, piece
     }
     monitor = d.monitor;
     fields = d.fields;
+    descriptions = d.descriptions;
     const several = d.branches.length > 1;
     const v = `${spec.parameter} = ${formatValue(spec.values[i], 6)}`;
     for (const b of d.branches) branches.push({ id: `${i}:${b.id}`, name: several ? `${v}, branch ${b.id}` : v, points: b.points });
@@ -259,10 +261,10 @@ function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, piece
   const cparam = prepared.settings.parameter;
   const shown = spec.values.map((v) => formatValue(v, 6));
   return diagramSvg({
-    title: `${prepared.case.name}: ${monitorWords(monitor, fields)} against ${cparam}, a curve per value of ${spec.parameter}`,
+    title: `${prepared.case.name}: ${monitorWords(monitor, fields, descriptions)} against ${cparam}, a curve per value of ${spec.parameter}`,
     subtitle: `${spec.parameter} = ${shown.length > 8 ? `${shown.slice(0, 4).join(', ')}, …, ${shown.slice(-2).join(', ')}` : shown.join(', ')}; ${prepared.problem.describe().summary}`,
     parameterName: cparam,
-    monitorName: monitorWords(monitor, fields),
+    monitorName: monitorWords(monitor, fields, descriptions),
     branches,
     specialPoints: points,
     ...(prepared.caution ? { caution: prepared.caution } : {}),
