@@ -32,14 +32,16 @@ export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { s
     view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`);
     controller.abort();
   };
-  process.on('SIGINT', onSignal);
-  process.on('SIGTERM', onSignal);
-  return {
-    signal: controller.signal,
-    release: () => {
-      process.off('SIGINT', onSignal);
-      process.off('SIGTERM', onSignal);
-    },
+  return { signal: controller.signal, release: onStopSignals(onSignal) };
+}
+
+/** Call `handler` on SIGINT and SIGTERM until the returned function is called. */
+export function onStopSignals(handler: (signal: NodeJS.Signals) => void): () => void {
+  process.on('SIGINT', handler);
+  process.on('SIGTERM', handler);
+  return () => {
+    process.off('SIGINT', handler);
+    process.off('SIGTERM', handler);
   };
 }
 

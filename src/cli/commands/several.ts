@@ -16,7 +16,7 @@ import { type SweepSpec, formatSweepSummary, sweepFolderProblem, sweepPieces, wr
 import { toJson } from '../../run/writers.js';
 import { SlurmExecutor, type TaskOutcome } from '../../slurm/job.js';
 import { type ClusterOptions, clusterSettings, submittedLines } from './cluster.js';
-import { onTerminal, stopOnSignals } from './run.js';
+import { onStopSignals, onTerminal, stopOnSignals } from './run.js';
 
 export interface SeveralOptions extends ClusterOptions {
   out?: string;
@@ -49,15 +49,7 @@ export function stopWaitingOnSignals(io: Io, collection: string): { signal: Abor
     io.err(`branchline: ${signal}: no longer waiting; the job goes on in Slurm (collect it later with: branchline collect ${collection})\n`);
     controller.abort();
   };
-  process.on('SIGINT', onSignal);
-  process.on('SIGTERM', onSignal);
-  return {
-    signal: controller.signal,
-    release: () => {
-      process.off('SIGINT', onSignal);
-      process.off('SIGTERM', onSignal);
-    },
-  };
+  return { signal: controller.signal, release: onStopSignals(onSignal) };
 }
 
 /** Print how each run went (its summary, or why not) and the overall lines; sets the exit code. */
