@@ -7,6 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { expandTaskIds, parseRecord, schedulerMessage } from '../../src/slurm/commands.js';
 import { checkSchedulerOption, jobScript, memoryMiB, stopMargin, taskRanges, timeLimitSeconds } from '../../src/slurm/script.js';
 import { clusterSettings } from '../../src/cli/commands/cluster.js';
+import { caseDocument, prepareCaseObject } from '../../src/run/case.js';
 
 describe('Slurm notations', () => {
   it('reads time limits as sbatch --time does (sbatch(1): minutes, MM:SS, HH:MM:SS, D-HH, D-HH:MM, D-HH:MM:SS)', () => {
@@ -97,5 +98,30 @@ describe('options refused before anything is sent', () => {
     expect(() => clusterSettings({ slurm: true, setup: ['  '] }, [])).toThrow(/^--setup '  ' is not accepted/);
     expect(() => clusterSettings({ memory: '4G' }, [])).toThrow('--memory needs --slurm (it is an option of runs sent to Slurm)');
     expect(clusterSettings({}, [])).toBeUndefined();
+  });
+});
+
+describe('setup lines from the case (cluster.setup)', () => {
+  const doc = (cluster: unknown): Record<string, unknown> => ({
+    name: 'slab',
+    model: 'bratu',
+    grid: { intervals: [16] },
+    continuation: { parameter: 'lambda', bounds: [0, 4] },
+    cluster,
+  });
+
+  it('adds them after the command line\'s, once each, and keeps them in the case document', async () => {
+    const p = await prepareCaseObject(doc({ setup: ['module load nodejs/20', 'export OMP_NUM_THREADS=1'] }), { label: 'slab.yaml', baseDir: '/tmp' });
+    expect(caseDocument(p.case).cluster).toEqual({ setup: ['module load nodejs/20', 'export OMP_NUM_THREADS=1'] });
+    const s = clusterSettings({ slurm: true, setup: ['export OMP_NUM_THREADS=1', 'umask 027'] }, [p]);
+    expect(s?.setup).toEqual(['export OMP_NUM_THREADS=1', 'umask 027', 'module load nodejs/20']);
+  });
+
+  it('refuses lines that are not one shell line', async () => {
+    await expect(prepareCaseObject(doc({ setup: ['module load a\nrm -rf x'] }), { label: 'slab.yaml', baseDir: '/tmp' })).rejects.toThrow(
+      /^slab\.yaml: cluster\.setup\.0: .* is not accepted \(accepted: a list of shell lines/,
+    );
+    await expect(prepareCaseObject(doc({ setup: 'module load a' }), { label: 'slab.yaml', baseDir: '/tmp' })).rejects.toThrow(/^slab\.yaml: cluster\.setup: /);
+    await expect(prepareCaseObject(doc({ partition: 'long' }), { label: 'slab.yaml', baseDir: '/tmp' })).rejects.toThrow(/^slab\.yaml: cluster: /);
   });
 });
