@@ -119,7 +119,7 @@ describe('setup lines from the case (cluster.setup)', () => {
 
   it('refuses lines that are not one shell line', async () => {
     await expect(prepareCaseObject(doc({ setup: ['module load a\nrm -rf x'] }), { label: 'slab.yaml', baseDir: '/tmp' })).rejects.toThrow(
-      /^slab\.yaml: cluster\.setup\.0: .* is not accepted \(accepted: a list of shell lines/,
+      /^slab\.yaml: cluster\.setup\[0\]: .* is not accepted \(accepted: a list of shell lines/,
     );
     await expect(prepareCaseObject(doc({ setup: 'module load a' }), { label: 'slab.yaml', baseDir: '/tmp' })).rejects.toThrow(/^slab\.yaml: cluster\.setup: /);
     await expect(prepareCaseObject(doc({ partition: 'long' }), { label: 'slab.yaml', baseDir: '/tmp' })).rejects.toThrow(/^slab\.yaml: cluster: /);
