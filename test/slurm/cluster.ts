@@ -26,6 +26,11 @@ if (missing && process.env.BRANCHLINE_SLURM_REQUIRED === '1') {
   throw new Error(`BRANCHLINE_SLURM_REQUIRED=1 but ${missing}; start it with: bash tools/slurm/local-slurm.sh start`);
 }
 
+if (missing) {
+  // vitest does not list the tests of a skipped file by name: say why here
+  console.warn(`Slurm tests skipped: ${missing}. Start a local Slurm as root with: bash tools/slurm/local-slurm.sh start`);
+}
+
 /** Title suffix and skip flag for the Slurm tests. */
 export const slurm = {
   ready: missing === undefined,
