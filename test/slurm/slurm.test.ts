@@ -162,6 +162,11 @@ stability: {eigenvalues: 3}
     };
     expect(study(there)).toEqual(study(here));
     for (const g of ['grid-16', 'grid-32', 'grid-64']) expectSameRun(join(here, g), join(there, g));
+    // collecting again (from the folders and job.json alone) gives the same study
+    const again = cli(['collect', there, '--no-wait', '--quiet']);
+    expect(again.code, again.err).toBe(0);
+    expect(table(again.out)).toBe(table(a.out));
+    expect(study(there)).toEqual(study(here));
     // every task ended COMPLETED (scontrol: accounting is off on the local Slurm)
     const job = readJob(there);
     expect(Object.values(job.states).map((s) => s.state)).toEqual(['COMPLETED', 'COMPLETED', 'COMPLETED']);
