@@ -18,7 +18,8 @@
  *                   diagram.svg, plots/), to be inspected like any other run
  *
  * Grids run one after another in this process, or in `jobs` worker processes side by side
- * (./worker.ts; needs the compiled program). No command-line code here: the `refine` command
+ * (./worker.ts; needs the compiled program), or through an executor that sends them elsewhere
+ * (src/run/executor.ts; Slurm: src/slurm/): the same grid runs, the same analysis of their folders. No command-line code here: the `refine` command
  * (src/cli/commands/refine.ts) parses its options and prints `formatStudySummary`.
  */
 import { type ChildProcess, fork } from 'node:child_process';

@@ -1,11 +1,10 @@
 import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { resolve } from 'node:path';
-import { prepareCase } from '../../run/case.js';
+import { caseDocument, prepareCase } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
 import { parsePointSpec, pointSpecAccepted } from '../../run/start.js';
 import { formatStudySummary, runStudy } from '../../refine/study.js';
-import { caseDocument } from '../../run/case.js';
 import { SlurmExecutor } from '../../slurm/job.js';
 import { type ClusterOptions, addClusterOptions, clusterSettings, submittedLines } from './cluster.js';
 
