@@ -279,7 +279,7 @@ function submitTasks(collection: string, job: JobRecord, tasks: readonly JobTask
   const { text, memoryMiB } = scriptFor(collection, jobName(job.kind, collection), tasks, settings);
   const script = `job-${job.submissions.length + 1}.sh`;
   writeFileAtomic(join(folder, script), text);
-  // results of earlier attempts of these tasks are superseded
+  // the progress of earlier attempts of these tasks is superseded (their results are told apart by job id)
   for (const t of tasks) rmSync(progressFile(collection, t.index), { force: true });
   const id = submit(join(folder, script), folder);
   const s: Submission = { job: id, tasks: tasks.map((t) => t.index), submitted: new Date().toISOString(), script, memoryMiB, settings };
@@ -357,6 +357,10 @@ export function resubmit(collection: string, settings: Partial<SlurmSettings>, l
   if (again.length === 0) return undefined;
   const last = job.submissions[job.submissions.length - 1]?.settings ?? { schedulerOptions: [], setup: [] };
   const merged: SlurmSettings = { ...last, ...Object.fromEntries(Object.entries(settings).filter(([, v]) => v !== undefined)) } as SlurmSettings;
+  // new setup lines replace the command line's; the cases' own (cluster.setup) stay
+  if (settings.setup !== undefined) {
+    for (const t of again) for (const l of (t.task.doc as { cluster?: { setup?: string[] } }).cluster?.setup ?? []) if (!merged.setup.includes(l)) merged.setup = [...merged.setup, l];
+  }
   checkJob(scriptFor(collection, jobName(job.kind, collection), again.map((o) => o.task), merged).text, jobFolder(collection));
   const s = submitTasks(collection, job, again.map((o) => o.task), merged);
   log?.('info', submissionText(s));
