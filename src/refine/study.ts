@@ -18,7 +18,8 @@
  *                   diagram.svg, plots/), to be inspected like any other run
  *
  * Grids run one after another in this process, or in `jobs` worker processes side by side
- * (./worker.ts; needs the compiled program). No command-line code here: the `refine` command
+ * (./worker.ts; needs the compiled program), or through an executor that sends them elsewhere
+ * (src/run/executor.ts; Slurm: src/slurm/): the same grid runs, the same analysis of their folders. No command-line code here: the `refine` command
  * (src/cli/commands/refine.ts) parses its options and prints `formatStudySummary`.
  */
 import { type ChildProcess, fork } from 'node:child_process';
@@ -29,6 +30,7 @@ import { formatValue, refinementSvg } from '../plot/index.js';
 import { valueToError } from '../plot/refinement.js';
 import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.js';
 import { InputError } from '../run/errors.js';
+import type { RunExecutor, RunPiece } from '../run/executor.js';
 import { formatValue as plainValue } from '../run/summary.js';
 import { drawRunPlots } from '../run/plots.js';
 import { caseFromRunFolder } from '../run/batch.js';
@@ -71,6 +73,13 @@ export interface StudyOptions {
   log?: (level: 'info' | 'warning', message: string) => void;
   /** The compiled worker script (default ./worker.js beside this module). */
   workerScript?: string;
+  /**
+   * Who runs the grids instead of this process and its workers (e.g. Slurm, src/slurm/); the
+   * grid runs are the same. An executor that only hands them over makes the study `submitted`.
+   */
+  executor?: RunExecutor;
+  /** The folder already holds this study's grid runs (collecting a study whose grids ran elsewhere): keep it as it is. */
+  keepFolder?: boolean;
 }
 
 export interface GridRun {
@@ -91,7 +100,8 @@ export interface GridRun {
 }
 
 export interface StudyResult {
-  status: 'finished' | 'stopped' | 'failed';
+  /** `submitted`: the grids were handed to a scheduler and not waited for (nothing analysed yet). */
+  status: 'finished' | 'stopped' | 'failed' | 'submitted';
   directory: string;
   caseName: string;
   parameter: string;
@@ -299,11 +309,24 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
     tasks.push({ ...r, job, prepared: p });
   }
   return inStudyFolder(studyDir, { purpose: options.force ? 'refine --force' : 'refine', label: studyDir }, options.log, () => {
-    const kept = prepareStudyFolder(studyDir, options.force === true);
-    if (kept.length) (options.log ?? (() => {}))('info', `replaced the earlier study; kept ${kept.length} file${kept.length === 1 ? '' : 's'} it did not write: ${keptText(kept)}`);
-    writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
+    // collecting a study whose grids ran elsewhere: the folder already holds them, as it is
+    if (!options.keepFolder) {
+      options.executor?.check?.(piecesOf(tasks));
+      const kept = prepareStudyFolder(studyDir, options.force === true);
+      if (kept.length) (options.log ?? (() => {}))('info', `replaced the earlier study; kept ${kept.length} file${kept.length === 1 ? '' : 's'} it did not write: ${keptText(kept)}`);
+      writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
+    }
     return { prepared, plan, tasks };
   }, options);
+}
+
+/** The grids to run afresh, as pieces for an executor (src/run/executor.ts). */
+function piecesOf(tasks: readonly GridTask[]): RunPiece[] {
+  return tasks.flatMap((t) =>
+    t.job?.kind === 'run' && t.prepared
+      ? [{ name: t.directory, outDir: t.job.outDir, doc: t.job.doc, label: t.job.label, baseDir: t.job.baseDir, ...(t.job.file !== undefined ? { file: t.job.file } : {}), prepared: t.prepared }]
+      : [],
+  );
 }
 
 /**
@@ -355,7 +378,7 @@ async function inStudyFolder(
   lockOptions: { purpose: string; label: string; takeOverForeign?: boolean },
   logGiven: StudyOptions['log'],
   open: () => { prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] } | Promise<{ prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] }>,
-  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs'>,
+  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'>,
 ): Promise<StudyResult> {
   const log = logGiven ?? (() => {});
   const made = makeFolder(studyDir, 'study folder');
@@ -383,6 +406,15 @@ async function inStudyFolder(
       throw e;
     }
     const { prepared, plan, tasks } = opened;
+    const point = plan.point ? { point: plan.point } : {};
+    if (options.executor) {
+      // the grids run elsewhere (a scheduler): the same runs, the same analysis of their folders
+      const outcomes = await options.executor.execute(piecesOf(tasks), { ...(options.signal ? { signal: options.signal } : {}), log });
+      if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, point: plan.point ?? { kind: 'fold', index: 1 }, tasks });
+      const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
+      const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
+      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false });
+    }
     const studyOptions: StudyOptions = { grids: plan.grids, outDir: studyDir, ...options, jobs: plan.jobs, log };
     const thrown = await runGrids(tasks, studyDir, studyOptions);
     const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t), options.signal?.aborted));
@@ -390,7 +422,7 @@ async function inStudyFolder(
       studyDir,
       plan,
       parameter: prepared.settings.parameter,
-      ...(plan.point ? { point: plan.point } : {}),
+      ...point,
       outcomes,
       stopped: options.signal?.aborted ?? false,
     });
@@ -433,6 +465,49 @@ async function runGrids(tasks: readonly GridTask[], studyDir: string, options: S
     options.signal?.removeEventListener('abort', onAbort);
   }
   return thrown;
+}
+
+/** A study whose grids were handed to a scheduler: refine.json says so until they are collected. */
+function submittedStudy(
+  prepared: PreparedCase,
+  s: { studyDir: string; plan: StudyPlan; parameter: string; point: PointSpec; tasks: readonly GridTask[] },
+): StudyResult {
+  const branch = s.plan.branch;
+  const pointText = `${pointWords(s.point)} on branch ${branch}`;
+  const json: Record<string, unknown> = {
+    format: studyFormat,
+    'format-version': studyFormatVersion,
+    software: { ...softwareVersion(), node: process.version },
+    status: 'submitted',
+    'case-file': prepared.file ?? null,
+    case: prepared.case.name,
+    model: prepared.problem.describe().summary,
+    point: pointText,
+    'point-kind': s.point.kind,
+    'point-number': s.point.index,
+    branch,
+    parameter: s.parameter,
+    'expected-order': s.plan.expectedOrder,
+    plan: planJson(s.plan),
+    values: [],
+    runs: s.tasks.map((t) => ({ grid: t.grid, intervals: t.intervals, directory: t.directory, status: 'submitted' })),
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+  };
+  writeJsonAtomic(join(s.studyDir, 'refine.json'), json);
+  return {
+    status: 'submitted',
+    directory: s.studyDir,
+    caseName: prepared.case.name,
+    parameter: s.parameter,
+    point: s.point,
+    branch,
+    pointText,
+    runs: [],
+    json,
+    warnings: [],
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+    files: ['refine.json'],
+  };
 }
 
 /** Pick the point, analyse, write refine.csv / refine.json / refine.svg. */
