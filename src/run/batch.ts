@@ -261,14 +261,23 @@ export function outcomeOf(target: { prepared: PreparedCase; outDir: string }, re
 // ---------------------------------------------------------------------------------------------
 // Resuming
 
+export interface ResumeLockOptions {
+  /** Take over a lock of another host (`resume --force`). */
+  force?: boolean;
+  /** The folder's lock, when the caller holds it already (it stays held on a refusal). */
+  lock?: FolderLock;
+}
+
 /**
  * The checks every resume starts with (runs and time integrations): the folder holds a run of
  * ours, can be written, and its lock is taken (no other process writes it: a live writer makes
- * this refuse; one on another host is taken over only with `force`); then, under the lock, the
- * run must not have finished. InputError (one line) otherwise, with the lock released. The caller
- * releases `lock` when the resumed run has ended.
+ * this refuse; one on another host is taken over only with `force`) — unless the caller took it
+ * already (`lock`, e.g. a Slurm task, which judges other hosts' writers by their Slurm job);
+ * then, under the lock, the run must not have finished. InputError (one line) otherwise, with the
+ * lock released (a lock taken here; the caller's stays the caller's). The caller releases `lock`
+ * when the resumed run has ended.
  */
-export function lockForResume(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; lock: FolderLock } {
+export function lockForResume(dirGiven: string, options: ResumeLockOptions = {}): { dir: string; run: Record<string, unknown>; status: string; lock: FolderLock } {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
@@ -276,11 +285,12 @@ export function lockForResume(dirGiven: string, options: { force?: boolean } = {
   const problem = folderWriteProblem(dir, 'run folder');
   if (problem) throw new InputError(problem);
   // from here on no other process can start writing the folder: what is read below stays true
-  const lock = FolderLock.acquire(dir, { purpose: 'resume', takeOverForeign: options.force === true, label: dirGiven });
+  if (options.lock && resolve(options.lock.dir) !== dir) throw new Error(`lockForResume: the lock given is ${options.lock.dir}'s, not ${dir}'s`);
+  const lock = options.lock ?? FolderLock.acquire(dir, { purpose: 'resume', takeOverForeign: options.force === true, label: dirGiven });
   const run = readRunRecord(dir);
   const status = String(run?.status);
   if (!run || status === 'finished') {
-    lock.release();
+    if (!options.lock) lock.release();
     if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
     throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
   }
@@ -291,12 +301,12 @@ export function lockForResume(dirGiven: string, options: { force?: boolean } = {
  * lockForResume, and a usable checkpoint (InputError when there is none, the lock released): what
  * a time integration resumes from.
  */
-export function resumableCheckpoint(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint>; lock: FolderLock } {
+export function resumableCheckpoint(dirGiven: string, options: ResumeLockOptions = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint>; lock: FolderLock } {
   const taken = lockForResume(dirGiven, options);
   try {
     return { ...taken, found: readCheckpoint(taken.dir) };
   } catch (e) {
-    taken.lock.release();
+    if (!options.lock) taken.lock.release();
     if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
     throw e;
   }
@@ -329,12 +339,12 @@ export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: 
  * counts — or, for a run killed before its first checkpoint, its recorded case to start over
  * from. InputError (one line) otherwise, with the lock released. The caller releases `lock`.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
+export async function prepareResume(dirGiven: string, options: ResumeLockOptions = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
   const { dir, run, status, lock } = lockForResume(dirGiven, options);
   try {
     return { ...(await checkResumable(dir, dirGiven, run, status)), lock };
   } catch (e) {
-    lock.release();
+    if (!options.lock) lock.release();
     throw e;
   }
 }

@@ -14,7 +14,9 @@
  * and is taken over: the writer is judged alive only when the host is this machine, the boot id
  * is this boot's, a process with that pid exists and it started at the recorded time — so a pid
  * reused after a crash or a reboot is not mistaken for the writer. A lock of another host cannot
- * be judged from here: it is honoured unless the user says otherwise (`resume --force`).
+ * be judged from here: it is honoured unless the user says otherwise (`resume --force`), or
+ * unless the caller can judge it another way: a writer that ran inside a Slurm job records the
+ * job's id, and a Slurm task asks the scheduler whether that job has ended (src/slurm/task.ts).
  *
  * Taking over a stale lock goes through a second lock (`writer.lock.break`) so that two processes
  * that both find the same stale lock cannot both remove it and then each take a fresh one (the
@@ -42,6 +44,8 @@ export interface WriterIdentity {
   purpose: string;
   /** When it took the lock (ISO time). */
   since: string;
+  /** The Slurm job the writer ran in ($SLURM_JOB_ID; absent outside Slurm). */
+  'slurm-job'?: string;
 }
 
 /** Whether a lock's writer is alive: 'alive', 'dead', or 'unknown' (another machine). */
@@ -85,7 +89,8 @@ function pidExists(pid: number): boolean {
 let selfCache: Omit<WriterIdentity, 'purpose' | 'since'> | undefined;
 /** This process's identity (without purpose and time). */
 export function selfIdentity(): Omit<WriterIdentity, 'purpose' | 'since'> {
-  selfCache ??= { pid: process.pid, host: hostname(), boot: bootId(), 'process-start': processStart(process.pid) };
+  const job = process.env.SLURM_JOB_ID;
+  selfCache ??= { pid: process.pid, host: hostname(), boot: bootId(), 'process-start': processStart(process.pid), ...(job && /^\d+$/.test(job) ? { 'slurm-job': job } : {}) };
   return selfCache;
 }
 
@@ -113,6 +118,7 @@ function parseIdentity(text: string): WriterIdentity | undefined {
       'process-start': typeof v['process-start'] === 'string' ? v['process-start'] : null,
       purpose: typeof v.purpose === 'string' ? v.purpose : 'unknown',
       since: typeof v.since === 'string' ? v.since : 'unknown',
+      ...(typeof v['slurm-job'] === 'string' && /^\d+$/.test(v['slurm-job']) ? { 'slurm-job': v['slurm-job'] } : {}),
     };
   } catch {
     return undefined;
@@ -143,7 +149,8 @@ export function lockHolder(dir: string): { writer: WriterIdentity; liveness: Exc
 
 /** The holder in words: `process 1234 (resume, since 2024-…) on this machine` / `… on host h`. */
 export function holderText(w: WriterIdentity, l: Liveness): string {
-  return `process ${w.pid} (${w.purpose}, since ${w.since}) ${l === 'unknown' ? `on host ${w.host}, which cannot be checked from here` : 'on this machine'}`;
+  const job = w['slurm-job'] !== undefined ? ` in Slurm job ${w['slurm-job']}` : '';
+  return `process ${w.pid} (${w.purpose}, since ${w.since}) ${l === 'unknown' ? `on host ${w.host}${job}, which cannot be checked from here` : `on this machine${job}`}`;
 }
 
 /** The folder is held by another writer (an InputError: exit 2, nothing touched). */
@@ -217,8 +224,11 @@ function createExclusive(path: string, text: string): boolean {
 export interface LockOptions {
   /** What the writer does (shown to a process that finds the folder held). */
   purpose: string;
-  /** Take over a lock whose writer runs on another host (it cannot be checked from here). */
-  takeOverForeign?: boolean;
+  /**
+   * Take over a lock whose writer runs on another host (it cannot be checked from here): always
+   * (true), never (false, the default), or when this judge says that writer is gone.
+   */
+  takeOverForeign?: boolean | ((w: WriterIdentity) => boolean);
   /** The folder, as the user named it (for messages); default the path. */
   label?: string;
 }
@@ -252,7 +262,8 @@ export class FolderLock {
           const mine = w.pid === process.pid ? ' (this same process)' : '';
           throw new LockedError(`${label}: is being written by ${holderText(w, l)}${mine}; wait for it to end or stop it first`, w, l);
         }
-        if (l === 'unknown' && !options.takeOverForeign) {
+        const takeOver = typeof options.takeOverForeign === 'function' ? options.takeOverForeign(w) : options.takeOverForeign === true;
+        if (l === 'unknown' && !takeOver) {
           throw new LockedError(`${label}: is being written by ${holderText(w, l)}; if that process is gone, pass --force to take the folder over`, w, l);
         }
       } else if (Date.now() - lockAge(path) < unreadableGraceMs) {

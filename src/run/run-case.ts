@@ -179,7 +179,8 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       record.status = 'stopped';
       record.note = reason;
       record.write(run.dir);
-      lock?.release();
+      // the process is on its way out: the folder's lock goes, whoever took it (a caller's too)
+      (lock ?? options.lock)?.release();
     });
     // a resumed run's points.json may hold points found after the checkpoint: rewrite it
     run.dir.writePoints(prepared.settings.parameter, run.ledger.specials);
