@@ -37,7 +37,7 @@ import { caseFromRunFolder } from '../run/batch.js';
 import { makeFolder, removeIfEmpty } from '../run/folders.js';
 import { onLeaveAtOnce } from '../run/leave.js';
 import { FolderLock, holderText, lockHolder } from '../run/lock.js';
-import { keptText } from '../run/manifest.js';
+import { keptMessage } from '../run/manifest.js';
 import { type SpecialRecord, readRunRecord } from '../run/run-directory.js';
 import { type PointSpec, availablePoints, findSpecial, pointSpecText, pointWords, readPointsJson } from '../run/start.js';
 import { softwareVersion } from '../run/version.js';
@@ -313,7 +313,7 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
     if (!options.keepFolder) {
       options.executor?.check?.(piecesOf(tasks));
       const kept = prepareStudyFolder(studyDir, options.force === true);
-      if (kept.length) (options.log ?? (() => {}))('info', `replaced the earlier study; kept ${kept.length} file${kept.length === 1 ? '' : 's'} it did not write: ${keptText(kept)}`);
+      if (kept.length) (options.log ?? (() => {}))('info', keptMessage(kept, 'study'));
       writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
     }
     return { prepared, plan, tasks };

@@ -173,3 +173,8 @@ export function keptText(kept: readonly string[], most = 6): string {
   const shown = kept.slice(0, most).join(', ');
   return kept.length > most ? `${shown} and ${kept.length - most} more` : shown;
 }
+
+/** What --force says when it replaced an earlier run or study and left the user's files in place. */
+export function keptMessage(kept: readonly string[], what: 'run' | 'study'): string {
+  return `replaced the earlier ${what}; kept ${kept.length} file${kept.length === 1 ? '' : 's'} it did not write: ${keptText(kept)}`;
+}

@@ -37,7 +37,7 @@ import { removeCheckpoints } from './checkpoint.js';
 import { makeFolder, removeIfEmpty } from './folders.js';
 import { onLeaveAtOnce } from './leave.js';
 import { FolderLock } from './lock.js';
-import { type Manifest, keptText, readManifest, schemeManifest } from './manifest.js';
+import { type Manifest, keptMessage, readManifest, schemeManifest } from './manifest.js';
 import { drawPlotsAfterRun } from './plots.js';
 import { EventWriter, type RunLog, failureReasons } from './run-events.js';
 import { type CheckpointContext, type CheckpointWritten, type ProgressInfo, type SyncState, syncEvery } from './run-hooks.js';
@@ -216,7 +216,7 @@ function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun
 function prepareRunFolder(prepared: PreparedCase, outDir: string, folder: { force: boolean; alongside: boolean }, log: RunLog): OpenRun {
   const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
   const dir = RunDirectory.create(outDir, folder);
-  if (dir.kept.length) log('info', `replaced the earlier run; kept ${dir.kept.length} file${dir.kept.length === 1 ? '' : 's'} it did not write: ${keptText(dir.kept)}`);
+  if (dir.kept.length) log('info', keptMessage(dir.kept, 'run'));
   return { outDir, dir, ledger: emptyLedger(), plan };
 }
 

@@ -30,6 +30,7 @@ import { InputError } from './errors.js';
 import { makeFolder, removeIfEmpty } from './folders.js';
 import { onLeaveAtOnce } from './leave.js';
 import { FolderLock } from './lock.js';
+import { keptMessage } from './manifest.js';
 import { RunDirectory, type RunStatus, emptyLedger, extraValues } from './run-directory.js';
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
@@ -138,7 +139,10 @@ async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptio
   const resume = options.resume;
   const saved = resume ? (resume.checkpoint.engine as { integrator: IntegratorState; settle: SettleLedger }) : undefined;
   // a new run: the folder policy of runs (empty, or --force over an earlier run of ours)
-  if (!resume) RunDirectory.create(outDir, { force: options.force, folders: ['snapshots'] });
+  if (!resume) {
+    const created = RunDirectory.create(outDir, { force: options.force, folders: ['snapshots'] });
+    if (created.kept.length) log('info', keptMessage(created.kept, 'run'));
+  }
   const plan = settleColumns(prepared);
   const ledger: SettleLedger = saved ? structuredClone(saved.settle) : { snapshots: [], warnings: [], csvBytes: 0 };
   if (resume) removeUnrecorded(outDir, ledger);

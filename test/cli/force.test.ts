@@ -2,7 +2,8 @@
  * `run --force` replaces only what an earlier run wrote (run.json `files`), on the real file
  * system with the real engine: the user's files — beside the run, inside branches/, solutions/
  * and plots/ — stay and are named; a folder whose run.json lists no files, or lists a file a run
- * does not write, is not a run to delete; `resume` never removes a user's file either.
+ * does not write, is not a run to delete; `resume` never removes a user's file either. `settle
+ * --force` follows the same rule, over a continuation run and over an earlier integration.
  */
 import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -98,6 +99,56 @@ describe('run --force', () => {
     write(join(forged, 'run.json'), JSON.stringify({ format: 'branchline run', 'format-version': 1, status: 'finished', files: ['../outside.txt'] }));
     expect((await cli('run', slab, '--out', forged, '--force')).err).toMatch(/lists "\.\.\/outside\.txt", which is not a file a run writes/);
     expect(tree(forged)).toEqual(['run.json', 'thesis.tex']);
+  });
+});
+
+describe('settle --force', () => {
+  // a pulse of the autocatalyst in a no-flux strip (Gray–Scott, 1D): settles within a few hundred steps
+  const pulse = (end: number): string => {
+    const file = join(tmp, `pulse-${end}.yaml`);
+    writeFileSync(
+      file,
+      `name: pulse\nmodel: gray-scott\nboundary: neumann\ngrid: {intervals: [60], length: [0.3]}\nparameters: {F: 0.04, k: 0.064}\n` +
+        `initial:\n  u: 1 - 0.5*exp(-(x-0.15)^2/0.0025)\n  v: 0.25*exp(-(x-0.15)^2/0.0025)\ntime: {end: ${end}}\n`,
+    );
+    return file;
+  };
+  const files = { ...userFiles, 'snapshots/my-snapshot.npy': 'mine' };
+  const snapshotsOnDisk = (dir: string): string[] => tree(dir).filter((f) => f.startsWith('snapshots/') && !(f in files));
+
+  it('replaces a continuation run and then an earlier integration by their run.json files only, keeping the user’s files and naming them', async () => {
+    const dir = join(tmp, 'settled');
+    expect((await cli('run', pitchforks, '--out', dir, '--quiet')).code).toBe(0);
+    for (const [f, text] of Object.entries(files)) write(join(dir, f), text);
+    const refused = await cli('settle', pulse(50000), '--out', dir);
+    expect(refused.code).toBe(2);
+    expect(refused.err).toMatch(/is not empty \(it holds an earlier run\)/);
+
+    const r = await cli('settle', pulse(50000), '--out', dir, '--force');
+    expect(r.code, r.err).toBe(0);
+    expect(r.err).toMatch(/replaced the earlier run; kept 7 files it did not write: \.hidden\.tmp, branches\/my-analysis\.csv, notes\.txt, plots\/branch-1-fold-1-annotated\.svg, plots\/my-figure\.png, snapshots\/my-snapshot\.npy and 1 more\n/);
+    for (const [f, text] of Object.entries(files)) expect(readFileSync(join(dir, f), 'utf8'), f).toBe(text);
+    // the continuation's files are gone: no branch file but the user's, no points.json
+    expect(tree(dir).filter((f) => f.startsWith('branches/'))).toEqual(['branches/my-analysis.csv']);
+    expect(existsSync(join(dir, 'points.json'))).toBe(false);
+    const first = json(join(dir, 'run.json'));
+    expect(first.kind).toBe('settle');
+    expect(first.files).toEqual(expect.arrayContaining(['run.json', 'monitors.csv', 'solutions/final.npy']));
+    const earlierSnapshots = snapshotsOnDisk(dir);
+    expect(earlierSnapshots.length).toBeGreaterThan(1);
+
+    // a shorter integration over it (snapshots at other times): the earlier snapshots go, the user's stay
+    // (exit 1: still changing at t = 2, which is what this integration is for)
+    const again = await cli('settle', pulse(2), '--out', dir, '--force');
+    expect(again.code, again.err).toBe(1);
+    expect(again.err).toMatch(/still changing at the time limit t = 2/);
+    expect(again.err).toMatch(/replaced the earlier run; kept 7 files it did not write/);
+    for (const [f, text] of Object.entries(files)) expect(readFileSync(join(dir, f), 'utf8'), f).toBe(text);
+    const now = json(join(dir, 'run.json'));
+    const recorded = (now.snapshots as { file: string }[]).map((x) => x.file).sort();
+    expect(snapshotsOnDisk(dir)).toEqual(recorded);
+    // (the earlier integration's snapshots at other times were there and are gone)
+    expect(earlierSnapshots.filter((f) => !recorded.includes(f)).length).toBeGreaterThan(0);
   });
 });
 
