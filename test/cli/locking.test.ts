@@ -3,10 +3,11 @@
  * stopped run (one finishes, the other refuses in one line with exit code 2; the files equal an
  * uninterrupted run's), `run --force` refused while a resume writes the folder, a lock held by a
  * live process refused, and stale locks (dead writer, pid reused by another process, another
- * boot) taken over; processes racing for one stale lock: exactly one wins.
+ * boot) taken over; processes racing for one stale lock: exactly one wins. `settle`, `refine`
+ * and their --force take the same lock: a live writer makes each refuse, touching nothing.
  */
 import { spawn } from 'node:child_process';
-import { existsSync, mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { hostname, tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -135,6 +136,55 @@ describe('locks and their writers', () => {
     expect(forced.code, forced.err).toBe(0);
     expectSameFiles(dir, reference, 'resumed with --force over a lock of another host');
   }, 60_000);
+
+  it('settle, refine and their --force refuse a folder a live writer holds, touching nothing', async () => {
+    const sleeper = spawn('sleep', ['60'], { stdio: 'ignore' });
+    try {
+      await sleep(50);
+      const live = { pid: sleeper.pid, host: hostname(), boot: selfIdentity().boot, 'process-start': processStart(sleeper.pid!) };
+      const snapshot = (dir: string): Record<string, string> => {
+        const out: Record<string, string> = {};
+        const walk = (rel: string): void => {
+          for (const e of readdirSync(join(dir, rel), { withFileTypes: true })) {
+            const r = rel ? `${rel}/${e.name}` : e.name;
+            if (e.isDirectory()) walk(r);
+            else out[r] = readFileSync(join(dir, r), 'base64');
+          }
+        };
+        walk('');
+        return out;
+      };
+      const pulse = join(tmp, 'pulse.yaml');
+      writeFileSync(
+        pulse,
+        'name: pulse\nmodel: gray-scott\nboundary: neumann\ngrid: {intervals: [40], length: [0.3]}\nparameters: {F: 0.04, k: 0.064}\n' +
+          'initial:\n  u: 1 - 0.5*exp(-(x-0.15)^2/0.0025)\n  v: 0.25*exp(-(x-0.15)^2/0.0025)\ntime: {end: 5}\n',
+      );
+      const slab = resolve('test/fixtures/run/bratu-1d.yaml');
+      // an empty folder but for the lock; a finished integration; a finished study — each held
+      const fresh = join(tmp, 'held-fresh');
+      mkdirSync(fresh);
+      const settled = join(tmp, 'held-settled');
+      expect((await cli('settle', pulse, '--out', settled, '--quiet')).code).toBeLessThanOrEqual(1);
+      const study = join(tmp, 'held-study');
+      const made = await cli('refine', slab, '--grids', '8,16,32', '--out', study, '--quiet');
+      expect(made.code, made.err).toBe(0);
+      for (const [dir, args] of [
+        [fresh, ['settle', pulse, '--out', fresh]],
+        [fresh, ['refine', slab, '--grids', '8,16,32', '--out', fresh]],
+        [settled, ['settle', pulse, '--out', settled, '--force']],
+        [settled, ['resume', settled]],
+        [study, ['refine', slab, '--grids', '8,16,32', '--out', study, '--force']],
+      ] as const) {
+        placeLock(dir, live);
+        const before = snapshot(dir);
+        expectOneLine(await cli(...args), new RegExp(`is being written by process ${sleeper.pid} \\(resume, since .*\\) on this machine`));
+        expect(snapshot(dir), args.join(' ')).toEqual(before);
+      }
+    } finally {
+      sleeper.kill('SIGKILL');
+    }
+  }, 120_000);
 
   it('processes racing for one stale lock: exactly one takes it', async () => {
     const dir = join(tmp, 'race');

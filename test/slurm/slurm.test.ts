@@ -295,7 +295,7 @@ stability: {eigenvalues: 3}
         const placed = contents();
         const refused = cli(['collect', there, '--resubmit']);
         expect(refused.code, refused.err).toBe(1);
-        expect(refused.out).toMatch(new RegExp(`held: the task left its run folder alone: .*held: is being written by process 4242 \\(resume, since 2026-01-01T00:00:00\\.000Z\\) on host node-elsewhere\\.example${words}, which cannot be checked from here; the task leaves the folder alone`));
+        expect(refused.out + refused.err).toMatch(new RegExp(`the task left its run folder alone: .*held: is being written by process 4242 \\(resume, since 2026-01-01T00:00:00\\.000Z\\) on host node-elsewhere\\.example${words}, which cannot be checked from here; the task leaves the folder alone`));
         expect(readTaskResult(there, 0)).toMatchObject({ held: true });
         // nothing touched: every file, and the other writer's lock, as they were
         expect(contents()).toEqual(placed);
