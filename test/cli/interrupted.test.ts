@@ -3,7 +3,8 @@
  * before its first checkpoint starts over from the case its run.json records and ends with the
  * same files as an uninterrupted run; a double Ctrl-C (SIGINT twice) leaves at once with exit
  * code 130 but leaves run.json `stopped` (never `running` for a process that is gone) and no lock,
- * in one process and in a batch of worker processes; the run resumes to the same files.
+ * in one process, during a resume (whose lock the command takes before reading the run) and in a
+ * batch of worker processes; the run resumes to the same files.
  */
 import { existsSync, mkdirSync, mkdtempSync, rmSync, watch, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -96,6 +97,38 @@ describe('a double Ctrl-C', () => {
     const re = await r.ended;
     expect(re.code, re.err).toBe(0);
     expectSameFiles(dir, reference, 'after a double Ctrl-C');
+  }, 120_000);
+
+  it('during a resume too: run.json stopped and the lock the resume command took released', async () => {
+    let dir = '';
+    let leftAtOnce = false;
+    for (let k = 0; k < 5 && !leftAtOnce; k++) {
+      dir = join(tmp, `double-resume-${k}`);
+      mkdirSync(dir);
+      const p = start(['run', caseFile, '--out', dir, '--force', '--quiet']);
+      await appears(dir, 'checkpoint.previous.bin');
+      p.child.kill('SIGINT');
+      expect((await p.ended).code).toBe(1);
+      // the resume writes its first checkpoint (reading one raises no event), then two signals
+      const written = appears(dir, 'checkpoint.bin');
+      const r = start(['resume', dir]);
+      await written;
+      twoSignalsAtOnce(r.child);
+      const e = await r.ended;
+      const run = json(join(dir, 'run.json'));
+      expect(run.status, e.err).toBe('stopped');
+      expect(existsSync(join(dir, lockFile)), e.err).toBe(false);
+      if (e.code === 130) {
+        leftAtOnce = true;
+        expect(run.note).toMatch(/left at once on a second SIG(INT|TERM)/);
+      } else {
+        expect(e.code, e.err).toBe(1);
+      }
+    }
+    expect(leftAtOnce).toBe(true);
+    const again = await start(['resume', dir, '--quiet']).ended;
+    expect(again.code, again.err).toBe(0);
+    expectSameFiles(dir, reference, 'after a double Ctrl-C during a resume');
   }, 120_000);
 
   it('in a batch of worker processes: every run says stopped, none running, no lock left', async () => {
