@@ -36,18 +36,6 @@ export function orthogonalize(w: Float64Array, basis: Float64Array[]): Float64Ar
   return h;
 }
 
-/** Deterministic uniform generator on [0, 1) (mulberry32). */
-export function makeRandom(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 /**
  * A pair whose imaginary part is below this fraction of its modulus is two equal real
  * eigenvalues (a double eigenvalue the Schur standardisation left as a pair): it is split, so

@@ -13,7 +13,7 @@ import { type CscMatrix, type CscPattern, embedPattern, entryIndex, nnz, pattern
 import { EigenCall } from './call.js';
 import { coverageHeight, spectrumEnclosure } from './certification.js';
 import { denseResult } from './dense.js';
-import { makeRandom } from './krylov-schur.js';
+import { seededRandom } from '../random.js';
 import { checkWarmStart } from './seeding.js';
 import { searchNearest, searchRightmost } from './strategy.js';
 import type { ComputeExtras, EigenOptions, EigenWarmStart, RightmostOptions, RightmostResult } from './types.js';
@@ -96,7 +96,7 @@ export class EigenTracker {
     for (let p = 0; p < idx.length; p++) idx[p] = p;
     const tr = transpose({ ...pattern, values: idx });
     this.transposeMap = { pattern: tr, perm: Int32Array.from(tr.values) };
-    this.random = makeRandom(this.options.seed);
+    this.random = seededRandom(this.options.seed);
   }
 
   /** Warm start carried to the next call (null before the first call or after `reset`). */
@@ -124,7 +124,7 @@ export class EigenTracker {
     // keep the symbolic analysis (deterministic for a pattern); the next factorisation takes
     // fresh pivots, exactly as a new tracker's first one would
     this.freshNext = true;
-    this.random = makeRandom(this.options.seed);
+    this.random = seededRandom(this.options.seed);
     this.warm = null;
   }
 
