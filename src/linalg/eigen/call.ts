@@ -62,6 +62,8 @@ export class EigenCall {
   lastOutcome: SearchOutcome | null = null;
   /** Members of clusters whose copies may be incomplete (multiplicity.ts): not vouched for. */
   unverified: Complex[] = [];
+  /** Clusters completed by a shift's searches (their copies, as found then): see wideningSearch. */
+  verified: Complex[][] = [];
 
   constructor(readonly setup: CallSetup) {
     const { J, mass } = setup;

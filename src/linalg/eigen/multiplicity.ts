@@ -60,6 +60,31 @@ export function lockedSearch(call: EigenCall, op: ShiftOperator, alpha: number, 
 }
 
 /**
+ * The search of a further shift, planned only to widen the claimed region: every known pair
+ * right of `alpha` locked in and one fresh vector, required to converge the locked values (and,
+ * as every Cayley search, every Ritz value right of its line) but no value beyond them. Values
+ * beyond the locked ones lie left of the line, where a shift far to the right separates
+ * eigenvalues poorly (on a four-spot Gray–Scott pattern such a search hit its restart limit
+ * and the whole list lost its certificate). So this search vouches for no copies of its own:
+ * a cluster counts as complete only when an earlier shift completed it with as many copies
+ * (`EigenCall.verified`); every other cluster is open and completed by `completeClusters`.
+ */
+export function wideningSearch(call: EigenCall, op: ShiftOperator, alpha: number, maxKeep: number, purify: Purify, spec: SpecFor): WidthOf {
+  const ks = new KrylovSchur(call.n, call.setup.random);
+  const keep = call.known.filter((k) => k.mu.re > alpha).slice(0, maxKeep);
+  lockedStart(ks, op.sigma, keep, call.J, call.mass, purify);
+  const minDim = Math.min(ks.dim + call.explore, call.m + call.explore);
+  const out = runSearch(ks, spec(minDim, keep.length), call.counters);
+  call.record(out, op.sigma);
+  const verified = call.verified;
+  return (cluster) => {
+    const mu = cluster[0].mu;
+    const earlier = verified.find((c) => sameCluster(c[0], mu, call.floor));
+    return earlier !== undefined && earlier.length === cluster.length ? cluster.length + 1 : cluster.length;
+  };
+}
+
+/**
  * A search vouches for the copies of a cluster only inside the disc it claims (where every Ritz
  * value converged); outside it, a cluster counts as open whatever the width.
  */
@@ -121,4 +146,12 @@ export function completeClusters(call: EigenCall, op: ShiftOperator, alpha: numb
   }
   call.unverified = open.flat().map((k) => k.mu);
   for (const mu of call.unverified) call.exclude(mu);
+  // the clusters completed here (inside a claim, fewer copies than the width that found them)
+  const right = call.known.filter((k) => k.mu.re > alpha);
+  const done = clusters(right, call.floor).filter((c) => !open.includes(c) && !c.some((k) => call.unverified.some((u) => sameCluster(u, k.mu, call.floor))));
+  for (const c of done) {
+    const at = call.verified.findIndex((v) => sameCluster(v[0], c[0].mu, call.floor));
+    if (at >= 0) call.verified[at] = c.map((k) => k.mu);
+    else call.verified.push(c.map((k) => k.mu));
+  }
 }

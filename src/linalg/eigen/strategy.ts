@@ -25,7 +25,7 @@ import type { Complex } from '../schur.js';
 import type { EigenCall } from './call.js';
 import { type Enclosure, certifiedLine, reaches } from './certification.js';
 import { CLUSTER_TOLERANCE, listFloor, selectRightmost, sortRightmost } from './eigenpairs.js';
-import { type WidthOf, completeClusters, inClaim, lockedSearch, warmWidth } from './multiplicity.js';
+import { type WidthOf, completeClusters, inClaim, lockedSearch, warmWidth, wideningSearch } from './multiplicity.js';
 import { KrylovSchur } from './krylov-schur.js';
 import { runSearch } from './search.js';
 import { injectMissing, movedValues, seedFromWarm } from './seeding.js';
@@ -106,8 +106,10 @@ export function searchRightmost(call: EigenCall, o: { count: number; shift: numb
       }
       call.record(out, op.sigma);
       widthOf = inClaim(out.disc, warmWidth(call, moved, seeded.width));
-    } else {
+    } else if (shiftNo === 0) {
       widthOf = lockedSearch(call, op, plan.alpha, maxKeep, purify, spec);
+    } else {
+      widthOf = wideningSearch(call, op, plan.alpha, maxKeep, purify, spec);
     }
     completeClusters(call, op, plan.alpha, maxKeep, purify, spec, widthOf, target);
     first = false;
