@@ -439,12 +439,14 @@ export class Continuation {
       }
       // eigenvalues at the candidate: two crossings in one step are split by smaller steps
       // (the determinant would miss a pair of sign changes), down to a floor below which the
-      // crossing counts as one of multiplicity two
+      // crossing counts as one of multiplicity two (a floor of at least twice the minimum step,
+      // so that halving reaches it before the minimum: two pairs of a multiple eigenvalue, as a
+      // symmetric pattern's double Hopf pair, cross together and no split can part them)
       let stability: { stability: PointStability; warm: EigenWarmStart } | undefined;
       if (rejection === undefined && tangent && this.stab && b.stability) {
         stability = this.stab.analyse(xNew, b.eigenWarm);
         const crossings = countCrossings(b.stability, stability.stability);
-        if (crossings >= 2 && ds > Math.max(st.step.min, 1e-4 * st.step.max)) rejection = `${crossings} eigenvalue crossings in one step`;
+        if (crossings >= 2 && ds > Math.max(2 * st.step.min, 1e-4 * st.step.max)) rejection = `${crossings} eigenvalue crossings in one step`;
       }
       if (rejection !== undefined || !tangent) {
         if (res.failure === 'non-finite' && ds <= st.step.min) return this.end(b, 'non-finite', `non-finite values near ${st.parameter} = ${b.x[n]}: ${res.message}`);
