@@ -5,7 +5,11 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory   a subset
+ *   npm run bench -- --only lu,assembly,steps,branch,memory,reference   a subset
+ *
+ * `reference` times whole `branchline run`s of 2D Bratu 200x200 against a SciPy implementation of
+ * the same continuation (tools/bench/reference.ts) and prints the ratios; without Python and
+ * SciPy it says so and prints our figures alone.
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
@@ -16,6 +20,7 @@ import { benchLu } from './lu.js';
 import { benchExpressionAssembly } from './expression.js';
 import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
+import { benchReference } from './reference.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -92,6 +97,17 @@ if (want('memory') && !quick) {
   console.log('Peak memory, 2D Bratu 400x400 (160,000 unknowns), a few steps with 6 eigenvalues per point');
   console.log(table(['case', 'unknowns', 'peak RSS'], [[r.case, r.unknowns, r.peakRssMiB.toFixed(0) + ' MiB']]) + '\n');
   results.memory = r;
+}
+
+if (want('reference')) {
+  const m = quick ? 60 : 200;
+  const stepCounts = quick ? [10, 20] : [20, 40];
+  console.log(`Outside reference: whole runs of 2D Bratu ${m}x${m} (start point included), branchline against SciPy (splu per Newton iteration, ARPACK shift-invert)`);
+  const r = benchReference(m, stepCounts, (line) => console.log(line));
+  if (!r.python) console.log(`  ${r.note}: our figures alone`);
+  else console.log(`  reference: ${r.note}`);
+  console.log(r.text + '\n');
+  results.reference = { python: r.python, note: r.note, rows: r.rows };
 }
 
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');
