@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory,reference   a subset
+ *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,reference   a subset
  *
  * `reference` times whole `branchline run`s of 2D Bratu 200x200 against a SciPy implementation of
  * the same continuation (tools/bench/reference.ts) and prints the ratios; without Python and
@@ -21,6 +21,7 @@ import { benchExpressionAssembly } from './expression.js';
 import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
 import { benchReference } from './reference.js';
+import { type BackendRow, backendCases, backendTable } from './backends.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -48,6 +49,16 @@ if (want('lu')) {
   const lu = benchLu(quick ? [50, 100] : [100, 200, 300], ['amd', 'colamd', 'metis'], quick ? 3 : 5);
   console.log(lu.text + '\n');
   results.lu = lu.rows;
+}
+
+if (want('backends')) {
+  console.log('KLU against SuperLU on the bordered continuation matrix of each case (each run in its own process)');
+  const rows: BackendRow[] = [];
+  backendCases(quick).forEach((c, i) => {
+    for (const backend of ['klu', 'superlu']) rows.push(inChild<BackendRow>('backend', String(i), quick ? '1' : '0', backend, String(quick ? 1 : 3)));
+  });
+  console.log(backendTable(rows) + '\n');
+  results.backends = rows;
 }
 
 if (want('assembly')) {

@@ -3,8 +3,11 @@
  * (spawned by run.ts so that peak resident memory belongs to the case alone).
  *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
  *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
+ *   node dist/tools/bench/worker.js backend <case index> <quick 0|1> <klu|superlu> <repeats>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
+import { backendCases, benchBackend } from './backends.js';
+import type { Backend } from '../../src/linalg/lu.js';
 
 const [kind, ...rest] = process.argv.slice(2);
 if (kind === 'steps') {
@@ -14,6 +17,10 @@ if (kind === 'steps') {
 } else if (kind === 'branch') {
   const [n, eig] = rest;
   console.log(JSON.stringify(benchBranch(bratu1d(Number(n)), Number(eig))));
+} else if (kind === 'backend') {
+  const [index, quick, backend, repeats] = rest;
+  const c = backendCases(quick === '1')[Number(index)];
+  console.log(JSON.stringify(benchBackend(c, backend as Backend, Number(repeats))));
 } else {
   console.error(`worker: unknown kind '${kind}'`);
   process.exit(2);
