@@ -6,7 +6,6 @@
 #   wasm/build.sh              rebuild into wasm/ (the committed *.wasm, *.cjs, BUILDINFO.json)
 #   wasm/build.sh --out DIR    rebuild into DIR instead (CI uses this to test the recipe)
 #   wasm/build.sh --no-simd    without -msimd128
-#   wasm/build.sh --no-blas    SuperLU with its own kernels instead of the BLAS (for measurements)
 #
 # Needs Debian (bookworm) with apt: installs Debian's emscripten and f2c and fetches Debian's
 # source packages suitesparse, getfem (its copy of SuperLU) and lapack (the reference BLAS).
@@ -16,13 +15,11 @@ set -euo pipefail
 HERE="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 OUT="$HERE"
 SIMD="${BRANCHLINE_WASM_SIMD:-1}"
-BLAS=1
 while [ $# -gt 0 ]; do
   case "$1" in
     --out) OUT="$(mkdir -p "$2" && cd "$2" && pwd)"; shift 2 ;;
     --no-simd) SIMD=0; shift ;;
-    --no-blas) BLAS=0; shift ;;
-    *) echo "build.sh: unknown option '$1' (accepted: --out DIR, --no-simd, --no-blas)" >&2; exit 2 ;;
+    *) echo "build.sh: unknown option '$1' (accepted: --out DIR, --no-simd)" >&2; exit 2 ;;
   esac
 done
 WORK="${BRANCHLINE_WASM_WORK:-$HERE/build}"
@@ -132,38 +129,39 @@ compile shared bl_order "$HERE/glue/bl_order.c" -I"$METIS/include"
 
 echo "build.sh: compiling SuperLU (real and complex; the copy in Debian's getfem source)"
 SLU="$GETFEM/superlu"
-SLU_FLAGS=(-I"$SLU" -w -DUSER_ABORT=bs_abort)
-if [ "$BLAS" = 1 ]; then SLU_FLAGS+=(-DUSE_VENDOR_BLAS); fi
+SLU_FLAGS=(-I"$SLU" -w -DUSE_VENDOR_BLAS -DUSER_ABORT=bs_abort -include "$HERE/glue/bl_superlu_prelude.h")
 # the double and double-complex routines a factorisation and its solves need (not the drivers,
 # refinement, equilibration and condition estimators: the glue does those), and the shared ones
-SLU_FILES=(colamd get_perm_c heap_relax_snode lsame memory mmd relax_snode sp_coletree sp_preorder util dcomplex)
+SLU_FILES=(colamd get_perm_c heap_relax_snode lsame memory mmd relax_snode sp_coletree sp_preorder util dcomplex dlamch superlu_timer)
 for t in d z; do
   for f in column_bmod column_dfs copy_to_ucol gstrf gstrs memory myblas2 panel_bmod panel_dfs pivotL pivotgrowth pruneL snode_bmod snode_dfs sp_blas2 sp_blas3 util; do
     SLU_FILES+=("$t$f")
   done
 done
 for b in "${SLU_FILES[@]}"; do
-  compile sluobj "slu_$b" "$SLU/$b.c" "${SLU_FLAGS[@]}"
+  extra=()
+  # the glue has a TreePostorder without recursion (see bl_superlu.c)
+  if [ "$b" = sp_coletree ]; then extra=(-DTreePostorder=bs_recursive_postorder_unused); fi
+  compile sluobj "slu_$b" "$SLU/$b.c" "${SLU_FLAGS[@]}" "${extra[@]}"
 done
 GLUE_INC=(-I"$SLU" -I"$HERE/glue" -I"$SRC/AMD/Include" "${CONFIG_INC[@]}")
 compile sluobj bl_superlu "$HERE/glue/bl_superlu.c" "${GLUE_INC[@]}"
 compile sluobj bl_superlu_d "$HERE/glue/bl_superlu_kernel.c" "${GLUE_INC[@]}"
 compile sluobj bl_superlu_z "$HERE/glue/bl_superlu_kernel.c" -DBS_COMPLEX "${GLUE_INC[@]}"
 
-if [ "$BLAS" = 1 ]; then
-  echo "build.sh: translating the reference BLAS (Debian's lapack source) with f2c and compiling it"
-  F2C="$WORK/blas-f2c"
-  rm -rf "$F2C"; mkdir -p "$F2C"
-  BLAS_ROUTINES=(dtrsv dgemv dtrsm dgemm ztrsv zgemv ztrsm zgemm)
-  for r in "${BLAS_ROUTINES[@]}"; do cp "$LAPACK/BLAS/SRC/$r.f" "$F2C/"; done
-  (cd "$F2C" && f2c -a -A ./*.f >/dev/null 2>&1)
-  RENAME=(-Dlsame_=bl_blas_lsame -Dxerbla_=bl_blas_xerbla)
-  for r in "${BLAS_ROUTINES[@]}"; do RENAME+=(-D${r}_=bl_f2c_$r); done
-  for r in "${BLAS_ROUTINES[@]}"; do
-    compile blasobj "blas_$r" "$F2C/$r.c" -w "${RENAME[@]}"
-  done
-  compile blasobj bl_blas "$HERE/glue/bl_blas.c"
-fi
+echo "build.sh: translating the reference BLAS (Debian's lapack source) with f2c and compiling it"
+F2C="$WORK/blas-f2c"
+rm -rf "$F2C"; mkdir -p "$F2C"
+BLAS_ROUTINES=(dtrsv dgemv dtrsm dgemm ztrsv zgemv ztrsm zgemm)
+for r in "${BLAS_ROUTINES[@]}"; do cp "$LAPACK/BLAS/SRC/$r.f" "$F2C/"; done
+(cd "$F2C" && f2c -a -A ./*.f >/dev/null 2>&1)
+cp /usr/include/f2c.h "$F2C/"  # from Debian's f2c package (emscripten has its own system headers)
+RENAME=(-Dlsame_=bl_blas_lsame -Dxerbla_=bl_blas_xerbla)
+for r in "${BLAS_ROUTINES[@]}"; do RENAME+=(-D${r}_=bl_f2c_$r); done
+for r in "${BLAS_ROUTINES[@]}"; do
+  compile blasobj "blas_$r" "$F2C/$r.c" -w -I"$F2C" "${RENAME[@]}"
+done
+compile blasobj bl_blas "$HERE/glue/bl_blas.c"
 
 echo "build.sh: compiling the KLU glue"
 compile kluobj bl_klu "$HERE/glue/bl_klu.c" "${KLU_INC[@]}" -I"$METIS/include" -I"$HERE/glue"
@@ -194,17 +192,15 @@ link superlu createSuperluModule "$SLU_EXPORTS" "${shared[@]}" "${sluobj[@]}" "$
 
 EMCC_VERSION="$(emcc --version | head -n 1)"
 SIMD_JSON=false; [ "$SIMD" = 1 ] && SIMD_JSON=true
-BLAS_JSON=false; [ "$BLAS" = 1 ] && BLAS_JSON=true
 cat > "$OUT/BUILDINFO.json" <<EOF
 {
   "suitesparse": "5.12.0 (Debian source package suitesparse $SUITESPARSE_DEB_VERSION)",
   "components": { "SuiteSparse_config": "5.12.0", "AMD": "2.4.6", "COLAMD": "2.9.6", "BTF": "1.2.6", "KLU": "1.3.8", "METIS": "5.1.0" },
   "superlu": "3.0 (the copy in Debian source package getfem $GETFEM_DEB_VERSION)",
-  "blas": $( [ "$BLAS" = 1 ] && echo "\"reference BLAS 3.11.0 (Debian source package lapack $LAPACK_DEB_VERSION, translated by Debian's f2c $(dpkg-query -W -f='${Version}' f2c 2>/dev/null || echo unknown))\"" || echo null ),
+  "blas": "reference BLAS 3.11.0 (Debian source package lapack $LAPACK_DEB_VERSION, translated by Debian's f2c $(dpkg-query -W -f='${Version}' f2c 2>/dev/null || echo unknown))",
   "emscripten": "$EMCC_VERSION",
   "cflags": "${CFLAGS[*]}",
   "simd": $SIMD_JSON,
-  "superluUsesBlas": $BLAS_JSON,
   "sha256": "$(sha256sum "$OUT/klu.wasm" | cut -d' ' -f1)",
   "superluSha256": "$(sha256sum "$OUT/superlu.wasm" | cut -d' ' -f1)"
 }

@@ -14,6 +14,7 @@ import { correct, correctWork, type NewtonResult } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
 import { StabilityAnalyser, crossingPair, locateCountChange, locateHopf } from './stability.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
+import type { BackendDecision } from '../linalg/lu.js';
 import { difference } from '../linalg/vector.js';
 import type {
   BranchInfo,
@@ -131,7 +132,7 @@ export class Continuation {
     readonly settings: ContinuationSettings,
     private readonly options: ContinuationOptions = {},
   ) {
-    this.sys = new ContinuationSystem(problem, params, settings.parameter);
+    this.sys = new ContinuationSystem(problem, params, settings.parameter, settings.sparseLu ? { backend: settings.sparseLu } : {});
     this.n = problem.size;
     this.work = correctWork(this.n);
     [this.lo, this.hi] = settings.bounds;
@@ -159,6 +160,11 @@ export class Continuation {
 
   snapshot(): EngineState {
     return cloneState(this.state);
+  }
+
+  /** Which sparse LU factors the bordered continuation matrix and why (undefined before the first point). */
+  linearSolver(): BackendDecision | undefined {
+    return this.sys.luDecision;
   }
 
   /** Counts of the linear algebra done so far. */

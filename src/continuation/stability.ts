@@ -29,7 +29,7 @@ export class StabilityAnalyser {
   ) {
     const problem = sys.problem;
     const pattern = problem.pattern();
-    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal });
+    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal, lu: sys.luOptions });
     this.values = new Float64Array(pattern.colPtr[pattern.cols]);
   }
 
@@ -53,7 +53,7 @@ export class StabilityAnalyser {
     let tracker = this.tracker;
     if (precise) {
       const problem = this.sys.problem;
-      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE });
+      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE, lu: this.sys.luOptions });
       tracker = this.precise;
     }
     const r = tracker.compute(this.values, { warmStart: warm });

@@ -12,7 +12,7 @@
  */
 import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../linalg/bordered.js';
-import { SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
+import { type BackendDecision, SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
 import type { Params, Problem } from '../problem/problem.js';
 
 export class ContinuationSystem {
@@ -28,7 +28,8 @@ export class ContinuationSystem {
   /** 1 / max(1, max_j |J_ij|) per row, frozen at `setRowScale`: the scaled residual ‖D⁻¹F‖_w is grid- and model-independent. */
   readonly rowScale: Float64Array;
   private lu: SparseLU | undefined;
-  private readonly luOptions: LUOptions;
+  /** Options of the bordered matrix's LU (the eigenvalue solver's LU takes the same backend request). */
+  readonly luOptions: LUOptions;
   private readonly rowBuffer: Float64Array;
   factorisations = 0;
   refactorisations = 0;
@@ -133,6 +134,11 @@ export class ContinuationSystem {
   /** Arbitrary border column (first n entries); assemble() puts F_λ there. */
   setColumn(column: ArrayLike<number>): void {
     this.bordered.setColumn(0, column);
+  }
+
+  /** Which sparse LU factors the bordered matrix and why (undefined before the first factorisation). */
+  get luDecision(): BackendDecision | undefined {
+    return this.lu?.decision;
   }
 
   private solver(): SparseLU {

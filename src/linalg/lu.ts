@@ -92,24 +92,26 @@ export interface BackendDecision {
 export const autoMinimumUnknowns = 2000;
 
 /**
- * The automatic choice, from the predicted factor alone (deterministic). SuperLU's dense
- * kernels pay when the factor is large and its columns come in wide supernodes: measured on the
- * benchmark's grids (wasm/README.md), SuperLU factors faster than KLU from about 2·10⁸ predicted
- * flops with supernodes averaging 3 columns or more (2D grids from about 150×150, periodic and
- * two-field 2D grids from 64×64, every 3D grid of interest); below that KLU's cheap
- * refactorisations with kept pivots win.
+ * The automatic choice, from the predicted factor alone (deterministic). SuperLU's dense kernels
+ * pay when the factor is large and dense in places — many operations per entry of L, which is
+ * what wide separators (3D grids), several coupled fields and periodic directions produce. On
+ * the benchmark's bordered matrices (wasm/README.md) SuperLU factored 2D Gray–Scott periodic 128²
+ * (1.1·10⁹ flops, 590 per entry) 2–2.5× and 3D Bratu 40³ (2.8·10¹⁰ flops, 2,100 per entry) 3.6×
+ * faster than KLU, while on scalar 2D grids up to 400² (at most 340 per entry) KLU's
+ * refactorisations with kept pivots were as fast or faster. Hence: SuperLU from 5·10⁸ predicted
+ * flops and 450 flops per entry, else KLU.
  */
 export function decideBackend(n: number, p: FactorPrediction): { backend: Backend; reason: string } {
-  const width = n / Math.max(1, p.supernodes);
-  const facts = `predicted factor of ${n} unknowns: ${fmtCount(p.entries)} entries in L, ${fmtCount(p.flops)} flops, supernodes of ${width.toFixed(1)} columns on average`;
-  if (p.flops >= autoFlopsThreshold && width >= autoSupernodeWidth) {
-    return { backend: 'superlu', reason: `${facts}: the supernodal LU pays from ${fmtCount(autoFlopsThreshold)} flops with supernodes of ${autoSupernodeWidth} columns or more` };
+  const perEntry = p.flops / Math.max(1, p.entries);
+  const facts = `predicted factor of ${n} unknowns: ${fmtCount(p.entries)} entries in L, ${fmtCount(p.flops)} flops, ${perEntry.toFixed(0)} flops per entry`;
+  if (p.flops >= autoFlopsThreshold && perEntry >= autoFlopsPerEntry) {
+    return { backend: 'superlu', reason: `${facts}: SuperLU (supernodal) pays from ${fmtCount(autoFlopsThreshold)} flops and ${autoFlopsPerEntry} flops per entry` };
   }
-  return { backend: 'klu', reason: `${facts}: below ${fmtCount(autoFlopsThreshold)} flops or supernodes of ${autoSupernodeWidth} columns, KLU (kept pivots, cheap refactorisations) is faster` };
+  return { backend: 'klu', reason: `${facts}: below ${fmtCount(autoFlopsThreshold)} flops or ${autoFlopsPerEntry} flops per entry, KLU (cheap refactorisations with kept pivots) is as fast or faster` };
 }
 
-const autoFlopsThreshold = 2e8;
-const autoSupernodeWidth = 3;
+const autoFlopsThreshold = 5e8;
+const autoFlopsPerEntry = 450;
 
 function fmtCount(x: number): string {
   return x >= 1e5 ? x.toExponential(2).replace('e+', 'e') : String(Math.round(x));

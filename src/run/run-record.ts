@@ -26,6 +26,8 @@ export class RunRecord {
   continuationSeconds = 0;
   /** When run.json was last written (ms). */
   lastWritten = 0;
+  /** Which sparse LU the continuation uses and why (the engine's `linearSolver()`, once known). */
+  linearSolver: { backend: string; requested: string; reason: string } | undefined;
 
   constructor(
     private readonly prepared: PreparedCase,
@@ -80,6 +82,7 @@ export class RunRecord {
       },
       'start-parameters': { ...params },
       'continuation-parameter': settings.parameter,
+      ...(this.linearSolver ? { 'linear-solver': { ...this.linearSolver } } : {}),
       columns: plan.columns,
       branches: ledger.branches.map((b) => ({
         id: b.id,

@@ -6,7 +6,7 @@
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
 import { SparseLU, SparseLUError, decideBackend, predictFactor } from '../../src/linalg/lu.js';
-import { type CscPattern, cscFromTriplets } from '../../src/linalg/sparse.js';
+import { type CscPattern, cscFromTriplets, matVec } from '../../src/linalg/sparse.js';
 import { laplacian2d } from '../../tools/bench/grid.js';
 
 /** A random unsymmetric sparse pattern with a full diagonal, and a random ordering. */
@@ -118,10 +118,40 @@ describe('automatic backend choice', () => {
     second.dispose();
   });
 
-  test('the rule: SuperLU for large factors with wide supernodes, KLU otherwise', () => {
+  test('a 3D grid (24³ unknowns, 7-point Laplacian) gets SuperLU, and its factors solve the system', () => {
+    const m = 24;
+    const at = (x: number, y: number, z: number) => (z * m + y) * m + x;
+    const ri: number[] = [];
+    const ci: number[] = [];
+    const v: number[] = [];
+    for (let z = 0; z < m; z++)
+      for (let y = 0; y < m; y++)
+        for (let x = 0; x < m; x++) {
+          const k = at(x, y, z);
+          ri.push(k), ci.push(k), v.push(6.5);
+          for (const [dx, dy, dz] of [[1, 0, 0], [-1, 0, 0], [0, 1, 0], [0, -1, 0], [0, 0, 1], [0, 0, -1]]) {
+            const [X, Y, Z] = [x + dx, y + dy, z + dz];
+            if (X >= 0 && X < m && Y >= 0 && Y < m && Z >= 0 && Z < m) ri.push(k), ci.push(at(X, Y, Z)), v.push(-1);
+          }
+        }
+    const a = cscFromTriplets(m ** 3, m ** 3, ri, ci, v);
+    const lu = new SparseLU(a);
+    expect(lu.backend).toBe('superlu');
+    expect(lu.decision.reason).toMatch(/SuperLU \(supernodal\) pays/);
+    lu.factor(a.values);
+    const b = new Float64Array(a.rows).fill(1);
+    const x = lu.solve(b);
+    const r = matVec(a, x, new Float64Array(a.rows));
+    let err = 0;
+    for (let i = 0; i < r.length; i++) err = Math.max(err, Math.abs(r[i] - b[i]));
+    expect(err).toBeLessThan(1e-12);
+    lu.dispose();
+  });
+
+  test('the rule: SuperLU for large factors with many operations per entry, KLU otherwise', () => {
     expect(decideBackend(100_000, { entries: 5e6, flops: 5e9, supernodes: 10_000 }).backend).toBe('superlu');
-    expect(decideBackend(100_000, { entries: 5e6, flops: 5e9, supernodes: 90_000 }).backend).toBe('klu');
-    expect(decideBackend(10_000, { entries: 2e5, flops: 1e7, supernodes: 1_000 }).backend).toBe('klu');
+    expect(decideBackend(160_000, { entries: 5e6, flops: 1.6e9, supernodes: 10_000 }).backend).toBe('klu'); // a 2D grid: 320 per entry
+    expect(decideBackend(10_000, { entries: 2e5, flops: 1e8, supernodes: 1_000 }).backend).toBe('klu'); // small
   });
 
   test('a backend can be forced; an unknown one is refused naming the accepted ones', () => {

@@ -1,9 +1,9 @@
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
-import { LuDecomposition, Matrix } from 'ml-matrix';
+import { LuDecomposition, Matrix, inverse } from 'ml-matrix';
 import { type Backend, ComplexSparseLU, SparseLU, SparseLUError, backends } from '../../src/linalg/lu.js';
 import { type CscMatrix, cscFromTriplets, matVec, matTVec, toDense } from '../../src/linalg/sparse.js';
-import { wasmMemoryBytes } from '../../src/linalg/wasm.js';
+import { superlu, wasmMemoryBytes } from '../../src/linalg/wasm.js';
 
 /**
  * Random sparse nonsingular matrices with controlled conditioning: A = P (D + E) with D a
@@ -169,6 +169,26 @@ describe.each(backends)('backend %s', (backend: Backend) => {
       );
     });
 
+    test('the 1-norm condition estimate is a lower bound of κ₁ = ‖A‖₁‖A⁻¹‖₁ within a factor 10 (dense inverse)', () => {
+      // Hager–Higham estimates are lower bounds, rarely more than a factor 3 low (Higham 1988; common practice)
+      fc.assert(
+        fc.property(matrixArb, ({ a, dense }) => {
+          const lu = new SparseLU(a, { backend });
+          try {
+            lu.factor(a.values);
+            const norm1 = (m: Matrix) => Math.max(...Array.from({ length: m.columns }, (_, j) => m.getColumn(j).reduce((s, x) => s + Math.abs(x), 0)));
+            const kappa = norm1(dense) * norm1(inverse(dense));
+            const est = lu.conditionEstimate();
+            expect(est).toBeLessThanOrEqual(kappa * (1 + 1e-10));
+            expect(est).toBeGreaterThanOrEqual(kappa / 10);
+          } finally {
+            lu.dispose();
+          }
+        }),
+        { numRuns: 30 },
+      );
+    });
+
     test('refactor and the refactor-or-factor policy give the same solutions as a fresh factor', () => {
       fc.assert(
         fc.property(matrixArb, fc.integer({ min: 1, max: 1000 }), ({ a }, seed) => {
@@ -322,6 +342,61 @@ describe.each(backends)('backend %s', (backend: Backend) => {
         { numRuns: 25 },
       );
     });
+
+    test('complex transpose and conjugate-transpose solves, and the determinant, match the real 2n formulation (ml-matrix)', () => {
+      fc.assert(
+        fc.property(matrixArb, fc.integer({ min: 1, max: 1000 }), ({ a }, seed) => {
+          // A = Ar + i·Ai with Ai = 0.3·r·Ar entrywise (r random in [-1, 1]): still diagonally dominant
+          const n = a.rows;
+          const rand = rng(seed);
+          const m = a.values.length;
+          const z = new Float64Array(2 * m);
+          for (let p = 0; p < m; p++) {
+            z[2 * p] = a.values[p];
+            z[2 * p + 1] = 0.3 * (2 * rand() - 1) * a.values[p];
+          }
+          const ar = Matrix.zeros(n, n);
+          const ai = Matrix.zeros(n, n);
+          for (let j = 0; j < n; j++) {
+            for (let p = a.colPtr[j]; p < a.colPtr[j + 1]; p++) {
+              ar.set(a.rowIdx[p], j, z[2 * p]);
+              ai.set(a.rowIdx[p], j, z[2 * p + 1]);
+            }
+          }
+          // real form of a complex matrix B = Br + i·Bi: [[Br, −Bi], [Bi, Br]]
+          const realForm = (br: Matrix, bi: Matrix): Matrix => {
+            const big = Matrix.zeros(2 * n, 2 * n);
+            big.setSubMatrix(br, 0, 0);
+            big.setSubMatrix(br, n, n);
+            big.setSubMatrix(bi.clone().mul(-1), 0, n);
+            big.setSubMatrix(bi, n, 0);
+            return big;
+          };
+          const b = randomVector(2 * n, seed + 1);
+          const rhs = Matrix.columnVector([...Array.from({ length: n }, (_, i) => b[2 * i]), ...Array.from({ length: n }, (_, i) => b[2 * i + 1])]);
+          const interleave = (c: number[]) => Float64Array.from({ length: 2 * n }, (_, k) => (k % 2 ? c[n + (k >> 1)] : c[k >> 1]));
+          const lu = new ComplexSparseLU(a, { backend });
+          try {
+            lu.factor(z);
+            const xt = lu.solveTranspose(b);
+            const xh = lu.solveTranspose(b, undefined, 1, true);
+            // Aᵀ = Arᵀ + i·Aiᵀ, Aᴴ = Arᵀ − i·Aiᵀ
+            const refT = interleave(new LuDecomposition(realForm(ar.transpose(), ai.transpose())).solve(rhs).getColumn(0));
+            const refH = interleave(new LuDecomposition(realForm(ar.transpose(), ai.transpose().mul(-1))).solve(rhs).getColumn(0));
+            expect(relativeDiff(xt, refT)).toBeLessThan(1e-9);
+            expect(relativeDiff(xh, refH)).toBeLessThan(1e-9);
+            // |det A|² = det of the real form (a standard identity for complex matrices)
+            const det = new LuDecomposition(realForm(ar, ai)).determinant;
+            const { phaseRe, phaseIm, logAbs } = lu.logDeterminant();
+            expect(Math.abs(Math.hypot(phaseRe, phaseIm) - 1)).toBeLessThan(1e-12);
+            expect(Math.abs(2 * logAbs - Math.log(det))).toBeLessThan(1e-9 * Math.max(1, Math.abs(logAbs)));
+          } finally {
+            lu.dispose();
+          }
+        }),
+        { numRuns: 12 },
+      );
+    });
   });
 
   function colIndices(a: CscMatrix): number[] {
@@ -430,5 +505,30 @@ describe.each(backends)('backend %s', (backend: Backend) => {
       for (let k = 0; k < 300; k++) cycle();
       expect(wasmMemoryBytes()).toBe(after50);
     });
+  });
+});
+
+describe('SuperLU storage', () => {
+  test('factors whose storage grew during the factorisation (a tight first guess) solve exactly like generously allocated ones', () => {
+    // bs_set_tuning(6, k) overrides the first storage guess with k·nnz(A): with k = 1 SuperLU
+    // must grow its L and U arrays many times in the middle of the factorisation
+    fc.assert(
+      fc.property(matrixArb, fc.integer({ min: 1, max: 1000 }), ({ a }, seed) => {
+        const b = randomVector(a.rows, seed);
+        const solveWith = (fill: number): Float64Array => {
+          superlu._bs_set_tuning(6, fill);
+          const lu = new SparseLU(a, { backend: 'superlu' });
+          try {
+            lu.factor(a.values);
+            return lu.solve(b);
+          } finally {
+            lu.dispose();
+            superlu._bs_set_tuning(6, 0);
+          }
+        };
+        expect(solveWith(1)).toEqual(solveWith(40));
+      }),
+      { numRuns: 40 },
+    );
   });
 });

@@ -44,12 +44,51 @@ void bs_abort(char *msg) {
  * supernode, 4 and 5 the row and column thresholds for 2-D blocking, 6 the first storage guess
  * in multiples of nnz(A) (set per handle from its previous factorisation).
  */
-int bs_ienv[7] = {0, 12, 8, 128, 200, 60, 20};
+int bs_ienv[7] = {0, 10, 5, 100, 200, 40, 20}; /* SuperLU 3.0's own values (tuning them measured no difference) */
 
 int sp_ienv(int ispec) { return ispec >= 1 && ispec <= 6 ? bs_ienv[ispec] : 0; }
 
+int bs_fill_override = 0;
+
 void bs_set_tuning(int ispec, int value) {
     if (ispec >= 1 && ispec <= 5 && value > 0) bs_ienv[ispec] = value;
+    if (ispec == 6) bs_fill_override = value;
+}
+
+/*
+ * Postorder of a forest given by parent[] (roots have parent n), as SuperLU's TreePostorder,
+ * but without recursion: SuperLU 3.0's recursive depth-first search overflows the stack on
+ * deep trees — the column elimination tree of a matrix with a dense row (a continuation border)
+ * is a path through every column. (SuperLU 4 made the same change.) sp_coletree.c is compiled
+ * with its own TreePostorder renamed away. Returns post[] with post[v] = postorder number of v.
+ */
+int *TreePostorder(int n, int *parent) {
+    int *first_kid = (int *)superlu_malloc(sizeof(int) * (size_t)(n + 1));
+    int *next_kid = (int *)superlu_malloc(sizeof(int) * (size_t)(n + 1));
+    int *post = (int *)superlu_malloc(sizeof(int) * (size_t)(n + 1));
+    if (!first_kid || !next_kid || !post) bs_abort("TreePostorder: out of memory");
+    for (int v = 0; v <= n; v++) first_kid[v] = -1;
+    next_kid[n] = -1;
+    for (int v = n - 1; v >= 0; v--) {
+        int dad = parent[v];
+        next_kid[v] = first_kid[dad];
+        first_kid[dad] = v;
+    }
+    /* depth-first from the dummy root n: descend to first kids, number on the way back up */
+    int current = n, postnum = 0;
+    for (;;) {
+        while (first_kid[current] != -1) current = first_kid[current];
+        post[current] = postnum++;
+        while (current != n && next_kid[current] == -1) {
+            current = parent[current];
+            post[current] = postnum++;
+        }
+        if (current == n) break;
+        current = next_kid[current];
+    }
+    superlu_free(first_kid);
+    superlu_free(next_kid);
+    return post;
 }
 
 /* The copy of SuperLU in Debian's getfem source asks this hook whether to cancel: never. */
@@ -175,6 +214,11 @@ int bs_analyze(bs_handle *h, int ordering) {
     bs_abort_armed = 0;
     /* the final column order (sp_preorder post-orders it in unsymmetric mode), KLU's convention */
     for (int j = 0; j < n; j++) h->perm[h->perm_c[j]] = j;
+    /* the predicted factor: for the automatic choice, and the first storage guess (SuperLU's L
+       holds each supernode's diagonal block whole, hence the margin) */
+    if (!bl_symbolic_counts(n, h->Ap, h->Ai, h->perm, h->predicted)) return BL_OUT_OF_MEMORY;
+    int hint = (int)ceil(1.25 * h->predicted[0] / (h->nnz > 0 ? h->nnz : 1));
+    h->fill_hint = hint < 4 ? 4 : hint;
     h->analysed = 1;
     return BL_OK;
 }
@@ -182,7 +226,8 @@ int bs_analyze(bs_handle *h, int ordering) {
 /* Predicted nnz(L), flops and supernodes for the analysed ordering (see bl_order.c). */
 int bs_symbolic(bs_handle *h, double *out) {
     if (!h->analysed && h->n > 0) return BL_NOT_FACTORED;
-    return bl_symbolic_counts(h->n, h->Ap, h->Ai, h->perm, out) ? BL_OK : BL_OUT_OF_MEMORY;
+    for (int k = 0; k < 3; k++) out[k] = h->predicted[k];
+    return BL_OK;
 }
 
 /* Row scale factors and the scaled values; the index of the first non-finite value, or -1. */

@@ -6,6 +6,7 @@
 #define BL_SUPERLU_H
 
 #include <setjmp.h>
+typedef int int_t; /* SuperLU's index type (slu_ddefs.h and slu_zdefs.h define it too) */
 #include "slu_Cnames.h"
 #include "supermatrix.h"
 #include "slu_util.h"
@@ -33,6 +34,7 @@ typedef struct {
     double lnz, unz, stored;   /* nnz(L) with its diagonal, nnz(U) with its diagonal, values stored */
     double *udiag;         /* U's diagonal in pivot order (n real or 2n interleaved complex) */
     int fill_hint;         /* storage guess for the next factorisation, in multiples of nnz(A) */
+    double predicted[3];   /* the ordering's predicted factor (bl_symbolic_counts) */
     NCformat Astore;
     SuperMatrix A, AC, L, U;
     int has_lu;
@@ -46,6 +48,7 @@ void bs_abort(char *msg);
 
 /* tuning knobs read by sp_ienv (bl_superlu.c) */
 extern int bs_ienv[7];
+extern int bs_fill_override;
 
 int bs_d_factor(bs_handle *h);
 int bs_z_factor(bs_handle *h);

@@ -46,7 +46,7 @@ int BS(factor)(bs_handle *h) {
     volatile int info = 0;
     SuperLUStat_t stat;
     h->options.Fact = DOFACT;
-    bs_ienv[6] = h->fill_hint;
+    bs_ienv[6] = bs_fill_override > 0 ? bs_fill_override : h->fill_hint;
     StatInit(&stat);
     bs_abort_armed = 1;
     if (setjmp(bs_abort_jump)) {
