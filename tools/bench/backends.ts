@@ -1,15 +1,17 @@
 /**
  * KLU against SuperLU on the bordered continuation matrix of every benchmark case: analysis,
- * factorisation and solve times, entries in the factors, wasm memory, and what the automatic
- * choice (`decideBackend`, from the predicted factor) picks. Each (case, backend) runs in its own
- * process (worker.ts) so that the wasm memory figure belongs to it.
+ * factorisation, refactorisation (KLU: kept pivots; SuperLU has none) and solve times, entries in
+ * the factors, wasm memory, and what the automatic choice (`decideBackend`, from the predicted
+ * factor) picks. Times are CPU seconds, the minimum of the repeats after a warm-up (the machine
+ * may be shared: see cpuMin). Each (case, backend) runs in its own process (worker.ts) so that
+ * the wasm memory figure belongs to it.
  */
 import { models } from '../../discretisations/index.js';
 import { ContinuationSystem } from '../../src/continuation/system.js';
 import { type Backend, SparseLU, decideBackend, predictFactor } from '../../src/linalg/lu.js';
 import { wasmMemoryBytes } from '../../src/linalg/wasm.js';
 import { resolveParameters } from '../../src/problem/problem.js';
-import { seconds, table, timeMedian } from './stats.js';
+import { cpuMin, seconds, table } from './stats.js';
 
 export interface BackendCase {
   name: string;
@@ -25,7 +27,11 @@ export interface BackendRow {
   backend: Backend;
   analyseSeconds: number;
   factorSeconds: number;
+  /** KLU's refactorisation with kept pivots (SuperLU: a factorisation). */
+  refactorSeconds: number;
   solveSeconds: number;
+  /** Six right-hand sides at once. */
+  solve6Seconds: number;
   /** Entries of L and U (diagonals counted once each factor). */
   factorEntries: number;
   /** Size of the backend's wasm memory after the run (both modules are loaded; the other stays small). */
@@ -67,14 +73,17 @@ export function benchBackend(c: BackendCase, backend: Backend, repeats: number):
   const { pattern, values, n } = borderedMatrix(c);
   const auto = decideBackend(n, predictFactor(pattern));
   let lu: SparseLU | undefined;
-  const analyseSeconds = timeMedian(() => {
+  const analyseSeconds = cpuMin(() => {
     lu?.dispose();
     lu = new SparseLU(pattern, { backend });
   }, 1);
   const solver = lu!;
-  const factorSeconds = timeMedian(() => solver.factor(values), repeats);
+  const factorSeconds = cpuMin(() => solver.factor(values), repeats);
+  const refactorSeconds = cpuMin(() => solver.refactor(values), repeats);
   const b = new Float64Array(n).fill(1);
-  const solveSeconds = timeMedian(() => solver.solve(b), Math.max(repeats, 5));
+  const solveSeconds = cpuMin(() => solver.solve(b), Math.max(repeats, 5));
+  const b6 = new Float64Array(6 * n).fill(1);
+  const solve6Seconds = cpuMin(() => solver.solve(b6, undefined, 6), Math.max(repeats, 5));
   const st = solver.stats();
   const row: BackendRow = {
     case: c.name,
@@ -82,7 +91,9 @@ export function benchBackend(c: BackendCase, backend: Backend, repeats: number):
     backend,
     analyseSeconds,
     factorSeconds,
+    refactorSeconds,
     solveSeconds,
+    solve6Seconds,
     factorEntries: st.lnz + st.unz - st.n + st.offBlockNnz,
     wasmMiB: wasmMemoryBytes() / 2 ** 20,
     auto: auto.backend,
@@ -94,14 +105,16 @@ export function benchBackend(c: BackendCase, backend: Backend, repeats: number):
 
 export function backendTable(rows: BackendRow[]): string {
   const text = table(
-    ['case', 'unknowns', 'backend', 'analyse', 'factor', 'solve', 'entries in L+U', 'wasm memory', 'auto picks'],
+    ['case', 'unknowns', 'backend', 'analyse', 'factor', 'refactor', 'solve', '6 solves', 'entries in L+U', 'wasm memory', 'auto picks'],
     rows.map((r) => [
       r.case,
       r.unknowns,
       r.backend,
       seconds(r.analyseSeconds),
       seconds(r.factorSeconds),
+      seconds(r.refactorSeconds),
       seconds(r.solveSeconds),
+      seconds(r.solve6Seconds),
       (r.factorEntries / 1e6).toFixed(2) + ' M',
       r.wasmMiB.toFixed(0) + ' MiB',
       r.backend === 'klu' ? r.auto : '',

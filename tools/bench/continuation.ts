@@ -133,6 +133,18 @@ export function bratu2d(m: number, steps: number): StepCase {
   };
 }
 
+/** 3D Bratu with `intervals` intervals per axis ((intervals − 1)³ unknowns), on the lower branch. */
+export function bratu3d(intervals: number, steps: number): StepCase {
+  return {
+    name: `3D Bratu ${intervals}^3 intervals`,
+    model: 'bratu',
+    options: { grid: { intervals: [intervals, intervals, intervals] } },
+    parameters: { lambda: 1 },
+    settings: { parameter: 'lambda', bounds: [0, 20], step: { initial: 0.25, min: 1e-8, max: 0.25 } },
+    steps,
+  };
+}
+
 /** 2D Gray–Scott (two fields) on a periodic square, from a spot. */
 export function grayScott2d(m: number, steps: number): StepCase {
   return {

@@ -52,7 +52,7 @@ if (want('lu')) {
 }
 
 if (want('backends')) {
-  console.log('KLU against SuperLU on the bordered continuation matrix of each case (each run in its own process)');
+  console.log('KLU against SuperLU on the bordered continuation matrix of each case (CPU seconds, minimum of the repeats; each run in its own process)');
   const rows: BackendRow[] = [];
   backendCases(quick).forEach((c, i) => {
     for (const backend of ['klu', 'superlu']) rows.push(inChild<BackendRow>('backend', String(i), quick ? '1' : '0', backend, String(quick ? 1 : 3)));
@@ -80,6 +80,8 @@ if (want('steps')) {
   }
   const gs = quick ? 64 : 128;
   for (const eig of [0, 6]) rows.push(inChild<StepBenchRow>('steps', 'gray-scott', String(gs), '10', String(eig), String(repeats)));
+  // 3D Bratu 40³ intervals (59,319 unknowns): a few steps, one repetition (minutes per step with KLU)
+  if (!quick) rows.push(inChild<StepBenchRow>('steps', 'bratu3d', '40', '3', '6', '1'));
   console.log('Continuation steps (pseudo-arclength; each case in its own process)');
   console.log(stepTable(rows) + '\n');
   console.log('Where the time of a step goes');
