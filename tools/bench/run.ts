@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,reference   a subset
+ *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,settle,reference   a subset
  *
  * `reference` times whole `branchline run`s of 2D Bratu 200x200 against a SciPy implementation of
  * the same continuation (tools/bench/reference.ts) and prints the ratios; without Python and
@@ -22,6 +22,7 @@ import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
 import { benchReference } from './reference.js';
 import { type BackendRow, backendCases, backendTable } from './backends.js';
+import { type SettleBenchRow, settleTable } from './settle.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -121,6 +122,15 @@ if (want('reference')) {
   else console.log(`  reference: ${r.note}`);
   console.log(r.text + '\n');
   results.reference = { python: r.python, note: r.note, rows: r.rows };
+}
+
+if (want('settle')) {
+  const m = quick ? 64 : 128;
+  const r = inChild<SettleBenchRow>('settle', String(m));
+  console.log(`Time integration to a steady state (BDF2), ${r.outcome}`);
+  console.log(settleTable([r]) + '\n');
+  console.log(`Newton polish of the steady state: ${r.polishFactorisations} factorisations (not counted above)\n`);
+  results.settle = r;
 }
 
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');
