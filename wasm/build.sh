@@ -72,20 +72,22 @@ CONFIG_INC=(-I"$SRC/SuiteSparse_config")
 cc() { emcc "${CFLAGS[@]}" "$@"; }
 
 # compile LIST-NAME OUTPUT-NAME SOURCE FLAGS...: compile in the background (up to JOBS at a time)
-# and append the object to the named list; `finish` waits for them all (and fails if one failed)
+# and append the object to the named list; `finish` waits for them all and fails if one failed.
+# A failed compile leaves a NAME.failed marker: waiting on each pid is not reliable (bash forgets
+# the status of background jobs that ended long ago and then refuses `wait PID`).
 JOBS="${BRANCHLINE_WASM_JOBS:-$(nproc)}"
-pids=()
 compile() {
   local list="$1" name="$2" src="$3"; shift 3
   while [ "$(jobs -rp | wc -l)" -ge "$JOBS" ]; do sleep 0.2; done
-  cc "$@" -c "$src" -o "$OBJ/$name.o" &
-  pids+=("$!")
+  { cc "$@" -c "$src" -o "$OBJ/$name.o" || touch "$OBJ/$name.failed"; } &
   eval "$list+=(\"$OBJ/$name.o\")"
 }
 finish() {
-  local p
-  for p in "${pids[@]}"; do wait "$p"; done
-  pids=()
+  wait
+  if ls "$OBJ"/*.failed >/dev/null 2>&1; then
+    echo "build.sh: compiling failed for: $(cd "$OBJ" && ls ./*.failed | sed 's|^./||; s|\.failed$||' | tr '\n' ' ')" >&2
+    exit 1
+  fi
 }
 shared=()   # SuiteSparse_config, AMD, METIS, the ordering glue: in both binaries
 kluobj=()   # COLAMD, BTF, KLU and its glue
@@ -190,7 +192,7 @@ echo "build.sh: linking superlu.wasm"
 SLU_EXPORTS='["_bs_create","_bs_destroy","_bs_colptr","_bs_rowind","_bs_values","_bs_perm","_bs_set_options","_bs_set_tuning","_bs_analyze","_bs_symbolic","_bs_factor","_bs_refactor","_bs_bad_index","_bs_singular_col","_bs_lnz","_bs_unz","_bs_stored","_bs_rgrowth","_bs_rcond","_bs_condest","_bs_solve","_bs_tsolve","_bs_logdet","_bs_malloc","_bs_free"]'
 link superlu createSuperluModule "$SLU_EXPORTS" "${shared[@]}" "${sluobj[@]}" "${blasobj[@]}"
 
-EMCC_VERSION="$(emcc --version | head -n 1)"
+EMCC_VERSION="$(emcc --version | sed -n 1p)"  # sed reads it all: head would break the pipe
 SIMD_JSON=false; [ "$SIMD" = 1 ] && SIMD_JSON=true
 cat > "$OUT/BUILDINFO.json" <<EOF
 {

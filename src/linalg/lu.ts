@@ -146,6 +146,8 @@ export interface FactorStats {
 const STATUS_OK = 0;
 const STATUS_SINGULAR = 1;
 const STATUS_NONFINITE = 2;
+/** Not a glue status: the pattern is structurally singular (see LUBase.deficientColumn). */
+const STATUS_STRUCTURAL = 101;
 
 /** One backend's entry points, in the common shape both glues share (wasm/glue/bl_klu.c, bl_superlu.c). */
 interface Native {
@@ -332,6 +334,66 @@ export function predictFactor(pattern: CscPattern, ordering: Ordering = 'metis',
   }
 }
 
+/**
+ * A column left unmatched by a maximum matching of columns to rows on the pattern (the matrix is
+ * then singular for any values: structurally singular), or -1 when the pattern has full
+ * structural rank. Depth-first augmenting paths with a cheap first pass (Duff's MC21 idea),
+ * iterative so that long paths cannot overflow the stack.
+ */
+export function structurallyDeficientColumn(pattern: CscPattern): number {
+  const n = pattern.cols;
+  if (pattern.rows !== n) return -1;
+  const { colPtr, rowIdx } = pattern;
+  const rowMatch = new Int32Array(n).fill(-1);
+  const visited = new Int32Array(n).fill(-1);
+  const stack = new Int32Array(n);
+  const next = new Int32Array(n);
+  const rowOf = new Int32Array(n);
+  for (let j = 0; j < n; j++) {
+    let cheap = -1;
+    for (let p = colPtr[j]; p < colPtr[j + 1]; p++) {
+      if (rowMatch[rowIdx[p]] < 0) {
+        cheap = rowIdx[p];
+        break;
+      }
+    }
+    if (cheap >= 0) {
+      rowMatch[cheap] = j;
+      continue;
+    }
+    // augmenting path from column j: stack of columns, the row through which each was reached in `next`
+    let top = 0;
+    stack[0] = j;
+    next[0] = colPtr[j];
+    let found = -1;
+    while (top >= 0 && found < 0) {
+      const c = stack[top];
+      let pushed = false;
+      while (next[top] < colPtr[c + 1]) {
+        const i = rowIdx[next[top]++];
+        if (visited[i] === j) continue;
+        visited[i] = j;
+        rowOf[top] = i;
+        if (rowMatch[i] < 0) {
+          found = top;
+          break;
+        }
+        top++;
+        stack[top] = rowMatch[i];
+        next[top] = colPtr[rowMatch[i]];
+        pushed = true;
+        break;
+      }
+      if (found >= 0) break;
+      if (!pushed) top--;
+    }
+    if (found < 0) return j;
+    // flip the path: column stack[k] takes row rowOf[k]
+    for (let k = found; k >= 0; k--) rowMatch[rowOf[k]] = stack[k];
+  }
+  return -1;
+}
+
 class LUBase {
   readonly n: number;
   readonly nnz: number;
@@ -350,6 +412,12 @@ class LUBase {
   private freshGrowth = 0;
   private freshRcond = 0;
   private counts = { factor: 0, refactor: 0, solve: 0 };
+  /**
+   * SuperLU only: a column no maximum matching covers (-1: none). SuperLU 3.0's pivot search
+   * indexes past a column with no candidate rows, so a structurally singular pattern is reported
+   * singular here, before its numeric factorisation is attempted.
+   */
+  private readonly deficientColumn: number;
 
   protected constructor(pattern: CscPattern, complex: boolean, options: LUOptions) {
     if (pattern.rows !== pattern.cols) {
@@ -386,6 +454,7 @@ class LUBase {
       }
     }
     this.native = natives[this.decision.backend];
+    this.deficientColumn = this.native.name === 'superlu' ? structurallyDeficientColumn(pattern) : -1;
     if (!h) h = analysedHandle(this.native, pattern, this.n, this.nnz, complex, this.ordering, options);
     this.handle = h;
     this.detBuf = this.native.malloc(32) >>> 0;
@@ -415,7 +484,7 @@ class LUBase {
   factor(values: Float64Array): void {
     this.checkAlive();
     this.writeValues(values);
-    const status = this.native.factor(this.handle);
+    const status = this.deficientColumn >= 0 ? STATUS_STRUCTURAL : this.native.factor(this.handle);
     this.counts.factor++;
     this.afterNumeric(status, 'factorisation');
     this.freshGrowth = this.native.rgrowth(this.handle);
@@ -472,6 +541,12 @@ class LUBase {
       this.factored = true;
       this.singular = false;
       return;
+    }
+    if (status === STATUS_STRUCTURAL) {
+      this.factored = false;
+      this.singular = true;
+      const column = this.deficientColumn;
+      throw new SparseLUError('singular', `${what}: the matrix is singular (structurally: no pivot can be found for column ${column})`, { column, rcond: 0 });
     }
     if (status === STATUS_SINGULAR) {
       // a zero pivot: the determinant is zero, solves are refused until the next factorisation
@@ -557,6 +632,8 @@ class LUBase {
   protected logdetRaw(): Float64Array {
     this.checkAlive();
     if (!this.factored && !this.singular) throw statusError(this.native, -3, 'determinant', this.handle);
+    // the glue's convention for a singular matrix: sign (or phase) 0 and log|det| = −∞
+    if (this.singular && this.deficientColumn >= 0) return this.width === 1 ? Float64Array.of(0, -Infinity, -Infinity) : Float64Array.of(0, 0, -Infinity);
     const status = this.native.logdet(this.handle, this.detBuf);
     if (status !== STATUS_OK) throw statusError(this.native, status, 'determinant', this.handle);
     return this.native.heap().HEAPF64.slice(this.detBuf >>> 3, (this.detBuf >>> 3) + 3);

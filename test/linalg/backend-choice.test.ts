@@ -5,7 +5,7 @@
  */
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
-import { SparseLU, SparseLUError, decideBackend, predictFactor } from '../../src/linalg/lu.js';
+import { SparseLU, SparseLUError, decideBackend, predictFactor, structurallyDeficientColumn } from '../../src/linalg/lu.js';
 import { type CscPattern, cscFromTriplets, matVec } from '../../src/linalg/sparse.js';
 import { laplacian2d } from '../../tools/bench/grid.js';
 
@@ -162,5 +162,55 @@ describe('automatic backend choice', () => {
     lu.dispose();
     expect(() => new SparseLU(a, { backend: 'umfpack' as never })).toThrowError(SparseLUError);
     expect(() => new SparseLU(a, { backend: 'umfpack' as never })).toThrowError(/accepted: auto, klu, superlu/);
+  });
+});
+
+describe('structural rank (SuperLU is spared patterns no values can make regular)', () => {
+  /** Whether some permutation σ has every (σ(j), j) in the pattern: the definition of full structural rank. */
+  function fullRankByPermutations(n: number, has: boolean[][]): boolean {
+    const used = new Array<boolean>(n).fill(false);
+    const place = (j: number): boolean => {
+      if (j === n) return true;
+      for (let i = 0; i < n; i++) {
+        if (has[i][j] && !used[i]) {
+          used[i] = true;
+          if (place(j + 1)) return true;
+          used[i] = false;
+        }
+      }
+      return false;
+    };
+    return place(0);
+  }
+
+  test('a maximum matching finds a deficient column exactly when no permutation fits the pattern (all permutations of small patterns)', () => {
+    fc.assert(
+      fc.property(fc.integer({ min: 1, max: 6 }), fc.array(fc.boolean(), { minLength: 36, maxLength: 36 }), (n, bits) => {
+        const has = Array.from({ length: n }, (_, i) => Array.from({ length: n }, (_, j) => bits[i * 6 + j]));
+        const ri: number[] = [];
+        const ci: number[] = [];
+        for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) if (has[i][j]) (ri.push(i), ci.push(j));
+        const col = structurallyDeficientColumn(cscFromTriplets(n, n, ri, ci, ri.map(() => 1)));
+        expect(col < 0).toBe(fullRankByPermutations(n, has));
+      }),
+      { numRuns: 300 },
+    );
+  });
+
+  test('SuperLU reports a structurally singular pattern as singular, naming the column', () => {
+    // columns 1 and 2 have their only entries in row 1
+    const a = cscFromTriplets(3, 3, [0, 1, 1, 2], [0, 1, 2, 0], [1, 1, 1, 1]);
+    const lu = new SparseLU(a, { backend: 'superlu' });
+    let err: unknown;
+    try {
+      lu.factor(a.values);
+    } catch (e) {
+      err = e;
+    }
+    expect(err).toBeInstanceOf(SparseLUError);
+    expect((err as SparseLUError).kind).toBe('singular');
+    expect((err as SparseLUError).message).toMatch(/column 2/);
+    expect(lu.logDeterminant().sign).toBe(0);
+    lu.dispose();
   });
 });
