@@ -247,10 +247,7 @@ export class Continuation {
       this.sys.setTangentRow(prev);
       this.sys.factor(fresh);
     }
-    const rhs = this.work.rhs;
-    rhs.fill(0);
-    rhs[n] = 1;
-    const z = this.sys.solve(rhs, new Float64Array(n + 1));
+    const z = this.sys.lastColumnSolution().slice();
     const s = this.sys.norm(z);
     for (let i = 0; i <= n; i++) z[i] /= s;
     // z·prev = 1/s > 0: already oriented along the previous tangent
@@ -448,7 +445,9 @@ export class Continuation {
       // crossing counts as one of multiplicity two
       let stability: { stability: PointStability; warm: EigenWarmStart } | undefined;
       if (rejection === undefined && tangent && this.stab && b.stability) {
-        stability = this.stab.analyse(xNew, b.eigenWarm);
+        // the bordered matrix was factored at xNew itself (tangentFrom): its factors solve with J
+        // there, which spares the eigenvalue solver its own factorisation at shift 0
+        stability = this.stab.analyse(xNew, b.eigenWarm, false, this.sys.jacobianSolver());
         const crossings = countCrossings(b.stability, stability.stability);
         if (crossings >= 2 && ds > Math.max(st.step.min, 1e-4 * st.step.max)) rejection = `${crossings} eigenvalue crossings in one step`;
       }

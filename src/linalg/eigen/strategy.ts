@@ -20,7 +20,6 @@
  *     Krylov decomposition and a fresh random vector exploring the rest (seeding.ts). Up to
  *     `maxShifts` Cayley shifts; what stays uncovered is reported.
  */
-import type { SparseLU } from '../lu.js';
 import type { Complex } from '../schur.js';
 import type { EigenCall } from './call.js';
 import { type Enclosure, certifiedLine, reaches } from './certification.js';
@@ -29,9 +28,9 @@ import { KrylovSchur } from './krylov-schur.js';
 import { runSearch } from './search.js';
 import { injectMissing, lockedStart, seedFromWarm } from './seeding.js';
 import type { ShiftOperator } from './transform.js';
-import type { EigenWarmStart } from './types.js';
+import type { EigenWarmStart, FactoredShift } from './types.js';
 
-type Factored = { lu: SparseLU; shift: number } | undefined;
+type Factored = FactoredShift | undefined;
 
 /** The operator about `shift`: the caller's LU when it was factored at that shift, else a new one. */
 function operatorAt(call: EigenCall, shift: number, factored: Factored): ShiftOperator {
