@@ -81,7 +81,9 @@ export function searchRightmost(call: EigenCall, o: { count: number; shift: numb
     const spread = Math.max(knownValues[0].re - knownValues[Math.min(kw, knownValues.length) - 1].re, scaleHint, 1e-3 * Math.max(Math.abs(knownValues[0].re), floor), floor);
     const capBeta = (shiftNo === 0 ? 32 : 2048) * spread;
     let plan = planCayley(knownValues, o.count, kw, R, Y, scaleHint, floor, shiftNo === 0 ? 0 : 2 * prevBeta, capBeta);
-    const op = first && factored && factored.shift > plan.alpha + 4 * plan.delta ? call.external(factored) : call.operator(plan.sigma);
+    // the caller's factors serve when their shift is right of the line and at least the planned σ
+    // (β no smaller than planned, so the claimed disc covers at least what the plan needs)
+    const op = first && factored && factored.shift > plan.alpha + 4 * plan.delta && factored.shift >= plan.sigma ? call.external(factored) : call.operator(plan.sigma);
     const purify = call.purifier(op);
     plan = withSigma(plan, op.sigma);
     prevBeta = plan.beta;
