@@ -72,11 +72,6 @@ export interface EngineState {
   current: BranchState | null;
   knownBranchPoints: Float64Array[];
   ended: { id: number; reason: StopReason; points: number; message: string }[];
-  /**
-   * The residual row scaling frozen at the current branch's start (ContinuationSystem.setRowScale):
-   * convergence tests depend on it, so a resumed run must use the same one.
-   */
-  rowScale?: Float64Array;
 }
 
 export interface EngineSummary {
@@ -140,16 +135,6 @@ export class Continuation {
     this.state = options.state
       ? cloneState(options.state)
       : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
-    if (this.state.rowScale) {
-      if (this.state.rowScale.length !== this.n) throw new ContinuationError(`the saved state has ${this.state.rowScale.length} row scales, the problem has ${this.n} unknowns`);
-      this.sys.rowScale.set(this.state.rowScale);
-    }
-  }
-
-  /** Freeze the residual row scaling at (u, λ) and remember it in the state (for resuming). */
-  private setRowScale(u: Float64Array, lambda: number): void {
-    this.sys.setRowScale(u, lambda);
-    this.state.rowScale = this.sys.rowScale.slice();
   }
 
   /** True between steps: a snapshot taken now resumes cleanly. */
@@ -267,7 +252,6 @@ export class Continuation {
     const x = new Float64Array(n + 1);
     x.set(guess);
     x[n] = lambda0;
-    this.setRowScale(x.subarray(0, n), lambda0);
     const eLambda = new Float64Array(n + 1);
     eLambda[n] = 1;
     const ref = x.slice();
@@ -316,7 +300,6 @@ export class Continuation {
   /** Begin the next queued branch. */
   private startPending(p: PendingBranch): EngineEvent[] {
     const n = this.n;
-    this.setRowScale(p.first.subarray(0, n), p.first[n]);
     const b: BranchState = {
       info: p.info,
       x: p.origin.slice(),

@@ -4,6 +4,7 @@ import { models } from '../../discretisations/index.js';
 import { Continuation, type EngineSummary } from '../../src/continuation/engine.js';
 import { defaultSettings, type BranchPoint, type ContinuationSettings, type SpecialPoint } from '../../src/continuation/types.js';
 import { type Problem, resolveParameters } from '../../src/problem/problem.js';
+import { residualTest } from '../../src/problem/residual-size.js';
 
 export interface Collected {
   problem: Problem;
@@ -39,8 +40,19 @@ export function runProblem(problem: Problem, given: Record<string, number>, s: C
     r = it.next();
   }
   c.dispose();
-  // every converged point satisfies the residual tolerance (scaled weighted norm)
-  for (const p of points) expect(p.residual).toBeLessThanOrEqual(s.newton.residualTolerance);
+  // every accepted point's state satisfies the residual test, re-evaluated here, and the residual
+  // it carries is that state's own ‖F‖_w; so do the special points that were located
+  const at = (u: Float64Array, value: number) => residualTest(problem, u, { ...params, [s.parameter]: value }, s.newton.residualTolerance);
+  for (const p of points) {
+    const r = at(p.u, p.parameter);
+    expect(p.residual).toBe(r.norm);
+    expect(r.norm, `branch ${p.branch} point ${p.index}`).toBeLessThanOrEqual(r.bound);
+  }
+  for (const sp of specials) {
+    const r = at(sp.u, sp.value);
+    expect(sp.residual).toBe(r.norm);
+    if (sp.kind === 'end' || sp.located) expect(r.norm, `${sp.kind} on branch ${sp.branch}`).toBeLessThanOrEqual(r.bound);
+  }
   return { problem, points, specials, ends, summary: r.value, branch: (id) => points.filter((p) => p.branch === id) };
 }
 
