@@ -22,7 +22,7 @@ function solveAmp(Q, a, P, node, A) { const m = Q.columns;
   throw new Error('newton'); }
 function eigs(Q, w, P) { const A = Q.transpose().mmul(J(w, P)).mmul(Q); return new EigenvalueDecomposition(A).realEigenvalues.sort((x, y) => y - x); }
 const x = (i) => (i + 1) * h;
-for (const [name, Q, other, mode, node] of [['mode1', Qe, Qo, 1, 39], ['mode2', Qo, Qe, 2, 19]]) {
+if (false) for (const [name, Q, other, mode, node] of [['mode1', Qe, Qo, 1, 39], ['mode2', Qo, Qe, 2, 19]]) {
   let a = Q.transpose().mmul(Matrix.columnVector(Array.from({ length: n }, (_, i) => 0.01 * Math.sin(mode * Math.PI * x(i) / L))));
   let P = 25;
   for (let A = 0.01; A < 1.2; A += 0.02) {
@@ -31,4 +31,11 @@ for (const [name, Q, other, mode, node] of [['mode1', Qe, Qo, 1, 39], ['mode2', 
     const eo = eigs(other, w, P).slice(0, 3), es = eigs(Q, w, P).slice(0, 3);
     console.log(name, A.toFixed(3), 'P', P.toFixed(5), 'same', es.map(v=>v.toFixed(4)).join(' '), 'other', eo.map(v=>v.toFixed(4)).join(' '));
   }
+}
+function crit(Q, other, node, A, state) { ({ a: state.a, P: state.P } = solveAmp(Q, state.a, state.P, node, A)); const w = Q.mmul(state.a); const e = eigs(other, w, state.P); let best = e[0]; for (const v of e) if (Math.abs(v) < Math.abs(best)) best = v; return best; }
+for (const [name, Q, other, mode, node, A0, A1] of [['mode1', Qe, Qo, 1, 39, 0.51, 0.53], ['mode2', Qo, Qe, 2, 19, 0.27, 0.29]]) {
+  const st = { a: Q.transpose().mmul(Matrix.columnVector(Array.from({ length: n }, (_, i) => A0 * Math.sin(mode * Math.PI * x(i) / L)))), P: 24.5 };
+  let a = A0, b = A1, fa = crit(Q, other, node, a, st), fb = crit(Q, other, node, b, st);
+  for (let k = 0; k < 30 && Math.abs(b - a) > 1e-15; k++) { const c = b - fb * (b - a) / (fb - fa); a = b; fa = fb; b = c; fb = crit(Q, other, node, b, st); }
+  console.log('REF', name, 'A', b, 'P', st.P.toPrecision(12), 'eig', fb);
 }

@@ -9,10 +9,16 @@
  *   residual:  ‖F(x)‖_w ≤ rtol·‖terms‖_w + 16·ε·‖rounding‖_w   (src/problem/residual-size.ts:
  *              no row scaling, so a large stencil cannot make a wrong state look converged),
  *              and |g(x)| ≤ stol·(1 + ‖x‖);
- *   update:    the Newton update that led to x is at most stol·(1 + ‖x‖) (weighted norm) — at
- *              the predictor (no update yet) the update computed there, which is then not
- *              applied. Near singular points, where updates stop shrinking at the rounding level,
- *              the residual test alone accepts once the updates have stopped contracting.
+ *   update:    the estimated error of x is at most stol·(1 + ‖x‖) (weighted norm): the
+ *              update δ_k that led to x, times ρ/(1 − ρ) once the iteration contracts with
+ *              ρ = ‖δ_k‖/‖δ_{k−1}‖ ≤ ½ (the usual a-posteriori bound for a contraction; chord
+ *              steps contract linearly, Newton steps faster) — or the update computed at x
+ *              itself is that small (then it is not applied: at the predictor, a start guess).
+ *              Near singular points, where updates stop shrinking at the rounding level, the
+ *              residual test alone accepts x once neither the update computed there nor the
+ *              residual is shrinking any more (the update is then not applied either), or when
+ *              the update from x, which passed the residual test, did not lower the residual (x
+ *              is restored exactly).
  * The residual returned is ‖F‖_w of the returned x. Failures carry a reason.
  */
 import { SparseLUError } from '../linalg/lu.js';
@@ -72,8 +78,19 @@ export function correct(
   let chordSteps = 0;
   let previousResidual = Infinity;
   let freshUsed = false;
+  // the last iterate that passed the residual test, kept while the update from it is tried
+  let passed: { x: Float64Array; residual: number; bound: number } | undefined;
   for (let it = 0; ; it++) {
     const res = sys.residual(u, x[n]);
+    if (passed && !(res < passed.residual)) {
+      // the update from a state already at the residual test's level made the residual no
+      // smaller: near a singular point it is rounding amplified along the near-null vector;
+      // the state before it is as converged as double precision allows
+      x.set(passed.x);
+      sys.residual(u, x[n]);
+      return { converged: true, iterations: it - 1, residual: passed.residual, residualBound: passed.bound, factored };
+    }
+    passed = undefined;
     if (!Number.isFinite(res)) {
       return { converged: false, iterations: it, residual: res, residualBound: NaN, factored, failure: 'non-finite', message: `the residual is not finite at ${sys.parameter} = ${x[n]}` };
     }
@@ -84,8 +101,9 @@ export function correct(
     const g = constraint(sys, x, t, ref);
     const stepLimit = options.stepTolerance * (1 + sys.norm(x));
     const residualOk = (): boolean => Math.abs(g) <= stepLimit && res <= boundNow();
-    const contracting = lastUpdate < 0.9 * previousUpdate;
-    if (it > 0 && (lastUpdate <= stepLimit || (it >= 2 && !contracting)) && residualOk()) {
+    const rho = lastUpdate / previousUpdate;
+    const errorEstimate = rho <= 0.5 ? (rho / (1 - rho)) * lastUpdate : lastUpdate;
+    if (it > 0 && errorEstimate <= stepLimit && residualOk()) {
       return { converged: true, iterations: it, residual: res, residualBound: bound, factored };
     }
     const fail = (failure: NewtonFailure, message: string): NewtonResult => ({ converged: false, iterations: it, residual: res, residualBound: boundNow(), factored, failure, message });
@@ -104,6 +122,7 @@ export function correct(
     }
     // chord while it contracts well (residual at least quartered per iteration); else full Newton
     if (chord && (chordSteps >= 8 || (chordSteps > 0 && res > 0.25 * previousResidual))) chord = false;
+    const residualBefore = previousResidual;
     previousResidual = res;
     let solved = false;
     if (chord) {
@@ -135,10 +154,15 @@ export function correct(
       if (!allFinite(delta)) return { ...fail('non-finite', 'the Newton update is not finite'), iterations: it + 1 };
     }
     const update = sys.norm(delta);
-    // the predictor (or start guess) itself passes: its own Newton update is negligible
-    if (it === 0 && update <= stepLimit && residualOk()) {
-      return { converged: true, iterations: 0, residual: res, residualBound: bound, factored };
+    // x itself passes: its own Newton update is negligible (the predictor, or a start guess), or,
+    // near a singular point, no smaller than the last one while the residual is already at its
+    // attainable level (the update is rounding amplified along the near-null vector: taking it
+    // would only move the state off its branch)
+    const stagnant = it > 0 && update >= 0.9 * lastUpdate && res >= 0.1 * residualBefore;
+    if ((update <= stepLimit || stagnant) && residualOk()) {
+      return { converged: true, iterations: it, residual: res, residualBound: boundNow(), factored };
     }
+    if ((it === 0 || res < 1e-3 * firstResidual) && residualOk()) passed = { x: x.slice(), residual: res, bound: boundNow() };
     for (let i = 0; i <= n; i++) x[i] += delta[i];
     previousUpdate = lastUpdate;
     lastUpdate = update;
