@@ -1,7 +1,7 @@
 /** Run a continuation in memory and collect its events (test helper). */
 import { expect } from 'vitest';
 import { models } from '../../discretisations/index.js';
-import { Continuation, type EngineSummary } from '../../src/continuation/engine.js';
+import { Continuation, type ContinuationOptions, type EngineSummary } from '../../src/continuation/engine.js';
 import { defaultSettings, type BranchPoint, type ContinuationSettings, type SpecialPoint } from '../../src/continuation/types.js';
 import { type Problem, resolveParameters } from '../../src/problem/problem.js';
 import { residualTest } from '../../src/problem/residual-size.js';
@@ -11,6 +11,8 @@ export interface Collected {
   points: BranchPoint[];
   specials: SpecialPoint[];
   ends: { branch: number; reason: string; message: string }[];
+  /** Warnings the engine logged. */
+  warnings: string[];
   summary: EngineSummary;
   branch(id: number): BranchPoint[];
 }
@@ -24,12 +26,13 @@ export function runModel(model: string, options: Record<string, unknown>, given:
   return runProblem(problem, given, s);
 }
 
-export function runProblem(problem: Problem, given: Record<string, number>, s: ContinuationSettings): Collected {
+export function runProblem(problem: Problem, given: Record<string, number>, s: ContinuationSettings, options: ContinuationOptions = {}): Collected {
   const params = resolveParameters(problem, given);
-  const c = new Continuation(problem, params, s);
+  const c = new Continuation(problem, params, s, options);
   const points: BranchPoint[] = [];
   const specials: SpecialPoint[] = [];
   const ends: Collected['ends'] = [];
+  const warnings: string[] = [];
   const it = c.events();
   let r = it.next();
   while (!r.done) {
@@ -37,6 +40,7 @@ export function runProblem(problem: Problem, given: Record<string, number>, s: C
     if (e.type === 'point') points.push(e.point);
     else if (e.type === 'special') specials.push(e.point);
     else if (e.type === 'branch-end') ends.push({ branch: e.branch, reason: e.reason, message: e.message });
+    else if (e.type === 'log' && e.level === 'warning') warnings.push(e.message);
     r = it.next();
   }
   c.dispose();
@@ -53,7 +57,7 @@ export function runProblem(problem: Problem, given: Record<string, number>, s: C
     expect(sp.residual).toBe(r.norm);
     if (sp.kind === 'end' || sp.located) expect(r.norm, `${sp.kind} on branch ${sp.branch}`).toBeLessThanOrEqual(r.bound);
   }
-  return { problem, points, specials, ends, summary: r.value, branch: (id) => points.filter((p) => p.branch === id) };
+  return { problem, points, specials, ends, warnings, summary: r.value, branch: (id) => points.filter((p) => p.branch === id) };
 }
 
 /** Observed order from three values on grids refined by a constant ratio r. */
