@@ -157,7 +157,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     }
     let csv: { columns: string[]; rows: number[][] };
     try {
-      csv = readCsv(path);
+      csv = readCsv(path, ['unexplained-change']);
     } catch (e) {
       warnings.push(`branch ${b.id}: ${(e as Error).message}`);
       continue;
