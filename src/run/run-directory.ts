@@ -20,7 +20,7 @@
  */
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
-import type { BranchPoint, SpecialPoint, StopReason } from '../continuation/types.js';
+import type { ContinuationPoint, SpecialPoint, StopReason } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
 import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
@@ -112,9 +112,8 @@ export function eigenvalueColumns(count: number): string[] {
 /**
  * Columns of a branch CSV: point, arclength, the continuation parameter, the monitors (in the
  * problem's order: max, min, l2-norm per field, then model monitors), the extra unknowns by
- * name, newton-iterations, residual (‖F‖ of the point's state, weighted norm), step, and with
- * stability analysis (`eigenvalues` > 0) the stability
- * columns, `search-complete` (whether every eigenvalue with real part ≥ 0 was certified found),
+ * name, newton-iterations, residual (‖F‖ of the point's state, weighted norm), step-length, and
+ * with stability analysis (`eigenvalues` > 0) the stability columns, `search-complete` (whether every eigenvalue with real part ≥ 0 was certified found),
  * the real and imaginary parts of the `eigenvalues` rightmost eigenvalues, and
  * `unexplained-change` (empty, or e.g. "the unstable count changed from 1 to 2" when no fold,
  * branch point or Hopf point located in the step explains the change, even at the minimum step).
@@ -131,7 +130,7 @@ export function columnPlan(problem: Problem, parameter: string, eigenvalues: num
     ...extras,
     'newton-iterations',
     'residual',
-    'step',
+    'step-length',
     ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues), 'unexplained-change'] : []),
   ];
   return { columns, monitors, extras, stability, eigenvalues };
@@ -148,11 +147,11 @@ interface PointStabilityCells {
 }
 
 /** Whether a point carries stability data. */
-export function hasStability(p: BranchPoint): boolean {
+export function hasStability(p: ContinuationPoint): boolean {
   return (p as { stability?: unknown }).stability != null;
 }
 
-export function pointRow(plan: ColumnPlan, problem: Problem, p: BranchPoint): CsvCell[] {
+export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoint): CsvCell[] {
   const row: CsvCell[] = [p.index, p.arclength, p.parameter];
   for (const m of plan.monitors) row.push(p.monitors[m]);
   plan.extras.forEach((_name, i) => row.push(p.u[problem.gridUnknowns + i]));
