@@ -838,7 +838,14 @@ export class Continuation {
       }
       const { tangent, sign } = this.tangentFrom(eLambda, x, res.factored, b.freshNext);
       if (tangent[n] * dir < 0) for (let i = 0; i <= n; i++) tangent[i] = -tangent[i];
-      return this.accept(b, x, tangent, sign, dl, res);
+      // an unexplained change of the unstable count splits the step here too
+      const stability = this.stab && b.stability ? this.candidateStability(b, x, tangent, sign, dl) : undefined;
+      if (stability?.rejection !== undefined) {
+        dl *= 0.5;
+        b.freshNext = true;
+        continue;
+      }
+      return this.accept(b, x, tangent, sign, dl, res, stability);
     }
   }
 }
