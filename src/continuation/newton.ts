@@ -106,6 +106,9 @@ export function correct(
     if (it > 0 && errorEstimate <= stepLimit && residualOk()) {
       return { converged: true, iterations: it, residual: res, residualBound: bound, factored };
     }
+    // an exact solution (F = 0 and g = 0 to the last bit, e.g. a trivial branch): its Newton
+    // update is exactly zero, no solve needed
+    if (res === 0 && g === 0) return { converged: true, iterations: it, residual: 0, residualBound: boundNow(), factored };
     const fail = (failure: NewtonFailure, message: string): NewtonResult => ({ converged: false, iterations: it, residual: res, residualBound: boundNow(), factored, failure, message });
     const versus = (): string => `residual ${res.toExponential(2)} against ${boundNow().toExponential(2)}`;
     if (it >= options.maxIterations) return fail('max-iterations', `no convergence in ${it} Newton iterations (${versus()})`);
