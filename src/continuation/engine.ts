@@ -11,7 +11,7 @@ import type { Params, Problem } from '../problem/problem.js';
 import { branchDirections, locateBranchPoint, locateDoubleCrossing } from './branch-point.js';
 import { type CountAccount, accountFirstStep, accountStep, changeText } from './crossings.js';
 import { locateFold } from './fold.js';
-import { correct, correctWork, type NewtonResult } from './newton.js';
+import { correct, correctWork, type NewtonResult, type NewtonWork } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
 import { StabilityAnalyser, crossingPair, locateHopf } from './stability.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
@@ -126,7 +126,7 @@ export class Continuation {
   private readonly n: number;
   private state: EngineState;
   private quiescent = true;
-  private readonly work: { rhs: Float64Array; delta: Float64Array };
+  private readonly work: NewtonWork;
   private readonly lo: number;
   private readonly hi: number;
   private readonly stab: StabilityAnalyser | undefined;

@@ -63,7 +63,7 @@ export function correct(
   t: Float64Array,
   ref: Float64Array,
   options: CorrectOptions,
-  work: { rhs: Float64Array; delta: Float64Array },
+  work: NewtonWork,
 ): NewtonResult {
   const n = sys.n;
   const u = x.subarray(0, n);
@@ -78,19 +78,25 @@ export function correct(
   let chordSteps = 0;
   let previousResidual = Infinity;
   let freshUsed = false;
-  // the last iterate that passed the residual test, kept while the update from it is tried
-  let passed: { x: Float64Array; residual: number; bound: number } | undefined;
+  // a late iterate, kept (in work.previous) while the update from it is tried
+  const previous = work.previous ?? (work.previous = new Float64Array(n + 1));
+  let kept: { residual: number; constraintOk: boolean } | undefined;
   for (let it = 0; ; it++) {
-    const res = sys.residual(u, x[n]);
-    if (passed && !(res < passed.residual)) {
-      // the update from a state already at the residual test's level made the residual no
-      // smaller: near a singular point it is rounding amplified along the near-null vector;
-      // the state before it is as converged as double precision allows
-      x.set(passed.x);
-      sys.residual(u, x[n]);
-      return { converged: true, iterations: it - 1, residual: passed.residual, residualBound: passed.bound, factored };
+    let res = sys.residual(u, x[n]);
+    if (kept && !(res < kept.residual)) {
+      // the update made the residual no smaller: if the state before it passes the residual
+      // test, the update was rounding amplified along a near-null vector (near a singular
+      // point), and that state is as converged as double precision allows
+      const before = previous.subarray(0, n);
+      const r0 = sys.residual(before, previous[n]);
+      const bound0 = kept.constraintOk ? sys.residualBound(before, previous[n], options.residualTolerance) : -Infinity;
+      if (r0 <= bound0) {
+        x.set(previous);
+        return { converged: true, iterations: it - 1, residual: r0, residualBound: bound0, factored };
+      }
+      res = sys.residual(u, x[n]);
     }
-    passed = undefined;
+    kept = undefined;
     if (!Number.isFinite(res)) {
       return { converged: false, iterations: it, residual: res, residualBound: NaN, factored, failure: 'non-finite', message: `the residual is not finite at ${sys.parameter} = ${x[n]}` };
     }
@@ -165,7 +171,10 @@ export function correct(
     if ((update <= stepLimit || stagnant) && residualOk()) {
       return { converged: true, iterations: it, residual: res, residualBound: boundNow(), factored };
     }
-    if ((it === 0 || res < 1e-3 * firstResidual) && residualOk()) passed = { x: x.slice(), residual: res, bound: boundNow() };
+    if (it === 0 || res < 1e-3 * firstResidual) {
+      previous.set(x);
+      kept = { residual: res, constraintOk: Math.abs(g) <= stepLimit };
+    }
     for (let i = 0; i <= n; i++) x[i] += delta[i];
     previousUpdate = lastUpdate;
     lastUpdate = update;
@@ -205,6 +214,13 @@ function solveUpdate(sys: ContinuationSystem, rhs: Float64Array, delta: Float64A
 }
 
 /** Workspace for `correct` (allocate once per branch). */
-export function correctWork(n: number): { rhs: Float64Array; delta: Float64Array } {
-  return { rhs: new Float64Array(n + 1), delta: new Float64Array(n + 1) };
+export function correctWork(n: number): NewtonWork {
+  return { rhs: new Float64Array(n + 1), delta: new Float64Array(n + 1), previous: new Float64Array(n + 1) };
+}
+
+/** Workspace of `correct`: right-hand side, update, and a kept iterate. */
+export interface NewtonWork {
+  rhs: Float64Array;
+  delta: Float64Array;
+  previous?: Float64Array;
 }
