@@ -401,11 +401,11 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
    * one term, each reaction summand, the drift term c·(∂_a u)_r; a phase-condition row's
    * summands g_r·u_r.
    */
-  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding: Float64Array): void {
+  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void {
     prepare(p);
     applyOperator(lap, grid, u, bd, terms, D);
     for (let r = 0; r < n0; r++) terms[r] = Math.abs(terms[r]);
-    operatorRounding(lap, grid, u, bd, rounding, D);
+    if (rounding) operatorRounding(lap, grid, u, bd, rounding, D);
     for (let t = 0; t < nrn; t++) {
       gather(t, u);
       if (R.magnitude) R.magnitude(uu, xx, q, rr);
@@ -414,24 +414,23 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
         for (let f = 0; f < nf; f++) rr[f] = Math.abs(rr[f]);
       }
       scatterAdd(t, terms);
-      scatterAdd(t, rounding);
+      if (rounding) scatterAdd(t, rounding);
     }
     for (let i = 0; i < np; i++) {
       const c = u[n0 + i];
       applyD1(i, u, dU[i]);
       const du = dU[i];
       for (let r = 0; r < n0; r++) terms[r] += Math.abs(c * du[r]);
+      const g = gRow[i];
+      let s = 0;
+      for (let r = 0; r < n0; r++) s += Math.abs(g[r] * u[r]);
+      terms[n0 + i] = s;
+      if (!rounding) continue;
       operatorRounding(d1[i], grid, u, bd, scratch);
       const cs = Math.max(Math.abs(c), 1);
       for (let r = 0; r < n0; r++) rounding[r] += cs * scratch[r];
-      const g = gRow[i];
-      let s = 0;
       let a = 0;
-      for (let r = 0; r < n0; r++) {
-        s += Math.abs(g[r] * u[r]);
-        a += Math.abs(g[r]) * Math.max(Math.abs(u[r]), 1);
-      }
-      terms[n0 + i] = s;
+      for (let r = 0; r < n0; r++) a += Math.abs(g[r]) * Math.max(Math.abs(u[r]), 1);
       rounding[n0 + i] = a;
     }
   }

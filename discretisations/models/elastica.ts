@@ -86,20 +86,19 @@ export function elastica(options: Record<string, unknown> & { grid: GridOptions 
   }
 
   /** Terms for the convergence test: θ″, λ sin θ and r cos θ; the constraint's summands w_i sin θ_i. */
-  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding: Float64Array): void {
+  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void {
     const l = lam(p);
     const r = u[ir];
     applyOperator(op, grid, u, bd, terms);
-    operatorRounding(op, grid, u, bd, rounding);
+    if (rounding) operatorRounding(op, grid, u, bd, rounding);
     let g = 0;
     for (let i = 0; i < n0; i++) {
-      const nonlinear = Math.abs(l * Math.sin(u[i])) + Math.abs(Math.cos(u[i])) * Math.max(Math.abs(r), 1);
       terms[i] = Math.abs(terms[i]) + Math.abs(l * Math.sin(u[i])) + Math.abs(r * Math.cos(u[i]));
-      rounding[i] += nonlinear;
+      if (rounding) rounding[i] += Math.abs(l * Math.sin(u[i])) + Math.abs(Math.cos(u[i])) * Math.max(Math.abs(r), 1);
       g += weights[i] * Math.abs(Math.sin(u[i]));
     }
     terms[ir] = g;
-    rounding[ir] = 1; // Σ w_i·max(|sin θ_i|, 1): the weights sum to the unit length
+    if (rounding) rounding[ir] = 1; // Σ w_i·max(|sin θ_i|, 1): the weights sum to the unit length
   }
 
   function jacobian(u: Float64Array, p: Params, values: Float64Array): void {

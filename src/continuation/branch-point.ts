@@ -51,14 +51,7 @@ export interface BranchPointLocation {
  * the corrector's matrix is nearly singular and two branches cross the hyperplane close together:
  * only a predictor that close keeps Newton on the branch it is meant to follow.
  */
-export function arcPoint(
-  sys: ContinuationSystem,
-  xa: Float64Array,
-  ta: Float64Array,
-  s: number,
-  newton: NewtonSettings,
-  between?: readonly [{ s: number; x: Float64Array }, { s: number; x: Float64Array }],
-): Float64Array | undefined {
+export function arcPoint(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: number, newton: NewtonSettings, between?: ArcBracket): Float64Array | undefined {
   const n = sys.n;
   const ref = new Float64Array(n + 1);
   for (let i = 0; i <= n; i++) ref[i] = xa[i] + s * ta[i];
@@ -73,15 +66,58 @@ export function arcPoint(
   return r.converged ? x : undefined;
 }
 
+/** Two converged points of an arc, at steps s (a bracket around a special point). */
+export type ArcBracket = readonly [{ s: number; x: Float64Array }, { s: number; x: Float64Array }];
+
+/**
+ * The Illinois variant of regula falsi on f(s) over a bracket [lo, hi] with f of opposite signs
+ * at the ends: `next()` proposes the step (kept inside the bracket, bisection when the secant
+ * falls within 1 % of an end), `take(t, f, withLo)` replaces the end on t's side and halves the
+ * other end's value when the same side is taken twice.
+ */
+export class IllinoisBracket<T extends { s: number; x: Float64Array }> {
+  private side = 0;
+  constructor(
+    public lo: T,
+    public hi: T,
+    public fLo: number,
+    public fHi: number,
+  ) {}
+
+  next(): number {
+    const { lo, hi, fLo, fHi } = this;
+    const s = (lo.s * fHi - hi.s * fLo) / (fHi - fLo);
+    const span = hi.s - lo.s;
+    return s > lo.s + 0.01 * span && s < hi.s - 0.01 * span ? s : lo.s + 0.5 * span;
+  }
+
+  take(t: T, f: number, withLo: boolean): void {
+    if (withLo) {
+      this.lo = t;
+      this.fLo = f;
+      if (this.side === -1) this.fHi /= 2;
+      this.side = -1;
+    } else {
+      this.hi = t;
+      this.fHi = f;
+      if (this.side === 1) this.fLo /= 2;
+      this.side = 1;
+    }
+  }
+
+  /** Parameter width of the bracket (the last entry of the points). */
+  width(): number {
+    const n = this.lo.x.length - 1;
+    return Math.abs(this.hi.x[n] - this.lo.x[n]);
+  }
+
+  get ends(): ArcBracket {
+    return [this.lo, this.hi];
+  }
+}
+
 /** Correct a point at step s from xa along ta (predictor between two bracketing points) and evaluate the determinant there. */
-function trial(
-  sys: ContinuationSystem,
-  xa: Float64Array,
-  ta: Float64Array,
-  s: number,
-  newton: NewtonSettings,
-  between?: readonly [{ s: number; x: Float64Array }, { s: number; x: Float64Array }],
-): TrialPoint | undefined {
+function trial(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: number, newton: NewtonSettings, between?: ArcBracket): TrialPoint | undefined {
   const n = sys.n;
   const x = arcPoint(sys, xa, ta, s, newton, between);
   if (!x) return undefined;
@@ -121,39 +157,22 @@ export function locateBranchPoint(
   }
   const ref = Math.max(lo.logAbs, hi.logAbs);
   const value = (t: TrialPoint) => t.sign * Math.exp(t.logAbs - ref);
-  let fLo = value(lo);
-  let fHi = value(hi);
-  let side = 0;
+  const bracket = new IllinoisBracket(lo, hi, value(lo), value(hi));
   for (let it = 0; it < maxIterations; it++) {
-    const dl = Math.abs(hi.x[n] - lo.x[n]);
-    if (dl <= tolerance * Math.max(1, Math.abs(lo.x[n])) && hi.s - lo.s <= 1e-6 * Math.max(1, Math.abs(sEnd))) break;
-    if (hi.s - lo.s <= 1e-14 * Math.max(1, Math.abs(sEnd))) break;
-    // Illinois regula falsi, kept inside the bracket
-    let s = (lo.s * fHi - hi.s * fLo) / (fHi - fLo);
-    const span = hi.s - lo.s;
-    if (!(s > lo.s + 0.01 * span && s < hi.s - 0.01 * span)) s = lo.s + 0.5 * span;
-    const t = trial(sys, xa, ta, s, newton, [lo, hi]);
+    const span = bracket.hi.s - bracket.lo.s;
+    if (bracket.width() <= tolerance * Math.max(1, Math.abs(bracket.lo.x[n])) && span <= 1e-6 * Math.max(1, Math.abs(sEnd))) break;
+    if (span <= 1e-14 * Math.max(1, Math.abs(sEnd))) break;
+    const t = trial(sys, xa, ta, bracket.next(), newton, bracket.ends);
     if (!t) break;
     if (t.sign === 0) {
-      lo = t;
-      hi = t;
+      bracket.lo = bracket.hi = t;
       break;
     }
-    const ft = value(t);
-    if (t.sign === lo.sign) {
-      lo = t;
-      fLo = ft;
-      if (side === -1) fHi /= 2;
-      side = -1;
-    } else {
-      hi = t;
-      fHi = ft;
-      if (side === 1) fLo /= 2;
-      side = 1;
-    }
+    bracket.take(t, value(t), t.sign === bracket.lo.sign);
   }
-  const dl = Math.abs(hi.x[n] - lo.x[n]);
-  let best = Math.abs(fLo) < Math.abs(fHi) ? lo : hi;
+  ({ lo, hi } = bracket);
+  const dl = bracket.width();
+  let best = Math.abs(bracket.fLo) < Math.abs(bracket.fHi) ? lo : hi;
   const converged = dl <= tolerance * Math.max(1, Math.abs(best.x[n]));
   if (converged && lo !== hi) {
     // the secant root of the final bracket (its error is of the bracket's size squared)
@@ -377,7 +396,7 @@ export function locateDoubleCrossing(
 ): DoubleCrossingLocation {
   const n = sys.n;
   let w = warm;
-  const at = (s: number, between?: readonly [{ s: number; x: Float64Array }, { s: number; x: Float64Array }]): { s: number; x: Float64Array; f: number } | undefined => {
+  const at = (s: number, between?: ArcBracket): { s: number; x: Float64Array; f: number } | undefined => {
     const x = s === 0 ? xa.slice() : arcPoint(sys, xa, ta, s, newton, between);
     if (!x) return undefined;
     const r = analyser.analyse(x, w, true);
@@ -390,33 +409,19 @@ export function locateDoubleCrossing(
   if (!(lo.f * hi.f < 0)) {
     return { converged: false, x: Math.abs(lo.f) < Math.abs(hi.f) ? lo.x : hi.x, s: Math.abs(lo.f) < Math.abs(hi.f) ? 0 : sEnd, message: 'the critical eigenvalue has the same sign at both ends of the step' };
   }
-  let fLo = lo.f;
-  let fHi = hi.f;
-  let side = 0;
+  const bracket = new IllinoisBracket(lo, hi, lo.f, hi.f);
   for (let it = 0; it < maxIterations; it++) {
-    if (Math.abs(hi.x[n] - lo.x[n]) <= tolerance * Math.max(1, Math.abs(lo.x[n]))) break;
-    let s = (lo.s * fHi - hi.s * fLo) / (fHi - fLo);
-    const span = hi.s - lo.s;
-    if (!(s > lo.s + 0.01 * span && s < hi.s - 0.01 * span)) s = lo.s + 0.5 * span;
-    const t = at(s, [lo, hi]);
+    if (bracket.width() <= tolerance * Math.max(1, Math.abs(bracket.lo.x[n]))) break;
+    const t = at(bracket.next(), bracket.ends);
     if (!t || !Number.isFinite(t.f)) break;
     if (t.f === 0) {
-      lo = hi = t;
+      bracket.lo = bracket.hi = t;
       break;
     }
-    if (Math.sign(t.f) === Math.sign(lo.f)) {
-      lo = t;
-      fLo = t.f;
-      if (side === -1) fHi /= 2;
-      side = -1;
-    } else {
-      hi = t;
-      fHi = t.f;
-      if (side === 1) fLo /= 2;
-      side = 1;
-    }
+    bracket.take(t, t.f, Math.sign(t.f) === Math.sign(bracket.lo.f));
   }
-  const converged = Math.abs(hi.x[n] - lo.x[n]) <= tolerance * Math.max(1, Math.abs(lo.x[n]));
+  ({ lo, hi } = bracket);
+  const converged = bracket.width() <= tolerance * Math.max(1, Math.abs(lo.x[n]));
   const best = Math.abs(lo.f) < Math.abs(hi.f) ? lo : hi;
   return { converged, x: best.x, s: best.s, ...(converged ? {} : { message: `double-crossing location stopped with a parameter bracket of ${Math.abs(hi.x[n] - lo.x[n]).toExponential(2)}` }) };
 }

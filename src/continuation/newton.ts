@@ -33,7 +33,7 @@ export interface NewtonResult {
   iterations: number;
   /** ‖F‖_w at the final iterate (the returned x). */
   residual: number;
-  /** What the residual was tested against at the final iterate. */
+  /** What the residual was tested against at the final iterate (see ContinuationSystem.residualBound; 0 for a residual of exactly 0). */
   residualBound: number;
   /** Whether the final bordered factorisation is at the final iterate's previous Newton iterate (usable for tangents). */
   factored: boolean;
@@ -89,7 +89,7 @@ export function correct(
       // point), and that state is as converged as double precision allows
       const before = previous.subarray(0, n);
       const r0 = sys.residual(before, previous[n]);
-      const bound0 = kept.constraintOk ? sys.residualBound(before, previous[n], options.residualTolerance) : -Infinity;
+      const bound0 = kept.constraintOk ? sys.residualBound(before, previous[n], options.residualTolerance, r0) : -Infinity;
       if (r0 <= bound0) {
         x.set(previous);
         return { converged: true, iterations: it - 1, residual: r0, residualBound: bound0, factored };
@@ -102,7 +102,7 @@ export function correct(
     }
     // the bound costs about a residual evaluation: computed only where a test needs it
     let bound = NaN;
-    const boundNow = (): number => (Number.isNaN(bound) ? (bound = sys.residualBound(u, x[n], options.residualTolerance)) : bound);
+    const boundNow = (): number => (Number.isNaN(bound) ? (bound = sys.residualBound(u, x[n], options.residualTolerance, res)) : bound);
     if (it === 0) firstResidual = res;
     const g = constraint(sys, x, t, ref);
     const stepLimit = options.stepTolerance * (1 + sys.norm(x));
@@ -114,7 +114,7 @@ export function correct(
     }
     // an exact solution (F = 0 and g = 0 to the last bit, e.g. a trivial branch): its Newton
     // update is exactly zero, no solve needed
-    if (res === 0 && g === 0) return { converged: true, iterations: it, residual: 0, residualBound: boundNow(), factored };
+    if (res === 0 && g === 0) return { converged: true, iterations: it, residual: 0, residualBound: 0, factored };
     const fail = (failure: NewtonFailure, message: string): NewtonResult => ({ converged: false, iterations: it, residual: res, residualBound: boundNow(), factored, failure, message });
     const versus = (): string => `residual ${res.toExponential(2)} against ${boundNow().toExponential(2)}`;
     if (it >= options.maxIterations) return fail('max-iterations', `no convergence in ${it} Newton iterations (${versus()})`);

@@ -74,12 +74,30 @@ export class ContinuationSystem {
   /**
    * What ‖F(u, λ)‖_w is tested against: rtol·‖terms‖_w + 16·ε·‖rounding‖_w (residual-size.ts).
    * Call right after `residual(u, λ)` at the same point (the rule of thumb for models without
-   * term sizes reads this.f).
+   * term sizes reads this.f). Given the residual `norm`, the rounding part is computed only when
+   * the terms part alone does not already pass it (the returned bound is then that part: the
+   * decision is the same, at about half the cost), and not for a norm far above both parts (then
+   * the bound returned is an estimate that the norm exceeds: a failing test either way, or at
+   * worst one more Newton iteration).
    */
-  residualBound(u: Float64Array, lambda: number, rtol: number): number {
-    this.timed('residual', () => this.sizes.evaluate(u, this.params(lambda), this.f));
-    return this.sizes.bound(rtol);
+  residualBound(u: Float64Array, lambda: number, rtol: number, norm = Infinity): number {
+    const p = this.params(lambda);
+    return this.timed('residual', () => {
+      this.sizes.evaluate(u, p, this.f, false);
+      const partial = this.sizes.bound(rtol);
+      if (norm <= partial || this.sizes.withRounding) return partial;
+      // a residual far above the terms part plus twice the last rounding part computed fails
+      // anyway (the rounding part changes little from one iterate to the next): skip computing it
+      if (Number.isFinite(norm) && norm > partial + 2 * this.roundingHint) return partial + 2 * this.roundingHint;
+      this.sizes.evaluate(u, p, this.f);
+      const full = this.sizes.bound(rtol);
+      this.roundingHint = full - partial;
+      return full;
+    });
   }
+
+  /** The rounding part of the last full residual bound (Infinity: none since the last restart). */
+  private roundingHint = Infinity;
 
   /** Fill J and F_λ at (u, λ) and put them into the bordered matrix. */
   assemble(u: Float64Array, lambda: number): void {
@@ -191,6 +209,7 @@ export class ContinuationSystem {
   restart(): void {
     this.freshPending = true;
     this.stamp++;
+    this.roundingHint = Infinity;
   }
 
   private freshPending = false;

@@ -118,11 +118,14 @@ export interface Problem {
    *   what any double-precision state can reach (fourth-order stencils on fine grids cancel
    *   many digits) and serves as the absolute tolerance near zero states.
    *
-   * Models without it get the rule of `residualSizes` in residual-size.ts: with J = F_u(u, p),
+   * `rounding` may be left out: then only `terms` are filled (the test tries the cheaper part
+   * first).
+   *
+   * Models without it get the rule of `ResidualSizes` in residual-size.ts: with J = F_u(u, p),
    * terms = |J u| + |F − J u| and rounding = Σ_j |J_ij|·max(|u_j|, 1) + |F − J u| (the linear
    * part applied as a whole, the remainder as one term).
    */
-  residualMagnitudes?(u: Float64Array, p: Params, terms: Float64Array, rounding: Float64Array): void;
+  residualMagnitudes?(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void;
 
   /** out = ∂F/∂p_name (u, p). */
   parameterDerivative(u: Float64Array, p: Params, name: string, out: Float64Array): void;

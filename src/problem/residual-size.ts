@@ -49,13 +49,21 @@ export class ResidualSizes {
     return this.jacobianValues === undefined;
   }
 
-  /** Fill `terms` and `rounding` at (u, p); `f` = F(u, p) (needed by the rule of thumb only). */
-  evaluate(u: Float64Array, p: Params, f: Float64Array): void {
+  /** Whether the last `evaluate` filled `rounding` too. */
+  withRounding = false;
+
+  /**
+   * Fill `terms` and (unless `withRounding` is false) `rounding` at (u, p); `f` = F(u, p) (needed
+   * by the rule of thumb only, which always fills both).
+   */
+  evaluate(u: Float64Array, p: Params, f: Float64Array, withRounding = true): void {
     const problem = this.problem;
     if (typeof problem.residualMagnitudes === 'function') {
-      problem.residualMagnitudes(u, p, this.terms, this.rounding);
+      problem.residualMagnitudes(u, p, this.terms, withRounding ? this.rounding : undefined);
+      this.withRounding = withRounding;
       return;
     }
+    this.withRounding = true;
     const values = this.jacobianValues!;
     const ju = this.product!;
     problem.jacobian(u, p, values);
@@ -79,14 +87,14 @@ export class ResidualSizes {
     }
   }
 
-  /** rtol·‖terms‖_w + 16·ε·‖rounding‖_w for the last `evaluate`. */
+  /** rtol·‖terms‖_w + 16·ε·‖rounding‖_w for the last `evaluate` (without its rounding part: rtol·‖terms‖_w). */
   bound(rtol: number): number {
     const w = this.problem.weights;
     let t = 0;
     let r = 0;
     for (let i = 0; i < w.length; i++) {
       t += w[i] * this.terms[i] * this.terms[i];
-      r += w[i] * this.rounding[i] * this.rounding[i];
+      if (this.withRounding) r += w[i] * this.rounding[i] * this.rounding[i];
     }
     return rtol * Math.sqrt(t) + roundingFactor * Number.EPSILON * Math.sqrt(r);
   }

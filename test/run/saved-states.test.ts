@@ -68,16 +68,19 @@ async function runAndRecheck(s: Scenario): Promise<number> {
   const fresh = models[s.model].factory({ ...s.options, ...declared, grid: { intervals: s.grid, ...(s.length ? { length: s.length } : {}) } } as never);
   const base: Record<string, number> = run['start-parameters'];
   const rtol = prepared.settings.newton.residualTolerance;
-  const extrasOf = (get: (name: string) => number) => Float64Array.from(fresh.extraUnknowns.map((e) => get(e.name)));
+  /** The residual test of a saved state at the continuation parameter's value, extra unknowns by name. */
+  const recheck = (file: string, value: number, extra: (name: string) => number) => {
+    const npy = readNpy(join(dir, file));
+    const p = { ...base, [s.parameter]: value };
+    const u = fresh.fromNodeArray(npy.shape, npy.data, p, Float64Array.from(fresh.extraUnknowns.map((e) => extra(e.name))));
+    return residualTest(fresh, u, p, rtol);
+  };
   let checked = 0;
   for (const b of run.branches as { id: number; file: string }[]) {
     const csv = readCsv(join(dir, b.file), ['unexplained-change']);
     const col = (name: string) => csv.columns.indexOf(name);
     for (const row of csv.rows) {
-      const npy = readNpy(join(dir, 'solutions', `branch-${b.id}-point-${row[col('point')]}.npy`));
-      const p = { ...base, [s.parameter]: row[col(s.parameter)] };
-      const u = fresh.fromNodeArray(npy.shape, npy.data, p, extrasOf((name) => row[col(name)]));
-      const r = residualTest(fresh, u, p, rtol);
+      const r = recheck(join('solutions', `branch-${b.id}-point-${row[col('point')]}.npy`), row[col(s.parameter)], (name) => row[col(name)]);
       expect(r.norm, `branch ${b.id} point ${row[col('point')]}`).toBeLessThanOrEqual(r.bound);
       expect(row[col('residual')]).toBe(r.norm);
       checked++;
@@ -85,11 +88,7 @@ async function runAndRecheck(s: Scenario): Promise<number> {
   }
   const points = JSON.parse(readFileSync(join(dir, 'points.json'), 'utf8')).points as Record<string, any>[];
   for (const sp of points) {
-    const npy = readNpy(join(dir, sp.solution));
-    const p = { ...base, [s.parameter]: sp.value };
-    const extras = sp['extra-unknowns'] ?? {};
-    const u = fresh.fromNodeArray(npy.shape, npy.data, p, extrasOf((name) => extras[name]));
-    const r = residualTest(fresh, u, p, rtol);
+    const r = recheck(sp.solution, sp.value, (name) => sp['extra-unknowns']?.[name]);
     expect(sp.residual).toBe(r.norm);
     if (sp.kind === 'end' || sp.located) expect(r.norm, `${sp.kind} on branch ${sp.branch}`).toBeLessThanOrEqual(r.bound);
     checked++;
