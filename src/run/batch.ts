@@ -32,6 +32,8 @@ export interface RunTarget {
   label: string;
   prepared: PreparedCase;
   outDir: string;
+  /** The case document to run, when it is not the case file as it is (a value of a sweep). */
+  doc?: Record<string, unknown>;
 }
 
 export type OutcomeStatus = 'finished' | 'failed' | 'stopped' | 'not-started';
@@ -91,10 +93,14 @@ function isRunDirectory(dir: string): boolean {
  * Check every case file and output folder. Returns the targets, or the problems (one line each,
  * naming the file and field) when any case cannot run — then nothing may run.
  */
-export async function prepareTargets(files: readonly string[], options: { out?: string; force?: boolean; jobs?: number } = {}): Promise<{ targets: RunTarget[]; problems: string[] }> {
+export async function prepareTargets(
+  files: readonly string[],
+  options: { out?: string; force?: boolean; jobs?: number; parent?: boolean; cluster?: boolean } = {},
+): Promise<{ targets: RunTarget[]; problems: string[] }> {
   const targets: RunTarget[] = [];
   const problems: string[] = [];
-  const several = files.length > 1;
+  // `parent`: --out is a parent folder even for one case (runs sent to a cluster)
+  const several = files.length > 1 || options.parent === true;
   for (const file of files) {
     let prepared: PreparedCase;
     try {
@@ -117,7 +123,8 @@ export async function prepareTargets(files: readonly string[], options: { out?: 
     }
     targets.push({ label: file, prepared, outDir });
   }
-  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1));
+  // runs sent to a cluster: the nodes' memory is the scheduler's to judge (sbatch --test-only)
+  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1, options.cluster !== true));
   return { targets, problems };
 }
 
@@ -152,11 +159,11 @@ export function runNeeds(prepared: PreparedCase): { memory: number; disk: number
 }
 
 /** Requests that cannot fit this machine, refused before anything runs (with the estimates). */
-function resourceProblems(targets: readonly RunTarget[], jobs: number): string[] {
+export function resourceProblems(targets: readonly RunTarget[], jobs: number, memoryHere = true): string[] {
   const problems: string[] = [];
   const machine = totalmem();
   const needs = targets.map((t) => ({ t, ...runNeeds(t.prepared) }));
-  for (const x of needs) {
+  for (const x of memoryHere ? needs : []) {
     if (x.memory > 0.8 * machine) {
       problems.push(`${x.t.label}: grid.intervals: the run would need about ${bytesText(x.memory)} of memory (sparse LU factors${x.t.prepared.case.stability.eigenvalues > 0 ? ' for the continuation and the eigenvalues' : ''}), more than this machine has (${bytesText(machine)}); use fewer intervals`);
     }
@@ -274,11 +281,10 @@ function processAlive(pid: number): boolean {
 }
 
 /**
- * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
- * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
- * problem that matches the saved state. InputError (one line) otherwise.
+ * The checks every resume starts with: the folder holds a run of ours that did not finish, no
+ * live process is writing it (unless `force`), and a usable checkpoint exists. InputError otherwise.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+export function resumableCheckpoint(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint> } {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
@@ -290,13 +296,34 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (pid !== undefined && !options.force) {
     throw new InputError(`${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`);
   }
-  let found;
   try {
-    found = readCheckpoint(dir);
+    return { dir, run, status, found: readCheckpoint(dir) };
   } catch (e) {
     if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
     throw e;
   }
+}
+
+/** The CSV files must still hold every row the checkpoint counts (checked before any is touched). */
+export function checkRecordedLengths(dirGiven: string, dir: string, csvLengths: Record<string, number>): void {
+  for (const [file, length] of Object.entries(csvLengths)) {
+    let size: number;
+    try {
+      size = statSync(join(dir, file)).size;
+    } catch {
+      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
+    }
+    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
+  }
+}
+
+/**
+ * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
+ * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
+ * problem that matches the saved state. InputError (one line) otherwise.
+ */
+export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  const { dir, status, found } = resumableCheckpoint(dirGiven, options);
   const c = found.document;
   const caseFile = c.run.caseFile;
   const prepared = await prepareCaseObject(c.case, {
@@ -311,16 +338,7 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (saved !== undefined && saved !== prepared.problem.size) {
     throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
   }
-  // the branch files must still hold every row the checkpoint counts (checked before any is touched)
-  for (const [file, length] of Object.entries(c.ledger.csvLengths)) {
-    let size: number;
-    try {
-      size = statSync(join(dir, file)).size;
-    } catch {
-      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
-    }
-    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
-  }
+  checkRecordedLengths(dirGiven, dir, c.ledger.csvLengths);
   return { prepared, outDir: dir, plan: { checkpoint: c, file: found.file, skipped: found.skipped, previousStatus: status } };
 }
 
@@ -418,7 +436,14 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
         done();
       });
       o.view.start(name, t.prepared.settings.parameter, t.prepared.settings.maxPoints);
-      const start: WorkerStart = { type: 'run', file: t.prepared.file ?? resolve(t.label), label: t.label, outDir: t.outDir, force: o.force === true };
+      const start: WorkerStart = {
+        type: 'run',
+        file: t.prepared.file ?? resolve(t.label),
+        label: t.label,
+        outDir: t.outDir,
+        force: o.force === true,
+        ...(t.doc ? { doc: t.doc, baseDir: t.prepared.baseDir } : {}),
+      };
       child.send(start);
     });
 
@@ -468,6 +493,9 @@ export interface WorkerStart {
   label: string;
   outDir: string;
   force: boolean;
+  /** The case document to run instead of the file as it is (a value of a sweep), with its base folder. */
+  doc?: Record<string, unknown>;
+  baseDir?: string;
 }
 
 export type WorkerMessage =
