@@ -132,6 +132,23 @@ describe('a run on the scripted engine', () => {
     expect(json(join(outNone, 'points.json')).points.every((p: any) => p.solution === undefined)).toBe(true);
   });
 
+  it('an unexplained change of the unstable count: named in its CSV cell, in run.json and in the summary', async () => {
+    const withStability = await prepareCaseObject(
+      { model: 'bratu', grid: { intervals: [32] }, parameters: { lambda: 0.2 }, continuation: { parameter: 'lambda', bounds: [0, 4] }, stability: { eigenvalues: 2 } },
+      { label: 'slab', baseDir: tmp },
+    );
+    const out = fresh();
+    const result = await runCase(withStability, { outDir: out, engine: fakeEngine({ ...defaultScript, stability: true, unexplained: true }) });
+    const csv = readCsv(join(out, 'branches/1.csv'), ['unexplained-change']);
+    const text = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
+    const cell = csv.columns.indexOf('unexplained-change');
+    expect(cell).toBe(csv.columns.length - 1);
+    expect(text[4].endsWith(',the unstable count changed from 0 to 1')).toBe(true); // point 3
+    expect(text.filter((l) => l.includes('unstable count changed'))).toHaveLength(1);
+    expect(json(join(out, 'run.json')).warnings).toEqual([expect.stringMatching(/the unstable count changed from 0 to 1 between lambda/)]);
+    expect(formatSummary(result, withStability)).toMatch(/1 warning \(listed in run\.json\):\n {2}branch 1: the unstable count changed from 0 to 1/);
+  });
+
   it('adds the stability columns when eigenvalues are asked for, and writes extra unknowns by name', async () => {
     // Brusselator on a periodic line with a phase condition: one extra unknown, drift-x
     const c = await prepareCaseObject(
