@@ -107,7 +107,8 @@ export function correct(
     const g = constraint(sys, x, t, ref);
     const stepLimit = options.stepTolerance * (1 + sys.norm(x));
     const residualOk = (): boolean => Math.abs(g) <= stepLimit && res <= boundNow();
-    const rho = lastUpdate / previousUpdate;
+    // the contraction rate needs two updates; after one, the update itself is the estimate
+    const rho = Number.isFinite(previousUpdate) ? lastUpdate / previousUpdate : 1;
     const errorEstimate = rho <= 0.5 ? (rho / (1 - rho)) * lastUpdate : lastUpdate;
     if (it > 0 && errorEstimate <= stepLimit && residualOk()) {
       return { converged: true, iterations: it, residual: res, residualBound: bound, factored };

@@ -8,6 +8,10 @@ import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, test } from 'vitest';
+import { models } from '../../discretisations/index.js';
+import { correct, correctWork } from '../../src/continuation/newton.js';
+import { ContinuationSystem } from '../../src/continuation/system.js';
+import { resolveParameters } from '../../src/problem/problem.js';
 import { prepareCaseObject } from '../../src/run/case.js';
 import { runCase } from '../../src/run/run-case.js';
 import { runModel, settings } from './collect.js';
@@ -41,5 +45,33 @@ describe('points accepted without a Newton update', () => {
     const buckled = run.points.filter((p) => p.branch !== 1 && p.index > 0);
     expect(buckled.length).toBeGreaterThan(5);
     expect(buckled.every((p) => p.newtonIterations > 0)).toBe(true);
+  });
+});
+
+describe('the update test after a single Newton update', () => {
+  test('one update is not enough evidence: its size is the error estimate until a second one shows the contraction', () => {
+    // 1D Bratu at λ = 1 (lower branch, no singular point near): Newton at fixed λ from a state
+    // 1e-2 off the solution, with a loose residual tolerance (passed after one update) and a tight
+    // step tolerance. The state returned must be within the step tolerance of the solution
+    // computed to the last bit (Newton's quadratic convergence: common practice).
+    const problem = models.bratu.factory({ grid: { intervals: [32] } });
+    const params = resolveParameters(problem, { lambda: 1 });
+    const sys = new ContinuationSystem(problem, params, 'lambda');
+    const n = problem.size;
+    const e = new Float64Array(n + 1);
+    e[n] = 1;
+    const solve = (x: Float64Array, residualTolerance: number, stepTolerance: number) =>
+      correct(sys, x, e, x.slice(), { residualTolerance, stepTolerance, maxIterations: 20, fresh: true }, correctWork(n));
+    const exact = new Float64Array(n + 1);
+    exact[n] = 1;
+    expect(solve(exact, 1e-15, 1e-15).converged).toBe(true);
+    const x = exact.slice();
+    for (let i = 0; i < n; i++) x[i] += 1e-2 * Math.sin((Math.PI * (i + 1)) / (n + 1));
+    const stepTolerance = 1e-12;
+    const r = solve(x, 1e-3, stepTolerance);
+    expect(r.converged).toBe(true);
+    expect(r.iterations).toBeGreaterThanOrEqual(2);
+    const diff = x.map((v, i) => v - exact[i]);
+    expect(sys.norm(diff)).toBeLessThanOrEqual(stepTolerance * (1 + sys.norm(x)));
   });
 });
