@@ -9,7 +9,7 @@ import { branchShape } from '../../src/continuation/engine.js';
 import type { BranchPointEvent, HopfPoint, SpecialPoint } from '../../src/continuation/types.js';
 import { runModel, runProblem, settings } from './collect.js';
 
-/** Discrete Dirichlet Laplacian eigenvalue per direction, (4/h²) sin²(kπh/2) (standard FD result). */
+/** Discrete Dirichlet Laplacian eigenvalue per direction, (4/h²) sin²(kπh/2) (the eigenvectors are sin(kπx): from memory, any numerical-analysis text). */
 const q = (k: number, h: number) => (4 / (h * h)) * Math.sin((k * Math.PI * h) / 2) ** 2;
 
 const branchPoints = (s: SpecialPoint[]) => s.filter((p): p is BranchPointEvent => p.kind === 'branch-point');
