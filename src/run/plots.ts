@@ -29,6 +29,7 @@ import {
 } from '../plot/index.js';
 import { defaultPlotMonitor } from './case.js';
 import { InputError } from './errors.js';
+import { isRunPlotName } from './manifest.js';
 import type { SpecialRecord } from './run-directory.js';
 import { readPointsJson, readRunJson } from './start.js';
 import { parseJsonNumber, readCsv, readNpy, writeFileAtomic } from './writers.js';
@@ -67,7 +68,7 @@ export interface AxisInfo {
 }
 
 /** Columns of a branch CSV that are not monitors. */
-const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
+const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'residual', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete', 'unexplained-change']);
 
 const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
 
@@ -170,7 +171,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
     }
     let csv: { columns: string[]; rows: number[][] };
     try {
-      csv = readCsv(path);
+      csv = readCsv(path, ['unexplained-change']);
     } catch (e) {
       warnings.push(`branch ${b.id}: ${(e as Error).message}`);
       continue;
@@ -261,7 +262,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   // plots of special points this run no longer has (an earlier run replaced with --force)
   if (existsSync(plotsDir)) {
     for (const f of readdirSync(plotsDir)) {
-      if (/^branch-\d+-.*\.svg$/.test(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
+      if (isRunPlotName(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
     }
   }
   return { files: written, warnings, notes, monitor: chosen };
