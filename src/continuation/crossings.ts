@@ -37,12 +37,15 @@ function scaleOf(values: readonly { re: number; im: number }[]): number {
  * real part changes sign contributes +2 (into the right half-plane) or −2.
  */
 export function pairCrossings(a: PointStability, b: PointStability): number {
-  const ta = REAL_TOLERANCE * scaleOf(a.eigenvalues);
-  const tb = REAL_TOLERANCE * scaleOf(b.eigenvalues);
-  const candidates = b.eigenvalues.filter((v) => v.im > tb);
+  // every value found near the axis when the search reports them (more may be unstable than listed)
+  const va0 = a.nearAxis ?? a.eigenvalues;
+  const vb0 = b.nearAxis ?? b.eigenvalues;
+  const ta = REAL_TOLERANCE * scaleOf(va0);
+  const tb = REAL_TOLERANCE * scaleOf(vb0);
+  const candidates = vb0.filter((v) => v.im > tb);
   const used = new Set<number>();
   let change = 0;
-  for (const va of a.eigenvalues) {
+  for (const va of va0) {
     if (va.im <= ta) continue;
     let best = -1;
     let distance = Infinity;

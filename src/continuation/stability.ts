@@ -114,7 +114,15 @@ export function summarise(r: RightmostResult, count: number): PointStability {
     eigenvalues: vals.slice(0, Math.max(count, vals.length)).map((v) => ({ re: v.re, im: v.im, residual: v.residual })),
     complete,
     searched: r.searchedRegion.description,
+    ...(r.rightOf ? { nearAxis: nearAxis(r.rightOf.values, vals, r.rightOf.next) } : {}),
   };
+}
+
+/** The values right of the axis, then those listed or found next left of it, each once. */
+function nearAxis(...lists: { re: number; im: number }[][]): { re: number; im: number }[] {
+  const out: { re: number; im: number }[] = [];
+  for (const list of lists) for (const v of list) if (!out.some((w) => w.re === v.re && w.im === v.im)) out.push({ re: v.re, im: v.im });
+  return out;
 }
 
 /** The complex eigenvalue (Im > 0) of `s` nearest to `target` in the complex plane, or undefined. */

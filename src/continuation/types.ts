@@ -92,6 +92,12 @@ export interface PointStability {
   eigenvalues: { re: number; im: number; residual: number }[];
   /** Whether every eigenvalue with real part ≥ 0 is certified to be among those found. */
   complete: boolean;
+  /**
+   * Every eigenvalue found right of the imaginary axis (also beyond the listed ones) and the
+   * first few found left of it: matched between neighbouring points to tell pairs crossing the
+   * axis (crossings.ts) when more eigenvalues are unstable than are listed.
+   */
+  nearAxis?: { re: number; im: number }[];
   /** The search's own account of the region searched. */
   searched: string;
 }

@@ -328,6 +328,7 @@ export class EigenCall {
               line,
               values: known.filter((k) => k.mu.re >= line).map((k) => ({ re: k.mu.re, im: k.mu.im })),
               certified: this.allConverged && enclosure.rigorous && reaches(region.certifiedAbove, line),
+              next: sortRightmost(known.filter((k) => k.mu.re < line).map((k) => k.mu)).slice(0, 4).map((mu) => ({ re: mu.re, im: mu.im })),
             },
           }
         : {}),

@@ -151,6 +151,6 @@ export function denseResult(J: CscMatrix, o: { count: number; guard: number; mas
     shifts: [],
     warmStart: makeWarmStart(pairs.slice(0, Math.max(kw, sel.length)), n, 0),
     method: 'dense',
-    ...(o.certifyAbove !== undefined ? { rightOf: { line: o.certifyAbove, values: values.filter((v) => v.re >= o.certifyAbove!).sort((a, b) => b.re - a.re || b.im - a.im), certified: true } } : {}),
+    ...(o.certifyAbove !== undefined ? { rightOf: { line: o.certifyAbove, values: values.filter((v) => v.re >= o.certifyAbove!).sort((a, b) => b.re - a.re || b.im - a.im), certified: true, next: values.filter((v) => v.re < o.certifyAbove!).sort((a, b) => b.re - a.re || b.im - a.im).slice(0, 4) } } : {}),
   };
 }

@@ -81,6 +81,8 @@ export interface RightOfLine {
   values: { re: number; im: number }[];
   /** Every eigenvalue with real part ≥ line is among `values` (converged searches, a rigorous enclosure, covered discs). */
   certified: boolean;
+  /** The values found next left of the line (the first few, rightmost first): where a pair about to cross comes from. */
+  next: { re: number; im: number }[];
 }
 
 export interface EigenOptions {
