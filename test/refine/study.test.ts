@@ -35,7 +35,7 @@ function bratuFold1D(): number {
   const theta = 4 * t;
   return theta ** 2 / (2 * Math.cosh(theta / 4) ** 2);
 }
-const exactFold1D = 3.513830719125; // DESIGN.md check table (exact, Bratu 1914)
+const exactFold1D = 3.513830719125; // exact: the closed-form branch u = −2 ln[cosh((x−½)θ/2)/cosh(θ/4)], fold at (θ/4)·tanh(θ/4) = 1 (Bratu 1914)
 
 const bratu1d = {
   name: 'bratu-1d',
@@ -169,7 +169,7 @@ describe('refine at a branch point (1D Allen–Cahn, u = 0 on the walls)', () =>
     const r = await runStudy(await prepare(allenCahn), { grids: [16, 32, 64], outDir: out, point: { kind: 'branch-point', index: 1 } });
     expect(r.status).toBe('finished');
     const a = r.analysis!;
-    // discrete values (4/h²) sin²(πh/2) (standard FD result), exact for the discretisation
+    // discrete values (4/h²) sin²(πh/2) (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory), exact for the discretisation
     const discrete = (n: number) => 4 * n * n * Math.sin(Math.PI / (2 * n)) ** 2;
     a.grids.forEach((g, i) => expect(Math.abs(g.value - discrete([16, 32, 64][i]))).toBeLessThan(1e-7));
     expect(Math.abs(a.order! - 2)).toBeLessThan(0.02);
