@@ -70,6 +70,13 @@ export const maxPointsLimit = 1_000_000;
 export const maxDepthLimit = 10;
 /** Estimated solution files per branch (output.solutions: all) above this are refused. */
 export const solutionBytesLimit = 64 * 1024 ** 3;
+/**
+ * Accepted `grid.length` per axis (in the user's unit, from nanometres to a planet in metres):
+ * outside it h², h⁴ and their inverses leave double precision on the finest grids we accept.
+ */
+export const lengthRange = [1e-9, 1e9] as const;
+/** The smallest Newton tolerance: below it round-off alone keeps the residual from converging. */
+export const minTolerance = 1e-15;
 
 export const solutionChoices = ['special', 'none', 'all'] as const;
 export type SolutionChoice = (typeof solutionChoices)[number];
@@ -227,16 +234,19 @@ const integerIn = (lo: number, hi: number) => {
 const intervalsText = accepted('a list of 1 to 3 integers, intervals per axis, e.g. [64] or [32, 32]');
 const atLeastTwo = accepted('an integer of at least 2');
 
+const lengthText = 'a length from 1e-9 to 1e9';
+const lengthSchema = z.number(accepted(lengthText)).min(lengthRange[0], accepted(lengthText)).max(lengthRange[1], accepted(lengthText));
+
 const gridSchema = section({
   intervals: z.array(z.number(atLeastTwo).int(atLeastTwo).min(2, atLeastTwo), intervalsText).min(1, intervalsText).max(3, intervalsText),
-  length: z.union([positive, z.array(positive)], accepted('a positive number, or a list of positive numbers (one per axis)')).optional(),
+  length: z.union([lengthSchema, z.array(lengthSchema)], accepted(`${lengthText}, or a list of such lengths (one per axis)`)).optional(),
 });
 
 const stepSchema = section({ initial: positive.optional(), min: positive.optional(), max: positive.optional() });
 
 const stopSchema = section({ monitor: z.string(accepted('a monitor name')), above: finite.optional(), below: finite.optional() });
 
-const toleranceText = accepted('a number between 0 and 1');
+const toleranceText = accepted(`a number from ${minTolerance} to below 1`);
 const turnText = accepted('a number of degrees above 0 and at most 90');
 
 const continuationSchema = section({
@@ -249,7 +259,7 @@ const continuationSchema = section({
   'stop-when': z.array(stopSchema, accepted('a list of {monitor, above | below}')).optional(),
   'branch-switching': section({ depth: integerIn(0, maxDepthLimit) }).optional(),
   newton: section({
-    tolerance: z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
+    tolerance: z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
     'max-iterations': integerIn(1, 100).optional(),
   }).optional(),
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
@@ -294,11 +304,16 @@ type CaseInput = z.infer<typeof caseSchema>;
 export function parseCaseText(text: string, label: string, json = false): unknown {
   if (text.includes('\u0000')) throw new CaseError(label, '', 'the file holds binary data, not a YAML or JSON case');
   if (json) {
+    let value: unknown;
     try {
-      return JSON.parse(text);
+      value = JSON.parse(text);
     } catch (e) {
       throw new CaseError(label, '', `not valid JSON: ${(e as Error).message}`);
     }
+    // JSON.parse keeps the last of two equal keys without a word; YAML refuses them (uniqueKeys)
+    const twice = duplicateJsonKey(text);
+    if (twice) throw new CaseError(label, pathText(twice.path), `the key ${showValue(twice.key)} is given twice (line ${twice.line}); give each key once`);
+    return value;
   }
   const lineCounter = new LineCounter();
   const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true, lineCounter });
@@ -312,6 +327,64 @@ export function parseCaseText(text: string, label: string, json = false): unknow
     return doc.toJS({ maxAliasCount: 100 });
   } catch (e) {
     throw new CaseError(label, '', `not valid YAML: ${(e as Error).message}`);
+  }
+}
+
+/**
+ * The first key given twice in one object of a JSON text that JSON.parse accepted, with the path
+ * of its object and its line. A plain scan: strings, brackets, colons and commas are all it needs.
+ */
+export function duplicateJsonKey(text: string): { key: string; path: (string | number)[]; line: number } | undefined {
+  type Frame = { keys?: Set<string>; expectKey: boolean; index: number; key?: string };
+  const stack: Frame[] = [];
+  const path = (): (string | number)[] => stack.slice(0, -1).map((f) => (f.keys ? (f.key as string) : f.index));
+  for (let i = 0; i < text.length; i++) {
+    const c = text[i];
+    if (c === '{' || c === '[') {
+      stack.push(c === '{' ? { keys: new Set(), expectKey: true, index: 0 } : { expectKey: false, index: 0 });
+    } else if (c === '}' || c === ']') {
+      stack.pop();
+    } else if (c === ',') {
+      const top = stack[stack.length - 1];
+      if (top?.keys) top.expectKey = true;
+      else if (top) top.index++;
+    } else if (c === '"') {
+      const start = i;
+      for (i++; text[i] !== '"'; i++) if (text[i] === '\\') i++;
+      const top = stack[stack.length - 1];
+      if (top?.keys && top.expectKey) {
+        const key = JSON.parse(text.slice(start, i + 1)) as string;
+        top.expectKey = false;
+        if (top.keys.has(key)) {
+          top.key = key;
+          const line = text.slice(0, start).split('\n').length;
+          return { key, path: path(), line };
+        }
+        top.keys.add(key);
+        top.key = key;
+      }
+    }
+  }
+  return undefined;
+}
+
+/**
+ * Keys that JavaScript gives a meaning of their own (`__proto__` names an object's prototype):
+ * refused anywhere in a case, whatever it was read from (YAML, JSON, a run's stored case).
+ */
+function refuseOddKeys(raw: unknown, label: string): void {
+  const stack: { v: unknown; path: (string | number)[] }[] = [{ v: raw, path: [] }];
+  while (stack.length) {
+    const { v, path } = stack.pop()!;
+    if (v === null || typeof v !== 'object' || ArrayBuffer.isView(v) || v instanceof Date) continue;
+    if (Array.isArray(v)) {
+      v.forEach((x, i) => stack.push({ v: x, path: [...path, i] }));
+      continue;
+    }
+    for (const key of Object.keys(v)) {
+      if (key === '__proto__') throw new CaseError(label, pathText(path), `the key '__proto__' is not accepted (JavaScript reads it as the prototype of the map; give another name)`);
+      stack.push({ v: (v as Record<string, unknown>)[key], path: [...path, key] });
+    }
   }
 }
 
@@ -349,6 +422,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   if (typeof raw !== 'object' || Array.isArray(raw)) {
     fail('', `expected a map of keys (name, model, grid, parameters, continuation, output), got ${showValue(raw)}`);
   }
+  refuseOddKeys(raw, label);
 
   // 1. the case keys' shapes
   const parsed = caseSchema.safeParse(raw);

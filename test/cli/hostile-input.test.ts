@@ -3,7 +3,7 @@
  * characters in case values never reach the terminal raw.
  */
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -70,4 +70,24 @@ describe('control characters from case values are shown as escapes, never sent r
     expect(shown).toMatch(/code model says \\x1b\]0;owned\\x07/);
     expect(shown).not.toMatch(/\u0007|\u009b|\u202e|\u001b\]0/);
   });
+});
+
+describe('absurd values and odd keys are refused before anything is written', () => {
+  it('grid.length 1e-320 and 1e308, __proto__ and duplicate keys in JSON: exit 2, one line, no run folder', () => {
+    const base = { model: 'bratu', grid: { intervals: [16] }, parameters: { lambda: 0.5 }, continuation: { parameter: 'lambda', bounds: [0, 4] } };
+    const files: [string, string, RegExp][] = [
+      ['tiny.yaml', 'model: bratu\ngrid: {intervals: [16], length: 1.0e-320}\ncontinuation: {parameter: lambda, bounds: [0, 4]}\n', /grid\.length: 1e-320 is not accepted \(accepted: a length from 1e-9 to 1e9/],
+      ['huge.json', JSON.stringify({ ...base, grid: { intervals: [16], length: 1e308 } }), /grid\.length: 1e\+308 is not accepted/],
+      ['proto.json', JSON.stringify(base).replace('"parameters":{', '"parameters":{"__proto__":{"lambda":3},'), /parameters: the key '__proto__' is not accepted/],
+      ['twice.json', JSON.stringify(base).replace('"model":"bratu"', '"model":"bratu","model":"allen-cahn"'), /the key 'model' is given twice \(line 1\)/],
+    ];
+    for (const [name, text, pattern] of files) {
+      const out = join(tmp, `out-${name}`);
+      const r = branchline('run', write(name, text), '--out', out);
+      expect(r.status, name).toBe(2);
+      expect(r.stderr).toMatch(pattern);
+      expect(r.stderr.trim().split('\n')).toHaveLength(1);
+      expect(existsSync(out)).toBe(false);
+    }
+  }, 60_000);
 });

@@ -5,7 +5,7 @@ import { join, resolve } from 'node:path';
 import fc from 'fast-check';
 import { afterAll, describe, expect, it } from 'vitest';
 import { defaultSettings } from '../../src/continuation/types.js';
-import { caseDocument, parseCaseText, prepareCase, prepareCaseObject } from '../../src/run/case.js';
+import { caseDocument, duplicateJsonKey, parseCaseText, prepareCase, prepareCaseObject } from '../../src/run/case.js';
 import { CaseError } from '../../src/run/errors.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-case-'));
@@ -192,6 +192,12 @@ describe('bad case files give one line naming the file, the field, the value and
     ['absurd point count', good + '  max-points: 1.0e+9\n', /: continuation\.max-points: 1000000000 is not accepted \(accepted: an integer from 1 to 1000000\)/],
     ['absurd depth', good + '  branch-switching: {depth: 99}\n', /: continuation\.branch-switching\.depth: 99 is not accepted \(accepted: an integer from 0 to 10\)/],
     ['solutions at every point of a huge run', good.replace('[16]', '[400, 400]') + '  max-points: 200000\noutput: {solutions: all}\n', /: output\.solutions: 'all' would write up to \d+ GiB/],
+    ['a vanishing length', good.replace('{intervals: [16]}', '{intervals: [16], length: 1.0e-320}'), /: grid\.length: 1e-320 is not accepted \(accepted: a length from 1e-9 to 1e9/],
+    ['an overflowing length', good.replace('{intervals: [16]}', '{intervals: [16], length: 1.0e+308}'), /: grid\.length: 1e\+308 is not accepted \(accepted: a length from 1e-9 to 1e9/],
+    ['one absurd length of several', good.replace('{intervals: [16]}', '{intervals: [16, 16], length: [1, 1.0e+12]}'), /: grid\.length(\[1\])?: .*is not accepted \(accepted: a length from 1e-9 to 1e9/],
+    ['a tolerance round-off cannot reach', good + '  newton: {tolerance: 1.0e-300}\n', /: continuation\.newton\.tolerance: 1e-300 is not accepted \(accepted: a number from 1e-15 to below 1\)/],
+    ['__proto__ at the top', good + '__proto__: {model: allen-cahn}\n', /: the key '__proto__' is not accepted \(JavaScript reads it as the prototype/],
+    ['__proto__ in parameters', good.replace('{lambda: 0.5}', '{lambda: 0.5, __proto__: {lambda: 3}}'), /: parameters: the key '__proto__' is not accepted/],
     ['bad solutions word', good + 'output: {solutions: some}\n', /: output\.solutions: 'some' is not accepted \(accepted: special, none, all\)/],
     ['bad name', 'name: ../escape\n' + good.replace('name: slab\n', ''), /: name: '\.\.\/escape' is not accepted \(accepted: a name of letters, digits/],
     // expressions
@@ -228,6 +234,21 @@ describe('bad case files give one line naming the file, the field, the value and
   it('broken JSON in a .json file', async () => {
     const err = await errorOf('{"model": "bratu",', '.json');
     expect(err.message).toMatch(/: not valid JSON: /);
+  });
+
+  it('JSON: duplicate keys (also spelt with escapes) and __proto__ keys, at any depth', async () => {
+    const doc = (extra: string, params = '{"lambda": 0.5}'): string =>
+      `{"model": "bratu", "grid": {"intervals": [16]}, "parameters": ${params},\n "continuation": {"parameter": "lambda", "bounds": [0, 4]${extra}}}`;
+    expect((await errorOf(doc(', "bounds": [0, 3]'), '.json')).message).toMatch(/: continuation: the key 'bounds' is given twice \(line 2\); give each key once$/);
+    expect((await errorOf(doc('', '{"lambda": 0.5, "lamb\\u0064a": 2}'), '.json')).message).toMatch(/: parameters: the key 'lambda' is given twice \(line 1\)/);
+    expect((await errorOf(`{"model": "bratu", "model": "allen-cahn", "grid": {"intervals": [16]}}`, '.json')).message).toMatch(/json: the key 'model' is given twice/);
+    expect((await errorOf(doc('', '{"__proto__": {"lambda": 3}}'), '.json')).message).toMatch(/: parameters: the key '__proto__' is not accepted/);
+    expect((await errorOf(`{"__proto__": {"x": 1}, ${doc('').slice(1)}`, '.json')).message).toMatch(/json: the key '__proto__' is not accepted/);
+    // braces, quotes and equal keys inside strings and in different maps are no duplicates
+    const ok = await prepareCase(caseFile(doc(', "stop-when": [{"monitor": "max", "above": 5}, {"monitor": "max", "below": -1}]'), '.json'));
+    expect(ok.settings.stopWhen).toHaveLength(2);
+    expect(duplicateJsonKey('{"a": "{\\"a\\": 1, \\"a\\": 2}", "b": [{"a": 1}, {"a": 2, "c": {"a": 3}}]}')).toBeUndefined();
+    expect(duplicateJsonKey('{"b": [{"a": 1}, {"a": 2, "c": {"d": 3, "d": 4}}]}')).toEqual({ key: 'd', path: ['b', 1, 'c'], line: 1 });
   });
 
   it('a missing file and a folder', async () => {
