@@ -22,7 +22,7 @@
  * (src/cli/commands/refine.ts) parses its options and prints `formatStudySummary`.
  */
 import { type ChildProcess, fork } from 'node:child_process';
-import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, rmSync, statSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { formatValue, refinementSvg } from '../plot/index.js';
@@ -31,6 +31,7 @@ import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.
 import { InputError } from '../run/errors.js';
 import { formatValue as plainValue } from '../run/summary.js';
 import { drawRunPlots } from '../run/plots.js';
+import { jsonFileLimit, readTextFile } from '../run/read-file.js';
 import { runCase } from '../run/run-case.js';
 import type { SpecialRecord } from '../run/run-directory.js';
 import { type PointSpec, availablePoints, findSpecial, pointSpecText, pointWords, readPointsJson } from '../run/start.js';
@@ -140,7 +141,7 @@ export function gridLabel(intervals: readonly number[]): string {
 
 function isOurStudy(dir: string): boolean {
   try {
-    const doc = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as { format?: unknown };
+    const doc = JSON.parse(readTextFile(join(dir, 'refine.json'), jsonFileLimit, 'a study record')) as { format?: unknown };
     return doc.format === studyFormat;
   } catch {
     return false;
@@ -149,7 +150,7 @@ function isOurStudy(dir: string): boolean {
 
 function isOurRun(dir: string): boolean {
   try {
-    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as { format?: unknown };
+    const doc = JSON.parse(readTextFile(join(dir, 'run.json'), jsonFileLimit, 'a run record')) as { format?: unknown };
     return doc.format === 'branchline run';
   } catch {
     return false;
@@ -207,7 +208,7 @@ function readOutcome(task: GridTask, studyDir: string, thrown?: string, stopped 
   const base = { grid: task.grid, intervals: task.intervals, directory: task.directory };
   let run: Record<string, unknown>;
   try {
-    run = JSON.parse(readFileSync(join(abs, 'run.json'), 'utf8')) as Record<string, unknown>;
+    run = JSON.parse(readTextFile(join(abs, 'run.json'), jsonFileLimit, 'a run record')) as Record<string, unknown>;
   } catch {
     if (stopped) return { ...base, status: 'stopped', failure: 'not run: the study was stopped', specials: [] };
     return { ...base, status: 'failed', failure: thrown ?? 'the run wrote no run.json', specials: [] };
@@ -548,7 +549,7 @@ export function studySvg(json: Record<string, unknown>): string {
 export function drawStudyPlots(dir: string, options: { monitor?: string; maxSolutionPlots?: number } = {}): { files: string[]; warnings: string[] } {
   let json: Record<string, unknown>;
   try {
-    json = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as Record<string, unknown>;
+    json = JSON.parse(readTextFile(join(dir, 'refine.json'), jsonFileLimit, 'a study record')) as Record<string, unknown>;
   } catch (e) {
     throw new InputError(`cannot draw: ${join(dir, 'refine.json')} cannot be read (${(e as Error).message})`);
   }

@@ -13,7 +13,7 @@
  * No argument parsing and no process.exit here: the `run` and `resume` commands call these.
  */
 import { type ChildProcess, fork } from 'node:child_process';
-import { existsSync, readFileSync, readdirSync, statSync, statfsSync } from 'node:fs';
+import { existsSync, readdirSync, statSync, statfsSync } from 'node:fs';
 import { hostname, totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
@@ -25,6 +25,7 @@ import type { ProgressView } from './progress.js';
 import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
 import { runFormat } from './run-directory.js';
 import { writeJsonAtomic } from './writers.js';
+import { jsonFileLimit, readTextFile } from './read-file.js';
 
 /** A case ready to run: checked, its problem built, its output folder decided. */
 export interface RunTarget {
@@ -76,7 +77,7 @@ function liveWriter(dir: string): number | undefined {
 
 function readRunJson(dir: string): Record<string, unknown> | undefined {
   try {
-    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
+    const doc = JSON.parse(readTextFile(join(dir, 'run.json'), jsonFileLimit, 'a run record')) as Record<string, unknown>;
     return doc && doc.format === runFormat ? doc : undefined;
   } catch {
     return undefined;

@@ -38,7 +38,7 @@
  * `prepareCase` does all checking and builds the problem without writing anything; errors are
  * one-line CaseErrors naming the file, the field path, the value and what is accepted.
  */
-import { existsSync, readFileSync, statSync } from 'node:fs';
+import { existsSync, statSync } from 'node:fs';
 import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { LineCounter, parseDocument } from 'yaml';
@@ -49,6 +49,7 @@ import { type ContinuationSettings, defaultSettings } from '../continuation/type
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
+import { FileReadError, caseFileLimit, codeModelLimit, notRegularFile, readTextFile, sizeText } from './read-file.js';
 import {
   type RunPoint,
   extrasForSolutionFile,
@@ -396,9 +397,10 @@ export async function prepareCase(file: string, options: { label?: string } = {}
   if (statSync(abs).isDirectory()) throw new CaseError(label, '', 'is a folder, not a case file');
   let text: string;
   try {
-    text = readFileSync(abs, 'utf8');
+    text = readTextFile(abs, caseFileLimit, 'a case file');
   } catch (e) {
-    throw new CaseError(label, '', `cannot be read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+    if (e instanceof FileReadError) throw new CaseError(label, '', e.reason);
+    throw e;
   }
   const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
   const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
@@ -763,7 +765,9 @@ function readStartState(start: StartKey, problem: Problem, params: Params, fail:
   const field = start.point ? 'start.run' : 'start.solution';
   let array: { shape: number[]; data: Float64Array };
   try {
-    array = readSolutionFile(file);
+    // the grid says how large the file can be: nodes times fields
+    const d = problem.describe();
+    array = readSolutionFile(file, d.axes.reduce((a, ax) => a * ax.nodes, 1) * Math.max(1, d.fields.length));
   } catch (e) {
     return fail(field, (e as Error).message);
   }
@@ -858,6 +862,10 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
 
 async function loadCodeModel(abs: string, given: string, label: string): Promise<ProblemFactory> {
   if (!existsSync(abs)) throw new CaseError(label, 'model', `code model ${showValue(given)} not found (looked for ${abs})`);
+  // importing a FIFO or a device would block or never end
+  const odd = notRegularFile(abs);
+  if (odd) throw new CaseError(label, 'model', `code model ${showValue(given)} cannot be loaded: ${odd}`);
+  if (statSync(abs).size > codeModelLimit) throw new CaseError(label, 'model', `code model ${showValue(given)} is larger than the ${sizeText(codeModelLimit)} accepted for a code model`);
   let mod: Record<string, unknown>;
   try {
     mod = (await import(pathToFileURL(abs).href)) as Record<string, unknown>;

@@ -18,11 +18,12 @@
  * entries (run.json, points.json, branches/, solutions/, checkpoint files) are removed and any
  * other files the user put there are left alone. We never empty an arbitrary folder.
  */
-import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, rmSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import type { BranchPoint, SpecialPoint, StopReason } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
+import { jsonFileLimit, readTextFile } from './read-file.js';
 import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
 
 export const runFormat = 'branchline run';
@@ -230,7 +231,7 @@ function isOurRun(dir: string): boolean {
   const file = join(dir, 'run.json');
   if (!existsSync(file)) return false;
   try {
-    const doc = JSON.parse(readFileSync(file, 'utf8')) as { format?: unknown };
+    const doc = JSON.parse(readTextFile(file, jsonFileLimit, 'a run record')) as { format?: unknown };
     return doc.format === runFormat;
   } catch {
     return false;

@@ -16,7 +16,8 @@
  * Nothing here writes files; errors are plain Errors whose messages the case reader turns into
  * one-line case errors naming the field.
  */
-import { existsSync, readFileSync, statSync } from 'node:fs';
+import { existsSync, statSync } from 'node:fs';
+import { jsonFileLimit, npyHeaderAllowance, readTextFile } from './read-file.js';
 import { basename, dirname, join, relative, resolve } from 'node:path';
 import type { SpecialRecord } from './run-directory.js';
 import { parseJsonNumber, readNpy } from './writers.js';
@@ -89,12 +90,7 @@ export interface RunFiles {
 }
 
 function readJson(file: string): unknown {
-  let text: string;
-  try {
-    text = readFileSync(file, 'utf8');
-  } catch (e) {
-    throw new Error(`${file} cannot be read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
-  }
+  const text = readTextFile(file, jsonFileLimit, 'a run record');
   try {
     return JSON.parse(text);
   } catch (e) {
@@ -215,11 +211,15 @@ export function extrasForSolutionFile(file: string): Record<string, number> | un
   }
 }
 
-/** Read a solution file (float64 .npy) with messages naming the file. */
-export function readSolutionFile(file: string): { shape: number[]; data: Float64Array } {
+/**
+ * Read a solution file (float64 .npy) with messages naming the file. `values`: how many values
+ * the grid implies (nodes times fields); a file longer than such an array needs is refused
+ * before it is read.
+ */
+export function readSolutionFile(file: string, values?: number): { shape: number[]; data: Float64Array } {
   if (!existsSync(file)) throw new Error(`${file}: no such file`);
   if (statSync(file).isDirectory()) throw new Error(`${file} is a folder, not a .npy file`);
-  return readNpy(file);
+  return values === undefined ? readNpy(file) : readNpy(file, npyHeaderAllowance + 8 * values, `a solution of this grid (${values} values)`);
 }
 
 /** Extra unknowns by name as a vector in the problem's order; undefined when any is missing. */

@@ -1,9 +1,11 @@
 /**
  * Hostile input from the command line (spawned `branchline` processes, real files): control
- * characters in case values never reach the terminal raw.
+ * characters in case values never reach the terminal raw; odd files (devices, FIFOs, symlinks to
+ * them, oversized files) are refused with one line instead of hanging or eating memory; absurd
+ * values and odd keys are refused before anything is written.
  */
-import { spawnSync } from 'node:child_process';
-import { existsSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -18,6 +20,32 @@ beforeAll(() => ensureBuilt(), 60_000);
 function branchline(...args: string[]): { status: number | null; stdout: string; stderr: string } {
   const r = spawnSync(process.execPath, [bin, ...args], { encoding: 'utf8', cwd: tmp, timeout: 60_000 });
   return { status: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+/**
+ * Several commands in one spawned process (one start-up instead of one each; the machine has two
+ * cores): each runs `main` on the real process streams, as bin/branchline.js does.
+ */
+function branchlineMany(...commands: string[][]): { status: number; stdout: string; stderr: string }[] {
+  const script = `
+    const { main } = await import(${JSON.stringify(resolve('dist/src/cli/main.js'))});
+    for (const args of JSON.parse(process.env.COMMANDS)) {
+      const code = await main(['node', 'branchline', ...args]);
+      const mark = '\\n@@@ ' + code + '\\n';
+      process.stdout.write(mark);
+      process.stderr.write(mark);
+    }`;
+  const r = spawnSync(process.execPath, ['--input-type=module', '-e', script], { encoding: 'utf8', cwd: tmp, timeout: 60_000, env: { ...process.env, COMMANDS: JSON.stringify(commands) } });
+  const split = (text: string): { code: number; text: string }[] => {
+    const parts = text.split(/\n@@@ (\d+)\n/);
+    const out: { code: number; text: string }[] = [];
+    for (let i = 0; i + 1 < parts.length; i += 2) out.push({ text: parts[i], code: Number(parts[i + 1]) });
+    return out;
+  };
+  const out = split(r.stdout);
+  const err = split(r.stderr);
+  expect(err.length, `the process ended early (status ${r.status}, signal ${r.signal}): ${r.stderr}`).toBe(commands.length);
+  return err.map((e, i) => ({ status: e.code, stdout: out[i]?.text ?? '', stderr: e.text }));
 }
 
 const write = (name: string, text: string): string => {
@@ -35,8 +63,9 @@ describe('control characters from case values are shown as escapes, never sent r
   it('in a case error (value, parameter name, file name), in the JSON and YAML readers', () => {
     const yaml = write(`evil\u001b[2J.yaml`, `model: "${esc.replace(/\u001b/g, '\\e').replace(/\u0007/g, '\\a').replace(/\u009b/g, '\\x9b').replace(/\u202e/g, '\\u202e')}"\ngrid: {intervals: [16]}\ncontinuation: {parameter: lambda, bounds: [0, 4]}\n`);
     const json = write('evil.json', JSON.stringify({ model: 'bratu', grid: { intervals: [16] }, parameters: { [`l${esc}`]: 1 }, continuation: { parameter: 'lambda', bounds: [0, 4] } }));
-    for (const file of [yaml, json]) {
-      const r = branchline('run', file);
+    // the installed command itself once, then more commands in one process
+    const [fromJson, check] = branchlineMany(['run', json], ['check', yaml]);
+    for (const r of [branchline('run', yaml), fromJson]) {
       expect(r.status).toBe(2);
       expect(r.stderr).not.toMatch(raw);
       // shown as \x1b (or \u001b where the message quotes a key as JSON)
@@ -44,17 +73,16 @@ describe('control characters from case values are shown as escapes, never sent r
       expect(r.stderr.trim().split('\n')).toHaveLength(1);
     }
     // the file name itself is escaped too
-    expect(branchline('check', yaml).stderr).toMatch(/evil\\x1b\[2J\.yaml: model: /);
+    expect(check.stderr).toMatch(/evil\\x1b\[2J\.yaml: model: /);
   }, 60_000);
 
   it('in messages from a code model and from the option parser', () => {
-    const model = write('loud-model.mjs', `export default function () { throw new Error(${JSON.stringify(`no ${esc} problem`)}); }\n`);
+    write('loud-model.mjs', `export default function () { throw new Error(${JSON.stringify(`no ${esc} problem`)}); }\n`);
     const file = write('loud.yaml', `model: ./loud-model.mjs\ngrid: {intervals: [16]}\ncontinuation: {parameter: lambda, bounds: [0, 4]}\n`);
-    const r = branchline('run', file);
+    const [r, opt] = branchlineMany(['run', file], ['run', file, `--f\u001b[2Jorce`]);
     expect(r.status).toBe(2);
     expect(r.stderr).toMatch(/failed to build the problem: no \\x1b\]0;owned/);
     expect(r.stderr).not.toMatch(raw);
-    const opt = branchline('run', file, `--f\u001b[2Jorce`);
     expect(opt.status).toBe(2);
     expect(opt.stderr).toMatch(/--f\\x1b\[2Jorce/);
     expect(opt.stderr).not.toMatch(raw);
@@ -81,13 +109,94 @@ describe('absurd values and odd keys are refused before anything is written', ()
       ['proto.json', JSON.stringify(base).replace('"parameters":{', '"parameters":{"__proto__":{"lambda":3},'), /parameters: the key '__proto__' is not accepted/],
       ['twice.json', JSON.stringify(base).replace('"model":"bratu"', '"model":"bratu","model":"allen-cahn"'), /the key 'model' is given twice \(line 1\)/],
     ];
-    for (const [name, text, pattern] of files) {
-      const out = join(tmp, `out-${name}`);
-      const r = branchline('run', write(name, text), '--out', out);
+    const results = branchlineMany(...files.map(([name, text]) => ['run', write(name, text), '--out', join(tmp, `out-${name}`)]));
+    files.forEach(([name, , pattern], i) => {
+      const r = results[i];
       expect(r.status, name).toBe(2);
       expect(r.stderr).toMatch(pattern);
       expect(r.stderr.trim().split('\n')).toHaveLength(1);
-      expect(existsSync(out)).toBe(false);
+      expect(existsSync(join(tmp, `out-${name}`))).toBe(false);
+    });
+  }, 60_000);
+});
+
+describe('files that are not regular files, or too large, are refused with one line (never a hang)', () => {
+  const slab = 'model: bratu\ngrid: {intervals: [16]}\ncontinuation: {parameter: lambda, bounds: [0, 4], max-points: 30}\n';
+  const fifo = (name: string): string => {
+    const f = join(tmp, name);
+    execFileSync('mkfifo', [f]); // nobody writes to it: a read would block for ever
+    return f;
+  };
+  const link = (target: string, name: string): string => {
+    const f = join(tmp, name);
+    symlinkSync(target, f);
+    return f;
+  };
+  /** Run the commands in one spawned process (its timeout ends a hang as a failure); each is refused with one line. */
+  const refused = (...checks: [string[], RegExp][]): void => {
+    const results = branchlineMany(...checks.map(([args]) => args));
+    checks.forEach(([args, pattern], i) => {
+      const r = results[i];
+      expect(r.status, `${args.join(' ')}: ${r.stderr}`).toBe(2);
+      expect(r.stderr).toMatch(pattern);
+      expect(r.stderr.trim().split('\n')).toHaveLength(1);
+    });
+  };
+
+  it('a case file that is a FIFO, /dev/zero through a symlink, /dev/urandom, or larger than 1 MiB', () => {
+    refused(
+      [['run', fifo('pipe.yaml')], /pipe\.yaml: a FIFO \(named pipe\), not a regular file/],
+      [['check', link('/dev/zero', 'zero.yaml')], /zero\.yaml: a character device, not a regular file/],
+      [['run', '/dev/urandom'], /\/dev\/urandom: a character device, not a regular file/],
+      [['run', write('long.yaml', slab + '#'.repeat(1100 * 1024) + '\n')], /long\.yaml: larger than the 1 MiB accepted for a case file/],
+    );
+  }, 60_000);
+
+  it('start.solution and a code model that are FIFOs or devices; a .npy larger than its grid implies', () => {
+    const start = (name: string, solution: string): string => write(name, `${slab}start: {solution: ${solution}}\n`);
+    fifo('pipe.npy');
+    link('/dev/zero', 'zero.npy');
+    writeFileSync(join(tmp, 'big.npy'), Buffer.alloc(200_000));
+    fifo('pipe-model.mjs');
+    refused(
+      [['run', start('s-pipe.yaml', 'pipe.npy')], /start\.solution: .*pipe\.npy: a FIFO/],
+      [['run', start('s-zero.yaml', 'zero.npy')], /start\.solution: .*zero\.npy: a character device/],
+      [['run', start('s-big.yaml', 'big.npy')], /start\.solution: .*big\.npy: larger than the 64\.1 KiB accepted for a solution of this grid \(17 values\)/],
+      [['run', write('s-model.yaml', slab.replace('bratu', './pipe-model.mjs'))], /model: code model '\.\/pipe-model\.mjs' cannot be loaded: .*a FIFO/],
+    );
+  }, 60_000);
+
+  it("a run's run.json, points.json and checkpoints that are FIFOs or devices: resume, plot and start: {run} refuse them", () => {
+    const good = join(tmp, 'good-run');
+    expect(branchlineMany(['run', write('good.yaml', slab), '--out', good, '--quiet'])[0].status).toBe(0);
+    // a stopped run whose checkpoints were replaced by a FIFO and a link to /dev/zero
+    const stopped = join(tmp, 'stopped-run');
+    cpSync(good, stopped, { recursive: true });
+    const run = JSON.parse(readFileSync(join(stopped, 'run.json'), 'utf8'));
+    writeFileSync(join(stopped, 'run.json'), JSON.stringify({ ...run, status: 'stopped' }));
+    execFileSync('mkfifo', [join(stopped, 'checkpoint.bin')]);
+    symlinkSync('/dev/zero', join(stopped, 'checkpoint.previous.bin'));
+    const checks: [string[], RegExp][] = [[['resume', stopped], /cannot resume: no usable checkpoint: checkpoint\.bin: a FIFO .*; checkpoint\.previous\.bin: a character device/]];
+    // run.json itself odd
+    for (const [name, make] of [
+      ['fifo-run', (f: string) => execFileSync('mkfifo', [f])],
+      ['urandom-run', (f: string) => symlinkSync('/dev/urandom', f)],
+    ] as const) {
+      const dir = join(tmp, name);
+      mkdirSync(dir);
+      make(join(dir, 'run.json'));
+      checks.push(
+        [['plot', dir], /run\.json: a (FIFO|character device)/],
+        [['resume', dir], /holds no branchline run/],
+        [['run', write(`from-${name}.yaml`, `${slab}start: {run: ${name}, point: end}\n`)], /start\.run: .*run\.json: a (FIFO|character device)/],
+      );
     }
+    // points.json odd
+    const pts = join(tmp, 'points-run');
+    cpSync(good, pts, { recursive: true });
+    rmSync(join(pts, 'points.json'));
+    symlinkSync('/dev/zero', join(pts, 'points.json'));
+    checks.push([['run', write('from-points.yaml', `${slab}start: {run: points-run, point: end}\n`)], /start\.run: .*points\.json: a character device/]);
+    refused(...checks);
   }, 60_000);
 });
