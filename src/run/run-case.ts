@@ -232,6 +232,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       unknowns: problem.size,
       'grid-unknowns': problem.gridUnknowns,
       'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
+      monitors: Object.fromEntries(problem.monitors.map((m) => [m.name, m.description])),
       ...(description.layout ? { layout: description.layout } : {}),
     },
     'start-parameters': { ...params },
