@@ -200,3 +200,31 @@ describe('files that are not regular files, or too large, are refused with one l
     refused(...checks);
   }, 60_000);
 });
+
+describe('deeply nested and very large expressions', () => {
+  const rd = (reaction: string): string =>
+    `model: reaction-diffusion\nfields: [u]\nparameters: {lambda: 0.5}\nreaction: {u: "${reaction}"}\ndiffusion: {u: 1}\nboundary: dirichlet\ngrid: {intervals: [8]}\ncontinuation: {parameter: lambda, bounds: [0, 1], max-points: 5}\n`;
+  it('a sum of 300 terms works; 200 factors, 20,000 brackets and 100 nested calls are refused in one short line naming the field and the limit', () => {
+    const sum = Array.from({ length: 300 }, (_, k) => `${(k + 1) / 1000} * lambda * exp(u / ${k + 1})`).join(' + ');
+    const [check, product, brackets, nested] = branchlineMany(
+      ['check', write('sum300.yaml', rd(sum))],
+      ['run', write('product200.yaml', rd(Array.from({ length: 200 }, (_, k) => `(u + ${k + 1})`).join(' * '))), '--out', join(tmp, 'product200')],
+      ['run', write('brackets.yaml', rd('('.repeat(20_000) + 'u' + ')'.repeat(20_000))), '--out', join(tmp, 'brackets')],
+      ['check', write('nested.yaml', rd('sin('.repeat(100) + 'u' + ')'.repeat(100)))],
+    );
+    expect(check.status, check.stderr).toBe(0);
+    expect(check.stdout).toMatch(/agree/i);
+    for (const [r, pattern] of [
+      [product, /product200\.yaml: reaction\.u: reaction for field 'u': the (second )?derivative of .* is too large \(limit: 10,000 nodes per derivative\)$/],
+      [brackets, /brackets\.yaml: reaction\.u: reaction for field 'u': brackets nest more than 64 deep in "\({57}\.\.\." \(limit: 64 levels of nesting\)$/],
+      [nested, /nested\.yaml: reaction\.u: reaction for field 'u': brackets nest more than 64 deep .*\(limit: 64 levels of nesting\)$/],
+    ] as const) {
+      expect(r.status, r.stderr).toBe(2);
+      const line = r.stderr.trim();
+      expect(line).toMatch(pattern);
+      expect(line).not.toMatch(/\n|call stack/);
+      expect(line.length).toBeLessThan(300);
+    }
+    expect(existsSync(join(tmp, 'product200'))).toBe(false);
+  }, 120_000);
+});
