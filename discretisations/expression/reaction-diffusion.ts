@@ -64,7 +64,7 @@ function isPlainObject(v: unknown): v is Record<string, unknown> {
 }
 
 function describeValue(v: unknown): string {
-  if (typeof v === 'string') return `'${v}'`;
+  if (typeof v === 'string') return v.length > 60 ? `'${v.slice(0, 57)}...'` : `'${v}'`;
   if (Array.isArray(v)) return 'a list';
   if (v === null) return 'null';
   if (typeof v === 'object') return 'an object';
@@ -160,7 +160,7 @@ function readCondition(raw: unknown, where: string): BoundaryCondition {
     if (raw === 'dirichlet') return { kind: 'dirichlet', value: 0 };
     if (raw === 'periodic') return { kind: 'periodic' };
     if (raw === 'robin') fail(`${where}: a robin condition needs a coefficient: {kind: robin, coefficient, value}`);
-    fail(`${where}: unknown boundary kind '${raw}' (accepted: ${BOUNDARY_KINDS.join(', ')})`);
+    fail(`${where}: unknown boundary kind ${describeValue(raw)} (accepted: ${BOUNDARY_KINDS.join(', ')})`);
   }
   if (!isPlainObject(raw)) fail(`${where}: expected a kind word or {kind, ...}, got ${describeValue(raw)}`);
   const kind = raw.kind;

@@ -8,8 +8,15 @@ export class InputError extends Error {
   override name = 'InputError';
   constructor(message: string) {
     // one line, always: messages from deeper layers (parsers, user code) may hold newlines
-    super(printable(oneLine(message)));
+    super(shortened(printable(oneLine(message))));
   }
+}
+
+/** Longest message shown whole; a longer one (a huge value quoted somewhere) keeps its start and end. */
+const longestMessage = 800;
+
+function shortened(text: string): string {
+  return text.length <= longestMessage ? text : `${text.slice(0, 500)} [... ${text.length - 750} characters ...] ${text.slice(-250)}`;
 }
 
 /**

@@ -8,6 +8,7 @@ import { execFileSync, spawnSync } from 'node:child_process';
 import { cpSync, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
+import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { progressView } from '../../src/run/progress.js';
 import { ensureBuilt } from './built.js';
@@ -226,5 +227,72 @@ describe('deeply nested and very large expressions', () => {
       expect(line.length).toBeLessThan(300);
     }
     expect(existsSync(join(tmp, 'product200'))).toBe(false);
+  }, 120_000);
+});
+
+describe('fuzzed case files mixing odd files, nested expressions, prototype keys and control characters', () => {
+  it('every one is refused with exit 2 and one clean line, in one spawned process (a hang would end it as a failure), no run folder', () => {
+    const dir = join(tmp, 'fuzz-odd');
+    mkdirSync(dir);
+    const inDir = (name: string): string => join(dir, name);
+    execFileSync('mkfifo', [inDir('pipe.npy')]);
+    execFileSync('mkfifo', [inDir('pipe.mjs')]);
+    execFileSync('mkfifo', [inDir('pipe.yaml')]);
+    symlinkSync('/dev/zero', inDir('zero.npy'));
+    symlinkSync('/dev/urandom', inDir('random.yaml'));
+    writeFileSync(inDir('big.npy'), Buffer.alloc(300_000));
+    mkdirSync(inDir('odd-run'));
+    symlinkSync('/dev/zero', inDir('odd-run/run.json'));
+    // one odd file per case (so none can run), mixed with hostile values elsewhere
+    const odd = fc.constantFrom<[string[], unknown]>(
+      [['start'], { solution: 'pipe.npy' }],
+      [['start'], { solution: 'zero.npy' }],
+      [['start'], { solution: 'big.npy' }],
+      [['start'], { run: 'odd-run', point: 'end' }],
+      [['model'], './pipe.mjs'],
+    );
+    const hostile = fc.constantFrom<[string[], unknown]>(
+      [['reaction', 'u'], `${'sin('.repeat(90)}u${')'.repeat(90)}`],
+      [['reaction', 'u'], Array.from({ length: 300 }, (_, k) => `${k + 1} * u`).join(' + ')],
+      [['reaction', 'u'], `${'('.repeat(20_000)}u${')'.repeat(20_000)}`],
+      [['parameters', '__proto__'], { mu: 3 }],
+      [['__proto__'], { model: 'bratu' }],
+      [['name'], 'n\u001b]0;x\u0007'],
+      [['grid', 'length'], 1e-320],
+      [['continuation', 'bounds', 1], 1e308],
+      [['boundary'], 'dirichlet'],
+    );
+    const docs = fc.sample(fc.tuple(odd, fc.array(hostile, { maxLength: 3 }), fc.boolean()), 30);
+    const commands: string[][] = [['run', inDir('pipe.yaml')], ['run', inDir('random.yaml')]];
+    docs.forEach(([first, rest, asJson], i) => {
+      const doc: Record<string, any> = {
+        model: 'reaction-diffusion',
+        fields: ['u'],
+        parameters: { mu: 0.5 },
+        reaction: { u: 'mu*exp(u)' },
+        diffusion: { u: 1 },
+        boundary: 'dirichlet',
+        grid: { intervals: [8] },
+        continuation: { parameter: 'mu', bounds: [0, 1], 'max-points': 5 },
+      };
+      for (const [path, value] of [...rest, first]) {
+        let o = doc;
+        for (const k of path.slice(0, -1)) o = o[k];
+        Object.defineProperty(o, path[path.length - 1], { value, enumerable: true, configurable: true, writable: true });
+      }
+      const file = inDir(`case-${i}.${asJson ? 'json' : 'yaml'}`);
+      writeFileSync(file, JSON.stringify(doc)); // JSON text is YAML too
+      commands.push(['run', file, '--out', inDir(`out-${i}`)]);
+    });
+    const results = branchlineMany(...commands);
+    results.forEach((r, i) => {
+      const what = `${commands[i].join(' ')}: ${r.stderr.slice(0, 300)}`;
+      expect(r.status, what).toBe(2);
+      expect(r.stderr.trim().split('\n'), what).toHaveLength(1);
+      expect(r.stderr).not.toMatch(raw);
+      expect(r.stderr).not.toMatch(/call stack|\n\s+at /);
+      expect(r.stderr.length).toBeLessThan(900);
+    });
+    docs.forEach((_, i) => expect(existsSync(inDir(`out-${i}`))).toBe(false));
   }, 120_000);
 });

@@ -355,3 +355,110 @@ describe('fuzzed cases never escape as anything but a one-line CaseError', () =>
     );
   });
 });
+
+describe('fuzzed hostile cases: prototype keys, control characters, absurd numbers, deeply nested and huge expressions', () => {
+  /** Bytes a terminal acts on (see printable in src/run/errors.ts). */
+  const raw = /[\u0000-\u0008\u000b-\u001f\u007f-\u009f\u202a-\u202e\u2066-\u2069]/;
+  const refusedWell = (e: unknown, label: string): boolean => {
+    if (!(e instanceof CaseError)) throw e;
+    expect(e.message).not.toMatch(/\n|call stack/i);
+    expect(e.message).not.toMatch(raw);
+    expect(e.message.startsWith(`${label}: `)).toBe(true);
+    expect(e.message.length).toBeLessThan(850); // a huge quoted value is cut in the middle (InputError)
+    return true;
+  };
+
+  /** Expressions: random nesting depth (0 to 150), long sums and products, control characters. */
+  const expression: fc.Arbitrary<string> = fc.oneof(
+    fc.tuple(fc.constantFrom('sin', 'exp', 'tanh', '', '-', 'sqrt'), fc.integer({ min: 0, max: 150 })).map(([f, n]) =>
+      f === '-' ? '-'.repeat(n) + 'u' : `${`${f}(`.repeat(n)}u${')'.repeat(n)}`,
+    ),
+    fc.tuple(fc.constantFrom(' + ', ' - ', ' * ', ' / ', '^'), fc.integer({ min: 1, max: 400 }), fc.constantFrom('u', 'mu', '(u + 1)', 'sin(u)', '2')).map(([op, n, t]) => Array.from({ length: n }, () => t).join(op)),
+    fc.string({ maxLength: 30 }).map((s) => `u + ${s}`),
+    fc.constantFrom('u\u001b[2J', '\u0007', 'mu*exp(u)\u009b', `u + ${'0'.repeat(120_000)}`, `${'('.repeat(20_000)}u${')'.repeat(20_000)}`),
+  );
+  const hostile = fc.oneof(
+    fc.constantFrom(1e-320, 1e308, -1e308, 5e-324, 1e-300),
+    fc.string({ maxLength: 12 }).map((s) => `${s}\u001b]0;t\u0007\u202e`),
+    fc.dictionary(fc.constantFrom('__proto__', 'lambda', 'model', 'x'), fc.oneof(fc.integer(), fc.constant({ lambda: 3 })), { minKeys: 1, maxKeys: 3 }).map((d) =>
+      JSON.parse(JSON.stringify(d).replace('"x"', '"__proto__"')),
+    ),
+    expression,
+  );
+  const rdBase = (): Record<string, any> => ({
+    model: 'reaction-diffusion',
+    fields: ['u'],
+    parameters: { mu: 0.5 },
+    reaction: { u: 'mu*exp(u)' },
+    diffusion: { u: 1 },
+    initial: { u: '0' },
+    boundary: 'dirichlet',
+    grid: { intervals: [8] },
+    continuation: { parameter: 'mu', bounds: [0, 1] },
+  });
+  const rdPaths: (string | number)[][] = [['reaction', 'u'], ['diffusion', 'u'], ['initial', 'u'], ['parameters', 'mu'], ['parameters'], ['grid', 'length'], ['continuation', 'bounds', 1], ['model'], ['boundary'], []];
+
+  it('hostile values at any key of an expression-defined case: built, or refused in one clean line', async () => {
+    await fc.assert(
+      fc.asyncProperty(fc.constantFrom(...rdPaths), hostile, async (path, value) => {
+        const doc = rdBase();
+        let target: any = doc;
+        for (const k of path.slice(0, -1)) target = target[k];
+        if (path.length === 0) Object.defineProperty(doc, '__proto__', { value, enumerable: true, configurable: true, writable: true });
+        else target[path[path.length - 1]] = value;
+        try {
+          await prepareCaseObject(doc, { label: 'fuzz.yaml', baseDir: tmp });
+          return true;
+        } catch (e) {
+          return refusedWell(e, 'fuzz.yaml');
+        }
+      }),
+      { numRuns: 120 },
+    );
+  }, 120_000);
+
+  it('__proto__ keys at any depth, written as YAML and as JSON text, and duplicate JSON keys: always refused', async () => {
+    const paths: (string | number)[][] = [[], ['grid'], ['parameters'], ['continuation'], ['continuation', 'step'], ['continuation', 'stop-when', 0], ['output']];
+    const base = (): Record<string, any> => ({
+      model: 'bratu',
+      grid: { intervals: [16] },
+      parameters: { lambda: 0.5 },
+      continuation: { parameter: 'lambda', bounds: [0, 4], step: { initial: 0.1 }, 'stop-when': [{ monitor: 'max', above: 5 }] },
+      output: { solutions: 'special' },
+    });
+    await fc.assert(
+      fc.asyncProperty(fc.constantFrom(...paths), fc.oneof(fc.integer(), fc.constant({ lambda: 3 }), fc.constant('bratu')), fc.boolean(), fc.boolean(), async (path, value, asJson, duplicate) => {
+        const doc = base();
+        let target: any = doc;
+        for (const k of path) target = target[k];
+        let text: string;
+        if (duplicate) {
+          // the same key twice in one map (JSON.parse would keep the last silently)
+          const key = Object.keys(target)[0];
+          const json = JSON.stringify(doc);
+          const inner = JSON.stringify(target);
+          text = json.replace(inner, `{${JSON.stringify(key)}: ${JSON.stringify(value)}, ${inner.slice(1)}`);
+          const file = caseFile(text, asJson ? '.json' : '.yaml');
+          try {
+            await prepareCase(file);
+          } catch (e) {
+            refusedWell(e, file);
+            return /is given twice|Map keys must be unique/.test((e as Error).message);
+          }
+          return false;
+        }
+        Object.defineProperty(target, '__proto__', { value, enumerable: true, configurable: true, writable: true });
+        text = JSON.stringify(doc); // JSON text is YAML too: the same document through both readers
+        const file = caseFile(text, asJson ? '.json' : '.yaml');
+        try {
+          await prepareCase(file);
+        } catch (e) {
+          refusedWell(e, file);
+          return /the key '__proto__' is not accepted/.test((e as Error).message);
+        }
+        return false;
+      }),
+      { numRuns: 80 },
+    );
+  });
+});
