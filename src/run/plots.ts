@@ -67,7 +67,7 @@ interface AxisInfo {
 }
 
 /** Columns of a branch CSV that are not monitors. */
-const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
+const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
 
 const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
 
