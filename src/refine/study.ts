@@ -285,7 +285,8 @@ function runInWorker(task: GridTask, studyDir: string, script: string, options: 
       if (code === 0 || (signal !== null && options.signal?.aborted)) finish(undefined);
       else finish(`the worker process ended with ${signal ?? `exit code ${code}`}${stderr.trim() ? `: ${stderr.trim().split('\n').pop()}` : ''}`);
     });
-    child.send({ doc: task.doc, label: task.label, baseDir: task.baseDir, outDir: join(studyDir, task.directory) });
+    const loadCode = task.prepared.case.modelKind === 'code' ? task.prepared.case.model : undefined;
+    child.send({ doc: task.doc, label: task.label, baseDir: task.baseDir, outDir: join(studyDir, task.directory), ...(loadCode ? { loadCode } : {}) });
   });
 }
 
@@ -333,7 +334,9 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
     const doc = structuredClone(base) as Record<string, unknown> & { grid: { intervals: number[]; length: number[] } };
     doc.grid = { intervals: intervals[i], length: prepared.case.grid.length.slice() };
     const label = `${prepared.label} (grid ${gridLabel(intervals[i])})`;
-    const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}) });
+    // the grids' cases come from the user's case file: its code model (only that one) may load
+    const loadCode = prepared.case.modelKind === 'code' ? prepared.case.model : undefined;
+    const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}), ...(loadCode ? { loadCode } : {}) });
     tasks.push({ grid: options.grids[i], intervals: intervals[i], directory: `grid-${gridLabel(intervals[i])}`, doc, label, baseDir: prepared.baseDir, prepared: p });
   }
   prepareFolder(studyDir, options.force);

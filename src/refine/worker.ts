@@ -11,6 +11,8 @@ interface Task {
   label: string;
   baseDir: string;
   outDir: string;
+  /** The one code model the parent allows this case to load (see PrepareObjectOptions.loadCode). */
+  loadCode?: string;
 }
 
 const controller = new AbortController();
@@ -32,7 +34,7 @@ process.once('message', (m: unknown) => {
     try {
       const { prepareCaseObject } = await import('../run/case.js');
       const { runCase } = await import('../run/run-case.js');
-      const prepared = await prepareCaseObject(task.doc, { label: task.label, baseDir: task.baseDir });
+      const prepared = await prepareCaseObject(task.doc, { label: task.label, baseDir: task.baseDir, ...(task.loadCode ? { loadCode: task.loadCode } : {}) });
       if (!controller.signal.aborted) {
         await runCase(prepared, {
           outDir: task.outDir,

@@ -21,6 +21,7 @@ import { fileURLToPath } from 'node:url';
 import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
 import { CheckpointError, Checkpointer, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
+import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
 import type { ProgressView } from './progress.js';
 import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
 import { runFormat } from './run-directory.js';
@@ -279,7 +280,7 @@ function processAlive(pid: number): boolean {
  * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
  * problem that matches the saved state. InputError (one line) otherwise.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+export async function prepareResume(dirGiven: string, options: { force?: boolean; code?: CodeModelChoice } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
@@ -300,10 +301,14 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   }
   const c = found.document;
   const caseFile = c.run.caseFile;
+  const baseDir = caseFile ? dirname(caseFile) : dir;
+  // a code model loads only when the user names it (src/run/resume-code.ts)
+  const loadCode = await resumeCodeModel(dirGiven, c.case as { model?: unknown }, run.case as { model?: unknown } | undefined, baseDir, options.code ?? {});
   const prepared = await prepareCaseObject(c.case, {
     label: `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`,
     ...(caseFile ? { file: caseFile } : {}),
-    baseDir: caseFile ? dirname(caseFile) : dir,
+    baseDir,
+    ...(loadCode ? { loadCode } : {}),
   });
   // the saved state must belong to this problem (a code model may have changed since)
   const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;

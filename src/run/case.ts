@@ -404,7 +404,7 @@ export async function prepareCase(file: string, options: { label?: string } = {}
   }
   const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
   const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
-  return prepareCaseObject(raw, { label, file: abs, baseDir: dirname(abs), defaultName });
+  return prepareCaseObject(raw, { label, file: abs, baseDir: dirname(abs), defaultName, loadCode: true });
 }
 
 export interface PrepareObjectOptions {
@@ -412,6 +412,21 @@ export interface PrepareObjectOptions {
   file?: string;
   baseDir: string;
   defaultName?: string;
+  /**
+   * Which code model the case may import (and so run): `true` for a case the user named on the
+   * command line (or one built from it in this call), a path for exactly that module, absent for
+   * none. A case read back from a run folder (a checkpoint, run.json) is data: folders travel
+   * between colleagues, and a forged one must not run code the user did not name.
+   */
+  loadCode?: true | string;
+}
+
+/** The absolute path of the code model a case's `model` value names (undefined for a built-in id). */
+export function codeModelPath(model: unknown, baseDir: string): string | undefined {
+  if (typeof model !== 'string') return undefined;
+  const id = model.trim();
+  if (Object.hasOwn(models, id) || !(/[\\/]/.test(id) || /\.(mjs|js|cjs)$/i.test(id))) return undefined;
+  return isAbsolute(id) ? id : resolve(baseDir, id);
 }
 
 /** Check a parsed case (e.g. the resolved case stored in a run directory) and build its problem. */
@@ -466,9 +481,12 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     optionSpecs = entry.options;
     dimensions = entry.dimensions;
     registryCaution = entry.caution;
-  } else if (/[\\/]/.test(modelId) || /\.(mjs|js|cjs)$/i.test(modelId)) {
+  } else if (codeModelPath(modelId, opts.baseDir) !== undefined) {
     kind = 'code';
-    modelRef = isAbsolute(modelId) ? modelId : resolve(opts.baseDir, modelId);
+    modelRef = codeModelPath(modelId, opts.baseDir)!;
+    if (opts.loadCode !== true && opts.loadCode !== modelRef) {
+      fail('model', `the code model ${modelRef} is not loaded: a case read back from a folder never runs code the user did not name (pass the case file that names the module)`);
+    }
     factory = await loadCodeModel(modelRef, modelId, label);
   } else {
     return fail('model', `${showValue(modelId)} is not a known model (accepted: ${known.join(', ')}, or a path to a code model such as ./my-model.mjs)`);

@@ -30,7 +30,7 @@ import {
 import { defaultPlotMonitor } from './case.js';
 import { InputError } from './errors.js';
 import type { SpecialRecord } from './run-directory.js';
-import { readPointsJson, readRunJson } from './start.js';
+import { readPointsJson, readRunJson, runFilePath } from './start.js';
 import { parseJsonNumber, readCsv, readNpy, writeFileAtomic } from './writers.js';
 
 export interface PlotOptions {
@@ -221,7 +221,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       const name = basename(s.solution).replace(/\.npy$/, '');
       const file = `plots/${name}.svg`;
       try {
-        const array = readNpy(join(dir, s.solution));
+        const array = readNpy(runFilePath(dir, s.solution, 'the solution file'));
         const plot = solutionSvg(array, s, { fields, axes, parameter, caution, caseName: title.name, monitor: chosen, descriptions });
         mkdirSync(plotsDir, { recursive: true });
         writeFileAtomic(join(dir, file), plot);

@@ -18,7 +18,7 @@
  */
 import { existsSync, statSync } from 'node:fs';
 import { jsonFileLimit, npyHeaderAllowance, readTextFile } from './read-file.js';
-import { basename, dirname, join, relative, resolve } from 'node:path';
+import { basename, dirname, isAbsolute, join, relative, resolve } from 'node:path';
 import type { SpecialRecord } from './run-directory.js';
 import { parseJsonNumber, readNpy } from './writers.js';
 
@@ -167,7 +167,7 @@ export function runPoint(files: RunFiles, spec: PointSpec, branch: number): RunP
   if (typeof record.solution !== 'string') {
     throw new Error(`${where} kept no solution file for ${pointWords(spec)} on branch ${branch} (it ran with output.solutions: none)`);
   }
-  const solution = resolve(files.dir, record.solution);
+  const solution = runFilePath(files.dir, record.solution, `the solution file of ${pointWords(spec)} on branch ${branch}`);
   if (!existsSync(solution)) throw new Error(`${where}: the solution file ${record.solution} of ${pointWords(spec)} on branch ${branch} is missing`);
   const extras = record['extra-unknowns'];
   return {
@@ -177,6 +177,18 @@ export function runPoint(files: RunFiles, spec: PointSpec, branch: number): RunP
     ...(extras && typeof extras === 'object' ? { extras: numberMap(extras) } : {}),
     words: `${pointWords(spec)} on branch ${branch} of ${where}`,
   };
+}
+
+/**
+ * The absolute path of a file a run's own records name (`solutions/...npy` in points.json):
+ * it must lie inside the run folder (a run folder is data; its records must not send us
+ * elsewhere on the disk). `what` names the file in the message.
+ */
+export function runFilePath(dir: string, name: string, what: string): string {
+  const path = resolve(dir, name);
+  const rel = relative(dir, path);
+  if (rel === '' || rel.startsWith('..') || isAbsolute(rel)) throw new Error(`run ${dir}: ${what} (${name}) lies outside the run folder`);
+  return path;
 }
 
 function numberMap(v: Record<string, unknown>): Record<string, number> {

@@ -12,6 +12,7 @@ import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { progressView } from '../../src/run/progress.js';
 import { ensureBuilt } from './built.js';
+import { type Spawned, spawnMany } from './spawn-many.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-hostile-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -23,31 +24,7 @@ function branchline(...args: string[]): { status: number | null; stdout: string;
   return { status: r.status, stdout: r.stdout, stderr: r.stderr };
 }
 
-/**
- * Several commands in one spawned process (one start-up instead of one each; the machine has two
- * cores): each runs `main` on the real process streams, as bin/branchline.js does.
- */
-function branchlineMany(...commands: string[][]): { status: number; stdout: string; stderr: string }[] {
-  const script = `
-    const { main } = await import(${JSON.stringify(resolve('dist/src/cli/main.js'))});
-    for (const args of JSON.parse(process.env.COMMANDS)) {
-      const code = await main(['node', 'branchline', ...args]);
-      const mark = '\\n@@@ ' + code + '\\n';
-      process.stdout.write(mark);
-      process.stderr.write(mark);
-    }`;
-  const r = spawnSync(process.execPath, ['--input-type=module', '-e', script], { encoding: 'utf8', cwd: tmp, timeout: 60_000, env: { ...process.env, COMMANDS: JSON.stringify(commands) } });
-  const split = (text: string): { code: number; text: string }[] => {
-    const parts = text.split(/\n@@@ (\d+)\n/);
-    const out: { code: number; text: string }[] = [];
-    for (let i = 0; i + 1 < parts.length; i += 2) out.push({ text: parts[i], code: Number(parts[i + 1]) });
-    return out;
-  };
-  const out = split(r.stdout);
-  const err = split(r.stderr);
-  expect(err.length, `the process ended early (status ${r.status}, signal ${r.signal}): ${r.stderr}`).toBe(commands.length);
-  return err.map((e, i) => ({ status: e.code, stdout: out[i]?.text ?? '', stderr: e.text }));
-}
+const branchlineMany = (...commands: string[][]): Spawned[] => spawnMany(tmp, commands);
 
 const write = (name: string, text: string): string => {
   const f = join(tmp, name);

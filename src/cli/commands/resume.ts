@@ -15,6 +15,8 @@ export function registerResume(program: Command, { io, setExit }: CommandContext
     .description('continue a stopped or killed run from its last checkpoint, in its own folder')
     .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin)')
     .option('--force', 'resume even though run.json names a live process as the run\'s writer (when that process is not branchline)')
+    .option('--case <file>', 'the case file the run was made from: the code model it names is loaded (a run folder alone never loads code)')
+    .option('--load-code-model', "load the code model the run's checkpoint names (its path is printed first)")
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
     .addHelpText(
@@ -22,13 +24,19 @@ export function registerResume(program: Command, { io, setExit }: CommandContext
       `
 The branch files are cut back to the last checkpoint (checkpoint.bin, or checkpoint.previous.bin
 when the newest one is damaged) and the run goes on from there; it ends with the same files as a
-run that was never interrupted. A checkpoint that is incomplete or damaged is never read.
+run that was never interrupted. A checkpoint that is incomplete or damaged is never read. A run folder is data: a run of a code
+model resumes only with --case FILE (the case file naming the module) or --load-code-model.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped.
 Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder holds no run,
 a finished run, or no usable checkpoint.`,
     )
-    .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
-      const { prepared, outDir, plan } = await prepareResume(dirGiven, { force: opts.force === true });
+    .action(async (dirGiven: string, opts: { force?: boolean; case?: string; loadCodeModel?: boolean; quiet?: boolean; json?: boolean }) => {
+      const code = {
+        ...(opts.case !== undefined ? { caseFile: opts.case } : {}),
+        loadCodeModel: opts.loadCodeModel === true,
+        notice: (text: string) => io.err(`branchline: ${text}\n`),
+      };
+      const { prepared, outDir, plan } = await prepareResume(dirGiven, { force: opts.force === true, code });
       const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
       for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
       const c = plan.checkpoint;

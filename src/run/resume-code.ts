@@ -1,0 +1,60 @@
+/**
+ * Which code model a resumed run may load. A run folder is data (it travels between colleagues,
+ * and its checkpoint's checksum detects damage, not intent): its stored case is never allowed to
+ * import a module by itself. A run of a code model resumes only when
+ *
+ *  - the user passes the case file that names the module (`resume DIR --case FILE`): the module
+ *    is the one that file names, and the run must have been made with it; or
+ *  - the user asks for the module the run names (`resume DIR --load-code-model`), which is shown
+ *    (its path) before it is loaded.
+ *
+ * The checkpoint's case and run.json's case must name the same model (a checkpoint replaced by
+ * hand shows here). `start: {run: DIR}` and `plot DIR` never build a run's problem, so they never
+ * load code at all.
+ */
+import { codeModelPath, prepareCase, showValue } from './case.js';
+import { InputError } from './errors.js';
+
+export interface CodeModelChoice {
+  /** The case file the user passed (`--case`). */
+  caseFile?: string;
+  /** `--load-code-model`: load the module the run names, after `notice` has shown its path. */
+  loadCodeModel?: boolean;
+  notice?: (text: string) => void;
+}
+
+/**
+ * The code model the stored case may load (PrepareObjectOptions.loadCode): undefined for a
+ * built-in model; InputError (one line) when the run's module may not be loaded.
+ */
+export async function resumeCodeModel(
+  dirGiven: string,
+  stored: { model?: unknown },
+  runJsonCase: { model?: unknown } | undefined,
+  baseDir: string,
+  choice: CodeModelChoice,
+): Promise<string | undefined> {
+  const model = typeof stored.model === 'string' ? stored.model.trim() : stored.model;
+  const inRun = runJsonCase?.model;
+  if (typeof inRun === 'string' && typeof model === 'string' && inRun.trim() !== model) {
+    throw new InputError(`${dirGiven}: cannot resume: the checkpoint names the model ${showValue(model)} but run.json names ${showValue(inRun)} (was one of them replaced?)`);
+  }
+  const recorded = codeModelPath(model, baseDir);
+  if (choice.caseFile !== undefined) {
+    // the user named this file: its code model may load
+    const named = await prepareCase(choice.caseFile);
+    const want = recorded ?? model;
+    if (named.case.model !== want) {
+      throw new InputError(`${dirGiven}: cannot resume: the run was made with the model ${showValue(want)}, but ${choice.caseFile} names ${showValue(named.case.model)}`);
+    }
+    return recorded;
+  }
+  if (recorded === undefined) return undefined;
+  if (choice.loadCodeModel) {
+    choice.notice?.(`loading the code model ${recorded}, as the run's checkpoint names it (--load-code-model)`);
+    return recorded;
+  }
+  throw new InputError(
+    `${dirGiven}: cannot resume: the run uses the code model ${recorded}, and a run folder never loads code by itself; pass the case file that names it (--case FILE), or --load-code-model to load that module`,
+  );
+}
