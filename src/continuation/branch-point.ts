@@ -20,6 +20,7 @@ import { axpy, infNorm, scaleInPlace } from '../linalg/vector.js';
 import { type ContinuationSystem, allFinite } from './system.js';
 import { correct, correctWork } from './newton.js';
 import type { NewtonSettings } from './types.js';
+import { rethrowInterrupt } from '../linalg/lu.js';
 
 export interface TrialPoint {
   s: number;
@@ -60,7 +61,8 @@ function trial(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: n
   sys.setTangentRow(ta);
   try {
     sys.factor(true);
-  } catch {
+  } catch (e) {
+    rethrowInterrupt(e);
     return { s, x, sign: 0, logAbs: -Infinity };
   }
   const d = sys.determinant();
@@ -186,7 +188,8 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
   sys.setTangentRow(tau1);
   try {
     sys.factor(true);
-  } catch {
+  } catch (e) {
+    rethrowInterrupt(e);
     // exactly singular: nudge along the old branch and try again
     const nudged = xStar.slice();
     for (let i = 0; i <= n; i++) nudged[i] += 1e-9 * tau1[i];
@@ -194,7 +197,8 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
     sys.setTangentRow(tau1);
     try {
       sys.factor(true);
-    } catch {
+    } catch (e) {
+      rethrowInterrupt(e);
       return { error: 'the bordered matrix is exactly singular at the branch point' };
     }
   }

@@ -28,6 +28,7 @@ import type {
   StopReason,
 } from './types.js';
 import { stopReasonText } from './types.js';
+import { rethrowInterrupt } from '../linalg/lu.js';
 
 /** A branch waiting to be followed (queued at a branch point). */
 export interface PendingBranch {
@@ -107,6 +108,12 @@ export interface ContinuationOptions {
   start?: Float64Array;
   /** Resume from a snapshot. */
   state?: EngineState;
+  /**
+   * Checked before every factorisation (the continuation's and the eigen solver's): throws
+   * WorkInterrupted to abandon the step in progress (a stop request during long numerical
+   * work). The engine is then unusable: resume from a snapshot taken between steps.
+   */
+  interrupt?: () => void;
 }
 
 function cloneState(s: EngineState): EngineState {
@@ -131,12 +138,13 @@ export class Continuation {
     readonly settings: ContinuationSettings,
     private readonly options: ContinuationOptions = {},
   ) {
-    this.sys = new ContinuationSystem(problem, params, settings.parameter);
+    const lu = options.interrupt ? { beforeFactor: options.interrupt } : {};
+    this.sys = new ContinuationSystem(problem, params, settings.parameter, lu);
     this.n = problem.size;
     this.work = correctWork(this.n);
     [this.lo, this.hi] = settings.bounds;
     const k = settings.stability?.eigenvalues ?? 0;
-    this.stab = k > 0 ? new StabilityAnalyser(this.sys, k) : undefined;
+    this.stab = k > 0 ? new StabilityAnalyser(this.sys, k, lu) : undefined;
     this.state = options.state
       ? cloneState(options.state)
       : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
@@ -281,6 +289,7 @@ export class Continuation {
     try {
       this.sys.factor(true);
     } catch (e) {
+      rethrowInterrupt(e);
       throw new ContinuationError(
         `the Jacobian is singular at the start point (${this.settings.parameter} = ${lambda0}): start away from folds and branch points (${(e as Error).message})`,
       );
@@ -434,6 +443,7 @@ export class Continuation {
           const cos = this.sys.dot(tangent, b.tangent);
           if (cos < cosMax && ds > st.step.min) rejection = `the tangent turned by ${((Math.acos(Math.min(1, cos)) * 180) / Math.PI).toFixed(1)}°`;
         } catch (e) {
+          rethrowInterrupt(e);
           rejection = (e as Error).message;
         }
       }

@@ -7,6 +7,7 @@
  */
 import { performance } from 'node:perf_hooks';
 import { EigenTracker, type EigenWarmStart, type RightmostResult } from '../linalg/eigen.js';
+import type { LUOptions } from '../linalg/lu.js';
 import { arcPoint } from './branch-point.js';
 import type { ContinuationSystem } from './system.js';
 import type { NewtonSettings, PointStability } from './types.js';
@@ -26,10 +27,12 @@ export class StabilityAnalyser {
   constructor(
     private readonly sys: ContinuationSystem,
     readonly count: number,
+    /** Options of the eigen solver's sparse LU (e.g. the engine's interrupt check). */
+    private readonly lu: LUOptions = {},
   ) {
     const problem = sys.problem;
     const pattern = problem.pattern();
-    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal });
+    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal, lu });
     this.values = new Float64Array(pattern.colPtr[pattern.cols]);
   }
 
@@ -53,7 +56,7 @@ export class StabilityAnalyser {
     let tracker = this.tracker;
     if (precise) {
       const problem = this.sys.problem;
-      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE });
+      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE, lu: this.lu });
       tracker = this.precise;
     }
     const r = tracker.compute(this.values, { warmStart: warm });

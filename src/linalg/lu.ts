@@ -50,6 +50,25 @@ export interface LUOptions {
    * and allows large pivot growth on ours).
    */
   pivotTolerance?: number;
+  /**
+   * Called before every numeric factorisation (factor, refactor, update): the place where a long
+   * computation can be abandoned between factorisations — it throws (WorkInterrupted) to stop.
+   * A factorisation itself runs to its end (it is one call into the solver).
+   */
+  beforeFactor?: () => void;
+}
+
+/**
+ * Thrown by a `beforeFactor` hook to abandon the work in progress (a stop request). Code that
+ * catches solver errors to try something else must let this one through (`rethrowInterrupt`).
+ */
+export class WorkInterrupted extends Error {
+  override name = 'WorkInterrupted';
+}
+
+/** Rethrow `e` when it is a WorkInterrupted (for catch blocks that recover from solver errors). */
+export function rethrowInterrupt(e: unknown): void {
+  if (e instanceof WorkInterrupted) throw e;
 }
 
 /** Policy thresholds for `update` (refactor while healthy, else factor afresh). */
@@ -128,8 +147,10 @@ class LUBase {
   private freshGrowth = 0;
   private freshRcond = 0;
   private counts = { factor: 0, refactor: 0, solve: 0 };
+  private readonly beforeFactor: (() => void) | undefined;
 
   protected constructor(pattern: CscPattern, complex: boolean, options: LUOptions) {
+    this.beforeFactor = options.beforeFactor;
     if (pattern.rows !== pattern.cols) {
       throw new SparseLUError('invalid', `the matrix must be square, got ${pattern.rows}x${pattern.cols}`);
     }
@@ -182,6 +203,7 @@ class LUBase {
   /** Fresh factorisation with new pivots. Throws SparseLUError when singular or non-finite. */
   factor(values: Float64Array): void {
     this.checkAlive();
+    this.beforeFactor?.();
     this.writeValues(values);
     const status = klu._bl_factor(this.handle);
     this.counts.factor++;
@@ -200,6 +222,7 @@ class LUBase {
       this.factor(values);
       return;
     }
+    this.beforeFactor?.();
     this.writeValues(values);
     const status = klu._bl_refactor(this.handle);
     this.counts.refactor++;
@@ -217,6 +240,7 @@ class LUBase {
       this.factor(values);
       return 'factor';
     }
+    this.beforeFactor?.();
     this.writeValues(values);
     const status = klu._bl_refactor(this.handle);
     this.counts.refactor++;

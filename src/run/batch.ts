@@ -19,11 +19,12 @@ import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
 import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
-import { CheckpointError, Checkpointer, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
+import { CheckpointError, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
 import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
 import type { ProgressView } from './progress.js';
-import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
+import { type ProgressInfo, type RunResult, outputDirectory } from './run-case.js';
+import { runCaseInThread } from './run-thread.js';
 import { runFormat } from './run-directory.js';
 import { writeJsonAtomic } from './writers.js';
 import { jsonFileLimit, readTextFile } from './read-file.js';
@@ -219,19 +220,22 @@ export interface SessionOptions {
   resume?: ResumePlan;
 }
 
-/** Run (or resume) one case here, with checkpoints and progress. */
+/**
+ * Run (or resume) one case, with checkpoints and progress: the numerics in a worker thread
+ * (src/run/run-thread.ts), so that this thread answers signals at once however long a
+ * factorisation takes.
+ */
 export async function runSession(prepared: PreparedCase, o: SessionOptions): Promise<RunResult> {
   const c = o.resume?.checkpoint;
-  const checkpointer = new Checkpointer(prepared.case.checkpoint, c ? { sequence: c.sequence, points: c.ledger.points } : {});
   o.view.start(o.name, prepared.settings.parameter, prepared.settings.maxPoints);
   try {
-    return await runCase(prepared, {
+    return await runCaseInThread(prepared, {
       outDir: o.outDir,
       ...(o.force ? { force: true } : {}),
       ...(o.signal ? { signal: o.signal } : {}),
       log: (level, message) => o.view.log(o.name, level, message),
       progress: (p: ProgressInfo) => o.view.update(o.name, p),
-      checkpoint: checkpointer.hook,
+      checkpoint: { policy: prepared.case.checkpoint, ...(c ? { sequence: c.sequence, points: c.ledger.points } : {}) },
       ...(c
         ? {
             resume: {

@@ -29,6 +29,7 @@
 import { readdirSync, rmSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
+import { WorkInterrupted } from '../linalg/lu.js';
 import type { ContinuationSettings, EngineEvent } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
@@ -61,7 +62,8 @@ export type EngineFactory = (
   problem: Problem,
   params: Params,
   settings: ContinuationSettings,
-  options: { start?: Float64Array; state?: unknown },
+  /** `interrupt`: called before every factorisation; throws WorkInterrupted to abandon the step (see Continuation). */
+  options: { start?: Float64Array; state?: unknown; interrupt?: () => void },
 ) => EngineLike;
 
 export const defaultEngine: EngineFactory = (problem, params, settings, options) =>
@@ -72,8 +74,13 @@ export interface RunCaseOptions {
   outDir?: string;
   /** Replace an earlier run in a non-empty output folder (see RunDirectory.create). */
   force?: boolean;
-  /** Stop request (SIGINT/SIGTERM): the current event is finished, files written, status `stopped`. */
-  signal?: AbortSignal;
+  /**
+   * Stop request (SIGINT/SIGTERM): the run stops between steps, files written, status `stopped`.
+   * When the request can arrive while a step computes (the run in a worker thread, the flag
+   * shared), the step is abandoned at its next factorisation and the run stops at the last step
+   * it finished (its checkpoint is the last sync point, as for any stop).
+   */
+  signal?: { readonly aborted: boolean };
   /** Log lines (the CLI sends them to stderr). */
   log?: RunLog;
   /** Called after every accepted point is written. */
@@ -197,7 +204,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
     ...(lastSync ? { lastSync } : {}),
     directory: dir,
     ledger,
-    canSnapshot: engine?.canSnapshot ?? true,
+    canSnapshot: between(),
     snapshot: () => {
       if (sync && lastSync) return lastSync.snapshot;
       if (!engine) throw new Error('no engine to snapshot');
@@ -222,24 +229,42 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
   };
   /** Ledger point count at the last checkpoint-hook call. */
   let hookPoints = ledger.points;
-  const between = (): boolean => engine?.canSnapshot ?? true;
+  /** A step was abandoned half-way (WorkInterrupted): the engine's state is not a state to keep. */
+  let interrupted = false;
+  const between = (): boolean => !interrupted && (engine?.canSnapshot ?? true);
 
   let stopped = false;
+  const signal = options.signal;
+  const interrupt = signal
+    ? (): void => {
+        if (signal.aborted) throw new WorkInterrupted('stop requested');
+      }
+    : undefined;
   try {
     engine = (options.engine ?? defaultEngine)(problem, params, settings, {
       ...((options.start ?? prepared.start) ? { start: options.start ?? prepared.start!.u } : {}),
       ...(options.resume ? { state: options.resume.engineState } : {}),
+      ...(interrupt ? { interrupt } : {}),
     });
     const events = engine.events();
     try {
       for (;;) {
-        // a stop request is honoured between steps only (a step's events are already computed:
+        // a stop request is honoured between steps (a step's events are already computed:
         // finishing them costs nothing and keeps the files and the engine state in step)
-        if (options.signal?.aborted && between()) {
+        if (signal?.aborted && between()) {
           stopped = true;
           break;
         }
-        const r = events.next();
+        let r: IteratorResult<EngineEvent, unknown>;
+        try {
+          r = events.next();
+        } catch (e) {
+          if (!(e instanceof WorkInterrupted)) throw e;
+          // the step in progress was abandoned: its state is half-made, never to be snapshotted
+          interrupted = true;
+          stopped = true;
+          break;
+        }
         if (r.done) break;
         writer.handle(r.value);
         if (r.value.type === 'point') {

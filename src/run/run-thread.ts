@@ -1,0 +1,125 @@
+/**
+ * A run in a worker thread, so that the main thread stays free for signals while the numerics
+ * work: a factorisation of a large 3D grid takes minutes, and in one thread SIGINT and SIGTERM
+ * would wait for it (the event loop is blocked). Here the main thread keeps the signal handlers,
+ * the progress display and the stop protocol; the thread prepares the case again from its
+ * resolved document (problems hold functions and cannot be sent), runs `runCase` with a
+ * checkpointer, and sends log lines, progress and the result back.
+ *
+ * The stop protocol: a stop request sets a flag in a SharedArrayBuffer. The thread reads it
+ * between steps (the run stops there, as before) and before every factorisation (the step in
+ * progress is abandoned and the run stops at the last step it finished; its checkpoint is the
+ * last sync point either way, so a resumed run still repeats the uninterrupted one exactly).
+ * A second Ctrl-C leaves at once (the CLI exits; the thread goes with the process).
+ *
+ * The thread runs the same code on the same data as a run in this thread: results and files are
+ * the same, bit for bit.
+ */
+import { existsSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { Worker } from 'node:worker_threads';
+import { type PreparedCase, caseDocument } from './case.js';
+import type { CheckpointPolicy } from './checkpoint.js';
+import { InputError } from './errors.js';
+import type { RunLog } from './run-events.js';
+import type { ProgressInfo } from './run-hooks.js';
+import type { ResumeState, RunResult } from './run-case.js';
+
+export interface ThreadRunOptions {
+  outDir: string;
+  force?: boolean;
+  signal?: AbortSignal;
+  log: RunLog;
+  progress: (p: ProgressInfo) => void;
+  /** The checkpointer's policy and, resuming, where its numbering goes on from. */
+  checkpoint: { policy: CheckpointPolicy; sequence?: number; points?: number };
+  resume?: ResumeState;
+}
+
+/** What the thread receives (structured-cloned; the stop flag is shared). */
+export interface ThreadTask {
+  doc: Record<string, unknown>;
+  label: string;
+  file?: string;
+  baseDir: string;
+  loadCode?: string;
+  outDir: string;
+  force: boolean;
+  checkpoint: ThreadRunOptions['checkpoint'];
+  resume?: ResumeState;
+  /** Int32 flag: 0 go on, 1 stop requested. */
+  stop: SharedArrayBuffer;
+}
+
+export type ThreadMessage =
+  | { type: 'log'; level: 'info' | 'warning'; message: string }
+  | { type: 'progress'; info: ProgressInfo }
+  | { type: 'result'; result: RunResult }
+  | { type: 'error'; message: string; input: boolean };
+
+/** Run (or resume) a prepared case in a worker thread; see the header. */
+export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Promise<RunResult> {
+  const stop = new SharedArrayBuffer(4);
+  const flag = new Int32Array(stop);
+  const task: ThreadTask = {
+    doc: caseDocument(prepared.case),
+    label: prepared.label,
+    ...(prepared.file !== undefined ? { file: prepared.file } : {}),
+    baseDir: prepared.baseDir,
+    // the case was checked here with the same rule: only its own code model may load
+    ...(prepared.case.modelKind === 'code' ? { loadCode: prepared.case.model } : {}),
+    outDir: o.outDir,
+    force: o.force === true,
+    checkpoint: o.checkpoint,
+    ...(o.resume ? { resume: o.resume } : {}),
+    stop,
+  };
+  const onAbort = (): void => {
+    Atomics.store(flag, 0, 1);
+  };
+  if (o.signal?.aborted) onAbort();
+  o.signal?.addEventListener('abort', onAbort);
+  return new Promise<RunResult>((done, fail) => {
+    let settled = false;
+    const worker = new Worker(threadScript(), { workerData: task });
+    worker.on('message', (m: ThreadMessage) => {
+      switch (m.type) {
+        case 'log':
+          o.log(m.level, m.message);
+          break;
+        case 'progress':
+          o.progress(m.info);
+          break;
+        case 'result':
+          settled = true;
+          done(m.result);
+          break;
+        case 'error':
+          settled = true;
+          fail(m.input ? new InputError(m.message) : new Error(m.message));
+          break;
+      }
+    });
+    worker.on('error', (e) => {
+      if (settled) return;
+      settled = true;
+      fail(e);
+    });
+    worker.on('exit', (code) => {
+      if (settled) return;
+      settled = true;
+      fail(new Error(`the run's thread ended (exit code ${code}) before the run did`));
+    });
+  }).finally(() => o.signal?.removeEventListener('abort', onAbort));
+}
+
+/** The compiled thread entry (dist/ when running from the TypeScript sources, e.g. in tests). */
+function threadScript(): string {
+  const here = dirname(fileURLToPath(import.meta.url));
+  const sibling = join(here, 'run-thread-worker.js');
+  if (existsSync(sibling)) return sibling;
+  const built = resolve(here, '../../dist/src/run/run-thread-worker.js');
+  if (existsSync(built)) return built;
+  throw new Error(`the run thread's program is missing (${built}); run \`npm run build\` in the package folder`);
+}
