@@ -37,7 +37,7 @@ export interface ThreadRunOptions {
   resume?: ResumeState;
 }
 
-/** What the thread receives (structured-cloned; the stop flag is shared). */
+/** What the thread receives per run (structured-cloned; the stop flag is shared). */
 export interface ThreadTask {
   doc: Record<string, unknown>;
   label: string;
@@ -57,6 +57,35 @@ export type ThreadMessage =
   | { type: 'progress'; info: ProgressInfo }
   | { type: 'result'; result: RunResult }
   | { type: 'error'; message: string; input: boolean };
+
+/**
+ * Threads waiting for their next run (starting one loads the numerical modules: about half a
+ * second); unreferenced while idle, so they never keep the process alive.
+ */
+const idle: Worker[] = [];
+
+function takeThread(): Worker {
+  for (let w = idle.pop(); w; w = idle.pop()) {
+    if (w.threadId >= 0) {
+      w.ref();
+      return w;
+    }
+  }
+  return new Worker(threadScript());
+}
+
+function returnThread(w: Worker): void {
+  w.removeAllListeners('message');
+  w.removeAllListeners('error');
+  w.removeAllListeners('exit');
+  w.on('error', () => {});
+  w.on('exit', () => {
+    const i = idle.indexOf(w);
+    if (i >= 0) idle.splice(i, 1);
+  });
+  w.unref();
+  idle.push(w);
+}
 
 /** Run (or resume) a prepared case in a worker thread; see the header. */
 export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Promise<RunResult> {
@@ -82,7 +111,7 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
   o.signal?.addEventListener('abort', onAbort);
   return new Promise<RunResult>((done, fail) => {
     let settled = false;
-    const worker = new Worker(threadScript(), { workerData: task });
+    const worker = takeThread();
     worker.on('message', (m: ThreadMessage) => {
       switch (m.type) {
         case 'log':
@@ -93,10 +122,12 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
           break;
         case 'result':
           settled = true;
+          returnThread(worker);
           done(m.result);
           break;
         case 'error':
           settled = true;
+          returnThread(worker);
           fail(m.input ? new InputError(m.message) : new Error(m.message));
           break;
       }
@@ -111,6 +142,7 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
       settled = true;
       fail(new Error(`the run's thread ended (exit code ${code}) before the run did`));
     });
+    worker.postMessage(task);
   }).finally(() => o.signal?.removeEventListener('abort', onAbort));
 }
 
