@@ -43,7 +43,7 @@ import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { LineCounter, parseDocument } from 'yaml';
 import { z } from 'zod';
-import { assertFactorMemory, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
+import { assertFactorMemory, assertFactorWork, defaultFactorMemoryLimit, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
 import type { OptionSpec } from '../../discretisations/models/options.js';
 import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
 import { validateProblemNames } from '../problem/names.js';
@@ -575,6 +575,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       fail('grid.intervals', (e as Error).message);
     }
   }
+  checkFactorisations(description, problem.gridUnknowns, problem.extraUnknowns.length, intervals, input.stability?.eigenvalues ?? 0, fail);
 
   // 7. start values (a start from a run point brings that point's parameter values)
   const params: Record<string, number> = {};
@@ -724,6 +725,43 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     ...(description.caution ?? registryCaution ? { caution: description.caution ?? registryCaution } : {}),
     ...(startState ? { start: startState } : {}),
   };
+}
+
+/**
+ * What a run's factorisations will cost, refused up front when hopeless: the work of one (3D grids
+ * take minutes per factorisation long before their memory is a problem), and the memory of those
+ * held at once — the continuation's bordered matrix and, with stability, the eigen solver's
+ * shifted matrix — in the solver's one address space.
+ */
+function checkFactorisations(
+  description: ReturnType<Problem['describe']>,
+  gridUnknowns: number,
+  extras: number,
+  intervals: readonly number[],
+  eigenvalues: number,
+  fail: (field: string, detail: string) => never,
+): void {
+  const what = `grid ${intervals.join('x')}`;
+  const fields = Math.max(1, description.fields.length);
+  // unknown nodes per axis (eliminated Dirichlet nodes are not unknowns): the axes' node counts
+  // scaled alike so that their product is the problem's grid unknowns per field
+  const nodes = description.axes.map((a) => a.nodes);
+  const all = nodes.reduce((a, x) => a * x, 1);
+  const scale = gridUnknowns > 0 && all > 0 ? (gridUnknowns / fields / all) ** (1 / nodes.length) : 1;
+  // the bordered matrix: the continuation parameter's row and column besides the problem's extras
+  const estimate = estimateFactorMemory(nodes.map((x) => x * scale), fields, extras + 1);
+  try {
+    assertFactorWork(estimate, what);
+  } catch (e) {
+    fail('grid.intervals', (e as Error).message);
+  }
+  if (eigenvalues > 0 && 2 * estimate.bytes > defaultFactorMemoryLimit) {
+    fail(
+      'grid.intervals',
+      `${what}: the sparse LU factorisations of the continuation and of the eigenvalue solver, held at once, would need about ${((2 * estimate.bytes) / 1024 ** 3).toFixed(1)} GiB, ` +
+        `over the ${(defaultFactorMemoryLimit / 1024 ** 3).toFixed(1)} GiB the solver can hold (one 4 GiB address space); use fewer intervals, or stability: {eigenvalues: 0}`,
+    );
+  }
 }
 
 /** The diagram's default monitor: `max` (single field), `max:<first field>`, else the first monitor. */

@@ -181,6 +181,16 @@ describe('bad case files give one line naming the file, the field, the value and
       'model: gray-scott\ngrid: {intervals: [1000, 1000]}\ncontinuation: {parameter: F, bounds: [0, 1]}\n',
       /: grid\.intervals: grid 1000x1000: the sparse LU would need about [\d.]+ GiB \(2004002 unknowns/,
     ],
+    [
+      'a 3D grid whose factorisation would take minutes',
+      good.replace('[16]', '[52, 52, 52]'),
+      /: grid\.intervals: grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations .*about 4 minutes/,
+    ],
+    [
+      'a 2D grid whose two factorisations (continuation and eigenvalues) do not fit together',
+      good.replace('[16]', '[1000, 1000]') + 'stability: {eigenvalues: 2}\n',
+      /: grid\.intervals: grid 1000x1000: the sparse LU factorisations of the continuation and of the eigenvalue solver, held at once, would need about 3\.\d GiB, over the 3\.0 GiB .* or stability: \{eigenvalues: 0\}/,
+    ],
     // continuation values
     ['bounds reversed', good.replace('bounds: [0, 4]', 'bounds: [4, 0]'), /: continuation\.bounds: \[4, 0\] is reversed \(accepted: \[low, high\] with low < high\)/],
     ['bounds outside the parameter range', good.replace('bounds: [0, 4]', 'bounds: [-1, 4]'), /: continuation\.bounds: \[-1, 4\] reaches outside the accepted range of lambda, \[0, inf\]/],
