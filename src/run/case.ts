@@ -43,7 +43,7 @@ import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { LineCounter, parseDocument } from 'yaml';
 import { z } from 'zod';
-import { assertFactorMemory, assertFactorWork, defaultFactorMemoryLimit, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
+import { type FactorMemoryEstimate, assertFactorMemory, assertFactorWork, defaultFactorMemoryLimit, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
 import type { OptionSpec } from '../../discretisations/models/options.js';
 import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
 import { validateProblemNames } from '../problem/names.js';
@@ -533,6 +533,10 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   } catch (e) {
     fail('grid.intervals', (e as Error).message);
   }
+  // before the problem is built, with the fewest unknowns the grid can have (one field, Dirichlet
+  // walls): what is refused here is refused below too, once the problem says what it holds
+  const eigenvalues = input.stability?.eigenvalues ?? 0;
+  checkFactorisations(estimateFactorMemory(intervals.map((n) => n - 1), 1, 1), intervals, eigenvalues, fail);
   const grid: GridOptions = { intervals: intervals.slice(), length: length.slice() };
 
   // 5. parameters given as start values (reaction-diffusion: declarations, passed to the model)
@@ -575,7 +579,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       fail('grid.intervals', (e as Error).message);
     }
   }
-  checkFactorisations(description, problem.gridUnknowns, problem.extraUnknowns.length, intervals, input.stability?.eigenvalues ?? 0, fail);
+  checkFactorisations(builtEstimate(description, problem), intervals, eigenvalues, fail);
 
   // 7. start values (a start from a run point brings that point's parameter values)
   const params: Record<string, number> = {};
@@ -733,23 +737,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
  * held at once — the continuation's bordered matrix and, with stability, the eigen solver's
  * shifted matrix — in the solver's one address space.
  */
-function checkFactorisations(
-  description: ReturnType<Problem['describe']>,
-  gridUnknowns: number,
-  extras: number,
-  intervals: readonly number[],
-  eigenvalues: number,
-  fail: (field: string, detail: string) => never,
-): void {
+function checkFactorisations(estimate: FactorMemoryEstimate, intervals: readonly number[], eigenvalues: number, fail: (field: string, detail: string) => never): void {
   const what = `grid ${intervals.join('x')}`;
-  const fields = Math.max(1, description.fields.length);
-  // unknown nodes per axis (eliminated Dirichlet nodes are not unknowns): the axes' node counts
-  // scaled alike so that their product is the problem's grid unknowns per field
-  const nodes = description.axes.map((a) => a.nodes);
-  const all = nodes.reduce((a, x) => a * x, 1);
-  const scale = gridUnknowns > 0 && all > 0 ? (gridUnknowns / fields / all) ** (1 / nodes.length) : 1;
-  // the bordered matrix: the continuation parameter's row and column besides the problem's extras
-  const estimate = estimateFactorMemory(nodes.map((x) => x * scale), fields, extras + 1);
   try {
     assertFactorWork(estimate, what);
   } catch (e) {
@@ -762,6 +751,17 @@ function checkFactorisations(
         `over the ${(defaultFactorMemoryLimit / 1024 ** 3).toFixed(1)} GiB the solver can hold (one 4 GiB address space); use fewer intervals, or stability: {eigenvalues: 0}`,
     );
   }
+}
+
+/** The factorisation estimate of a built problem (its bordered matrix: one more row and column). */
+function builtEstimate(description: ReturnType<Problem['describe']>, problem: Problem): FactorMemoryEstimate {
+  const fields = Math.max(1, description.fields.length);
+  // unknown nodes per axis (eliminated Dirichlet nodes are not unknowns): the axes' node counts
+  // scaled alike so that their product is the problem's grid unknowns per field
+  const nodes = description.axes.map((a) => a.nodes);
+  const all = nodes.reduce((a, x) => a * x, 1);
+  const scale = problem.gridUnknowns > 0 && all > 0 ? (problem.gridUnknowns / fields / all) ** (1 / nodes.length) : 1;
+  return estimateFactorMemory(nodes.map((x) => x * scale), fields, problem.extraUnknowns.length + 1);
 }
 
 /** The diagram's default monitor: `max` (single field), `max:<first field>`, else the first monitor. */
