@@ -18,10 +18,10 @@ import { hostname, totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
-import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
+import { type PreparedCase, ownCodeModel, prepareCase, prepareCaseObject } from './case.js';
 import { CheckpointError, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
-import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
+import { type CodeModelChoice, storedCaseOptions } from './resume-code.js';
 import type { ProgressView } from './progress.js';
 import { type ProgressInfo, type RunResult, outputDirectory } from './run-case.js';
 import { runCaseInThread } from './run-thread.js';
@@ -35,6 +35,8 @@ export interface RunTarget {
   label: string;
   prepared: PreparedCase;
   outDir: string;
+  /** The case document to run, when it is not the case file as it is (a value of a sweep). */
+  doc?: Record<string, unknown>;
 }
 
 export type OutcomeStatus = 'finished' | 'failed' | 'stopped' | 'not-started';
@@ -94,10 +96,14 @@ function isRunDirectory(dir: string): boolean {
  * Check every case file and output folder. Returns the targets, or the problems (one line each,
  * naming the file and field) when any case cannot run — then nothing may run.
  */
-export async function prepareTargets(files: readonly string[], options: { out?: string; force?: boolean; jobs?: number } = {}): Promise<{ targets: RunTarget[]; problems: string[] }> {
+export async function prepareTargets(
+  files: readonly string[],
+  options: { out?: string; force?: boolean; jobs?: number; parent?: boolean; cluster?: boolean } = {},
+): Promise<{ targets: RunTarget[]; problems: string[] }> {
   const targets: RunTarget[] = [];
   const problems: string[] = [];
-  const several = files.length > 1;
+  // `parent`: --out is a parent folder even for one case (runs sent to a cluster)
+  const several = files.length > 1 || options.parent === true;
   for (const file of files) {
     let prepared: PreparedCase;
     try {
@@ -120,7 +126,8 @@ export async function prepareTargets(files: readonly string[], options: { out?: 
     }
     targets.push({ label: file, prepared, outDir });
   }
-  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1));
+  // runs sent to a cluster: the nodes' memory is the scheduler's to judge (sbatch --test-only)
+  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1, options.cluster !== true));
   return { targets, problems };
 }
 
@@ -155,11 +162,11 @@ export function runNeeds(prepared: PreparedCase): { memory: number; disk: number
 }
 
 /** Requests that cannot fit this machine, refused before anything runs (with the estimates). */
-function resourceProblems(targets: readonly RunTarget[], jobs: number): string[] {
+export function resourceProblems(targets: readonly RunTarget[], jobs: number, memoryHere = true): string[] {
   const problems: string[] = [];
   const machine = totalmem();
   const needs = targets.map((t) => ({ t, ...runNeeds(t.prepared) }));
-  for (const x of needs) {
+  for (const x of memoryHere ? needs : []) {
     if (x.memory > 0.8 * machine) {
       problems.push(`${x.t.label}: grid.intervals: the run would need about ${bytesText(x.memory)} of memory (sparse LU factors${x.t.prepared.case.stability.eigenvalues > 0 ? ' for the continuation and the eigenvalues' : ''}), more than this machine has (${bytesText(machine)}); use fewer intervals`);
     }
@@ -280,11 +287,10 @@ function processAlive(pid: number): boolean {
 }
 
 /**
- * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
- * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
- * problem that matches the saved state. InputError (one line) otherwise.
+ * The checks every resume starts with: the folder holds a run of ours that did not finish, no
+ * live process is writing it (unless `force`), and a usable checkpoint exists. InputError otherwise.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean; code?: CodeModelChoice } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+export function resumableCheckpoint(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint> } {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
@@ -296,33 +302,17 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (pid !== undefined && !options.force) {
     throw new InputError(`${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`);
   }
-  let found;
   try {
-    found = readCheckpoint(dir);
+    return { dir, run, status, found: readCheckpoint(dir) };
   } catch (e) {
     if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
     throw e;
   }
-  const c = found.document;
-  const caseFile = c.run.caseFile;
-  const baseDir = caseFile ? dirname(caseFile) : dir;
-  // a code model loads only when the user names it (src/run/resume-code.ts)
-  const loadCode = await resumeCodeModel(dirGiven, c.case as { model?: unknown }, run.case as { model?: unknown } | undefined, baseDir, options.code ?? {});
-  const prepared = await prepareCaseObject(c.case, {
-    label: `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`,
-    ...(caseFile ? { file: caseFile } : {}),
-    baseDir,
-    ...(loadCode ? { loadCode } : {}),
-  });
-  // the saved state must belong to this problem (a code model may have changed since)
-  const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;
-  const x = engine?.current?.x;
-  const saved = x instanceof Float64Array ? x.length - 1 : engine?.rowScale instanceof Float64Array ? engine.rowScale.length : undefined;
-  if (saved !== undefined && saved !== prepared.problem.size) {
-    throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
-  }
-  // the branch files must still hold every row the checkpoint counts (checked before any is touched)
-  for (const [file, length] of Object.entries(c.ledger.csvLengths)) {
+}
+
+/** The CSV files must still hold every row the checkpoint counts (checked before any is touched). */
+export function checkRecordedLengths(dirGiven: string, dir: string, csvLengths: Record<string, number>): void {
+  for (const [file, length] of Object.entries(csvLengths)) {
     let size: number;
     try {
       size = statSync(join(dir, file)).size;
@@ -331,6 +321,26 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
     }
     if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
   }
+}
+
+/**
+ * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
+ * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
+ * problem that matches the saved state. InputError (one line) otherwise.
+ */
+export async function prepareResume(dirGiven: string, options: { force?: boolean; code?: CodeModelChoice } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  const { dir, run, status, found } = resumableCheckpoint(dirGiven, options);
+  const c = found.document;
+  // a code model loads only when the user names it (src/run/resume-code.ts)
+  const prepared = await prepareCaseObject(c.case, await storedCaseOptions(dirGiven, dir, run, found, options.code ?? {}));
+  // the saved state must belong to this problem (a code model may have changed since)
+  const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;
+  const x = engine?.current?.x;
+  const saved = x instanceof Float64Array ? x.length - 1 : engine?.rowScale instanceof Float64Array ? engine.rowScale.length : undefined;
+  if (saved !== undefined && saved !== prepared.problem.size) {
+    throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
+  }
+  checkRecordedLengths(dirGiven, dir, c.ledger.csvLengths);
   return { prepared, outDir: dir, plan: { checkpoint: c, file: found.file, skipped: found.skipped, previousStatus: status } };
 }
 
@@ -428,7 +438,14 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
         done();
       });
       o.view.start(name, t.prepared.settings.parameter, t.prepared.settings.maxPoints);
-      const start: WorkerStart = { type: 'run', file: t.prepared.file ?? resolve(t.label), label: t.label, outDir: t.outDir, force: o.force === true };
+      const start: WorkerStart = {
+        type: 'run',
+        file: t.prepared.file ?? resolve(t.label),
+        label: t.label,
+        outDir: t.outDir,
+        force: o.force === true,
+        ...(t.doc ? { doc: t.doc, baseDir: t.prepared.baseDir, ...ownCodeModel(t.prepared.case) } : {}),
+      };
       child.send(start);
     });
 
@@ -478,6 +495,11 @@ export interface WorkerStart {
   label: string;
   outDir: string;
   force: boolean;
+  /** The case document to run instead of the file as it is (a value of a sweep), with its base folder. */
+  doc?: Record<string, unknown>;
+  baseDir?: string;
+  /** The one code model `doc` may load (the case file's, which the user named). */
+  loadCode?: string;
 }
 
 export type WorkerMessage =

@@ -25,6 +25,7 @@
  *   plot: {monitor: max}                 # the diagram's vertical axis (default: max, or max:<first field>)
  *   start: {solution: saved.npy}         # start from a saved node array instead of the initial guess,
  *   start: {run: runs/a, point: fold:1, branch: 1}   # or from a special point of an earlier run
+ *   cluster: {setup: ["module load nodejs/20"]}      # lines run before the run in a Slurm job (--slurm)
  *
  * A start from a run point takes that point's parameter values too (the earlier run's start values
  * with its continuation parameter at the point's value): for built-in and code models, values
@@ -43,17 +44,29 @@ import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { LineCounter, parseDocument } from 'yaml';
 import { z } from 'zod';
-import { type FactorMemoryEstimate, assertFactorMemory, assertFactorWork, defaultFactorMemoryLimit, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
+import {
+  type FactorMemoryEstimate,
+  InitialStateError,
+  assertFactorMemory,
+  assertFactorWork,
+  defaultFactorMemoryLimit,
+  estimateFactorMemory,
+  initialStateBuilder,
+  modelEntry,
+  models,
+} from '../../discretisations/index.js';
 import type { OptionSpec } from '../../discretisations/models/options.js';
 import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
+import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
 import { FileReadError, caseFileLimit, codeModelLimit, notRegularFile, readTextFile, sizeText } from './read-file.js';
 import {
   type RunPoint,
   extrasForSolutionFile,
   extrasVector,
+  finalPoint,
   parsePointSpec,
   pointSpecAccepted,
   pointSpecText,
@@ -123,6 +136,10 @@ export interface ResolvedCase {
   plot: { monitor: string };
   /** Where the start state comes from (absolute paths), when not the model's initial guess. */
   start?: ResolvedStart;
+  /** The `initial:` key, resolved (absolute file path, noise seed filled in). */
+  initial?: ResolvedInitial;
+  /** For runs sent to a cluster (--slurm): lines the job script runs before the run. */
+  cluster?: { setup: string[] };
 }
 
 export type ResolvedStart = { solution: string } | { run: string; point: string; branch: number };
@@ -267,7 +284,9 @@ const continuationSchema = section({
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
 });
 
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start'] as const;
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster'] as const;
+
+const setupLineText = accepted('a list of shell lines run before the run in a cluster job, e.g. ["module load nodejs/20"]');
 
 const caseSchema = z.looseObject(
   {
@@ -278,7 +297,11 @@ const caseSchema = z.looseObject(
     model: z.string(accepted(`a model id (${Object.keys(models).join(', ')}) or a path to a code model (.mjs)`)),
     grid: gridSchema,
     parameters: z.record(z.string(), z.unknown(), accepted('a map of parameter names to values, e.g. {lambda: 0.5}')).optional(),
-    continuation: continuationSchema,
+    // required by `run` (prepareCaseObject), optional for `settle` (a case may hold both)
+    continuation: continuationSchema.optional(),
+    // checked by ./initial.ts (its shape depends on the model) and ./settle-case.ts
+    initial: z.unknown().optional(),
+    time: z.unknown().optional(),
     output: section({
       directory: z.string(accepted('a folder path')).min(1, accepted('a folder path')).optional(),
       solutions: word(solutionChoices).optional(),
@@ -291,6 +314,9 @@ const caseSchema = z.looseObject(
       run: z.string(accepted('a run folder')).min(1, accepted('a run folder')).optional(),
       point: z.string(accepted(pointSpecAccepted)).optional(),
       branch: integerIn(1, 1_000_000).optional(),
+    }).optional(),
+    cluster: section({
+      setup: z.array(z.string(setupLineText).regex(/^[^\r\n]*\S[^\r\n]*$/, setupLineText), setupLineText).optional(),
     }).optional(),
   },
   accepted('a case: a map with keys name, model, grid, parameters, continuation, output'),
@@ -391,6 +417,12 @@ function refuseOddKeys(raw: unknown, label: string): void {
 
 /** Read and check a case file, build its problem; nothing is written. */
 export async function prepareCase(file: string, options: { label?: string } = {}): Promise<PreparedCase> {
+  const { raw, opts } = readCaseFile(file, options);
+  return prepareCaseObject(raw, opts);
+}
+
+/** Read and parse a case file (one-line CaseErrors); the options for `prepareCaseObject` and its siblings. */
+export function readCaseFile(file: string, options: { label?: string } = {}): { raw: unknown; opts: PrepareObjectOptions } {
   const label = options.label ?? file;
   const abs = resolve(file);
   if (!existsSync(abs)) throw new CaseError(label, '', 'no such file');
@@ -404,7 +436,8 @@ export async function prepareCase(file: string, options: { label?: string } = {}
   }
   const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
   const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
-  return prepareCaseObject(raw, { label, file: abs, baseDir: dirname(abs), defaultName, loadCode: true });
+  // the user named this file: its code model may load
+  return { raw, opts: { label, file: abs, baseDir: dirname(abs), defaultName, loadCode: true } };
 }
 
 export interface PrepareObjectOptions {
@@ -421,6 +454,15 @@ export interface PrepareObjectOptions {
   loadCode?: true | string;
 }
 
+/**
+ * The option that lets a case built from `resolved` (a sweep's value, a grid of a study, the same
+ * case in a worker) load its code model: the one already allowed when `resolved` was read; none
+ * for other models.
+ */
+export function ownCodeModel(resolved: { model: string; modelKind: ModelKind }): { loadCode?: string } {
+  return resolved.modelKind === 'code' ? { loadCode: resolved.model } : {};
+}
+
 /** The absolute path of the code model a case's `model` value names (undefined for a built-in id). */
 export function codeModelPath(model: unknown, baseDir: string): string | undefined {
   if (typeof model !== 'string') return undefined;
@@ -429,8 +471,38 @@ export function codeModelPath(model: unknown, baseDir: string): string | undefin
   return isAbsolute(id) ? id : resolve(baseDir, id);
 }
 
-/** Check a parsed case (e.g. the resolved case stored in a run directory) and build its problem. */
-export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions): Promise<PreparedCase> {
+/**
+ * What every command reading a case needs, checked: the case keys' shapes, the model and its
+ * problem on the grid, the start parameter values, and the start state (from `start:` and
+ * `initial:`). `prepareCaseObject` (runs) and `prepareSettleCaseObject` (time integration) go on
+ * from here.
+ */
+export interface CaseParts {
+  label: string;
+  fail: (field: string, detail: string) => never;
+  input: CaseInput & Record<string, unknown>;
+  kind: ModelKind;
+  modelId: string;
+  modelRef: string;
+  modelOptions: Record<string, unknown>;
+  intervals: number[];
+  length: number[];
+  problem: Problem;
+  description: ReturnType<Problem['describe']>;
+  params: Record<string, number>;
+  givenParams: Record<string, unknown>;
+  knownParams: string[];
+  /** Parameters whose start values came from the run named by `start:`. */
+  fromRun: Set<string>;
+  startFrom?: StartKey;
+  /** The start state (from `start:` and/or `initial:`), with where it came from in words. */
+  start?: { u: Float64Array; from: string };
+  initial?: ResolvedInitial;
+  caution?: string;
+}
+
+/** Steps 1–7 of reading a case (see CaseParts); nothing is written. */
+export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions): Promise<CaseParts> {
   const label = opts.label;
   const fail = (field: string, detail: string): never => {
     throw new CaseError(label, field, detail);
@@ -542,6 +614,10 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   // 5. parameters given as start values (reaction-diffusion: declarations, passed to the model)
   const givenParams = (input.parameters ?? {}) as Record<string, unknown>;
   const factoryOptions: Record<string, unknown> & { grid: GridOptions } = { ...modelOptions, grid };
+  // `initial:` (./initial.ts): a named state goes to the model as its option; other forms are ours
+  const namedStates = kind === 'code' ? undefined : (optionSpecs?.find((o) => o.name === 'initial')?.choices ?? []);
+  const initial = resolveInitial(input.initial, namedStates, opts.baseDir, fail);
+  if (initial?.named !== undefined) factoryOptions.initial = initial.named;
   if (kind === 'expression') {
     factoryOptions.parameters = givenParams;
   } else {
@@ -615,8 +691,60 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     }
   }
 
+  // the start state: a state of an earlier run or a file (`start:`), and the `initial:` forms
+  const base = startFrom ? readStartState(startFrom, problem, params, fail) : undefined;
+  if (base && initial?.file !== undefined) fail('initial.from', `names a state file, and start: gives a state too: use one of them`);
+  let start = base;
+  if (initial && (initial.file !== undefined || Object.keys(initial.values).length > 0 || initial.noise)) {
+    let baseU = base?.u;
+    if (initial.file !== undefined) baseU = readStartState({ resolved: { solution: initial.file }, solution: initial.file }, problem, params, (_f, d) => fail('initial.from', d)).u;
+    let u: Float64Array;
+    try {
+      u = initialStateBuilder(problem, initialSpec(initial)).build(params, baseU);
+    } catch (e) {
+      if (e instanceof InitialStateError) return fail(e.field ? keyPath('initial', e.field) : 'initial', e.message);
+      throw e;
+    }
+    setPhaseReference(problem, u);
+    start = { u, from: `${initialWords(initial)}${base ? ` on ${base.from}` : ''}` };
+  }
+  const caution = description.caution ?? registryCaution;
+  return {
+    label,
+    fail,
+    input,
+    kind,
+    modelId,
+    modelRef,
+    modelOptions,
+    intervals,
+    length,
+    problem,
+    description,
+    params,
+    givenParams,
+    knownParams,
+    fromRun,
+    ...(startFrom ? { startFrom } : {}),
+    ...(start ? { start } : {}),
+    ...(initial ? { initial } : {}),
+    ...(caution ? { caution } : {}),
+  };
+}
+
+/** Check a parsed case (e.g. the resolved case stored in a run directory) and build its problem. */
+export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions): Promise<PreparedCase> {
+  const parts = await prepareCaseParts(raw, opts);
+  const { label, fail, input, kind, modelId, modelRef, modelOptions, intervals, length, problem, description, params, givenParams, knownParams, fromRun, startFrom } = parts;
+  if (input.continuation === undefined) {
+    fail(
+      'continuation',
+      `is missing (accepted: a map with keys ${Object.keys(continuationSchema.shape).join(', ')}; a case with time: only is for \`branchline settle\`)`,
+    );
+  }
+
   // 8. continuation
-  const c = input.continuation;
+  const c = input.continuation!;
   const parameter = c.parameter.trim();
   const spec = problem.parameters.find((s) => s.name === parameter);
   if (!spec) {
@@ -697,8 +825,6 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   if (!monitorNames.includes(plotMonitor)) {
     fail('plot.monitor', `${showValue(plotMonitor)} is not a monitor of this problem (accepted: ${monitorNames.join(', ')})`);
   }
-  const startState = startFrom ? readStartState(startFrom, problem, params, fail) : undefined;
-
   const resolved: ResolvedCase = {
     name: input.name ?? opts.defaultName ?? 'case',
     model: modelRef,
@@ -716,6 +842,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     },
     plot: { monitor: plotMonitor },
     ...(startFrom ? { start: startFrom.resolved } : {}),
+    ...(parts.initial ? { initial: parts.initial } : {}),
+    ...(input.cluster?.setup?.length ? { cluster: { setup: input.cluster.setup.map((l) => l.trim()) } } : {}),
   };
 
   return {
@@ -726,8 +854,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     problem,
     params: Object.freeze({ ...params }),
     settings: toSettings(continuation, resolved.stability.eigenvalues),
-    ...(description.caution ?? registryCaution ? { caution: description.caution ?? registryCaution } : {}),
-    ...(startState ? { start: startState } : {}),
+    ...(parts.caution ? { caution: parts.caution } : {}),
+    ...(parts.start ? { start: parts.start } : {}),
   };
 }
 
@@ -787,7 +915,7 @@ function resolveStartKey(
   fail: (field: string, detail: string) => never,
 ): StartKey | undefined {
   if (start === undefined) return undefined;
-  const accepted = '{solution: file.npy} or {run: folder, point: fold[:N], branch: K}';
+  const accepted = '{solution: file.npy}, {run: folder, point: fold[:N], branch: K} or {run: folder, point: final}';
   if (start.solution !== undefined && start.run !== undefined) fail('start', `gives both solution and run (accepted: ${accepted})`);
   if (start.solution !== undefined) {
     if (start.point !== undefined || start.branch !== undefined) fail('start', `point and branch go with run, not with solution (accepted: ${accepted})`);
@@ -796,6 +924,14 @@ function resolveStartKey(
   }
   if (start.run === undefined) fail('start', `names neither a solution file nor a run (accepted: ${accepted})`);
   if (start.point === undefined) fail('start.point', `is missing (accepted: ${pointSpecAccepted})`);
+  if (start.point!.trim().toLowerCase() === 'final') {
+    const dir = resolve(baseDir, start.run!);
+    try {
+      return { resolved: { run: dir, point: 'final', branch: 1 }, point: finalPoint(dir) };
+    } catch (e) {
+      return fail('start.run', (e as Error).message);
+    }
+  }
   const spec = parsePointSpec(start.point!);
   if (!spec) fail('start.point', `${showValue(start.point)} is not accepted (accepted: ${pointSpecAccepted})`);
   const dir = resolve(baseDir, start.run!);
@@ -839,10 +975,14 @@ function readStartState(start: StartKey, problem: Problem, params: Params, fail:
   for (let i = 0; i < u.length; i++) {
     if (!Number.isFinite(u[i])) fail(field, `${file}: holds non-finite values (unknown ${i})`);
   }
-  // a phase condition measures shifts against a reference profile: the start state is the natural one
+  setPhaseReference(problem, u);
+  return { u, from: start.point ? `the ${start.point.words}` : `the solution file ${file}` };
+}
+
+/** A phase condition measures shifts against a reference profile: the start state is the natural one. */
+function setPhaseReference(problem: Problem, u: Float64Array): void {
   const withReference = problem as Problem & { setPhaseReference?: (u: Float64Array) => void };
   if (problem.extraUnknowns.length > 0 && typeof withReference.setPhaseReference === 'function') withReference.setPhaseReference(u);
-  return { u, from: start.point ? `the ${start.point.words}` : `the solution file ${file}` };
 }
 
 function resolveStep(
@@ -880,6 +1020,17 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
   };
 }
 
+/** The keys every resolved case writes first: name, model, the model's own keys, grid, parameters. */
+export function caseDocumentHead(c: Pick<ResolvedCase, 'name' | 'model' | 'modelOptions' | 'grid' | 'modelKind' | 'parameterDeclarations' | 'parameters'>): Record<string, unknown> {
+  return {
+    name: c.name,
+    model: c.model,
+    ...c.modelOptions,
+    grid: { intervals: c.grid.intervals, length: c.grid.length },
+    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+  };
+}
+
 /**
  * The resolved case in the case-file format (every default filled in), as stored in run.json;
  * `prepareCaseObject` reads it back (issue: resume).
@@ -887,11 +1038,7 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
 export function caseDocument(c: ResolvedCase): Record<string, unknown> {
   const k = c.continuation;
   return {
-    name: c.name,
-    model: c.model,
-    ...c.modelOptions,
-    grid: { intervals: c.grid.intervals, length: c.grid.length },
-    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+    ...caseDocumentHead(c),
     continuation: {
       parameter: k.parameter,
       bounds: k.bounds,
@@ -910,6 +1057,8 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
     checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
     ...(c.plot ? { plot: { monitor: c.plot.monitor } } : {}),
     ...(c.start ? { start: { ...c.start } } : {}),
+    ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
+    ...(c.cluster ? { cluster: { setup: c.cluster.setup.slice() } } : {}),
   };
 }
 

@@ -58,7 +58,7 @@ export interface PlotResult {
   monitor: string;
 }
 
-interface AxisInfo {
+export interface AxisInfo {
   name: string;
   intervals: number;
   length: number;
@@ -110,11 +110,28 @@ function runTitle(run: Record<string, unknown>): { name: string; summary: string
   return { name: str(c.name, 'run'), summary: str(problem.summary), grid };
 }
 
+/** What a run's diagram shows, read from its files (also used for diagrams of several runs). */
+export interface RunDiagramData {
+  run: Record<string, unknown>;
+  specials: SpecialRecord[];
+  parameter: string;
+  /** The monitor on the vertical axis, and the problem's fields (for words). */
+  monitor: string;
+  fields: string[];
+  /** Monitor descriptions from run.json (older runs: none). */
+  descriptions: Record<string, string>;
+  branches: DiagramBranch[];
+  /** Special points on the drawn branches (ends as bare markers). */
+  shown: DiagramSpecialPoint[];
+  caution?: string;
+  warnings: string[];
+}
+
 /**
- * Draw diagram.svg and plots/*.svg of the run in `dir`. Throws InputError when `dir` holds no
- * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
+ * Read the branches and special points of the run in `dir` for a diagram. Throws InputError when
+ * `dir` holds no run or the monitor is unknown; a branch file that cannot be read is a warning.
  */
-export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
+export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramData {
   let run: Record<string, unknown>;
   let specials: SpecialRecord[];
   try {
@@ -125,8 +142,6 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     throw new InputError(`cannot draw: ${(e as Error).message}`);
   }
   const warnings: string[] = [];
-  const notes: string[] = [];
-  const written: string[] = [];
   const parameter = str(run['continuation-parameter'], 'parameter');
   const problem = (run.problem ?? {}) as Record<string, unknown>;
   const fields = (Array.isArray(problem.fields) ? problem.fields : []) as string[];
@@ -134,15 +149,13 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   const extras = (Array.isArray(problem['extra-unknowns']) ? problem['extra-unknowns'] : []) as string[];
   const columns = (Array.isArray(run.columns) ? run.columns : []) as string[];
   const caution = typeof run.caution === 'string' ? run.caution : undefined;
-  const title = runTitle(run);
   const monitors = monitorColumns(columns, parameter, extras);
   const caseDoc = (run.case ?? {}) as { plot?: { monitor?: unknown } };
-  const monitor = options.monitor ?? str(caseDoc.plot?.monitor) ?? '';
+  const monitor = monitorAsked ?? str(caseDoc.plot?.monitor) ?? '';
   const chosen = monitor !== '' ? monitor : defaultPlotMonitor(monitors, fields);
   if (!monitors.includes(chosen)) {
     throw new InputError(`monitor '${chosen}' is not a column of this run (accepted: ${monitors.join(', ') || 'none'})`);
   }
-
   // --- the diagram
   const branchRecords = (Array.isArray(run.branches) ? run.branches : []) as { id: number; file: string }[];
   const branchFiles = branchRecords.length
@@ -188,6 +201,19 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
     shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : {}) });
   }
+  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings };
+}
+
+/**
+ * Draw diagram.svg and plots/*.svg of the run in `dir`. Throws InputError when `dir` holds no
+ * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
+ */
+export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
+  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings } = readRunDiagram(dir, options.monitor);
+  const notes: string[] = [];
+  const written: string[] = [];
+  const problem = (run.problem ?? {}) as Record<string, unknown>;
+  const title = runTitle(run);
   nameCoincidentBranches(branches);
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
@@ -362,6 +388,24 @@ function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
 
 /** The solution plot of one special point: a line plot (1D) or heat maps (2D; 3D: the middle z slice). */
 export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: SpecialRecord, ctx: SolutionContext): string {
+  const nf = array.shape[0];
+  const names = ctx.fields.length === nf ? ctx.fields : Array.from({ length: nf }, (_, i) => `field ${i + 1}`);
+  const what = names.length === 1 ? names[0] : names.join(', ');
+  return statePictureSvg(array, {
+    title: `${what} at ${pointTitle(s)}`,
+    subtitle: pointSubtitle(s, ctx),
+    fields: ctx.fields,
+    axes: ctx.axes,
+    ...(ctx.caution ? { caution: ctx.caution } : {}),
+    idPrefix: basename(String(s.solution ?? 'solution')).replace(/\.npy$/, ''),
+  });
+}
+
+/** A state (node array) as a picture: a line plot in 1D, heat maps in 2D, the middle z slice in 3D. */
+export function statePictureSvg(
+  array: { shape: number[]; data: Float64Array },
+  ctx: { title: string; subtitle: string; fields: readonly string[]; axes: readonly AxisInfo[]; caution?: string; idPrefix: string },
+): string {
   const { shape, data } = array;
   const dim = shape.length - 1;
   if (dim < 1 || dim > 3) throw new Error(`shape (${shape.join(', ')}) is not (fields, [nz, ny,] nx)`);
@@ -369,9 +413,8 @@ export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: S
   const names = ctx.fields.length === nf ? ctx.fields : Array.from({ length: nf }, (_, i) => `field ${i + 1}`);
   const nodes = shape.slice(1).reduce((a, b) => a * b, 1);
   const axis = (i: number): AxisInfo | undefined => ctx.axes[i];
-  const what = names.length === 1 ? names[0] : names.join(', ');
-  const title = `${what} at ${pointTitle(s)}`;
-  let subtitle = pointSubtitle(s, ctx);
+  const title = ctx.title;
+  let subtitle = ctx.subtitle;
   const caution = ctx.caution ? { caution: ctx.caution } : {};
   if (dim === 1) {
     const nx = shape[1];
@@ -405,7 +448,7 @@ export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: S
     xLabel: axis(0)?.name ?? 'x',
     yLabel: axis(1)?.name ?? 'y',
     fields: names.map((name, f) => ({ name, values: data.subarray(f * nodes + kz * nx * ny, f * nodes + (kz + 1) * nx * ny) })),
-    idPrefix: basename(String(s.solution ?? 'solution')).replace(/\.npy$/, ''),
+    idPrefix: ctx.idPrefix,
     ...caution,
   });
 }

@@ -19,7 +19,7 @@ import { existsSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
-import { type PreparedCase, caseDocument } from './case.js';
+import { type PreparedCase, caseDocument, ownCodeModel } from './case.js';
 import type { CheckpointPolicy } from './checkpoint.js';
 import { InputError } from './errors.js';
 import type { RunLog } from './run-events.js';
@@ -71,7 +71,8 @@ function takeThread(): Worker {
       return w;
     }
   }
-  return new Worker(threadScript());
+  // the thread runs a file: an --input-type flag of the process (node --input-type=module -e ...) is not for it
+  return new Worker(threadScript(), { execArgv: process.execArgv.filter((a) => !a.startsWith('--input-type')) });
 }
 
 function returnThread(w: Worker): void {
@@ -97,7 +98,7 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
     ...(prepared.file !== undefined ? { file: prepared.file } : {}),
     baseDir: prepared.baseDir,
     // the case was checked here with the same rule: only its own code model may load
-    ...(prepared.case.modelKind === 'code' ? { loadCode: prepared.case.model } : {}),
+    ...ownCodeModel(prepared.case),
     outDir: o.outDir,
     force: o.force === true,
     checkpoint: o.checkpoint,

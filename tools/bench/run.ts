@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory   a subset
+ *   npm run bench -- --only lu,assembly,steps,branch,memory,settle   a subset
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
@@ -16,6 +16,7 @@ import { benchLu } from './lu.js';
 import { benchExpressionAssembly } from './expression.js';
 import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
+import { type SettleBenchRow, settleTable } from './settle.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -92,6 +93,15 @@ if (want('memory') && !quick) {
   console.log('Peak memory, 2D Bratu 400x400 (160,000 unknowns), a few steps with 6 eigenvalues per point');
   console.log(table(['case', 'unknowns', 'peak RSS'], [[r.case, r.unknowns, r.peakRssMiB.toFixed(0) + ' MiB']]) + '\n');
   results.memory = r;
+}
+
+if (want('settle')) {
+  const m = quick ? 64 : 128;
+  const r = inChild<SettleBenchRow>('settle', String(m));
+  console.log(`Time integration to a steady state (BDF2), ${r.outcome}`);
+  console.log(settleTable([r]) + '\n');
+  console.log(`Newton polish of the steady state: ${r.polishFactorisations} factorisations (not counted above)\n`);
+  results.settle = r;
 }
 
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');

@@ -3,8 +3,10 @@
  * (spawned by run.ts so that peak resident memory belongs to the case alone).
  *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
  *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
+ *   node dist/tools/bench/worker.js settle <m>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
+import { benchSettle } from './settle.js';
 
 const [kind, ...rest] = process.argv.slice(2);
 if (kind === 'steps') {
@@ -14,6 +16,8 @@ if (kind === 'steps') {
 } else if (kind === 'branch') {
   const [n, eig] = rest;
   console.log(JSON.stringify(benchBranch(bratu1d(Number(n)), Number(eig))));
+} else if (kind === 'settle') {
+  console.log(JSON.stringify(benchSettle(Number(rest[0]))));
 } else {
   console.error(`worker: unknown kind '${kind}'`);
   process.exit(2);

@@ -2,7 +2,8 @@ import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { type EntryReport, type JacobianCheckReport, checkJacobian } from '../../problem/check.js';
 import type { UnknownLocation } from '../../problem/problem.js';
-import { prepareCase } from '../../run/case.js';
+import { prepareCaseObject, readCaseFile } from '../../run/case.js';
+import { prepareSettleCaseObject } from '../../run/settle-case.js';
 import { InputError } from '../../run/errors.js';
 import { formatValue } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
@@ -89,8 +90,12 @@ its contract); 2 the case file is bad.`,
     )
     .action(async (file: string, opts: { tolerance?: string; json?: boolean }) => {
       const tolerance = parseTolerance(opts.tolerance);
-      const prepared = await prepareCase(file);
-      const { problem, params, settings } = prepared;
+      // a case for settle (no continuation: section) is checked as well as one for run
+      const { raw, opts: readOptions } = readCaseFile(file);
+      const withContinuation = raw !== null && typeof raw === 'object' && (raw as Record<string, unknown>).continuation !== undefined;
+      const prepared = withContinuation ? await prepareCaseObject(raw, readOptions) : await prepareSettleCaseObject(raw, readOptions);
+      const { problem, params } = prepared;
+      const parameter = 'settings' in prepared ? prepared.settings.parameter : '';
       const d = problem.describe();
       let report: JacobianCheckReport;
       try {
@@ -109,7 +114,7 @@ its contract); 2 the case file is bad.`,
           `  ${problem.size} unknowns; checked at ${Object.entries(params)
             .map(([k, v]) => `${k} = ${formatValue(v, 10)}`)
             .join(', ')} and the initial state (slightly perturbed), tolerance ${formatValue(tolerance, 3)}`,
-          ...reportLines(report, settings.parameter),
+          ...reportLines(report, parameter),
           derivativesAgree(report)
             ? 'The Jacobian and the parameter derivatives agree with finite differences.'
             : 'The derivatives disagree with finite differences: fix the entries named above (a wrong Jacobian slows Newton down or stops it, and misplaces folds and branch points).',
