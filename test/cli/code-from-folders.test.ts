@@ -13,6 +13,8 @@ import { runSession } from '../../src/run/batch.js';
 import { prepareCase } from '../../src/run/case.js';
 import { checkpointFile, decodeCheckpoint, encodeCheckpoint, previousCheckpointFile } from '../../src/run/checkpoint.js';
 import type { ProgressView } from '../../src/run/progress.js';
+import { prepareSettleCase } from '../../src/run/settle-case.js';
+import { settleCase } from '../../src/run/settle.js';
 import { ensureBuilt } from './built.js';
 import { spawnMany } from './spawn-many.js';
 
@@ -134,5 +136,66 @@ describe('a forged run folder never runs code', () => {
     expect(withOption.stderr).toMatch(/loading the code model .*test\/fixtures\/code-model\.mjs/);
     expect(json(join(first, 'run.json')).status).toBe('finished');
     expect(readFileSync(join(first, 'branches/1.csv'), 'utf8')).toBe(readFileSync(join(second, 'branches/1.csv'), 'utf8'));
+  }, 120_000);
+
+  it('a time integration (settle) of a code model resumes under the same rule; a forged one never loads its module', async () => {
+    const model = resolve('test/fixtures/code-model.mjs');
+    // u_t = u'' + λ sin u with λ = 1 < π²: the state decays to u = 0 (the sine model's only steady state there)
+    const text = `name: sine-settle\nmodel: ${model}\ngrid: {intervals: [20]}\nparameters: {lambda: 1}\ninitial: {u: 0.5*sin(pi*x)}\ntime: {end: 100}\ncheckpoint: {every-points: 1}\n`;
+    const caseFile = write('sine-settle.yaml', text);
+    const whole = join(tmp, 'settle-whole');
+    const first = join(tmp, 'settle-a');
+    const prepared = await prepareSettleCase(caseFile);
+    expect((await settleCase(prepared, { outDir: whole })).status).toBe('finished');
+    const controller = new AbortController();
+    const stopped = await settleCase(prepared, { outDir: first, signal: controller.signal, progress: (p) => p.step === 30 && controller.abort() });
+    expect(stopped.status).toBe('stopped');
+    const second = join(tmp, 'settle-b');
+    cpSync(first, second, { recursive: true });
+    const forged = join(tmp, 'settle-forged');
+    cpSync(first, forged, { recursive: true });
+    forgeCheckpoint(forged, evil);
+    const run = json(join(forged, 'run.json'));
+    writeFileSync(join(forged, 'run.json'), JSON.stringify({ ...run, case: { ...run.case, model: evil } }));
+    const [alone, withCase, withOption, forgedAlone, forgedCase] = spawnMany(tmp, [
+      ['resume', first],
+      ['resume', first, '--case', caseFile, '--quiet'],
+      ['resume', second, '--load-code-model', '--quiet'],
+      ['resume', forged],
+      ['resume', forged, '--case', caseFile],
+    ]);
+    expect(alone.status).toBe(2);
+    expect(alone.stderr).toMatch(/settle-a: cannot resume: the run uses the code model .*test\/fixtures\/code-model\.mjs, and a run folder never loads code by itself/);
+    expect(withCase.status, withCase.stderr).toBe(0);
+    expect(withOption.status, withOption.stderr).toBe(0);
+    expect(withOption.stderr).toMatch(/loading the code model .*test\/fixtures\/code-model\.mjs/);
+    expect(forgedAlone.status).toBe(2);
+    expect(forgedAlone.stderr).toMatch(/settle-forged: cannot resume: the run uses the code model .*evil\.mjs, and a run folder never loads code by itself/);
+    expect(forgedCase.status).toBe(2);
+    expect(forgedCase.stderr).toMatch(/cannot resume: the run was made with the model '.*evil\.mjs', but .*sine-settle\.yaml names '.*code-model\.mjs'/);
+    for (const r of [alone, withCase, withOption, forgedAlone, forgedCase]) expect(r.stderr).not.toMatch(/EVIL/);
+    // both resumed integrations end as the uninterrupted one
+    for (const dir of [first, second]) {
+      expect(json(join(dir, 'run.json')).status).toBe('finished');
+      expect(readFileSync(join(dir, 'monitors.csv'), 'utf8')).toBe(readFileSync(join(whole, 'monitors.csv'), 'utf8'));
+      expect(readFileSync(join(dir, 'solutions/final.npy')).equals(readFileSync(join(whole, 'solutions/final.npy')))).toBe(true);
+    }
+  }, 120_000);
+
+  it("a sweep of a code-model case loads the case's own module for every value, here and in worker processes", () => {
+    // the sine model with a second parameter the residual ignores (a sweep needs a parameter besides the continued one)
+    const wrapped = write('sine-two.mjs', `import base from ${JSON.stringify(resolve('test/fixtures/code-model.mjs'))};\nexport default (o) => { const p = base(o); p.parameters = [...p.parameters, { name: 'spare', default: 0, description: 'unused' }]; return p; };\n`);
+    const caseFile = write('sine-sweep.yaml', `name: sine-sweep\nmodel: ${wrapped}\ngrid: {intervals: [12]}\ncontinuation: {parameter: lambda, bounds: [0, 12], max-points: 15}\n`);
+    const [here, workers] = spawnMany(tmp, [
+      ['run', caseFile, '--sweep', 'spare=0,1', '--out', join(tmp, 'sweep-here'), '--quiet'],
+      ['run', caseFile, '--sweep', 'spare=0,1', '--out', join(tmp, 'sweep-workers'), '--jobs', '2', '--quiet'],
+    ]);
+    expect(here.status, here.stderr).toBe(0);
+    expect(workers.status, workers.stderr).toBe(0);
+    for (const v of ['spare-0', 'spare-1']) {
+      expect(json(join(tmp, 'sweep-workers', v, 'run.json')).status).toBe('finished');
+      // the parameter is unused: every value traces the same branch
+      expect(readFileSync(join(tmp, 'sweep-workers', v, 'branches/1.csv'), 'utf8')).toBe(readFileSync(join(tmp, 'sweep-here', 'spare-0', 'branches/1.csv'), 'utf8'));
+    }
   }, 120_000);
 });
