@@ -9,12 +9,14 @@ import { parentPort } from 'node:worker_threads';
 import { prepareCaseObject } from './case.js';
 import { Checkpointer } from './checkpoint.js';
 import { InputError } from './errors.js';
-import { runCase } from './run-case.js';
+import { type ResumeState, runCase } from './run-case.js';
+import { prepareSettleCaseObject } from './settle-case.js';
+import { type SettleResume, settleCase } from './settle.js';
 import type { ThreadMessage, ThreadTask } from './run-thread.js';
 
 const send = (m: ThreadMessage): void => parentPort!.postMessage(m);
 
-/** One run; the thread then waits for the next (see run-thread.ts). */
+/** One run or time integration; the thread then waits for the next (see run-thread.ts). */
 async function run(task: ThreadTask): Promise<void> {
   const flag = new Int32Array(task.stop);
   const signal = {
@@ -22,25 +24,42 @@ async function run(task: ThreadTask): Promise<void> {
       return Atomics.load(flag, 0) !== 0;
     },
   };
+  const options = {
+    label: task.label,
+    ...(task.file !== undefined ? { file: task.file } : {}),
+    baseDir: task.baseDir,
+    ...(task.loadCode !== undefined ? { loadCode: task.loadCode } : {}),
+  };
+  const log = (level: 'info' | 'warning', message: string): void => send({ type: 'log', level, message });
   try {
-    const prepared = await prepareCaseObject(task.doc, {
-      label: task.label,
-      ...(task.file !== undefined ? { file: task.file } : {}),
-      baseDir: task.baseDir,
-      ...(task.loadCode !== undefined ? { loadCode: task.loadCode } : {}),
-    });
-    const checkpointer = new Checkpointer(task.checkpoint.policy, {
-      ...(task.checkpoint.sequence !== undefined ? { sequence: task.checkpoint.sequence } : {}),
-      ...(task.checkpoint.points !== undefined ? { points: task.checkpoint.points } : {}),
+    if (task.kind === 'settle') {
+      const prepared = await prepareSettleCaseObject(task.doc, options);
+      const result = await settleCase(prepared, {
+        outDir: task.outDir,
+        ...(task.force ? { force: true } : {}),
+        // settleCase reads only `aborted`
+        signal: signal as AbortSignal,
+        log,
+        progress: (info) => send({ type: 'progress', info }),
+        ...(task.resume ? { resume: task.resume as SettleResume } : {}),
+      });
+      send({ type: 'result', result });
+      return;
+    }
+    const prepared = await prepareCaseObject(task.doc, options);
+    const policy = task.checkpoint!;
+    const checkpointer = new Checkpointer(policy.policy, {
+      ...(policy.sequence !== undefined ? { sequence: policy.sequence } : {}),
+      ...(policy.points !== undefined ? { points: policy.points } : {}),
     });
     const result = await runCase(prepared, {
       outDir: task.outDir,
       ...(task.force ? { force: true } : {}),
       signal,
-      log: (level, message) => send({ type: 'log', level, message }),
+      log,
       progress: (info) => send({ type: 'progress', info }),
       checkpoint: checkpointer.hook,
-      ...(task.resume ? { resume: task.resume } : {}),
+      ...(task.resume ? { resume: task.resume as ResumeState } : {}),
     });
     send({ type: 'result', result });
   } catch (e) {

@@ -13,7 +13,8 @@
  * A second Ctrl-C leaves at once (the CLI exits; the thread goes with the process).
  *
  * The thread runs the same code on the same data as a run in this thread: results and files are
- * the same, bit for bit.
+ * the same, bit for bit. Time integrations (`settle`) go the same way (settleCaseInThread): their
+ * stop request is read between steps.
  */
 import { existsSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
@@ -25,6 +26,8 @@ import { InputError } from './errors.js';
 import type { RunLog } from './run-events.js';
 import type { ProgressInfo } from './run-hooks.js';
 import type { ResumeState, RunResult } from './run-case.js';
+import { type PreparedSettleCase, settleCaseDocument } from './settle-case.js';
+import type { SettleProgress, SettleResult, SettleResume } from './settle.js';
 
 export interface ThreadRunOptions {
   outDir: string;
@@ -39,6 +42,8 @@ export interface ThreadRunOptions {
 
 /** What the thread receives per run (structured-cloned; the stop flag is shared). */
 export interface ThreadTask {
+  /** A continuation run (runCase) or a time integration (settleCase). */
+  kind: 'run' | 'settle';
   doc: Record<string, unknown>;
   label: string;
   file?: string;
@@ -46,16 +51,17 @@ export interface ThreadTask {
   loadCode?: string;
   outDir: string;
   force: boolean;
-  checkpoint: ThreadRunOptions['checkpoint'];
-  resume?: ResumeState;
+  /** Runs only: the checkpointer's policy (an integration writes its own checkpoints). */
+  checkpoint?: ThreadRunOptions['checkpoint'];
+  resume?: ResumeState | SettleResume;
   /** Int32 flag: 0 go on, 1 stop requested. */
   stop: SharedArrayBuffer;
 }
 
 export type ThreadMessage =
   | { type: 'log'; level: 'info' | 'warning'; message: string }
-  | { type: 'progress'; info: ProgressInfo }
-  | { type: 'result'; result: RunResult }
+  | { type: 'progress'; info: ProgressInfo | SettleProgress }
+  | { type: 'result'; result: RunResult | SettleResult }
   | { type: 'error'; message: string; input: boolean };
 
 /**
@@ -90,27 +96,65 @@ function returnThread(w: Worker): void {
 
 /** Run (or resume) a prepared case in a worker thread; see the header. */
 export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Promise<RunResult> {
-  const stop = new SharedArrayBuffer(4);
-  const flag = new Int32Array(stop);
-  const task: ThreadTask = {
-    doc: caseDocument(prepared.case),
+  return inThread<RunResult, ProgressInfo>(
+    {
+      kind: 'run',
+      ...caseTask(prepared, caseDocument(prepared.case)),
+      outDir: o.outDir,
+      force: o.force === true,
+      checkpoint: o.checkpoint,
+      ...(o.resume ? { resume: o.resume } : {}),
+    },
+    o,
+  );
+}
+
+export interface ThreadSettleOptions {
+  outDir: string;
+  force?: boolean;
+  signal?: AbortSignal;
+  log: RunLog;
+  progress: (p: SettleProgress) => void;
+  resume?: SettleResume;
+}
+
+/** Integrate (or resume) a prepared settle case in a worker thread; see the header. */
+export function settleCaseInThread(prepared: PreparedSettleCase, o: ThreadSettleOptions): Promise<SettleResult> {
+  return inThread<SettleResult, SettleProgress>(
+    {
+      kind: 'settle',
+      ...caseTask(prepared, settleCaseDocument(prepared.case)),
+      outDir: o.outDir,
+      force: o.force === true,
+      ...(o.resume ? { resume: o.resume } : {}),
+    },
+    o,
+  );
+}
+
+/** The case part of a task: its resolved document `doc` (problems hold functions and cannot be sent). */
+function caseTask(prepared: PreparedCase | PreparedSettleCase, doc: Record<string, unknown>): Pick<ThreadTask, 'doc' | 'label' | 'file' | 'baseDir' | 'loadCode'> {
+  return {
+    doc,
     label: prepared.label,
     ...(prepared.file !== undefined ? { file: prepared.file } : {}),
     baseDir: prepared.baseDir,
     // the case was checked here with the same rule: only its own code model may load
     ...ownCodeModel(prepared.case),
-    outDir: o.outDir,
-    force: o.force === true,
-    checkpoint: o.checkpoint,
-    ...(o.resume ? { resume: o.resume } : {}),
-    stop,
   };
+}
+
+/** Send `body` to a thread; its log lines and progress (of type P) come back to `o` until its result (R). */
+function inThread<R, P>(body: Omit<ThreadTask, 'stop'>, o: { signal?: AbortSignal; log: RunLog; progress: (p: P) => void }): Promise<R> {
+  const stop = new SharedArrayBuffer(4);
+  const flag = new Int32Array(stop);
+  const task: ThreadTask = { ...body, stop };
   const onAbort = (): void => {
     Atomics.store(flag, 0, 1);
   };
   if (o.signal?.aborted) onAbort();
   o.signal?.addEventListener('abort', onAbort);
-  return new Promise<RunResult>((done, fail) => {
+  return new Promise<R>((done, fail) => {
     let settled = false;
     const worker = takeThread();
     worker.on('message', (m: ThreadMessage) => {
@@ -119,12 +163,12 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
           o.log(m.level, m.message);
           break;
         case 'progress':
-          o.progress(m.info);
+          o.progress(m.info as P);
           break;
         case 'result':
           settled = true;
           returnThread(worker);
-          done(m.result);
+          done(m.result as R);
           break;
         case 'error':
           settled = true;

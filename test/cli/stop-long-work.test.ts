@@ -153,3 +153,47 @@ describe('a stop request during long numerical work', () => {
     expect(calls(twiceLog).length).toBeLessThanOrEqual(3);
   }, 180_000);
 });
+
+describe('a stop request during a long time integration (settle)', () => {
+  it('is answered while the model is still working, and a second signal leaves at once', async () => {
+    // each Jacobian call logs "start n", works 3 s (a long factorisation's stand-in), then logs "end n"
+    const slow = join(tmp, 'slow-settle-model.mjs');
+    writeFileSync(
+      slow,
+      `import { appendFileSync } from 'node:fs';
+import sine from ${JSON.stringify(resolve('test/fixtures/code-model.mjs'))};
+const pause = new Int32Array(new SharedArrayBuffer(4));
+export default function (options) {
+  const p = sine(options);
+  let calls = 0;
+  return { ...p, jacobian(u, q, values) {
+    const n = ++calls;
+    appendFileSync(process.env.SLOW_MODEL_LOG, 'start ' + n + '\\n');
+    Atomics.wait(pause, 0, 0, 3000);
+    appendFileSync(process.env.SLOW_MODEL_LOG, 'end ' + n + '\\n');
+    return p.jacobian(u, q, values);
+  } };
+}
+`,
+    );
+    const settleFile = join(tmp, 'slow-settle.yaml');
+    writeFileSync(settleFile, 'name: slow-settle\nmodel: ./slow-settle-model.mjs\ngrid: {intervals: [16]}\nparameters: {lambda: 1}\ninitial: {u: 0.5*sin(pi*x)}\ntime: {end: 100}\n');
+    const out = join(tmp, 'slow-settle');
+    const log = join(tmp, 'slow-settle.log');
+    const lines = (): string[] => (existsSync(log) ? readFileSync(log, 'utf8').trim().split('\n') : []);
+    const p = start(['settle', settleFile, '--out', out], log, out);
+    let done = false;
+    void p.ended.then(() => (done = true));
+    while (!done && !lines().includes('start 1')) await sleep(20);
+    expect(done, 'the integration ended before the model was called').toBe(false);
+    p.child.kill('SIGINT');
+    while (!done && !/SIGINT: finishing the current step/.test(p.stderr())) await sleep(10);
+    // answered while the first Jacobian call is still at work (in the integration's thread)
+    expect(lines()).not.toContain('end 1');
+    p.child.kill('SIGINT');
+    const e = await p.ended;
+    expect(e.code, e.err).toBe(130);
+    expect(e.err).toMatch(/second SIGINT: leaving at once/);
+    expect(lines()).not.toContain('end 1');
+  }, 120_000);
+});

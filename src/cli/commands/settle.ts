@@ -9,7 +9,8 @@ import { InputError } from '../../run/errors.js';
 import type { CodeModelChoice } from '../../run/resume-code.js';
 import { type PreparedSettleCase, prepareSettleCase } from '../../run/settle-case.js';
 import { settleView } from '../../run/settle-progress.js';
-import { type SettleResult, prepareSettleResume, settleCase, settleDirectory } from '../../run/settle.js';
+import { type SettleResult, prepareSettleResume, settleDirectory } from '../../run/settle.js';
+import { settleCaseInThread } from '../../run/run-thread.js';
 import { formatSettleSummary, settleJson } from '../../run/settle-summary.js';
 import { toJson } from '../../run/writers.js';
 import { onTerminal, stopOnSignals } from './run.js';
@@ -53,7 +54,8 @@ export async function settleSession(prepared: PreparedSettleCase, outDir: string
   const stop = stopOnSignals(io, () => view);
   let result: SettleResult;
   try {
-    result = await settleCase(prepared, {
+    // in a worker thread: a long factorisation never keeps the signals waiting (see run-thread.ts)
+    result = await settleCaseInThread(prepared, {
       outDir,
       ...(opts.force ? { force: true } : {}),
       signal: stop.signal,
