@@ -227,6 +227,8 @@ describe('fuzzed case files mixing odd files, nested expressions, prototype keys
       [['start'], { solution: 'big.npy' }],
       [['start'], { run: 'odd-run', point: 'end' }],
       [['model'], './pipe.mjs'],
+      [['initial'], 'pipe.npy'],
+      [['initial'], 'zero.npy'],
     );
     const hostile = fc.constantFrom<[string[], unknown]>(
       [['reaction', 'u'], `${'sin('.repeat(90)}u${')'.repeat(90)}`],
@@ -238,10 +240,13 @@ describe('fuzzed case files mixing odd files, nested expressions, prototype keys
       [['grid', 'length'], 1e-320],
       [['continuation', 'bounds', 1], 1e308],
       [['boundary'], 'dirichlet'],
+      [['initial'], { u: `${'sin('.repeat(90)}x${')'.repeat(90)}` }],
+      [['initial'], JSON.parse('{"u": 1, "__proto__": {"v": 2}}')],
     );
-    const docs = fc.sample(fc.tuple(odd, fc.array(hostile, { maxLength: 3 }), fc.boolean()), 30);
+    // each case is run (branchline run) or integrated in time (branchline settle: it has a time: key too)
+    const docs = fc.sample(fc.tuple(odd, fc.array(hostile, { maxLength: 3 }), fc.boolean(), fc.boolean()), 30);
     const commands: string[][] = [['run', inDir('pipe.yaml')], ['run', inDir('random.yaml')]];
-    docs.forEach(([first, rest, asJson], i) => {
+    docs.forEach(([first, rest, asJson, settle], i) => {
       const doc: Record<string, any> = {
         model: 'reaction-diffusion',
         fields: ['u'],
@@ -251,6 +256,7 @@ describe('fuzzed case files mixing odd files, nested expressions, prototype keys
         boundary: 'dirichlet',
         grid: { intervals: [8] },
         continuation: { parameter: 'mu', bounds: [0, 1], 'max-points': 5 },
+        time: { end: 1 },
       };
       for (const [path, value] of [...rest, first]) {
         let o = doc;
@@ -259,7 +265,7 @@ describe('fuzzed case files mixing odd files, nested expressions, prototype keys
       }
       const file = inDir(`case-${i}.${asJson ? 'json' : 'yaml'}`);
       writeFileSync(file, JSON.stringify(doc)); // JSON text is YAML too
-      commands.push(['run', file, '--out', inDir(`out-${i}`)]);
+      commands.push([settle ? 'settle' : 'run', file, '--out', inDir(`out-${i}`)]);
     });
     const results = branchlineMany(...commands);
     results.forEach((r, i) => {
