@@ -9,6 +9,7 @@ import { parentPort } from 'node:worker_threads';
 import { prepareCaseObject } from './case.js';
 import { Checkpointer } from './checkpoint.js';
 import { InputError } from './errors.js';
+import type { FolderLock } from './lock.js';
 import { type ResumeState, runCase } from './run-case.js';
 import { prepareSettleCaseObject } from './settle-case.js';
 import { type SettleResume, settleCase } from './settle.js';
@@ -31,6 +32,8 @@ async function run(task: ThreadTask): Promise<void> {
     ...(task.loadCode !== undefined ? { loadCode: task.loadCode } : {}),
   };
   const log = (level: 'info' | 'warning', message: string): void => send({ type: 'log', level, message });
+  // the caller (this process's main thread) holds the folder's lock and releases it
+  const held = task.lockHeld ? { lock: { release() {} } as unknown as FolderLock } : {};
   try {
     if (task.kind === 'settle') {
       const prepared = await prepareSettleCaseObject(task.doc, options);
@@ -42,6 +45,7 @@ async function run(task: ThreadTask): Promise<void> {
         log,
         progress: (info) => send({ type: 'progress', info }),
         ...(task.resume ? { resume: task.resume as SettleResume } : {}),
+        ...held,
       });
       send({ type: 'result', result });
       return;
@@ -60,6 +64,9 @@ async function run(task: ThreadTask): Promise<void> {
       progress: (info) => send({ type: 'progress', info }),
       checkpoint: checkpointer.hook,
       ...(task.resume ? { resume: task.resume as ResumeState } : {}),
+      ...held,
+      ...(task.alongside ? { alongside: true } : {}),
+      ...(task.restart ? { restart: task.restart } : {}),
     });
     send({ type: 'result', result });
   } catch (e) {

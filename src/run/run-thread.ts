@@ -16,13 +16,17 @@
  * the same, bit for bit. Time integrations (`settle`) go the same way (settleCaseInThread): their
  * stop request is read between steps.
  */
-import { existsSync } from 'node:fs';
+import { existsSync, rmSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { type PreparedCase, caseDocument, ownCodeModel } from './case.js';
 import type { CheckpointPolicy } from './checkpoint.js';
 import { InputError } from './errors.js';
+import { onLeaveAtOnce } from './leave.js';
+import { type FolderLock, lockFile, readLock } from './lock.js';
+import { readRunRecord } from './run-directory.js';
+import { writeJsonAtomic } from './writers.js';
 import type { RunLog } from './run-events.js';
 import type { ProgressInfo } from './run-hooks.js';
 import type { ResumeState, RunResult } from './run-case.js';
@@ -38,6 +42,10 @@ export interface ThreadRunOptions {
   /** The checkpointer's policy and, resuming, where its numbering goes on from. */
   checkpoint: { policy: CheckpointPolicy; sequence?: number; points?: number };
   resume?: ResumeState;
+  /** The folder's lock when the caller holds it (see RunCaseOptions.lock). */
+  lock?: FolderLock;
+  alongside?: boolean;
+  restart?: { started: string; resumes: string[] };
 }
 
 /** What the thread receives per run (structured-cloned; the stop flag is shared). */
@@ -54,6 +62,10 @@ export interface ThreadTask {
   /** Runs only: the checkpointer's policy (an integration writes its own checkpoints). */
   checkpoint?: ThreadRunOptions['checkpoint'];
   resume?: ResumeState | SettleResume;
+  /** The caller holds the folder's lock (this process: the thread must not take it again). */
+  lockHeld: boolean;
+  alongside?: boolean;
+  restart?: { started: string; resumes: string[] };
   /** Int32 flag: 0 go on, 1 stop requested. */
   stop: SharedArrayBuffer;
 }
@@ -104,6 +116,9 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
       force: o.force === true,
       checkpoint: o.checkpoint,
       ...(o.resume ? { resume: o.resume } : {}),
+      lockHeld: o.lock !== undefined,
+      ...(o.alongside ? { alongside: true } : {}),
+      ...(o.restart ? { restart: o.restart } : {}),
     },
     o,
   );
@@ -116,6 +131,8 @@ export interface ThreadSettleOptions {
   log: RunLog;
   progress: (p: SettleProgress) => void;
   resume?: SettleResume;
+  /** The folder's lock when the caller holds it. */
+  lock?: FolderLock;
 }
 
 /** Integrate (or resume) a prepared settle case in a worker thread; see the header. */
@@ -127,6 +144,7 @@ export function settleCaseInThread(prepared: PreparedSettleCase, o: ThreadSettle
       outDir: o.outDir,
       force: o.force === true,
       ...(o.resume ? { resume: o.resume } : {}),
+      lockHeld: o.lock !== undefined,
     },
     o,
   );
@@ -145,7 +163,7 @@ function caseTask(prepared: PreparedCase | PreparedSettleCase, doc: Record<strin
 }
 
 /** Send `body` to a thread; its log lines and progress (of type P) come back to `o` until its result (R). */
-function inThread<R, P>(body: Omit<ThreadTask, 'stop'>, o: { signal?: AbortSignal; log: RunLog; progress: (p: P) => void }): Promise<R> {
+function inThread<R, P>(body: Omit<ThreadTask, 'stop'>, o: { signal?: AbortSignal; log: RunLog; progress: (p: P) => void; lock?: FolderLock }): Promise<R> {
   const stop = new SharedArrayBuffer(4);
   const flag = new Int32Array(stop);
   const task: ThreadTask = { ...body, stop };
@@ -154,6 +172,9 @@ function inThread<R, P>(body: Omit<ThreadTask, 'stop'>, o: { signal?: AbortSigna
   };
   if (o.signal?.aborted) onAbort();
   o.signal?.addEventListener('abort', onAbort);
+  // leaving at once (a second Ctrl-C): the thread may be deep in a factorisation and cannot answer,
+  // so this thread marks the run stopped (it resumes from its last checkpoint) and frees the folder
+  const unregister = onLeaveAtOnce((reason) => leaveRunFolder(body.outDir, reason, o.lock));
   return new Promise<R>((done, fail) => {
     let settled = false;
     const worker = takeThread();
@@ -188,7 +209,18 @@ function inThread<R, P>(body: Omit<ThreadTask, 'stop'>, o: { signal?: AbortSigna
       fail(new Error(`the run's thread ended (exit code ${code}) before the run did`));
     });
     worker.postMessage(task);
-  }).finally(() => o.signal?.removeEventListener('abort', onAbort));
+  }).finally(() => {
+    unregister();
+    o.signal?.removeEventListener('abort', onAbort);
+  });
+}
+
+/** A run left at once: run.json `stopped` with the reason (when it still says running), the folder's lock released. */
+function leaveRunFolder(dir: string, reason: string, lock: FolderLock | undefined): void {
+  const run = readRunRecord(dir);
+  if (run?.status === 'running') writeJsonAtomic(join(dir, 'run.json'), { ...run, status: 'stopped', note: reason });
+  if (lock) lock.release();
+  else if (readLock(dir)?.writer?.pid === process.pid) rmSync(join(dir, lockFile), { force: true });
 }
 
 /** The compiled thread entry (dist/ when running from the TypeScript sources, e.g. in tests). */
