@@ -218,7 +218,11 @@ function inThread<R, P>(body: Omit<ThreadTask, 'stop'>, o: { signal?: AbortSigna
 /** A run left at once: run.json `stopped` with the reason (when it still says running), the folder's lock released. */
 function leaveRunFolder(dir: string, reason: string, lock: FolderLock | undefined): void {
   const run = readRunRecord(dir);
-  if (run?.status === 'running') writeJsonAtomic(join(dir, 'run.json'), { ...run, status: 'stopped', note: reason });
+  if (run && run.status !== 'finished' && run.status !== 'failed') {
+    // as the run's own record would say it: stopped, no writer process any more
+    const { process: _writer, ...rest } = run;
+    writeJsonAtomic(join(dir, 'run.json'), { ...rest, status: 'stopped', note: reason });
+  }
   if (lock) lock.release();
   else if (readLock(dir)?.writer?.pid === process.pid) rmSync(join(dir, lockFile), { force: true });
 }

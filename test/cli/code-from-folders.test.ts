@@ -198,4 +198,36 @@ describe('a forged run folder never runs code', () => {
       expect(readFileSync(join(tmp, 'sweep-workers', v, 'branches/1.csv'), 'utf8')).toBe(readFileSync(join(tmp, 'sweep-here', 'spare-0', 'branches/1.csv'), 'utf8'));
     }
   }, 120_000);
+
+  it("a refinement study of a code model resumes only as the user says (--case or --load-code-model); its grids load the study's module", () => {
+    const model = resolve('test/fixtures/code-model.mjs');
+    const caseFile = write('sine-study.yaml', `name: sine-study\nmodel: ${model}\ngrid: {intervals: [8]}\ncontinuation: {parameter: lambda, bounds: [0, 12], max-points: 30}\n`);
+    const whole = join(tmp, 'study-whole');
+    const [ran] = spawnMany(tmp, [['refine', caseFile, '--grids', '8,16', '--point', 'branch-point', '--out', whole, '--quiet']]);
+    expect(ran.status, ran.stderr).toBe(0);
+    // the same study as if killed before its second grid started: refine.json running, grid-16 absent
+    const cut = (name: string): string => {
+      const dir = join(tmp, name);
+      cpSync(whole, dir, { recursive: true });
+      rmSync(join(dir, 'grid-16'), { recursive: true, force: true });
+      const doc = json(join(dir, 'refine.json'));
+      writeFileSync(join(dir, 'refine.json'), JSON.stringify({ ...doc, status: 'running' }));
+      return dir;
+    };
+    const a = cut('study-a');
+    const b = cut('study-b');
+    const [alone, withCase, withOption] = spawnMany(tmp, [
+      ['resume', a],
+      ['resume', a, '--case', caseFile, '--quiet'],
+      ['resume', b, '--load-code-model', '--quiet'],
+    ]);
+    expect(alone.status).toBe(2);
+    expect(alone.stderr).toMatch(/study-a: cannot resume: the run uses the code model .*test\/fixtures\/code-model\.mjs, and a run folder never loads code by itself/);
+    expect(withCase.status, withCase.stderr).toBe(0);
+    expect(withOption.status, withOption.stderr).toBe(0);
+    for (const dir of [a, b]) {
+      expect(json(join(dir, 'refine.json')).status).toBe('finished');
+      expect(readFileSync(join(dir, 'grid-16', 'branches/1.csv'), 'utf8')).toBe(readFileSync(join(whole, 'grid-16', 'branches/1.csv'), 'utf8'));
+    }
+  }, 120_000);
 });
