@@ -140,6 +140,12 @@ export interface ContinuationPoint {
   determinantSign: number;
   /** Stability from the rightmost eigenvalues (absent when stability analysis is off). */
   stability?: PointStability;
+  /**
+   * Set when the unstable count changed over the step that reached this point and no fold,
+   * branch point or Hopf point explains it even at the minimum step, e.g. "the unstable count
+   * changed from 1 to 2".
+   */
+  unexplained?: string;
 }
 
 export type BranchPointType = 'pitchfork' | 'transcritical' | 'unknown';

@@ -16,7 +16,7 @@
  *     max-points: 500                    # per branch
  *     stop-when: [{monitor: max, above: 8}]
  *     branch-switching: {depth: 1}      # the default when left out (0: stay on the first branch)
- *     newton: {tolerance: 1e-9, max-iterations: 10}
+ *     newton: {residual-tolerance: 1e-9, step-tolerance: 1e-9, max-iterations: 10}   # tolerance: T sets both
  *     locate: {folds: true, branch-points: true}
  *     max-turn-degrees: 30
  *   output: {directory: runs/slab, solutions: special}   # special | none | all
@@ -111,7 +111,7 @@ export interface ResolvedContinuation {
   maxPoints: number;
   stopWhen: { monitor: string; above?: number; below?: number }[];
   branchSwitching: { depth: number };
-  newton: { tolerance: number; maxIterations: number };
+  newton: { residualTolerance: number; stepTolerance: number; maxIterations: number };
   locate: { folds: boolean; branchPoints: boolean };
   maxTurnDegrees: number;
 }
@@ -278,6 +278,8 @@ const continuationSchema = section({
   'branch-switching': section({ depth: integerIn(0, maxDepthLimit) }).optional(),
   newton: section({
     tolerance: z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
+    'residual-tolerance': z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
+    'step-tolerance': z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
     'max-iterations': integerIn(1, 100).optional(),
   }).optional(),
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
@@ -797,7 +799,9 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     stopWhen,
     branchSwitching: { depth: c['branch-switching']?.depth ?? defaultSettings.branchSwitching.depth },
     newton: {
-      tolerance: c.newton?.tolerance ?? defaultSettings.newton.residualTolerance,
+      // `tolerance` is shorthand for both; the specific keys win
+      residualTolerance: c.newton?.['residual-tolerance'] ?? c.newton?.tolerance ?? defaultSettings.newton.residualTolerance,
+      stepTolerance: c.newton?.['step-tolerance'] ?? c.newton?.tolerance ?? defaultSettings.newton.stepTolerance,
       maxIterations: c.newton?.['max-iterations'] ?? defaultSettings.newton.maxIterations,
     },
     locate: {
@@ -1014,7 +1018,7 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
     maxPoints: c.maxPoints,
     stopWhen: c.stopWhen.map((s) => ({ ...s })),
     branchSwitching: { depth: c.branchSwitching.depth },
-    newton: { residualTolerance: c.newton.tolerance, stepTolerance: c.newton.tolerance, maxIterations: c.newton.maxIterations },
+    newton: { residualTolerance: c.newton.residualTolerance, stepTolerance: c.newton.stepTolerance, maxIterations: c.newton.maxIterations },
     locate: { folds: c.locate.folds, branchPoints: c.locate.branchPoints },
     maxTurnDegrees: c.maxTurnDegrees,
   };
@@ -1048,7 +1052,7 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
       'max-points': k.maxPoints,
       'stop-when': k.stopWhen,
       'branch-switching': k.branchSwitching,
-      newton: { tolerance: k.newton.tolerance, 'max-iterations': k.newton.maxIterations },
+      newton: { 'residual-tolerance': k.newton.residualTolerance, 'step-tolerance': k.newton.stepTolerance, 'max-iterations': k.newton.maxIterations },
       locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
       'max-turn-degrees': k.maxTurnDegrees,
     },
