@@ -15,6 +15,7 @@ import { correct, correctWork, type NewtonResult, type NewtonWork } from './newt
 import { ContinuationSystem, allFinite } from './system.js';
 import { StabilityAnalyser, crossingPair, locateHopf } from './stability.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
+import type { BackendDecision } from '../linalg/lu.js';
 import { difference } from '../linalg/vector.js';
 import type {
   BranchInfo,
@@ -146,13 +147,13 @@ export class Continuation {
     readonly settings: ContinuationSettings,
     private readonly options: ContinuationOptions = {},
   ) {
-    const lu = options.interrupt ? { beforeFactor: options.interrupt } : {};
+    const lu = { ...(settings.sparseLu ? { backend: settings.sparseLu } : {}), ...(options.interrupt ? { beforeFactor: options.interrupt } : {}) };
     this.sys = new ContinuationSystem(problem, params, settings.parameter, lu);
     this.n = problem.size;
     this.work = correctWork(this.n);
     [this.lo, this.hi] = settings.bounds;
     const k = settings.stability?.eigenvalues ?? 0;
-    this.stab = k > 0 ? new StabilityAnalyser(this.sys, k, lu) : undefined;
+    this.stab = k > 0 ? new StabilityAnalyser(this.sys, k) : undefined;
     this.state = options.state
       ? cloneState(options.state)
       : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
@@ -165,6 +166,11 @@ export class Continuation {
 
   snapshot(): EngineState {
     return cloneState(this.state);
+  }
+
+  /** Which sparse LU factors the bordered continuation matrix and why (undefined before the first point). */
+  linearSolver(): BackendDecision | undefined {
+    return this.sys.luDecision;
   }
 
   /** Counts of the linear algebra done so far. */
@@ -247,10 +253,7 @@ export class Continuation {
       this.sys.setTangentRow(prev);
       this.sys.factor(fresh);
     }
-    const rhs = this.work.rhs;
-    rhs.fill(0);
-    rhs[n] = 1;
-    const z = this.sys.solve(rhs, new Float64Array(n + 1));
+    const z = this.sys.lastColumnSolution().slice();
     const s = this.sys.norm(z);
     for (let i = 0; i <= n; i++) z[i] /= s;
     // z·prev = 1/s > 0: already oriented along the previous tangent
@@ -490,7 +493,7 @@ export class Continuation {
       // or Hopf point of this step explains is split by smaller steps (crossings.ts)
       let stability: CandidateStability | undefined;
       if (rejection === undefined && tangent && this.stab && b.stability) {
-        stability = this.candidateStability(b, xNew, tangent, sign, ds);
+        stability = this.candidateStability(b, xNew, tangent, sign, ds, true);
         rejection = stability.rejection;
       }
       if (rejection !== undefined || !tangent) {
@@ -512,10 +515,13 @@ export class Continuation {
    * by two real eigenvalues only down to the floor max(min, 10⁻⁴·max), below which it counts as
    * a double crossing (a branch point of multiplicity two, located on the eigenvalues).
    */
-  private candidateStability(b: BranchState, xNew: Float64Array, tangent: Float64Array, sign: number, ds: number): CandidateStability {
+  /** `factoredHere`: the bordered matrix was factored at xNew itself (not at a Newton iterate before it). */
+  private candidateStability(b: BranchState, xNew: Float64Array, tangent: Float64Array, sign: number, ds: number, factoredHere = false): CandidateStability {
     const n = this.n;
     const st = this.settings;
-    const r = this.stab!.analyse(xNew, b.eigenWarm);
+    // when the bordered matrix was factored at xNew itself (the arclength step's tangentFrom), its
+    // factors solve with J there, which spares the eigenvalue solver its own factorisation at shift 0
+    const r = this.stab!.analyse(xNew, b.eigenWarm, false, factoredHere ? this.sys.jacobianSolver() : undefined);
     const account = accountStep(b.stability!, r.stability, {
       fold: b.tangent[n] * tangent[n] < 0,
       branchPoint: b.determinantSign !== 0 && sign !== 0 && sign !== b.determinantSign,

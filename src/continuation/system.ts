@@ -13,9 +13,10 @@
  */
 import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../linalg/bordered.js';
-import { SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
+import { type BackendDecision, SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { ResidualSizes } from '../problem/residual-size.js';
+import type { FactoredShift } from '../linalg/eigen.js';
 
 export class ContinuationSystem {
   readonly n: number;
@@ -29,7 +30,8 @@ export class ContinuationSystem {
   readonly bordered: BorderedMatrix;
   private readonly sizes: ResidualSizes;
   private lu: SparseLU | undefined;
-  private readonly luOptions: LUOptions;
+  /** Options of the bordered matrix's LU (the eigenvalue solver's LU takes the same backend request). */
+  readonly luOptions: LUOptions;
   private readonly rowBuffer: Float64Array;
   factorisations = 0;
   refactorisations = 0;
@@ -138,6 +140,11 @@ export class ContinuationSystem {
     this.bordered.setColumn(0, column);
   }
 
+  /** Which sparse LU factors the bordered matrix and why (undefined before the first factorisation). */
+  get luDecision(): BackendDecision | undefined {
+    return this.lu?.decision;
+  }
+
   private solver(): SparseLU {
     if (!this.lu) this.lu = new SparseLU(this.bordered.pattern, this.luOptions);
     return this.lu;
@@ -174,6 +181,60 @@ export class ContinuationSystem {
     } finally {
       this.seconds[phase] += (performance.now() - t0) / 1000;
     }
+  }
+
+  private unitSolution: { stamp: number; z: Float64Array } | undefined;
+
+  /**
+   * z = A⁻¹e_{n+1} for the current factors of the bordered matrix A (one solve, once per
+   * factorisation): the unnormalised tangent when the border row is the previous tangent, and the
+   * second solution the bordering lemma needs (`jacobianSolver`). Do not modify it.
+   */
+  lastColumnSolution(): Float64Array {
+    if (this.unitSolution?.stamp !== this.stamp) {
+      const e = new Float64Array(this.n + 1);
+      e[this.n] = 1;
+      this.unitSolution = { stamp: this.stamp, z: this.solve(e, new Float64Array(this.n + 1)) };
+    }
+    return this.unitSolution.z;
+  }
+
+  /**
+   * Solves with the Jacobian J inside the current factors of the bordered matrix A = [J b; cᵀ d],
+   * without a factorisation of J (the bordering lemma): with A[z; ζ] = e_{n+1} and
+   * A[x₁; y₁] = [r; 0], J(x₁ − (y₁/ζ)z) = r, since Jz + bζ = 0 and Jx₁ + by₁ = r. One solve with
+   * A per solve with J. The eigenvalue solver uses it as its shift-invert operator at shift 0, so
+   * that a point whose bordered matrix was factored at the point itself needs no factorisation of
+   * J for the eigenvalues (when shift 0 suits the search). Undefined when ζ is negligible against
+   * z (J singular to working precision: a fold or branch point); valid until the next
+   * factorisation (a solve after it throws).
+   */
+  jacobianSolver(): FactoredShift | undefined {
+    const n = this.n;
+    const z = this.lastColumnSolution();
+    const zeta = z[n];
+    let zMax = 0;
+    for (let i = 0; i < n; i++) zMax = Math.max(zMax, Math.abs(z[i]));
+    if (!(Math.abs(zeta) > 1e-10 * zMax)) return undefined;
+    const stamp = this.stamp;
+    const lu = this.solver();
+    const rhs = new Float64Array(n + 1);
+    const x1 = new Float64Array(n + 1);
+    return {
+      shift: 0,
+      lu: {
+        solve: (b: Float64Array, out?: Float64Array): Float64Array => {
+          if (this.stamp !== stamp) throw new Error('jacobianSolver: the bordered matrix was factored again since this solver was made');
+          rhs.set(b.subarray(0, n));
+          rhs[n] = 0;
+          lu.solve(rhs, x1);
+          const x = out ?? new Float64Array(n);
+          const c = x1[n] / zeta;
+          for (let i = 0; i < n; i++) x[i] = x1[i] - c * z[i];
+          return x;
+        },
+      },
+    };
   }
 
   /** Sign and log|det| of the factored bordered matrix. */

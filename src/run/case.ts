@@ -19,6 +19,7 @@
  *     newton: {residual-tolerance: 1e-9, step-tolerance: 1e-9, max-iterations: 10}   # tolerance: T sets both
  *     locate: {folds: true, branch-points: true}
  *     max-turn-degrees: 30
+ *     sparse-lu: auto                    # auto | klu | superlu (auto: chosen from the pattern)
  *   output: {directory: runs/slab, solutions: special}   # special | none | all
  *   stability: {eigenvalues: 0}          # rightmost eigenvalues per point (0: no stability analysis)
  *   checkpoint: {every-points: 25, every-seconds: 60}    # used by checkpoint/resume
@@ -114,6 +115,7 @@ export interface ResolvedContinuation {
   newton: { residualTolerance: number; stepTolerance: number; maxIterations: number };
   locate: { folds: boolean; branchPoints: boolean };
   maxTurnDegrees: number;
+  sparseLu: 'auto' | 'klu' | 'superlu';
 }
 
 export interface ResolvedCase {
@@ -284,6 +286,7 @@ const continuationSchema = section({
   }).optional(),
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
+  'sparse-lu': word(['auto', 'klu', 'superlu']).optional(),
 });
 
 const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster'] as const;
@@ -809,6 +812,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       branchPoints: c.locate?.['branch-points'] ?? defaultSettings.locate.branchPoints,
     },
     maxTurnDegrees: c['max-turn-degrees'] ?? defaultSettings.maxTurnDegrees,
+    sparseLu: (c['sparse-lu'] ?? 'auto') as 'auto' | 'klu' | 'superlu',
   };
 
   // 9. output, stability, checkpoint
@@ -1021,6 +1025,7 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
     newton: { residualTolerance: c.newton.residualTolerance, stepTolerance: c.newton.stepTolerance, maxIterations: c.newton.maxIterations },
     locate: { folds: c.locate.folds, branchPoints: c.locate.branchPoints },
     maxTurnDegrees: c.maxTurnDegrees,
+    sparseLu: c.sparseLu,
   };
 }
 
@@ -1055,6 +1060,7 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
       newton: { 'residual-tolerance': k.newton.residualTolerance, 'step-tolerance': k.newton.stepTolerance, 'max-iterations': k.newton.maxIterations },
       locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
       'max-turn-degrees': k.maxTurnDegrees,
+      'sparse-lu': k.sparseLu,
     },
     output: { ...(c.output.directory !== undefined ? { directory: c.output.directory } : {}), solutions: c.output.solutions },
     stability: { eigenvalues: c.stability.eigenvalues },
