@@ -1,0 +1,318 @@
+/**
+ * The distance between two states of a Problem, in the root-mean-square sense
+ *
+ *     d(u, r) = √( Σ_i w_i (u_i − r_i)² / Σ_grid w_i )
+ *
+ * (w the problem's quadrature weights, the sum under the root over every unknown, extras with
+ * their weight 1; divided by the domain's measure so that d means the same on every grid and
+ * every domain size), and on domains with periodic axes the distance modulo translation:
+ *
+ *     d_T(u, r) = min over shifts c of d(u, T_c r),
+ *
+ * T_c r the copy of r shifted by c (a real number of nodes per periodic axis) by trigonometric
+ * interpolation along the periodic axes: T_c r = Re F⁻¹[ r̂_k e^{−2πi k·c/N} ]. A pattern on a
+ * periodic grid and its shifted copies are one state; shifts by whole nodes are exact symmetries
+ * of the discrete problem, and shifts in between are what Newton's method reaches along the
+ * (nearly) neutral translation mode.
+ *
+ * The best shift: the weighted cross-correlation C(c) = Σ w u·T_c r is evaluated at every whole
+ * shift at once by FFT (C(s) = Re F[conj(û) r̂](s) / N), and its largest value refined to a
+ * fraction of a node by Newton's method on C(c) in Fourier space (analytic first and second
+ * derivatives). By the envelope theorem the gradient of d_T with respect to u is that of
+ * d(u, T_c r) at the best shift c, which is what deflation needs (./deflation.ts).
+ *
+ * Periodic axes are recognised from the problem's description: a periodic axis has as many nodes
+ * as intervals (see AxisDescription). Everything works on node arrays (toNodeArray /
+ * fromNodeArray), so any model with periodic axes is served, built-in, expression or code.
+ */
+import { fftAxes, signedWavenumber } from '../linalg/fft.js';
+import type { Params, Problem } from '../problem/problem.js';
+
+/** A state prepared for distance measurements: its vector and, with periodic axes, its transform. */
+export interface StateReference {
+  readonly u: Float64Array;
+  /** The transform of its node array along the periodic axes (with periodic axes only). */
+  readonly re?: Float64Array;
+  readonly im?: Float64Array;
+}
+
+/** A state being measured against several references (its transform computed once). */
+export interface Probe {
+  readonly u: Float64Array;
+  readonly re?: Float64Array;
+  readonly im?: Float64Array;
+}
+
+export interface Nearest {
+  /** The root-mean-square distance (modulo translation when periodic axes are measured so). */
+  distance: number;
+  /** The shift of the reference, in nodes per periodic axis (x first); empty without translation. */
+  shift: number[];
+  /** The nearest copy of the reference (the reference itself without translation): a full state vector. */
+  copy: Float64Array;
+}
+
+/** Periodic axes of a problem (indices into describe().axes, x = 0), from their node counts. */
+export function periodicAxes(problem: Problem): number[] {
+  return problem
+    .describe()
+    .axes.map((a, i) => (a.nodes === a.intervals ? i : -1))
+    .filter((i) => i >= 0);
+}
+
+export class StateDistance {
+  /** Whether distances are taken modulo translation (the problem has periodic axes and it was asked for). */
+  readonly translation: boolean;
+  /** Periodic axes measured modulo translation (indices into describe().axes). */
+  readonly axes: readonly number[];
+  private readonly n: number;
+  private readonly weightSum: number;
+  private readonly shape: number[] = [];
+  /** The periodic axes as indices into the node array's shape (fields first, x last). */
+  private readonly arrayAxes: number[] = [];
+  /** Node counts of the periodic axes, x first. */
+  private readonly lengths: number[] = [];
+  /** Weights on the node array (zero on boundary nodes that are not unknowns). */
+  private nodeWeights = new Float64Array(0);
+  /** Flat index of the periodic part of every node-array index. */
+  private periodicIndex = new Int32Array(0);
+  private periodicSize = 1;
+  /** Signed wavenumbers per periodic mode, x first: waves[a][m]. */
+  private waves: Float64Array[] = [];
+
+  constructor(
+    readonly problem: Problem,
+    readonly params: Params,
+    options: { translation: boolean },
+  ) {
+    this.n = problem.size;
+    let s = 0;
+    for (let i = 0; i < problem.gridUnknowns; i++) s += problem.weights[i];
+    this.weightSum = s > 0 ? s : 1;
+    const periodic = options.translation ? periodicAxes(problem) : [];
+    this.translation = periodic.length > 0;
+    this.axes = periodic;
+    if (!this.translation) return;
+    const zero = problem.toNodeArray(new Float64Array(this.n), params);
+    const weighted = problem.toNodeArray(problem.weights, params);
+    this.shape = zero.shape.slice();
+    this.nodeWeights = new Float64Array(zero.data.length);
+    for (let k = 0; k < zero.data.length; k++) this.nodeWeights[k] = weighted.data[k] - zero.data[k];
+    const dim = this.shape.length - 1;
+    // axis a (x = 0) is array dimension dim − a (x varies fastest)
+    for (const a of periodic) {
+      this.arrayAxes.push(dim - a);
+      this.lengths.push(this.shape[dim - a]);
+    }
+    // flat index over the periodic dimensions (in array order) of every node-array index
+    const total = zero.data.length;
+    const strides = this.shape.map((_, d) => this.shape.slice(d + 1).reduce((x, y) => x * y, 1));
+    const order = this.arrayAxes.slice().sort((x, y) => x - y);
+    this.periodicSize = order.reduce((x, d) => x * this.shape[d], 1);
+    this.periodicIndex = new Int32Array(total);
+    for (let k = 0; k < total; k++) {
+      let q = 0;
+      for (const d of order) q = q * this.shape[d] + (Math.floor(k / strides[d]) % this.shape[d]);
+      this.periodicIndex[k] = q;
+    }
+    // wavenumbers of every periodic mode along each periodic axis (x first)
+    this.waves = this.arrayAxes.map((d) => {
+      const out = new Float64Array(this.periodicSize);
+      let stride = 1;
+      for (const e of order) if (e > d) stride *= this.shape[e];
+      const len = this.shape[d];
+      for (let q = 0; q < this.periodicSize; q++) out[q] = signedWavenumber(Math.floor(q / stride) % len, len);
+      return out;
+    });
+  }
+
+  /** The periodic-only shape (in array order) and its axes (for the FFT of correlations). */
+  private periodicShape(): number[] {
+    return this.arrayAxes
+      .slice()
+      .sort((x, y) => x - y)
+      .map((d) => this.shape[d]);
+  }
+
+  /** Transform of a state's node array along the periodic axes (optionally weighted). */
+  private transform(u: Float64Array, weighted: boolean): { re: Float64Array; im: Float64Array } {
+    const { data } = this.problem.toNodeArray(u, this.params);
+    const re = Float64Array.from(data);
+    if (weighted) for (let k = 0; k < re.length; k++) re[k] *= this.nodeWeights[k];
+    const im = new Float64Array(re.length);
+    fftAxes(re, im, this.shape, this.arrayAxes);
+    return { re, im };
+  }
+
+  /** Prepare a reference state (a copy of u is kept). */
+  reference(u: Float64Array): StateReference {
+    const copy = Float64Array.from(u);
+    if (!this.translation) return { u: copy };
+    return { u: copy, ...this.transform(copy, false) };
+  }
+
+  /** Prepare a state to be measured against references (u is not copied: do not change it meanwhile). */
+  probe(u: Float64Array): Probe {
+    if (!this.translation) return { u };
+    return { u, ...this.transform(u, true) };
+  }
+
+  /** The plain root-mean-square distance d(u, r), no translation. */
+  plain(u: Float64Array, r: Float64Array): number {
+    const w = this.problem.weights;
+    let s = 0;
+    for (let i = 0; i < this.n; i++) {
+      const e = u[i] - r[i];
+      s += w[i] * e * e;
+    }
+    return Math.sqrt(s / this.weightSum);
+  }
+
+  /** Root-mean-square norm of a vector (the distance to zero). */
+  norm(v: Float64Array): number {
+    return this.plain(v, new Float64Array(this.n));
+  }
+
+  /** Sum of the grid unknowns' weights (the domain's measure in the discrete sense). */
+  get measure(): number {
+    return this.weightSum;
+  }
+
+  /** The nearest copy of `ref` to the probed state and the distance to it. */
+  nearest(probe: Probe, ref: StateReference): Nearest {
+    if (!this.translation || !probe.re || !ref.re) return { distance: this.plain(probe.u, ref.u), shift: [], copy: ref.u };
+    const shift = this.bestShift(probe, ref);
+    const copy = this.shifted(ref, shift);
+    return { distance: this.plain(probe.u, copy), shift, copy };
+  }
+
+  /** Convenience: the distance of u from r (modulo translation when measured so). */
+  distance(u: Float64Array, r: Float64Array): number {
+    return this.nearest(this.probe(u), this.reference(r)).distance;
+  }
+
+  /** The shift c (nodes per periodic axis, x first) maximising the weighted correlation ⟨u, T_c r⟩. */
+  private bestShift(probe: Probe, ref: StateReference): number[] {
+    const m = this.periodicSize;
+    // P_q = Σ over fields and the other axes of conj(û)·r̂
+    const pre = new Float64Array(m);
+    const pim = new Float64Array(m);
+    const ur = probe.re!;
+    const ui = probe.im!;
+    const rr = ref.re!;
+    const ri = ref.im!;
+    for (let k = 0; k < ur.length; k++) {
+      const q = this.periodicIndex[k];
+      pre[q] += ur[k] * rr[k] + ui[k] * ri[k];
+      pim[q] += ur[k] * ri[k] - ui[k] * rr[k];
+    }
+    // C at every whole shift: the forward transform of P (real part; the 1/N is immaterial here)
+    const cre = pre.slice();
+    const cim = pim.slice();
+    const pshape = this.periodicShape();
+    fftAxes(cre, cim, pshape, pshape.map((_, i) => i));
+    let best = 0;
+    for (let q = 1; q < m; q++) if (cre[q] > cre[best]) best = q;
+    // whole-node shift of the best index, per periodic axis (x first)
+    const order = this.arrayAxes.slice().sort((x, y) => x - y);
+    const c = this.arrayAxes.map((d) => {
+      let stride = 1;
+      for (const e of order) if (e > d) stride *= this.shape[e];
+      return Math.floor(best / stride) % this.shape[d];
+    });
+    return this.refineShift(pre, pim, c);
+  }
+
+  /**
+   * Newton's method on ∇C(c) = 0 from the best whole shift, with C(c) = Re Σ_q P_q e^{−2πi k_q·c/N}
+   * (derivatives in Fourier space); steps of more than one node, or a Hessian that is not negative
+   * definite, end the refinement (the whole shift is then kept).
+   */
+  private refineShift(pre: Float64Array, pim: Float64Array, start: number[]): number[] {
+    const na = start.length;
+    const c = start.slice();
+    const m = this.periodicSize;
+    const omega = this.lengths.map((len, a) => {
+      const out = new Float64Array(m);
+      for (let q = 0; q < m; q++) out[q] = (-2 * Math.PI * this.waves[a][q]) / len;
+      return out;
+    });
+    for (let it = 0; it < 8; it++) {
+      const g = new Float64Array(na);
+      const H = new Float64Array(na * na);
+      for (let q = 0; q < m; q++) {
+        let phase = 0;
+        for (let a = 0; a < na; a++) phase += omega[a][q] * c[a];
+        const cs = Math.cos(phase);
+        const sn = Math.sin(phase);
+        // Re(P e^{iφ}) = pre cos − pim sin;  d/dφ: −pre sin − pim cos;  d²/dφ²: −(pre cos − pim sin)
+        const v = pre[q] * cs - pim[q] * sn;
+        const dv = -pre[q] * sn - pim[q] * cs;
+        for (let a = 0; a < na; a++) {
+          g[a] += dv * omega[a][q];
+          for (let b = 0; b < na; b++) H[a * na + b] -= v * omega[a][q] * omega[b][q];
+        }
+      }
+      const step = solveSmall(H, g, na);
+      if (!step) break;
+      // Newton step for a maximum: c − H⁻¹g, with H negative definite
+      let quad = 0;
+      for (let a = 0; a < na; a++) for (let b = 0; b < na; b++) quad += step[a] * H[a * na + b] * step[b];
+      if (!(quad < 0)) break;
+      let size = 0;
+      for (let a = 0; a < na; a++) size = Math.max(size, Math.abs(step[a]));
+      if (size > 1) break;
+      for (let a = 0; a < na; a++) c[a] -= step[a];
+      if (size < 1e-12) break;
+    }
+    for (let a = 0; a < na; a++) if (Math.abs(c[a] - start[a]) > 1) return start;
+    return c;
+  }
+
+  /** T_c r: the reference shifted by c nodes per periodic axis (x first), as a full state vector. */
+  shifted(ref: StateReference, c: readonly number[]): Float64Array {
+    if (!this.translation || !ref.re || !ref.im) return ref.u;
+    if (c.every((x) => x === 0)) return ref.u;
+    const re = new Float64Array(ref.re.length);
+    const im = new Float64Array(ref.re.length);
+    for (let k = 0; k < re.length; k++) {
+      const q = this.periodicIndex[k];
+      let phase = 0;
+      for (let a = 0; a < c.length; a++) phase += (-2 * Math.PI * this.waves[a][q] * c[a]) / this.lengths[a];
+      const cs = Math.cos(phase);
+      const sn = Math.sin(phase);
+      re[k] = ref.re[k] * cs - ref.im[k] * sn;
+      im[k] = ref.re[k] * sn + ref.im[k] * cs;
+    }
+    fftAxes(re, im, this.shape, this.arrayAxes, true);
+    const extras = this.problem.extraUnknowns.length ? ref.u.slice(this.problem.gridUnknowns) : undefined;
+    return this.problem.fromNodeArray(this.shape, re, this.params, extras);
+  }
+}
+
+/** Solve the small symmetric system H x = g (1 to 3 unknowns) by Gaussian elimination; null when singular. */
+function solveSmall(H: Float64Array, g: Float64Array, n: number): Float64Array | null {
+  const a = Float64Array.from(H);
+  const b = Float64Array.from(g);
+  for (let k = 0; k < n; k++) {
+    let p = k;
+    for (let i = k + 1; i < n; i++) if (Math.abs(a[i * n + k]) > Math.abs(a[p * n + k])) p = i;
+    if (!(Math.abs(a[p * n + k]) > 0)) return null;
+    if (p !== k) {
+      for (let j = 0; j < n; j++) [a[k * n + j], a[p * n + j]] = [a[p * n + j], a[k * n + j]];
+      [b[k], b[p]] = [b[p], b[k]];
+    }
+    for (let i = k + 1; i < n; i++) {
+      const f = a[i * n + k] / a[k * n + k];
+      for (let j = k; j < n; j++) a[i * n + j] -= f * a[k * n + j];
+      b[i] -= f * b[k];
+    }
+  }
+  const x = new Float64Array(n);
+  for (let i = n - 1; i >= 0; i--) {
+    let s = b[i];
+    for (let j = i + 1; j < n; j++) s -= a[i * n + j] * x[j];
+    x[i] = s / a[i * n + i];
+  }
+  return x.every(Number.isFinite) ? x : null;
+}
