@@ -16,10 +16,12 @@
  * (nearly) neutral translation mode.
  *
  * The best shift: the weighted cross-correlation C(c) = Σ w u·T_c r is evaluated at every whole
- * shift at once by FFT (C(s) = Re F[conj(û) r̂](s) / N), and its largest value refined to a
- * fraction of a node by Newton's method on C(c) in Fourier space (analytic first and second
- * derivatives). By the envelope theorem the gradient of d_T with respect to u is that of
- * d(u, T_c r) at the best shift c, which is what deflation needs (./deflation.ts).
+ * shift at once by FFT (C(s) = Re F[conj(û) r̂](s) / N), and the three largest are refined to a
+ * fraction of a node by Newton's method on d(u, T_c r)² written in Fourier space (analytic first
+ * and second derivatives; on axes of even length the Nyquist mode makes ‖T_c r‖ depend on c, which
+ * is accounted for). Since the best shift minimises the distance, the gradient of d_T with
+ * respect to u is that of d(u, T_c r) at that shift (the envelope theorem), which is what
+ * deflation needs (./deflation.ts).
  *
  * Periodic axes are recognised from the problem's description: a periodic axis has as many nodes
  * as intervals (see AxisDescription). Everything works on node arrays (toNodeArray /
@@ -34,6 +36,9 @@ export interface StateReference {
   /** The transform of its node array along the periodic axes (with periodic axes only). */
   readonly re?: Float64Array;
   readonly im?: Float64Array;
+  /** Σ ω r̂_k r̂_{−k} per periodic mode (periodic axes of even length only): how ‖T_c r‖ varies with c. */
+  readonly sre?: Float64Array;
+  readonly sim?: Float64Array;
 }
 
 /** A state being measured against several references (its transform computed once). */
@@ -79,6 +84,10 @@ export class StateDistance {
   private periodicSize = 1;
   /** Signed wavenumbers per periodic mode, x first: waves[a][m]. */
   private waves: Float64Array[] = [];
+  /** Per node-array index, the index of the same node with the periodic wavenumbers negated. */
+  private negated = new Int32Array(0);
+  /** Whether any periodic axis has an even length (a Nyquist mode, whose shifted copies change norm). */
+  private nyquist = false;
 
   constructor(
     readonly problem: Problem,
@@ -124,6 +133,16 @@ export class StateDistance {
       for (let q = 0; q < this.periodicSize; q++) out[q] = signedWavenumber(Math.floor(q / stride) % len, len);
       return out;
     });
+    this.nyquist = this.lengths.some((len) => len % 2 === 0);
+    this.negated = new Int32Array(total);
+    for (let k = 0; k < total; k++) {
+      let target = k;
+      for (const d of this.arrayAxes) {
+        const i = Math.floor(k / strides[d]) % this.shape[d];
+        target += (((this.shape[d] - i) % this.shape[d]) - i) * strides[d];
+      }
+      this.negated[k] = target;
+    }
   }
 
   /** The periodic-only shape (in array order) and its axes (for the FFT of correlations). */
@@ -148,7 +167,20 @@ export class StateDistance {
   reference(u: Float64Array): StateReference {
     const copy = Float64Array.from(u);
     if (!this.translation) return { u: copy };
-    return { u: copy, ...this.transform(copy, false) };
+    const { re, im } = this.transform(copy, false);
+    if (!this.nyquist) return { u: copy, re, im };
+    // S_q = Σ ω r̂_k r̂_{−k} over the nodes k of periodic mode q: the part of ‖T_c r‖² that
+    // depends on c (only modes at the Nyquist wavenumber of some axis contribute)
+    const sre = new Float64Array(this.periodicSize);
+    const sim = new Float64Array(this.periodicSize);
+    for (let k = 0; k < re.length; k++) {
+      const j = this.negated[k];
+      const q = this.periodicIndex[k];
+      const w = this.nodeWeights[k];
+      sre[q] += w * (re[k] * re[j] - im[k] * im[j]);
+      sim[q] += w * (re[k] * im[j] + im[k] * re[j]);
+    }
+    return { u: copy, re, im, sre, sim };
   }
 
   /** Prepare a state to be measured against references (u is not copied: do not change it meanwhile). */
@@ -211,62 +243,125 @@ export class StateDistance {
     const cim = pim.slice();
     const pshape = this.periodicShape();
     fftAxes(cre, cim, pshape, pshape.map((_, i) => i));
-    let best = 0;
-    for (let q = 1; q < m; q++) if (cre[q] > cre[best]) best = q;
-    // whole-node shift of the best index, per periodic axis (x first)
+    // refine the three best whole shifts (the correlation of rough states has several humps)
     const order = this.arrayAxes.slice().sort((x, y) => x - y);
-    const c = this.arrayAxes.map((d) => {
-      let stride = 1;
-      for (const e of order) if (e > d) stride *= this.shape[e];
-      return Math.floor(best / stride) % this.shape[d];
-    });
-    return this.refineShift(pre, pim, c);
+    const candidates = Array.from({ length: m }, (_, q) => q)
+      .sort((a, b) => cre[b] - cre[a])
+      .slice(0, 3);
+    let best: { c: number[]; value: number } | undefined;
+    for (const q of candidates) {
+      // the whole-node shift of index q, per periodic axis (x first)
+      const start = this.arrayAxes.map((d) => {
+        let stride = 1;
+        for (const e of order) if (e > d) stride *= this.shape[e];
+        return Math.floor(q / stride) % this.shape[d];
+      });
+      const r = this.refineShift(pre, pim, ref, start);
+      if (!best || r.value > best.value) best = r;
+    }
+    return best!.c;
   }
 
   /**
-   * Newton's method on ∇C(c) = 0 from the best whole shift, with C(c) = Re Σ_q P_q e^{−2πi k_q·c/N}
-   * (derivatives in Fourier space); steps of more than one node, or a Hessian that is not negative
-   * definite, end the refinement (the whole shift is then kept).
+   * The part of −N·d(u, T_c r)²·|Ω| that depends on c, with its gradient and Hessian in c:
+   *
+   *     2 Re Σ_q P_q e^{iφ_q} − ½ Re Σ_q S_q e^{iψ_q},
+   *
+   * φ_q = −2π Σ_a k_a c_a / N_a the shift's phase of mode q, the first sum the correlation
+   * ⟨u, T_c r⟩, the second how ‖T_c r‖² varies: T_c r = Re z with z the complex shifted copy,
+   * ‖Re z‖² = ½‖z‖² + ½ Re Σ z², and Σ z² = (1/N) Σ_q ẑ_q ẑ_{−q} varies only through modes at
+   * the Nyquist wavenumber of some axis (ψ_q = −2π Σ over those axes of c_a; elsewhere the phases
+   * of q and −q cancel).
    */
-  private refineShift(pre: Float64Array, pim: Float64Array, start: number[]): number[] {
+  private correlation(pre: Float64Array, pim: Float64Array, ref: StateReference, c: readonly number[], omega: readonly Float64Array[]): { value: number; g: Float64Array; H: Float64Array } {
+    const na = c.length;
+    const g = new Float64Array(na);
+    const H = new Float64Array(na * na);
+    let value = 0;
+    for (let q = 0; q < this.periodicSize; q++) {
+      let phase = 0;
+      for (let a = 0; a < na; a++) phase += omega[a][q] * c[a];
+      const cs = Math.cos(phase);
+      const sn = Math.sin(phase);
+      // Re(P e^{iφ}) = pre cos − pim sin;  d/dφ: −pre sin − pim cos;  d²/dφ²: −(pre cos − pim sin)
+      const v = 2 * (pre[q] * cs - pim[q] * sn);
+      const dv = 2 * (-pre[q] * sn - pim[q] * cs);
+      value += v;
+      for (let a = 0; a < na; a++) {
+        g[a] += dv * omega[a][q];
+        for (let b = 0; b < na; b++) H[a * na + b] -= v * omega[a][q] * omega[b][q];
+      }
+    }
+    if (ref.sre && ref.sim) {
+      const nu = this.lengths.map((len, a) => ({ half: len % 2 === 0 ? len / 2 : NaN, a }));
+      for (let q = 0; q < this.periodicSize; q++) {
+        const sr = ref.sre[q];
+        const si = ref.sim[q];
+        if (sr === 0 && si === 0) continue;
+        // dψ/dc_a = −2π on axes where mode q sits at the Nyquist wavenumber, 0 elsewhere
+        const dpsi = nu.map(({ half, a }) => (this.waves[a][q] === half ? -2 * Math.PI : 0));
+        if (dpsi.every((x) => x === 0)) continue;
+        let psi = 0;
+        for (let a = 0; a < na; a++) psi += dpsi[a] * c[a];
+        const cs = Math.cos(psi);
+        const sn = Math.sin(psi);
+        const v = -0.5 * (sr * cs - si * sn);
+        const dv = -0.5 * (-sr * sn - si * cs);
+        value += v;
+        for (let a = 0; a < na; a++) {
+          g[a] += dv * dpsi[a];
+          for (let b = 0; b < na; b++) H[a * na + b] -= v * dpsi[a] * dpsi[b];
+        }
+      }
+    }
+    return { value, g, H };
+  }
+
+  /**
+   * The largest C(c) near a whole shift: Newton steps on ∇C = 0 where the Hessian is negative
+   * definite along the step, gradient steps of half a node otherwise, each halved until C does
+   * not decrease; at most 40 steps, ended when a step is below 10⁻¹² nodes.
+   */
+  private refineShift(pre: Float64Array, pim: Float64Array, ref: StateReference, start: number[]): { c: number[]; value: number } {
     const na = start.length;
-    const c = start.slice();
     const m = this.periodicSize;
     const omega = this.lengths.map((len, a) => {
       const out = new Float64Array(m);
       for (let q = 0; q < m; q++) out[q] = (-2 * Math.PI * this.waves[a][q]) / len;
       return out;
     });
-    for (let it = 0; it < 8; it++) {
-      const g = new Float64Array(na);
-      const H = new Float64Array(na * na);
-      for (let q = 0; q < m; q++) {
-        let phase = 0;
-        for (let a = 0; a < na; a++) phase += omega[a][q] * c[a];
-        const cs = Math.cos(phase);
-        const sn = Math.sin(phase);
-        // Re(P e^{iφ}) = pre cos − pim sin;  d/dφ: −pre sin − pim cos;  d²/dφ²: −(pre cos − pim sin)
-        const v = pre[q] * cs - pim[q] * sn;
-        const dv = -pre[q] * sn - pim[q] * cs;
-        for (let a = 0; a < na; a++) {
-          g[a] += dv * omega[a][q];
-          for (let b = 0; b < na; b++) H[a * na + b] -= v * omega[a][q] * omega[b][q];
-        }
-      }
-      const step = solveSmall(H, g, na);
-      if (!step) break;
-      // Newton step for a maximum: c − H⁻¹g, with H negative definite
+    let c = start.slice();
+    let here = this.correlation(pre, pim, ref, c, omega);
+    for (let it = 0; it < 40; it++) {
+      const { g, H } = here;
+      let step = solveSmall(H, g, na);
       let quad = 0;
-      for (let a = 0; a < na; a++) for (let b = 0; b < na; b++) quad += step[a] * H[a * na + b] * step[b];
-      if (!(quad < 0)) break;
-      let size = 0;
-      for (let a = 0; a < na; a++) size = Math.max(size, Math.abs(step[a]));
-      if (size > 1) break;
-      for (let a = 0; a < na; a++) c[a] -= step[a];
-      if (size < 1e-12) break;
+      if (step) for (let a = 0; a < na; a++) for (let b = 0; b < na; b++) quad += step[a] * H[a * na + b] * step[b];
+      // a maximum: c − H⁻¹g when H is negative along the step; else uphill along g
+      let dir: number[];
+      if (step && quad < 0) dir = Array.from(step, (x) => -x);
+      else {
+        const big = Math.max(...Array.from(g, Math.abs));
+        if (!(big > 0)) break;
+        dir = Array.from(g, (x) => (0.5 * x) / big);
+      }
+      const size = Math.max(...dir.map(Math.abs));
+      if (size > 0.5) dir = dir.map((x) => (0.5 * x) / size);
+      let moved = false;
+      for (let k = 0; k < 30; k++) {
+        const trial = c.map((x, a) => x + dir[a]);
+        const there = this.correlation(pre, pim, ref, trial, omega);
+        if (there.value >= here.value) {
+          c = trial;
+          here = there;
+          moved = true;
+          break;
+        }
+        dir = dir.map((x) => x / 2);
+      }
+      if (!moved || Math.max(...dir.map(Math.abs)) < 1e-12) break;
     }
-    for (let a = 0; a < na; a++) if (Math.abs(c[a] - start[a]) > 1) return start;
-    return c;
+    return { c, value: here.value };
   }
 
   /** T_c r: the reference shifted by c nodes per periodic axis (x first), as a full state vector. */
