@@ -16,7 +16,7 @@
  * (nearly) neutral translation mode.
  *
  * The best shift: the weighted cross-correlation C(c) = Σ w u·T_c r is evaluated at every whole
- * shift at once by FFT (C(s) = Re F[conj(û) r̂](s) / N), and the three largest are refined to a
+ * shift at once by FFT (C(s) = Re F[conj(û) r̂](s) / N), and its three largest peaks are refined to a
  * fraction of a node by Newton's method on d(u, T_c r)² written in Fourier space (analytic first
  * and second derivatives; on axes of even length the Nyquist mode makes ‖T_c r‖ depend on c, which
  * is accounted for). Since the best shift minimises the distance, the gradient of d_T with
@@ -88,6 +88,11 @@ export class StateDistance {
   private negated = new Int32Array(0);
   /** Whether any periodic axis has an even length (a Nyquist mode, whose shifted copies change norm). */
   private nyquist = false;
+  /** The periodic modes at the Nyquist wavenumber of some axis, and per axis (x first) whether they are at it there. */
+  private nyquistModes = new Int32Array(0);
+  private nyquistAxes: Uint8Array[] = [];
+  /** −2π k_a / N_a per periodic mode and axis (x first): the phase of a shift by c_a nodes is Σ_a omega[a][q]·c_a. */
+  private omega: Float64Array[] = [];
 
   constructor(
     readonly problem: Problem,
@@ -134,6 +139,11 @@ export class StateDistance {
       return out;
     });
     this.nyquist = this.lengths.some((len) => len % 2 === 0);
+    this.omega = this.lengths.map((len, a) => this.waves[a].map((k) => (-2 * Math.PI * k) / len));
+    const modes: number[] = [];
+    for (let q = 0; q < this.periodicSize; q++) if (this.lengths.some((len, a) => len % 2 === 0 && this.waves[a][q] === len / 2)) modes.push(q);
+    this.nyquistModes = Int32Array.from(modes);
+    this.nyquistAxes = this.lengths.map((len, a) => Uint8Array.from(modes, (q) => (len % 2 === 0 && this.waves[a][q] === len / 2 ? 1 : 0)));
     this.negated = new Int32Array(total);
     for (let k = 0; k < total; k++) {
       let target = k;
@@ -243,19 +253,27 @@ export class StateDistance {
     const cim = pim.slice();
     const pshape = this.periodicShape();
     fftAxes(cre, cim, pshape, pshape.map((_, i) => i));
-    // refine the three best whole shifts (the correlation of rough states has several humps)
+    // refine the three best whole shifts that are local maxima (their neighbours along every
+    // periodic axis are lower): the correlation of rough states has several humps
     const order = this.arrayAxes.slice().sort((x, y) => x - y);
+    const strides = order.map((d) => order.filter((e) => e > d).reduce((x, e) => x * this.shape[e], 1));
+    const isPeak = (q: number): boolean =>
+      order.every((d, i) => {
+        const len = this.shape[d];
+        if (len < 3) return true;
+        const j = Math.floor(q / strides[i]) % len;
+        const up = q + ((((j + 1) % len) - j) * strides[i]);
+        const down = q + ((((j + len - 1) % len) - j) * strides[i]);
+        return cre[q] >= cre[up] && cre[q] >= cre[down];
+      });
     const candidates = Array.from({ length: m }, (_, q) => q)
+      .filter(isPeak)
       .sort((a, b) => cre[b] - cre[a])
       .slice(0, 3);
     let best: { c: number[]; value: number } | undefined;
     for (const q of candidates) {
       // the whole-node shift of index q, per periodic axis (x first)
-      const start = this.arrayAxes.map((d) => {
-        let stride = 1;
-        for (const e of order) if (e > d) stride *= this.shape[e];
-        return Math.floor(q / stride) % this.shape[d];
-      });
+      const start = this.arrayAxes.map((d) => Math.floor(q / strides[order.indexOf(d)]) % this.shape[d]);
       const r = this.refineShift(pre, pim, ref, start);
       if (!best || r.value > best.value) best = r;
     }
@@ -273,10 +291,11 @@ export class StateDistance {
    * the Nyquist wavenumber of some axis (ψ_q = −2π Σ over those axes of c_a; elsewhere the phases
    * of q and −q cancel).
    */
-  private correlation(pre: Float64Array, pim: Float64Array, ref: StateReference, c: readonly number[], omega: readonly Float64Array[]): { value: number; g: Float64Array; H: Float64Array } {
+  private correlation(pre: Float64Array, pim: Float64Array, ref: StateReference, c: readonly number[]): { value: number; g: Float64Array; H: Float64Array } {
     const na = c.length;
     const g = new Float64Array(na);
     const H = new Float64Array(na * na);
+    const omega = this.omega;
     let value = 0;
     for (let q = 0; q < this.periodicSize; q++) {
       let phase = 0;
@@ -288,29 +307,29 @@ export class StateDistance {
       const dv = 2 * (-pre[q] * sn - pim[q] * cs);
       value += v;
       for (let a = 0; a < na; a++) {
-        g[a] += dv * omega[a][q];
-        for (let b = 0; b < na; b++) H[a * na + b] -= v * omega[a][q] * omega[b][q];
+        const oa = omega[a][q];
+        g[a] += dv * oa;
+        for (let b = 0; b < na; b++) H[a * na + b] -= v * oa * omega[b][q];
       }
     }
     if (ref.sre && ref.sim) {
-      const nu = this.lengths.map((len, a) => ({ half: len % 2 === 0 ? len / 2 : NaN, a }));
-      for (let q = 0; q < this.periodicSize; q++) {
-        const sr = ref.sre[q];
-        const si = ref.sim[q];
-        if (sr === 0 && si === 0) continue;
-        // dψ/dc_a = −2π on axes where mode q sits at the Nyquist wavenumber, 0 elsewhere
-        const dpsi = nu.map(({ half, a }) => (this.waves[a][q] === half ? -2 * Math.PI : 0));
-        if (dpsi.every((x) => x === 0)) continue;
+      const modes = this.nyquistModes;
+      const at = this.nyquistAxes;
+      const twoPi = 2 * Math.PI;
+      for (let m = 0; m < modes.length; m++) {
+        const q = modes[m];
+        // ψ = −2π Σ c_a over the axes where mode q sits at the Nyquist wavenumber
         let psi = 0;
-        for (let a = 0; a < na; a++) psi += dpsi[a] * c[a];
+        for (let a = 0; a < na; a++) if (at[a][m]) psi -= twoPi * c[a];
         const cs = Math.cos(psi);
         const sn = Math.sin(psi);
-        const v = -0.5 * (sr * cs - si * sn);
-        const dv = -0.5 * (-sr * sn - si * cs);
+        const v = -0.5 * (ref.sre[q] * cs - ref.sim[q] * sn);
+        const dv = -0.5 * (-ref.sre[q] * sn - ref.sim[q] * cs);
         value += v;
         for (let a = 0; a < na; a++) {
-          g[a] += dv * dpsi[a];
-          for (let b = 0; b < na; b++) H[a * na + b] -= v * dpsi[a] * dpsi[b];
+          if (!at[a][m]) continue;
+          g[a] -= twoPi * dv;
+          for (let b = 0; b < na; b++) if (at[b][m]) H[a * na + b] -= v * twoPi * twoPi;
         }
       }
     }
@@ -324,14 +343,8 @@ export class StateDistance {
    */
   private refineShift(pre: Float64Array, pim: Float64Array, ref: StateReference, start: number[]): { c: number[]; value: number } {
     const na = start.length;
-    const m = this.periodicSize;
-    const omega = this.lengths.map((len, a) => {
-      const out = new Float64Array(m);
-      for (let q = 0; q < m; q++) out[q] = (-2 * Math.PI * this.waves[a][q]) / len;
-      return out;
-    });
     let c = start.slice();
-    let here = this.correlation(pre, pim, ref, c, omega);
+    let here = this.correlation(pre, pim, ref, c);
     for (let it = 0; it < 40; it++) {
       const { g, H } = here;
       let step = solveSmall(H, g, na);
@@ -350,7 +363,7 @@ export class StateDistance {
       let moved = false;
       for (let k = 0; k < 30; k++) {
         const trial = c.map((x, a) => x + dir[a]);
-        const there = this.correlation(pre, pim, ref, trial, omega);
+        const there = this.correlation(pre, pim, ref, trial);
         if (there.value >= here.value) {
           c = trial;
           here = there;
@@ -359,7 +372,7 @@ export class StateDistance {
         }
         dir = dir.map((x) => x / 2);
       }
-      if (!moved || Math.max(...dir.map(Math.abs)) < 1e-12) break;
+      if (!moved || Math.max(...dir.map(Math.abs)) < 1e-10) break;
     }
     return { c, value: here.value };
   }
