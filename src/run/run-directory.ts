@@ -31,7 +31,7 @@ export const runFormatVersion = 1;
 export type RunStatus = 'running' | 'finished' | 'stopped' | 'failed';
 
 /** Entries of a run directory that belong to us (removed by `force`). */
-const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots', 'monitors.csv', 'monitors.svg', 'snapshots'];
+const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots', 'monitors.csv', 'monitors.svg', 'snapshots', 'states.csv', 'solves.csv', 'traces'];
 const ownEntryPattern = /^(checkpoint.*|\..*\.tmp)$/;
 
 // ---------------------------------------------------------------------------------------------
