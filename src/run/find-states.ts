@@ -29,6 +29,7 @@
  */
 import { mkdirSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
+import { periodicAxes } from '../deflation/distance.js';
 import { DeflatedSearch, type FoundState, type SearchEndReason, type SolveRecord, searchEndText } from '../deflation/search.js';
 import { stabilityWords } from '../dynamics/stability.js';
 import { diagramSvg } from '../plot/index.js';
@@ -114,7 +115,7 @@ export function methodText(prepared: PreparedFindCase): string {
 }
 
 function hasPeriodicAxis(prepared: PreparedFindCase): boolean {
-  return prepared.problem.describe().axes.some((a) => (a as { periodic?: boolean }).periodic === true) || /periodic/.test(JSON.stringify(prepared.case.modelOptions));
+  return periodicAxes(prepared.problem).length > 0;
 }
 
 const tick = (): Promise<void> => new Promise((r) => setImmediate(r));
