@@ -178,7 +178,20 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
       ...(s.stability ? { stability: { ...s.stability, text: stabilityWords(s.stability) } } : {}),
     })),
     counts: { solves: solves.length, new: solves.filter((r) => r.outcome === 'new').length, repeats: solves.filter((r) => r.outcome === 'repeat').length, failed: solves.filter((r) => r.outcome === 'failed').length, ...(counters ?? {}) },
-    ...(traces.length ? { traces: traces.map((t) => ({ ...t, directory: relative(outDir, t.directory) })) } : {}),
+    ...(traces.length
+      ? {
+          traces: traces.map((t) => ({
+            state: t.state,
+            direction: t.direction,
+            directory: relative(outDir, t.directory),
+            status: t.status,
+            points: t.points,
+            folds: t.folds,
+            'branch-points': t.branchPoints,
+            ...(t.failure !== undefined ? { failure: t.failure } : {}),
+          })),
+        }
+      : {}),
     timings: { 'search-seconds': searchSeconds, 'total-seconds': (Date.now() - t0) / 1000 },
     ...(warnings.length ? { warnings } : {}),
     ...(prepared.caution ? { caution: prepared.caution } : {}),

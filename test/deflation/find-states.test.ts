@@ -210,3 +210,23 @@ describe('find-states refuses bad search sections in one line, writing nothing',
     expect(existsSync(dir) ? readdirSync(dir) : []).toEqual([]);
   });
 });
+
+describe('a search stopped on request keeps what it found', () => {
+  it('ends the current solve, writes the states found so far and says stopped', async () => {
+    const { prepareFindCaseObject } = await import('../../src/run/find-states-case.js');
+    const { findStates } = await import('../../src/run/find-states.js');
+    const doc = { name: 'stopped', model: 'allen-cahn', grid: { intervals: [40] }, parameters: { lambda: 50 }, search: { guesses: [{ u: 'sin(pi*x)' }] } };
+    const prepared = await prepareFindCaseObject(doc, { label: 'stopped', baseDir: tmp });
+    const stop = new AbortController();
+    const out = join(tmp, 'stopped');
+    const result = await findStates(prepared, { outDir: out, signal: stop.signal, log: (_level, message) => /^state 2 found/.test(message) && stop.abort() });
+    expect(result.status).toBe('stopped');
+    expect(result.states.length).toBe(2);
+    const run = json(join(out, 'run.json'));
+    expect(run.status).toBe('stopped');
+    expect(run.states.length).toBe(2);
+    expect(rows(join(out, 'states.csv')).map((s) => s.state)).toEqual([1, 2]);
+    expect(rows(join(out, 'solves.csv')).length).toBe(2);
+    for (const k of [1, 2]) expect(allenCahn(readNpy(join(out, `solutions/state-${k}.npy`)).data, 50).residual).toBeLessThan(1e-7);
+  });
+});
