@@ -18,7 +18,7 @@
  *                          deflated during it), outcome (new, repeat, failed), state,
  *                          newton-iterations, residual, failure
  *   solutions/state-K.npy  the states (node arrays, as in runs; `start: {solution: ...}` reads them)
- *   plots/state-K.svg      a picture of each state
+ *   plots/state-K.svg      a picture of each state (./find-states-plots.ts)
  *   traces/state-K-increase/, traces/state-K-decrease/   with tracing: a complete run from each
  *                          state in each direction of the continuation parameter
  *   diagram.svg            with tracing: every traced branch in one diagram, so branches that
@@ -32,11 +32,9 @@ import { join, relative, resolve } from 'node:path';
 import { periodicAxes } from '../deflation/distance.js';
 import { DeflatedSearch, type FoundState, type SearchEndReason, type SolveRecord, searchEndText } from '../deflation/search.js';
 import { stabilityWords } from '../dynamics/stability.js';
-import { diagramSvg } from '../plot/index.js';
-import type { DiagramBranch, DiagramSpecialPoint } from '../plot/diagram.js';
 import { caseDocumentHead, prepareCaseObject } from './case.js';
 import { type PreparedFindCase, findCaseDocument } from './find-states-case.js';
-import { type AxisInfo, labelCoincidentPointsOnce, monitorWords, nameCoincidentBranches, readRunDiagram, statePictureSvg } from './plots.js';
+import { drawFindPlots } from './find-states-plots.js';
 import { RunDirectory, type RunStatus, extraValues } from './run-directory.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
 import { outputDirectory, runCase } from './run-case.js';
@@ -251,10 +249,6 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
   const table = CsvWriter.create(join(outDir, statesFile), plan.columns);
   for (const s of states) table.append(stateRow(plan, prepared, s));
   table.close();
-  drawStatePictures(prepared, outDir, states, (w) => {
-    warnings.push(w);
-    log('warning', w);
-  });
   if (status === 'running' && stopped) {
     status = 'stopped';
     log('warning', 'stopped on request');
@@ -269,19 +263,21 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
       failure = `tracing: ${e instanceof Error ? e.message : String(e)}`;
       log('warning', `the traces failed: ${failure}`);
     }
-    if (traces.length) {
-      try {
-        writeFileAtomic(join(outDir, 'diagram.svg'), traceDiagramSvg(prepared, outDir, traces, states));
-        log('info', `drew diagram.svg with the branches of ${new Set(traces.map((t) => t.state)).size} states`);
-      } catch (e) {
-        const w = `diagram.svg: not drawn (${(e as Error).message})`;
-        warnings.push(w);
-        log('warning', w);
-      }
-    }
     if (stopped && status === 'running') status = 'stopped';
   }
   if (status === 'running') status = 'finished';
+  writeRecord();
+  // the pictures, from the files just written (as `branchline plot DIR` redraws them)
+  try {
+    const r = drawFindPlots(outDir);
+    for (const w of r.warnings) {
+      warnings.push(`plot: ${w}`);
+      log('warning', `plot: ${w}`);
+    }
+    if (r.files.includes('diagram.svg')) log('info', `drew diagram.svg with the branches of ${new Set(traces.map((t) => t.state)).size} states`);
+  } catch (e) {
+    log('warning', `the pictures could not be drawn: ${(e as Error).message}`);
+  }
   const doc = record();
   writeJsonAtomic(join(outDir, 'run.json'), doc);
   return {
@@ -295,32 +291,6 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
     ...(failure !== undefined ? { failure } : {}),
     seconds: (Date.now() - t0) / 1000,
   };
-}
-
-/** plots/state-K.svg for every state (a problem becomes a warning). */
-function drawStatePictures(prepared: PreparedFindCase, outDir: string, states: readonly FoundState[], warn: (w: string) => void): void {
-  const d = prepared.problem.describe();
-  const axes: AxisInfo[] = d.axes.map((a) => ({ name: a.name, intervals: a.intervals, h: a.h }) as AxisInfo);
-  const params = Object.entries(prepared.params)
-    .map(([k, v]) => `${k} = ${formatValue(v, 6)}`)
-    .join(', ');
-  const what = d.fields.length === 1 ? d.fields[0] : d.fields.join(', ');
-  if (states.length) mkdirSync(join(outDir, 'plots'), { recursive: true });
-  for (const s of states) {
-    try {
-      const svg = statePictureSvg(prepared.problem.toNodeArray(s.u, prepared.params), {
-        title: `${what}: state ${s.id} of ${states.length}${s.stability ? ` (${s.stability.stable === true ? 'stable' : s.stability.stable === false ? `unstable, ${s.stability.unstableCount}` : 'stability not certified'})` : ''}`,
-        subtitle: `${params}; found by solve ${s.solve} from guess ${s.guess}; ${s.solves} solve${s.solves === 1 ? '' : 's'} ended here; case ${prepared.case.name}`,
-        fields: d.fields,
-        axes,
-        ...(prepared.caution ? { caution: prepared.caution } : {}),
-        idPrefix: `state-${s.id}`,
-      });
-      writeFileAtomic(join(outDir, `plots/state-${s.id}.svg`), svg);
-    } catch (e) {
-      warn(`plots/state-${s.id}.svg: not drawn (${(e as Error).message})`);
-    }
-  }
 }
 
 /** The case of one trace: the search case with its parameters fixed, started from the state, in one direction. */
@@ -368,57 +338,4 @@ async function traceStates(prepared: PreparedFindCase, outDir: string, states: r
     }
   }
   return false;
-}
-
-/** Every traced branch in one diagram, a colour per state found. */
-export function traceDiagramSvg(prepared: PreparedFindCase, outDir: string, traces: readonly TraceRecord[], states: readonly FoundState[]): string {
-  const branches: DiagramBranch[] = [];
-  const points: DiagramSpecialPoint[] = [];
-  let monitor = prepared.case.plot?.monitor;
-  let fields: string[] = [];
-  let descriptions: Record<string, string> = {};
-  let parameter = 'parameter';
-  for (const s of states) {
-    const mine = traces.filter((t) => t.state === s.id);
-    for (const t of traces.filter((x) => x.state === s.id)) {
-      let d;
-      try {
-        d = readRunDiagram(t.directory, monitor);
-      } catch {
-        continue;
-      }
-      monitor = d.monitor;
-      fields = d.fields;
-      descriptions = d.descriptions;
-      parameter = d.parameter;
-      const way = t.direction === 'increase' ? 'up' : 'down';
-      for (const b of d.branches) branches.push({ ...b, id: `${s.id}:${t.direction}:${b.id}`, name: `state ${s.id} ${way}${d.branches.length > 1 ? `, branch ${b.id}` : ''}` });
-      for (const p of d.shown) if (p.kind !== 'end') points.push({ ...p, branch: `${s.id}:${t.direction}:${p.branch}` });
-    }
-  }
-  if (branches.length === 0) throw new Error('no trace has a branch to draw');
-  // a trace that runs along another (through a pitchfork onto the mirror state, or both
-  // directions of an isola) would be invisible: its legend name says so; a special point met by
-  // several traces is labelled once
-  const names = new Map(branches.map((b) => [String(b.id), b.name ?? String(b.id)]));
-  const marked = branches.slice();
-  nameCoincidentBranches(marked);
-  marked.forEach((b, i) => {
-    const along = /lies along branch (.+)\)$/.exec(b.name ?? '')?.[1];
-    if (along !== undefined && b.name !== branches[i].name) branches[i] = { ...branches[i], name: `${names.get(String(b.id))}, along ${names.get(along) ?? along}` };
-  });
-  labelCoincidentPointsOnce(points);
-  const value = Object.entries(prepared.params)
-    .filter(([k]) => k !== parameter)
-    .map(([k, v]) => `${k} = ${formatValue(v, 6)}`)
-    .join(', ');
-  return diagramSvg({
-    title: `${prepared.case.name}: ${monitorWords(monitor ?? '', fields, descriptions)} against ${parameter}, the branches of the ${states.length} states found at ${parameter} = ${formatValue(prepared.params[parameter], 6)}`,
-    subtitle: `${value ? `${value}; ` : ''}${prepared.problem.describe().summary}; up and down: ${parameter} increasing and decreasing from each state`,
-    parameterName: parameter,
-    monitorName: monitorWords(monitor ?? '', fields, descriptions),
-    branches,
-    specialPoints: points,
-    ...(prepared.caution ? { caution: prepared.caution } : {}),
-  });
 }

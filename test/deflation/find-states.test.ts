@@ -141,6 +141,18 @@ describe('find-states on the bundled Allen–Cahn strip (Chafee & Infante 1974: 
     const drawn = new Set(findAll(root, 'path').map((p) => p.attrs['data-branch']).filter((b) => b !== undefined));
     for (let k = 1; k <= 5; k++) for (const d of ['increase', 'decrease']) expect(drawn).toContain(`${k}:${d}:1`);
   });
+
+  it('redraws the same pictures with branchline plot, and refuses to resume a search in one line', async () => {
+    const before = readFileSync(join(out, 'diagram.svg'), 'utf8');
+    const r = await cli('plot', out);
+    expect(r.code, r.err).toBe(0);
+    expect(r.out).toContain('diagram.svg, plots/ (5 files)');
+    expect(readFileSync(join(out, 'diagram.svg'), 'utf8')).toBe(before);
+    const again = await cli('resume', out);
+    expect(again.code).toBe(2);
+    expect(again.err).toMatch(/keeps no checkpoints/);
+    expect(again.err.trim().split('\n').length).toBe(1);
+  });
 });
 
 describe('a branch no continuation from the primary branch reaches: found by the search, traced, drawn', () => {

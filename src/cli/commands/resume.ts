@@ -1,4 +1,5 @@
 import type { Command } from 'commander';
+import { join } from 'node:path';
 import type { CommandContext } from '../io.js';
 import { outcomeOf, prepareResume, runSession } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
@@ -31,6 +32,7 @@ a finished run, or no usable checkpoint.`,
     )
     .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
       if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit });
+      if (runKind(dirGiven) === 'find-states') throw new InputError(`${dirGiven}: a search for steady states (find-states) keeps no checkpoints; run it again (with --force to replace this folder), or start cases from its states (start: {solution: ${join(dirGiven, 'solutions', 'state-1.npy')}})`);
       const { prepared, outDir, plan } = await prepareResume(dirGiven, { force: opts.force === true });
       const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
       for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
