@@ -142,7 +142,7 @@ export async function prepareFindCaseObject(raw: unknown, opts: PrepareObjectOpt
   }
 
   // the guesses: each an `initial:` form; a named state is the model's guess with that option
-  const namedStates = parts.kind === 'code' ? undefined : (modelEntry(parts.modelId === 'reaction-diffusion' ? 'reaction-diffusion' : parts.modelId).options?.find((o) => o.name === 'initial')?.choices ?? []);
+  const namedStates = parts.kind === 'code' ? undefined : (modelEntry(parts.modelId).options?.find((o) => o.name === 'initial')?.choices ?? []);
   const guesses: Guess[] = [];
   if (s.guesses) {
     search.guesses = [];

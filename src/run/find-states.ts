@@ -39,7 +39,7 @@ import { RunDirectory, type RunStatus, extraValues } from './run-directory.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
 import { outputDirectory, runCase } from './run-case.js';
 import { formatValue } from './summary.js';
-import { type CsvCell, CsvWriter, writeFileAtomic, writeJsonAtomic, writeNpy } from './writers.js';
+import { type CsvCell, CsvWriter, csvLine, writeFileAtomic, writeJsonAtomic, writeNpy } from './writers.js';
 
 export const statesFile = 'states.csv';
 export const solvesFile = 'solves.csv';
@@ -197,6 +197,9 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
   });
   const writeRecord = (): void => writeJsonAtomic(join(outDir, 'run.json'), record());
   writeRecord();
+  /** states.csv, rewritten whole (atomically) whenever a state is found and at the end. */
+  const writeTable = (): void => writeFileAtomic(join(outDir, statesFile), [plan.columns, ...states.map((s) => stateRow(plan, prepared, s))].map(csvLine).join(''));
+  writeTable();
 
   const search = new DeflatedSearch(problem, params, prepared.settings, prepared.guesses);
   const ts = Date.now();
@@ -225,6 +228,7 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
           writeNpy(join(outDir, stateFile(s.id)), shape, data);
           log('info', `state ${s.id} found by solve ${rec.solve} (guess ${rec.guess}, ${rec.iterations} iterations, ${rec.deflated} deflated)${s.stability ? `: ${stabilityWords(s.stability)}` : ''}`);
           writeRecord();
+          writeTable();
         }
       } else if (ev.type === 'log') {
         log(ev.level, ev.message);
@@ -235,7 +239,8 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
       }
       await tick();
     }
-    counters = search.counters as unknown as Record<string, number>;
+    const c = search.counters;
+    counters = { 'newton-iterations': c.iterations, residuals: c.residuals, factorisations: c.factorisations };
   } catch (e) {
     status = 'failed';
     failure = e instanceof Error ? e.message : String(e);
@@ -245,10 +250,8 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
     solvesCsv.close();
     searchSeconds = (Date.now() - ts) / 1000;
   }
-  // the table of states (how many solves ended at each is known only now)
-  const table = CsvWriter.create(join(outDir, statesFile), plan.columns);
-  for (const s of states) table.append(stateRow(plan, prepared, s));
-  table.close();
+  // the table of states, final (a later solve can end at a state found earlier: its count grows)
+  writeTable();
   if (status === 'running' && stopped) {
     status = 'stopped';
     log('warning', 'stopped on request');
