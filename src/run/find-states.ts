@@ -35,6 +35,9 @@ import { stabilityWords } from '../dynamics/stability.js';
 import { caseDocumentHead, prepareCaseObject } from './case.js';
 import { type PreparedFindCase, findCaseDocument } from './find-states-case.js';
 import { drawFindPlots } from './find-states-plots.js';
+import { makeFolder, removeIfEmpty } from './folders.js';
+import { FolderLock } from './lock.js';
+import { keptMessage } from './manifest.js';
 import { RunDirectory, type RunStatus, extraValues } from './run-directory.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
 import { outputDirectory, runCase } from './run-case.js';
@@ -130,13 +133,36 @@ function stateRow(plan: ReturnType<typeof stateColumns>, prepared: PreparedFindC
   return row;
 }
 
-/** The search, its files, and (when asked) the traces; never throws for numerical trouble. */
+/** The files a search writes (run.json `files`, see manifest.ts: what --force may remove). */
+export const findFiles = ['run.json', statesFile, solvesFile, 'solutions/state-*.npy', 'diagram.svg', 'traces/state-*'];
+
+/**
+ * The search, its files, and (when asked) the traces; never throws for numerical trouble. The
+ * folder's lock (lock.ts) is held throughout.
+ */
 export async function findStates(prepared: PreparedFindCase, options: FindOptions = {}): Promise<FindResult> {
+  const outDir = options.outDir !== undefined ? resolve(options.outDir) : findDirectory(prepared);
+  const made = makeFolder(outDir);
+  let lock: FolderLock;
+  try {
+    lock = FolderLock.acquire(outDir, { purpose: options.force ? 'find-states --force' : 'find-states' });
+  } catch (e) {
+    if (made) removeIfEmpty(outDir, made);
+    throw e;
+  }
+  try {
+    return await findInFolder(prepared, outDir, options);
+  } finally {
+    lock.release();
+  }
+}
+
+async function findInFolder(prepared: PreparedFindCase, outDir: string, options: FindOptions): Promise<FindResult> {
   const t0 = Date.now();
   const { problem, params } = prepared;
   const log = options.log ?? (() => {});
-  const outDir = options.outDir !== undefined ? resolve(options.outDir) : findDirectory(prepared);
-  RunDirectory.create(outDir, { force: options.force, folders: ['solutions'] });
+  const created = RunDirectory.create(outDir, { force: options.force, folders: ['solutions'] });
+  if (created.kept.length) log('info', keptMessage(created.kept, 'run'));
   const plan = stateColumns(prepared);
   const solvesCsv = CsvWriter.create(join(outDir, solvesFile), [...solveColumns]);
   const started = isoNow();
@@ -194,6 +220,8 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
     ...(warnings.length ? { warnings } : {}),
     ...(prepared.caution ? { caution: prepared.caution } : {}),
     case: caseDoc,
+    // every file the search writes: what --force may remove
+    files: findFiles,
   });
   const writeRecord = (): void => writeJsonAtomic(join(outDir, 'run.json'), record());
   writeRecord();

@@ -204,6 +204,24 @@ describe('a branch no continuation from the primary branch reaches: found by the
   });
 });
 
+describe('find-states over an earlier search', () => {
+  it('refuses without --force; with it, removes every file the search wrote (its traces too) and keeps the user’s', async () => {
+    const doc = { name: 'again', model: 'allen-cahn', grid: { intervals: [20] }, parameters: { lambda: 50 }, search: { guesses: [{ u: 'sin(pi*x)' }], trace: true }, continuation: { parameter: 'lambda', bounds: [40, 60], 'max-points': 5 } };
+    const out = join(tmp, 'again');
+    expect((await cli('find-states', caseFile(doc), '--out', out, '--quiet')).code).toBe(0);
+    expect(existsSync(join(out, 'traces/state-1-increase/run.json'))).toBe(true);
+    writeFileSync(join(out, 'my-notes.txt'), 'mine');
+    const refused = await cli('find-states', caseFile(doc), '--out', out, '--quiet');
+    expect(refused.code).toBe(2);
+    expect(refused.err).toMatch(/is not empty \(it holds an earlier run\)/);
+    const again = await cli('find-states', caseFile({ ...doc, search: { guesses: [{ u: 'sin(pi*x)' }] } }), '--out', out, '--force', '--quiet');
+    expect(again.code, again.err).toBe(0);
+    expect(existsSync(join(out, 'traces'))).toBe(false);
+    expect(readFileSync(join(out, 'my-notes.txt'), 'utf8')).toBe('mine');
+    expect(json(join(out, 'run.json')).states.length).toBe(rows(join(out, 'states.csv')).length);
+  });
+});
+
 describe('find-states refuses bad search sections in one line, writing nothing', () => {
   const base = { name: 'bad', model: 'allen-cahn', grid: { intervals: [20] }, parameters: { lambda: 50 } };
   it.each([
