@@ -452,3 +452,35 @@ export function operatorMatrix(op: LinearOperator, bd: BoundaryData): { rows: nu
   }
   return { rows, cols, values };
 }
+
+/**
+ * Rounding sizes of applying an operator (see Problem.residualMagnitudes):
+ * out[r] (+)= scale·(Σ_k |coef_k|·max(|u[col_k]|, 1) + Σ affine |coef·datum|), a robin term
+ * counted as |coef·β|·max(|u_r|, 1).
+ */
+export function operatorRounding(
+  op: LinearOperator,
+  grid: Grid,
+  u: Float64Array,
+  bd: BoundaryData,
+  out: Float64Array,
+  fieldScale?: Float64Array,
+  accumulate = false,
+): void {
+  const { rowPtr, col, coef } = op;
+  const uf = grid.unknownField;
+  for (let r = 0; r < op.size; r++) {
+    let s = 0;
+    for (let q = rowPtr[r]; q < rowPtr[r + 1]; q++) s += Math.abs(coef[q]) * Math.max(Math.abs(u[col[q]]), 1);
+    const sc = fieldScale ? Math.abs(fieldScale[uf[r]]) : 1;
+    out[r] = accumulate ? out[r] + sc * s : sc * s;
+  }
+  const { affineRow, affineSlot, affineKind, affineCoef } = op;
+  for (let t = 0; t < affineRow.length; t++) {
+    const r = affineRow[t];
+    const s = affineSlot[t];
+    const k = affineKind[t];
+    const v = k === AFFINE_VALUE ? Math.abs(bd.value[s]) : k === AFFINE_FLUX ? Math.abs(bd.flux[s]) : Math.abs(bd.beta[s]) * Math.max(Math.abs(u[r]), 1);
+    out[r] += (fieldScale ? Math.abs(fieldScale[uf[r]]) : 1) * Math.abs(affineCoef[t]) * v;
+  }
+}

@@ -21,6 +21,9 @@
  *       parameterDerivative    out[a]        = ∂R_a/∂q_j           (j = parameter index)
  *       secondDerivative?      out[a]        = Σ_bc ∂²R_a/∂u_b∂u_c s_b t_c
  *       mixedDerivative?       out[a]        = Σ_b ∂²R_a/∂u_b∂q_j s_b
+ *       magnitude?             out[a]        = Σ_t |t| over the summands t of R_a (the sizes
+ *                                              the Newton convergence test measures against;
+ *                                              without it, |R_a| counts as one term)
  * `coupling` (row-major nf×nf booleans) says which ∂R_a/∂u_b can be non-zero; it fixes the
  * Jacobian pattern (default: all). When both optional second-order callbacks are given the
  * problem exposes exact `secondDerivative`/`mixedDerivative`; otherwise the engine uses
@@ -51,7 +54,7 @@ import type {
 } from '../src/problem/problem.js';
 import type { CscPattern } from '../src/linalg/sparse.js';
 import { Grid, type FieldBoundaries, boundaryParameterNames } from './grid.js';
-import { BoundaryData, OperatorBuilder, type LinearOperator, applyOperator, addAffine, AFFINE_ROBIN } from './operator.js';
+import { BoundaryData, OperatorBuilder, type LinearOperator, applyOperator, addAffine, operatorRounding, AFFINE_ROBIN } from './operator.js';
 import { PatternBuilder } from './pattern.js';
 import { assertFactorMemory, estimateFactorMemory, defaultFactorMemoryLimit } from './memory.js';
 import { fieldMonitors, pointMonitor } from './monitors.js';
@@ -64,6 +67,7 @@ export interface ReactionTerms {
   parameterDerivative(u: Float64Array, x: Float64Array, q: Float64Array, j: number, out: Float64Array): void;
   secondDerivative?(u: Float64Array, x: Float64Array, q: Float64Array, s: Float64Array, t: Float64Array, out: Float64Array): void;
   mixedDerivative?(u: Float64Array, x: Float64Array, q: Float64Array, j: number, s: Float64Array, out: Float64Array): void;
+  magnitude?(u: Float64Array, x: Float64Array, q: Float64Array, out: Float64Array): void;
 }
 
 export type DiffusionSpec =
@@ -392,6 +396,45 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
     }
   }
 
+  /**
+   * Sizes for the convergence test (Problem.residualMagnitudes): the diffusion term D·(Δu)_r as
+   * one term, each reaction summand, the drift term c·(∂_a u)_r; a phase-condition row's
+   * summands g_r·u_r.
+   */
+  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void {
+    prepare(p);
+    applyOperator(lap, grid, u, bd, terms, D);
+    for (let r = 0; r < n0; r++) terms[r] = Math.abs(terms[r]);
+    if (rounding) operatorRounding(lap, grid, u, bd, rounding, D);
+    for (let t = 0; t < nrn; t++) {
+      gather(t, u);
+      if (R.magnitude) R.magnitude(uu, xx, q, rr);
+      else {
+        R.value(uu, xx, q, rr);
+        for (let f = 0; f < nf; f++) rr[f] = Math.abs(rr[f]);
+      }
+      scatterAdd(t, terms);
+      if (rounding) scatterAdd(t, rounding);
+    }
+    for (let i = 0; i < np; i++) {
+      const c = u[n0 + i];
+      applyD1(i, u, dU[i]);
+      const du = dU[i];
+      for (let r = 0; r < n0; r++) terms[r] += Math.abs(c * du[r]);
+      const g = gRow[i];
+      let s = 0;
+      for (let r = 0; r < n0; r++) s += Math.abs(g[r] * u[r]);
+      terms[n0 + i] = s;
+      if (!rounding) continue;
+      operatorRounding(d1[i], grid, u, bd, scratch);
+      const cs = Math.max(Math.abs(c), 1);
+      for (let r = 0; r < n0; r++) rounding[r] += cs * scratch[r];
+      let a = 0;
+      for (let r = 0; r < n0; r++) a += Math.abs(g[r]) * Math.max(Math.abs(u[r]), 1);
+      rounding[n0 + i] = a;
+    }
+  }
+
   function jacobian(u: Float64Array, p: Params, values: Float64Array): void {
     prepare(p);
     values.fill(0);
@@ -615,6 +658,7 @@ export function createReactionDiffusion(spec: ReactionDiffusionSpec): ReactionDi
     laplacian: lap,
     pattern: () => pattern,
     residual,
+    residualMagnitudes,
     jacobian,
     parameterDerivative,
     ...(exactSecond ? { secondDerivative, mixedDerivative } : {}),

@@ -50,6 +50,8 @@ async function run(name: string, intervals?: number[], runs: Record<string, stri
   const out = join(tmp, name);
   const result = await runCase(prepared, { outDir: out });
   const points = json(join(out, 'points.json')).points as Record<string, any>[];
+  // every branch point of a bundled case is classified (issue 11)
+  expect(points.filter((p) => p.type === 'unknown').map((p) => `${p.kind} at ${p.value} on branch ${p.branch}: ${p.note}`)).toEqual([]);
   return { result, out, points, of: (kind: string, branch = 1) => points.filter((p) => p.kind === kind && p.branch === branch) };
 }
 

@@ -291,6 +291,8 @@ const MATH: Readonly<Record<string, (...x: number[]) => number>> = {
   asinh: Math.asinh,
   acosh: Math.acosh,
   atanh: Math.atanh,
+  // internal only (never accepted in user text): the sizes of summands (see `magnitudeOf`)
+  abs: Math.abs,
 };
 
 /** JavaScript source for each function of one argument `A`. */
@@ -318,6 +320,7 @@ const JS_FUNCTION: Readonly<Record<string, (a: string) => string>> = {
   asinh: (a) => `Math.asinh(${a})`,
   acosh: (a) => `Math.acosh(${a})`,
   atanh: (a) => `Math.atanh(${a})`,
+  abs: (a) => `Math.abs(${a})`,
 };
 
 /** Convert a checked mathjs tree (or a mathjs derivative of one) to the internal tree. */
@@ -683,6 +686,8 @@ export interface CompiledReaction {
     readonly second: readonly Expr[];
     /** [parameter][field]: the contracted mixed derivative (reads the s direction slots). */
     readonly mixed: readonly (readonly Expr[])[];
+    /** [field]: Σ |summand| of the reaction term (see `summands`). */
+    readonly magnitude: readonly Expr[];
   };
   /** Generated JavaScript, for inspection. */
   readonly sources: { readonly residual: string; readonly jacobian: string; readonly parameter: readonly string[] };
@@ -755,6 +760,40 @@ function checkFiniteConstants(e: Expr, label: string, text: string): void {
     visit(x.b);
   };
   visit(e);
+}
+
+/** Products of sums are multiplied out up to this many summands; beyond, a product stays one term. */
+const MAX_SUMMANDS = 32;
+
+/**
+ * The summands of an expression: split at + and − (unary minus dropped), products and quotients
+ * of sums multiplied out (while at most MAX_SUMMANDS result). `λ*(u - u^3)` gives λ·u and λ·u³;
+ * `exp(u)/(1 + u)` stays one summand.
+ */
+export function summands(e: Expr): Expr[] {
+  switch (e.k) {
+    case 'add':
+    case 'sub':
+      return [...summands(e.a), ...summands(e.b)];
+    case 'neg':
+      return summands(e.a);
+    case 'mul': {
+      const a = summands(e.a);
+      const b = summands(e.b);
+      if (a.length * b.length > MAX_SUMMANDS) return [e];
+      return a.flatMap((x) => b.map((y) => product(x, y)));
+    }
+    case 'div':
+      return summands(e.a).map((x): Expr => ({ k: 'div', a: x, b: e.b }));
+    default:
+      return [e];
+  }
+}
+
+/** Σ |summand| of an expression (Problem.residualMagnitudes for expression models). */
+export function magnitudeOf(e: Expr): Expr {
+  const parts = summands(e).map((x): Expr => (x.k === 'num' ? num(Math.abs(x.v)) : { k: 'fn', name: 'abs', args: [x] }));
+  return tidy(sumOf(parts));
 }
 
 const sumOf = (terms: Expr[]): Expr => (terms.length === 0 ? ZERO : terms.reduce((x, y) => ({ k: 'add', a: x, b: y })));
@@ -854,7 +893,7 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
     parameterDerivative: par.map((x) => x.fn),
     secondDerivative: generate(second).fn,
     mixedDerivative: mixed.map((t) => generate(t).fn),
-    trees: { residual, jacobian: jacTrees, parameter: paramTrees, second, mixed },
+    trees: { residual, jacobian: jacTrees, parameter: paramTrees, second, mixed, magnitude: residual.map(magnitudeOf) },
     sources: { residual: res.source, jacobian: jac.source, parameter: par.map((x) => x.source) },
   };
 }

@@ -8,6 +8,7 @@
  *   parameterDerivative(u, x, q, j, out)    out[a]        = ∂R_a/∂q_j
  *   secondDerivative(u, x, q, s, t, out)    out[a]        = Σ_bc ∂²R_a/∂u_b∂u_c s_b t_c
  *   mixedDerivative(u, x, q, j, s, out)     out[a]        = Σ_b ∂²R_a/∂u_b∂q_j s_b
+ *   magnitude(u, x, q, out)                 out[a]        = Σ |summands of R_a| (compile.ts `summands`)
  *
  * u holds the field values at the node, x the node position (dim entries), q the parameter
  * values in the compiled parameter order. `coupling` marks the structurally non-zero ∂R_a/∂u_b,
@@ -21,7 +22,7 @@ export interface ExpressionReactionTerms extends ReactionTerms {
   readonly coupling: readonly boolean[];
   readonly usesPosition: boolean;
   /** Generated JavaScript of each callback, for inspection and error reports. */
-  readonly sources: Readonly<Record<'value' | 'jacobian' | 'parameterDerivative' | 'secondDerivative' | 'mixedDerivative', string>>;
+  readonly sources: Readonly<Record<'value' | 'jacobian' | 'parameterDerivative' | 'secondDerivative' | 'mixedDerivative' | 'magnitude', string>>;
 }
 
 /** Build the assembly callbacks for a compiled system on a grid of dimension `dim`. */
@@ -68,6 +69,7 @@ export function reactionTerms(c: CompiledReaction, dim: number): ExpressionReact
   const parameterDerivative = compile(['u', 'x', 'q', 'j', 'o'], switchOnParameter(c.trees.parameter));
   const secondDerivative = compile(['u', 'x', 'q', 's', 't', 'o'], body(c.trees.second, (a) => `o[${a}]`));
   const mixedDerivative = compile(['u', 'x', 'q', 'j', 's', 'o'], switchOnParameter(c.trees.mixed));
+  const magnitude = compile(['u', 'x', 'q', 'o'], body(c.trees.magnitude, (a) => `o[${a}]`));
 
   return {
     coupling,
@@ -77,12 +79,14 @@ export function reactionTerms(c: CompiledReaction, dim: number): ExpressionReact
     parameterDerivative: parameterDerivative.fn as ReactionTerms['parameterDerivative'],
     secondDerivative: secondDerivative.fn as NonNullable<ReactionTerms['secondDerivative']>,
     mixedDerivative: mixedDerivative.fn as NonNullable<ReactionTerms['mixedDerivative']>,
+    magnitude: magnitude.fn as NonNullable<ReactionTerms['magnitude']>,
     sources: {
       value: value.source,
       jacobian: jacobian.source,
       parameterDerivative: parameterDerivative.source,
       secondDerivative: secondDerivative.source,
       mixedDerivative: mixedDerivative.source,
+      magnitude: magnitude.source,
     },
   };
 }

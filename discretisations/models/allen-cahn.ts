@@ -37,6 +37,10 @@ export const allenCahnReaction: ReactionTerms = {
   mixedDerivative(u, _x, _q, j, s, out) {
     out[0] = j === 0 ? (1 - 3 * u[0] * u[0]) * s[0] : 0;
   },
+  magnitude(u, _x, q, out) {
+    const v = Math.abs(u[0]);
+    out[0] = Math.abs(q[0]) * (v + v * v * v);
+  },
 };
 
 export function allenCahn(options: Record<string, unknown> & { grid: GridOptions }): Problem {

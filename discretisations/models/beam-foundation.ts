@@ -13,7 +13,7 @@
  */
 import type { GridOptions, Monitor, ParameterSpec, Params, Problem, ProblemDescription, UnknownLocation } from '../../src/problem/problem.js';
 import { Grid } from '../grid.js';
-import { BoundaryData, OperatorBuilder, type BeamEnd, applyOperator } from '../operator.js';
+import { BoundaryData, OperatorBuilder, type BeamEnd, applyOperator, operatorRounding } from '../operator.js';
 import { PatternBuilder } from '../pattern.js';
 import { fieldMonitors, pointMonitor } from '../monitors.js';
 import { type OptionSpec, checkOptions, choice, dimensionCheck, gridOption } from './options.js';
@@ -74,6 +74,24 @@ export function beamFoundation(options: Record<string, unknown> & { grid: GridOp
     for (let i = 0; i < n; i++) {
       const w = u[i];
       out[i] = -(EI * t4[i] + P * t2[i] + kf * w - k3 * w * w * w);
+    }
+  }
+
+  /** Terms for the convergence test: EI·w⁗, P·w″, kf·w and k3·w³ each as a whole. */
+  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void {
+    const [P, EI, kf, k3] = get(p);
+    applyOperator(d4, grid, u, bd, t4);
+    applyOperator(d2, grid, u, bd, t2);
+    for (let i = 0; i < n; i++) {
+      const w = u[i];
+      terms[i] = Math.abs(EI * t4[i]) + Math.abs(P * t2[i]) + Math.abs(kf * w) + Math.abs(k3 * w * w * w);
+    }
+    if (!rounding) return;
+    operatorRounding(d4, grid, u, bd, t4);
+    operatorRounding(d2, grid, u, bd, t2);
+    for (let i = 0; i < n; i++) {
+      const w = u[i];
+      rounding[i] = Math.abs(EI) * t4[i] + Math.abs(P) * t2[i] + Math.abs(kf) * Math.max(Math.abs(w), 1) + Math.abs(k3 * w * w * w);
     }
   }
 
@@ -158,6 +176,7 @@ export function beamFoundation(options: Record<string, unknown> & { grid: GridOp
     weights,
     pattern: () => pattern,
     residual,
+    residualMagnitudes,
     jacobian,
     parameterDerivative,
     secondDerivative,

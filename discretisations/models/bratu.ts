@@ -43,6 +43,9 @@ export const bratuReaction: ReactionTerms = {
   mixedDerivative(u, _x, _q, j, s, out) {
     out[0] = j === 0 ? Math.exp(u[0]) * s[0] : 0;
   },
+  magnitude(u, _x, q, out) {
+    out[0] = Math.abs(q[0] * Math.exp(u[0]));
+  },
 };
 
 export function bratu(options: Record<string, unknown> & { grid: import('../../src/problem/problem.js').GridOptions }): Problem {

@@ -70,6 +70,12 @@ export const brusselatorReaction: ReactionTerms = {
       out[1] = 0;
     }
   },
+  magnitude(w, _x, q, out) {
+    const u = w[0];
+    const uuv = Math.abs(u * u * w[1]);
+    out[0] = Math.abs(q[0]) + Math.abs((q[1] + 1) * u) + uuv;
+    out[1] = Math.abs(q[1] * u) + uuv;
+  },
 };
 
 export function brusselator(options: Record<string, unknown> & { grid: GridOptions }): Problem {

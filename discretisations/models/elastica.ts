@@ -17,7 +17,7 @@
  */
 import type { GridOptions, Monitor, ParameterSpec, Params, Problem, ProblemDescription, UnknownLocation } from '../../src/problem/problem.js';
 import { Grid } from '../grid.js';
-import { BoundaryData, OperatorBuilder, applyOperator } from '../operator.js';
+import { BoundaryData, OperatorBuilder, applyOperator, operatorRounding } from '../operator.js';
 import { PatternBuilder } from '../pattern.js';
 import { fieldMonitors } from '../monitors.js';
 import { type OptionSpec, checkOptions, dimensionCheck, gridOption } from './options.js';
@@ -83,6 +83,22 @@ export function elastica(options: Record<string, unknown> & { grid: GridOptions 
       g += weights[i] * s;
     }
     out[ir] = g;
+  }
+
+  /** Terms for the convergence test: θ″, λ sin θ and r cos θ; the constraint's summands w_i sin θ_i. */
+  function residualMagnitudes(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void {
+    const l = lam(p);
+    const r = u[ir];
+    applyOperator(op, grid, u, bd, terms);
+    if (rounding) operatorRounding(op, grid, u, bd, rounding);
+    let g = 0;
+    for (let i = 0; i < n0; i++) {
+      terms[i] = Math.abs(terms[i]) + Math.abs(l * Math.sin(u[i])) + Math.abs(r * Math.cos(u[i]));
+      if (rounding) rounding[i] += Math.abs(l * Math.sin(u[i])) + Math.abs(Math.cos(u[i])) * Math.max(Math.abs(r), 1);
+      g += weights[i] * Math.abs(Math.sin(u[i]));
+    }
+    terms[ir] = g;
+    if (rounding) rounding[ir] = 1; // Σ w_i·max(|sin θ_i|, 1): the weights sum to the unit length
   }
 
   function jacobian(u: Float64Array, p: Params, values: Float64Array): void {
@@ -177,6 +193,7 @@ export function elastica(options: Record<string, unknown> & { grid: GridOptions 
     massDiagonal,
     pattern: () => pattern,
     residual,
+    residualMagnitudes,
     jacobian,
     parameterDerivative,
     secondDerivative,

@@ -72,6 +72,13 @@ export const grayScottReaction: ReactionTerms = {
       out[1] = 0;
     }
   },
+  magnitude(w, _x, q, out) {
+    const u = w[0];
+    const v = w[1];
+    const uvv = Math.abs(u * v * v);
+    out[0] = uvv + Math.abs(q[0] * (1 - u));
+    out[1] = uvv + Math.abs((q[0] + q[1]) * v);
+  },
 };
 
 export function grayScott(options: Record<string, unknown> & { grid: GridOptions }): Problem {

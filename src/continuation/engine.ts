@@ -8,12 +8,14 @@
  * `options.state` resumes exactly where it was taken.
  */
 import type { Params, Problem } from '../problem/problem.js';
-import { branchDirections, locateBranchPoint } from './branch-point.js';
+import { branchDirections, locateBranchPoint, locateDoubleCrossing } from './branch-point.js';
+import { type CountAccount, accountFirstStep, accountStep, changeText } from './crossings.js';
 import { locateFold } from './fold.js';
-import { correct, correctWork, type NewtonResult } from './newton.js';
+import { correct, correctWork, type NewtonResult, type NewtonWork } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
-import { StabilityAnalyser, crossingPair, locateCountChange, locateHopf } from './stability.js';
+import { StabilityAnalyser, crossingPair, locateHopf } from './stability.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
+import type { BackendDecision } from '../linalg/lu.js';
 import { difference } from '../linalg/vector.js';
 import type {
   BranchInfo,
@@ -40,6 +42,10 @@ export interface PendingBranch {
   step: number;
   /** Eigen-solver warm start at the branch point. */
   eigenWarm: EigenWarmStart | null;
+  /** Newton iterations of the first point. */
+  iterations?: number;
+  /** Real eigenvalues that vanish at the branch point (1 for a simple one). */
+  multiplicity?: number;
 }
 
 export interface BranchState {
@@ -72,11 +78,6 @@ export interface EngineState {
   current: BranchState | null;
   knownBranchPoints: Float64Array[];
   ended: { id: number; reason: StopReason; points: number; message: string }[];
-  /**
-   * The residual row scaling frozen at the current branch's start (ContinuationSystem.setRowScale):
-   * convergence tests depend on it, so a resumed run must use the same one.
-   */
-  rowScale?: Float64Array;
 }
 
 export interface EngineSummary {
@@ -96,6 +97,14 @@ export interface EngineCounters {
   eigenSolves: number;
   eigenFactorisations: number;
   seconds: { residual: number; assembly: number; factorisation: number; solves: number; eigen: number };
+}
+
+/** Stability at a candidate point, the account of its step's count change, and whether that rejects the step. */
+interface CandidateStability {
+  stability: PointStability;
+  warm: EigenWarmStart;
+  account?: CountAccount;
+  rejection?: string;
 }
 
 export class ContinuationError extends Error {
@@ -118,7 +127,7 @@ export class Continuation {
   private readonly n: number;
   private state: EngineState;
   private quiescent = true;
-  private readonly work: { rhs: Float64Array; delta: Float64Array };
+  private readonly work: NewtonWork;
   private readonly lo: number;
   private readonly hi: number;
   private readonly stab: StabilityAnalyser | undefined;
@@ -131,7 +140,7 @@ export class Continuation {
     readonly settings: ContinuationSettings,
     private readonly options: ContinuationOptions = {},
   ) {
-    this.sys = new ContinuationSystem(problem, params, settings.parameter);
+    this.sys = new ContinuationSystem(problem, params, settings.parameter, settings.sparseLu ? { backend: settings.sparseLu } : {});
     this.n = problem.size;
     this.work = correctWork(this.n);
     [this.lo, this.hi] = settings.bounds;
@@ -140,16 +149,6 @@ export class Continuation {
     this.state = options.state
       ? cloneState(options.state)
       : { version: 1, started: false, nextBranchId: 1, branches: [], queue: [], current: null, knownBranchPoints: [], ended: [] };
-    if (this.state.rowScale) {
-      if (this.state.rowScale.length !== this.n) throw new ContinuationError(`the saved state has ${this.state.rowScale.length} row scales, the problem has ${this.n} unknowns`);
-      this.sys.rowScale.set(this.state.rowScale);
-    }
-  }
-
-  /** Freeze the residual row scaling at (u, λ) and remember it in the state (for resuming). */
-  private setRowScale(u: Float64Array, lambda: number): void {
-    this.sys.setRowScale(u, lambda);
-    this.state.rowScale = this.sys.rowScale.slice();
   }
 
   /** True between steps: a snapshot taken now resumes cleanly. */
@@ -159,6 +158,11 @@ export class Continuation {
 
   snapshot(): EngineState {
     return cloneState(this.state);
+  }
+
+  /** Which sparse LU factors the bordered continuation matrix and why (undefined before the first point). */
+  linearSolver(): BackendDecision | undefined {
+    return this.sys.luDecision;
   }
 
   /** Counts of the linear algebra done so far. */
@@ -241,10 +245,7 @@ export class Continuation {
       this.sys.setTangentRow(prev);
       this.sys.factor(fresh);
     }
-    const rhs = this.work.rhs;
-    rhs.fill(0);
-    rhs[n] = 1;
-    const z = this.sys.solve(rhs, new Float64Array(n + 1));
+    const z = this.sys.lastColumnSolution().slice();
     const s = this.sys.norm(z);
     for (let i = 0; i <= n; i++) z[i] /= s;
     // z·prev = 1/s > 0: already oriented along the previous tangent
@@ -267,7 +268,6 @@ export class Continuation {
     const x = new Float64Array(n + 1);
     x.set(guess);
     x[n] = lambda0;
-    this.setRowScale(x.subarray(0, n), lambda0);
     const eLambda = new Float64Array(n + 1);
     eLambda[n] = 1;
     const ref = x.slice();
@@ -316,7 +316,6 @@ export class Continuation {
   /** Begin the next queued branch. */
   private startPending(p: PendingBranch): EngineEvent[] {
     const n = this.n;
-    this.setRowScale(p.first.subarray(0, n), p.first[n]);
     const b: BranchState = {
       info: p.info,
       x: p.origin.slice(),
@@ -333,19 +332,62 @@ export class Continuation {
     this.analyse(b);
     this.state.branches.push(p.info);
     const events: EngineEvent[] = [{ type: 'branch-start', branch: p.info }, this.pointEvent(b, 0, 0, this.sys.residual(p.origin.subarray(0, n), p.origin[n]))];
-    // the first converged point off the branch point
-    const ds = this.sys.norm(difference(p.first, p.origin));
-    b.x = p.first.slice();
-    b.arclength = ds;
-    b.index = 1;
-    this.sys.assemble(b.x.subarray(0, n), b.x[n]);
-    this.sys.setTangentRow(p.tangent);
-    this.sys.factor(true);
-    b.determinantSign = this.sys.determinant().sign;
-    this.analyse(b);
-    events.push(this.pointEvent(b, ds, 0, this.sys.residual(b.x.subarray(0, n), b.x[n])));
+    // the first converged point off the branch point; the first step is accounted for like any
+    // other (crossings.ts: the origin's critical eigenvalues may land on either side), and while
+    // the count change is unexplained the first point is brought closer to the origin
+    const origin = b.stability;
+    const originWarm = b.eigenWarm;
+    let first = p.first;
+    let tangent = p.tangent;
+    let iterations = p.iterations ?? 0;
+    let unexplained: CountAccount | undefined;
+    let ds: number;
+    for (;;) {
+      ds = this.sys.norm(difference(first, p.origin));
+      b.x = first.slice();
+      b.tangent = tangent.slice();
+      b.arclength = ds;
+      b.index = 1;
+      this.sys.assemble(b.x.subarray(0, n), b.x[n]);
+      this.sys.setTangentRow(tangent);
+      this.sys.factor(true);
+      b.determinantSign = this.sys.determinant().sign;
+      b.eigenWarm = originWarm;
+      this.analyse(b);
+      const account = origin && b.stability ? accountFirstStep(origin, b.stability, p.multiplicity ?? 1) : undefined;
+      unexplained = account && !account.explained ? account : undefined;
+      if (!unexplained || ds / 2 < this.settings.step.min) break;
+      const closer = this.pointTowards(p.origin, first, ds / 2);
+      if (!closer) break;
+      ({ x: first, tangent, iterations } = closer);
+    }
+    b.step = Math.min(p.step, ds);
+    const pe = this.pointEvent(b, ds, iterations, this.sys.residual(b.x.subarray(0, n), b.x[n]));
+    events.push(pe);
+    if (unexplained && pe.type === 'point') {
+      pe.point.unexplained = changeText(unexplained);
+      const text = `${changeText(unexplained)} over the first step from the branch point at ${this.settings.parameter} = ${fmt(p.origin[n])} with nothing located to explain it, even with the first point at the minimum step`;
+      events.push({ type: 'log', level: 'warning', message: `branch ${p.info.id}: ${text}` });
+    }
     this.state.current = b;
     return events;
+  }
+
+  /**
+   * A converged point at distance h from `origin` in the direction of `towards` (corrected in the
+   * hyperplane orthogonal to that direction), with its tangent oriented away from the origin.
+   */
+  private pointTowards(origin: Float64Array, towards: Float64Array, h: number): { x: Float64Array; tangent: Float64Array; iterations: number } | undefined {
+    const n = this.n;
+    const d = difference(towards, origin);
+    const len = this.sys.norm(d);
+    for (let i = 0; i <= n; i++) d[i] /= len;
+    const xp = new Float64Array(n + 1);
+    for (let i = 0; i <= n; i++) xp[i] = origin[i] + h * d[i];
+    const x = xp.slice();
+    const r = correct(this.sys, x, d, xp, { ...this.newtonSettings(true), maxUpdate: 2 * h }, this.work);
+    if (!r.converged) return undefined;
+    return { x, tangent: this.tangentFrom(d, x, r.factored, true).tangent, iterations: r.iterations };
   }
 
   private end(b: BranchState, reason: StopReason, message?: string): EngineEvent[] {
@@ -437,14 +479,12 @@ export class Continuation {
           rejection = (e as Error).message;
         }
       }
-      // eigenvalues at the candidate: two crossings in one step are split by smaller steps
-      // (the determinant would miss a pair of sign changes), down to a floor below which the
-      // crossing counts as one of multiplicity two
-      let stability: { stability: PointStability; warm: EigenWarmStart } | undefined;
+      // eigenvalues at the candidate: a change of the unstable count that no fold, branch point
+      // or Hopf point of this step explains is split by smaller steps (crossings.ts)
+      let stability: CandidateStability | undefined;
       if (rejection === undefined && tangent && this.stab && b.stability) {
-        stability = this.stab.analyse(xNew, b.eigenWarm);
-        const crossings = countCrossings(b.stability, stability.stability);
-        if (crossings >= 2 && ds > Math.max(st.step.min, 1e-4 * st.step.max)) rejection = `${crossings} eigenvalue crossings in one step`;
+        stability = this.candidateStability(b, xNew, tangent, sign, ds, true);
+        rejection = stability.rejection;
       }
       if (rejection !== undefined || !tangent) {
         if (res.failure === 'non-finite' && ds <= st.step.min) return this.end(b, 'non-finite', `non-finite values near ${st.parameter} = ${b.x[n]}: ${res.message}`);
@@ -459,6 +499,30 @@ export class Continuation {
     }
   }
 
+  /**
+   * Stability at a candidate point and the account of the step's count change (crossings.ts):
+   * an unexplained change rejects the step while it is longer than the minimum step — a change
+   * by two real eigenvalues only down to the floor max(min, 10⁻⁴·max), below which it counts as
+   * a double crossing (a branch point of multiplicity two, located on the eigenvalues).
+   */
+  /** `factoredHere`: the bordered matrix was factored at xNew itself (not at a Newton iterate before it). */
+  private candidateStability(b: BranchState, xNew: Float64Array, tangent: Float64Array, sign: number, ds: number, factoredHere = false): CandidateStability {
+    const n = this.n;
+    const st = this.settings;
+    // when the bordered matrix was factored at xNew itself (the arclength step's tangentFrom), its
+    // factors solve with J there, which spares the eigenvalue solver its own factorisation at shift 0
+    const r = this.stab!.analyse(xNew, b.eigenWarm, false, factoredHere ? this.sys.jacobianSolver() : undefined);
+    const account = accountStep(b.stability!, r.stability, {
+      fold: b.tangent[n] * tangent[n] < 0,
+      branchPoint: b.determinantSign !== 0 && sign !== 0 && sign !== b.determinantSign,
+    });
+    const out: CandidateStability = { ...r, account };
+    if (!account || account.explained) return out;
+    const floor = account.double ? Math.max(st.step.min, 1e-4 * st.step.max) : st.step.min;
+    if (ds > floor) out.rejection = `${changeText(account)} with no fold, branch point or Hopf point to explain it`;
+    return out;
+  }
+
   /** Accept a corrected point: events for special points, bounds and stop conditions. */
   private accept(
     b: BranchState,
@@ -467,7 +531,7 @@ export class Continuation {
     sign: number,
     ds: number,
     res: NewtonResult,
-    stability?: { stability: PointStability; warm: EigenWarmStart },
+    stability?: CandidateStability,
   ): EngineEvent[] {
     const n = this.n;
     const st = this.settings;
@@ -476,6 +540,7 @@ export class Continuation {
     const tOld = b.tangent;
     const specials: EngineEvent[] = [];
     let located = false;
+    const seen = { fold: tOld[n] * tangent[n] < 0, branchPoint: b.determinantSign !== 0 && sign !== 0 && sign !== b.determinantSign };
     // fold: the tangent's λ component changes sign
     if (st.method === 'arclength' && st.locate.folds && tOld[n] * tangent[n] < 0) {
       specials.push(this.foldEvent(b, xOld, tOld, xNew, tangent));
@@ -506,9 +571,11 @@ export class Continuation {
         b.arclength += this.sys.norm(difference(xb, xOld));
         b.index++;
         this.analyse(b);
-        events.push(this.pointEvent(b, ds * theta, r.iterations, r.residual));
-        events.push(...specials.filter((e) => e.type !== 'special' || inRange(e.point.value, this.lo, this.hi)));
-        events.push(...this.stabilityEvents(b, before, xOld, tOld, ds * theta, specials));
+        const kept = specials.filter((e) => e.type !== 'special' || inRange(e.point.value, this.lo, this.hi));
+        const kinds = kept.map((e) => (e.type === 'special' ? e.point.kind : ''));
+        const pe = this.pointEvent(b, ds * theta, r.iterations, r.residual);
+        events.push(pe, ...kept);
+        events.push(...this.stabilityEvents(b, before, xOld, tOld, ds * theta, { fold: kinds.includes('fold'), branchPoint: kinds.includes('branch-point') }, pe));
         events.push(...this.end(b, 'parameter-bound', `reached ${st.parameter} = ${fmt(bound)}`));
         return events;
       }
@@ -531,7 +598,7 @@ export class Continuation {
       this.analyse(b);
     }
     const pe = this.pointEvent(b, ds, it, res.residual);
-    events.push(pe, ...specials, ...this.stabilityEvents(b, before, xOld, tOld, ds, specials));
+    events.push(pe, ...specials, ...this.stabilityEvents(b, before, xOld, tOld, ds, seen, pe));
     const stop = this.stopCheck(b, pe.type === 'point' ? pe.point.monitors : {});
     if (stop) events.push(...this.end(b, stop.reason, stop.message));
     return events;
@@ -615,22 +682,18 @@ export class Continuation {
       }
     }
     this.state.knownBranchPoints.push(xs.slice());
-    // the old branch's tangent at the point: the secant of the final bracket, or the tangent
-    let tau1 = difference(loc.hi.x, loc.lo.x);
-    if (!(this.sys.norm(tau1) > 0) || loc.hi.s - loc.lo.s > 1e-3) tau1 = ta.slice();
-    if (this.sys.dot(tau1, ta) < 0) for (let i = 0; i <= n; i++) tau1[i] = -tau1[i];
-    const dirs = branchDirections(this.sys, xs, tau1);
+    const dirs = branchDirections(this.sys, xs, ta);
     if ('error' in dirs) {
       event.note = dirs.error;
       return events;
     }
     // converge a first point each way along the new direction
     const h0 = Math.min(Math.max(b.step, 20 * st.step.min), st.step.max, 0.5);
-    const firsts: { x: Float64Array; t: Float64Array; h: number }[] = [];
+    const firsts: { x: Float64Array; t: Float64Array; h: number; iterations: number }[] = [];
     for (const sgn of [1, -1]) {
       const d = dirs.direction.map((v) => v * sgn);
       let h = h0;
-      let got: { x: Float64Array; t: Float64Array; h: number } | undefined;
+      let got: { x: Float64Array; t: Float64Array; h: number; iterations: number } | undefined;
       for (let attempt = 0; attempt < 8 && !got; attempt++, h *= 0.5) {
         const xp = new Float64Array(n + 1);
         for (let i = 0; i <= n; i++) xp[i] = xs[i] + h * d[i];
@@ -641,7 +704,7 @@ export class Continuation {
         const cosOld = Math.abs(this.sys.dot(v, dirs.tau1)) / this.sys.norm(v);
         if (cosOld > 0.95) continue; // fell back onto the old branch
         const { tangent } = this.tangentFrom(d, x, r.factored, true);
-        got = { x, t: tangent, h };
+        got = { x, t: tangent, h, iterations: r.iterations };
       }
       if (got) firsts.push(got);
     }
@@ -650,15 +713,13 @@ export class Continuation {
       return events;
     }
     if (firsts.length === 2) {
-      const a = firsts[0].x[n] - xs[n];
-      const c = firsts[1].x[n] - xs[n];
-      const tiny = 1e-12 * Math.max(1, Math.abs(xs[n]));
-      if (a * c > 0 && Math.abs(a) > tiny && Math.abs(c) > tiny) {
+      const shape = branchShape(firsts[0].x[n] - xs[n], this.sys.norm(difference(firsts[0].x, xs)), firsts[1].x[n] - xs[n], this.sys.norm(difference(firsts[1].x, xs)), st.newton.stepTolerance * (1 + this.sys.norm(xs)));
+      if (shape === 'pitchfork') {
         event.type = 'pitchfork';
-        const side = Math.sign(a);
+        const side = Math.sign(firsts[0].x[n] - xs[n] + firsts[1].x[n] - xs[n]);
         event.newBranchDirection = side > 0 ? 'increase' : 'decrease';
         event.criticality = dirs.unstableSide === 0 ? 'undetermined' : side === dirs.unstableSide ? 'supercritical' : 'subcritical';
-      } else if (a * c < 0) {
+      } else if (shape === 'transcritical') {
         event.type = 'transcritical';
         event.newBranchDirection = 'both';
       }
@@ -670,30 +731,36 @@ export class Continuation {
     for (const f of firsts) {
       const info: BranchInfo = { id: this.state.nextBranchId++, depth: b.info.depth + 1, origin: { kind: 'branch-point', branch: b.info.id, value: xs[n] } };
       event.newBranches.push(info.id);
-      this.state.queue.push({ info, origin: xs.slice(), first: f.x, tangent: f.t, step: f.h, eigenWarm: b.eigenWarm });
+      this.state.queue.push({ info, origin: xs.slice(), first: f.x, tangent: f.t, step: f.h, eigenWarm: b.eigenWarm, iterations: f.iterations, multiplicity: 1 });
     }
     return events;
   }
 
   /**
-   * What the eigenvalues say about the step from (xOld, tOld) to the branch's new point: Hopf
-   * points (a complex pair crossed the imaginary axis), branch points of multiplicity two (two
-   * real eigenvalues crossed together: invisible to the determinant), and a warning when a real
-   * crossing has no fold or branch point to go with it.
+   * What the eigenvalues say about the step from (xOld, tOld) to the branch's new point `pe`
+   * (crossings.ts): Hopf points (a complex pair crossed the imaginary axis), branch points of
+   * multiplicity two (two real eigenvalues crossed zero together, which the determinant cannot
+   * see; the step was split down to its floor first), and a warning — also written on the point
+   * — for a change of the unstable count that nothing seen in the step explains.
    */
-  private stabilityEvents(b: BranchState, before: PointStability | undefined, xOld: Float64Array, tOld: Float64Array, ds: number, specials: EngineEvent[]): EngineEvent[] {
+  private stabilityEvents(
+    b: BranchState,
+    before: PointStability | undefined,
+    xOld: Float64Array,
+    tOld: Float64Array,
+    ds: number,
+    seen: { fold: boolean; branchPoint: boolean },
+    pe: EngineEvent,
+  ): EngineEvent[] {
     const after = b.stability;
     if (!this.stab || !before || !after) return [];
     const n = this.n;
     const st = this.settings;
     const events: EngineEvent[] = [];
-    const realBefore = before.unstableCount - before.unstableComplex;
-    const realAfter = after.unstableCount - after.unstableComplex;
-    const dReal = realAfter - realBefore;
-    const hasFoldOrBranchPoint = specials.some((e) => e.type === 'special' && (e.point.kind === 'fold' || e.point.kind === 'branch-point'));
     const where = `between ${st.parameter} = ${fmt(xOld[n])} and ${fmt(b.x[n])}`;
-    if (Math.abs(dReal) === 2 && !hasFoldOrBranchPoint && before.complete && after.complete) {
-      const loc = locateCountChange(this.sys, this.stab, xOld, tOld, ds, realBefore, b.eigenWarm, st.newton, st.branchPointTolerance);
+    const account = accountStep(before, after, seen);
+    if (account?.double) {
+      const loc = locateDoubleCrossing(this.sys, this.stab, xOld, tOld, ds, b.eigenWarm, st.newton, doubleCrossingTolerance(st.branchPointTolerance));
       const x = loc.x;
       const bp: BranchPointEvent = {
         kind: 'branch-point',
@@ -708,17 +775,21 @@ export class Continuation {
         type: 'unknown',
         criticality: 'undetermined',
         newBranches: [],
-        note: `two real eigenvalues crossed zero together (a symmetric or periodic domain?): a branch point of multiplicity two, located by bisection on the eigenvalue count; the determinant cannot see it, and branches are not followed from it`,
+        note: `two real eigenvalues crossed zero together (a symmetric or periodic domain?): a branch point of multiplicity two, located on the critical eigenvalue; the determinant cannot see it, and branches are not followed from it`,
       };
       events.push({ type: 'special', point: bp });
+      if (!loc.converged) events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: branch point of multiplicity two ${where} not located to tolerance (${loc.message})` });
       b.freshNext = true;
-    } else if (dReal !== 0 && !hasFoldOrBranchPoint && before.complete && after.complete) {
-      events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: the number of unstable real eigenvalues changed from ${realBefore} to ${realAfter} ${where} without a detected fold or branch point (a missed event, or a poor eigenvalue solve)` });
-    } else if (dReal === 0 && hasFoldOrBranchPoint && before.complete && after.complete && specials.some((e) => e.type === 'special' && e.point.kind === 'fold')) {
+    } else if (account && !account.explained) {
+      const text = `${changeText(account)} ${where} with no fold, branch point or Hopf point located to explain it, even at the minimum step (a missed event, or a poor eigenvalue solve)`;
+      events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: ${text}` });
+      if (pe.type === 'point') pe.point.unexplained = changeText(account);
+    } else if (account && account.real === 0 && seen.fold && !seen.branchPoint) {
       events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: a fold was found ${where} but no real eigenvalue crossed zero there (check the eigenvalue count)` });
     }
     const pair = crossingPair(before, after);
-    if (pair && before.unstableComplex !== after.unstableComplex) {
+    const pairsCrossed = account ? account.pairs !== 0 : before.unstableComplex !== after.unstableComplex;
+    if (pair && pairsCrossed) {
       const loc = locateHopf(this.sys, this.stab, xOld, tOld, ds, pair, b.eigenWarm, st.newton, st.hopfTolerance);
       const hopf: HopfPoint = {
         kind: 'hopf',
@@ -773,18 +844,40 @@ export class Continuation {
       }
       const { tangent, sign } = this.tangentFrom(eLambda, x, res.factored, b.freshNext);
       if (tangent[n] * dir < 0) for (let i = 0; i <= n; i++) tangent[i] = -tangent[i];
-      return this.accept(b, x, tangent, sign, dl, res);
+      // an unexplained change of the unstable count splits the step here too
+      const stability = this.stab && b.stability ? this.candidateStability(b, x, tangent, sign, dl) : undefined;
+      if (stability?.rejection !== undefined) {
+        dl *= 0.5;
+        b.freshNext = true;
+        continue;
+      }
+      return this.accept(b, x, tangent, sign, dl, res, stability);
     }
   }
 }
 
-/** Eigenvalue crossings between two points: real ones, plus complex pairs counted once each. */
-function countCrossings(a: PointStability, b: PointStability): number {
-  const real = Math.abs(b.unstableCount - b.unstableComplex - (a.unstableCount - a.unstableComplex));
-  const pairs = Math.abs(b.unstableComplex - a.unstableComplex) / 2;
-  return real + pairs;
+/**
+ * Pitchfork or transcritical, from the new branch's first points on either side of the branch
+ * point: offsets a (at distance h₊) and c (at distance h₋, the other way) of the parameter.
+ * Fitting λ − λ* = α s + β s² through them (s = h₊ and −h₋) gives the branch's slope α and
+ * curvature β; the decision compares the two parts at the probing distance h̄ = (h₊ + h₋)/2, so
+ * it depends neither on the units of λ nor on the grid: symmetric (|α| ≤ 0.05·|β|·h̄: the two
+ * points sit at the same parameter, a pitchfork) or crossing (a transcritical point; a branch
+ * that crosses λ* and soon turns back counts as one too). Offsets within `noise` (what the
+ * corrector's tolerance leaves uncertain) of zero on both sides decide nothing.
+ */
+export function branchShape(a: number, hPlus: number, c: number, hMinus: number, noise: number): 'pitchfork' | 'transcritical' | undefined {
+  if (Math.abs(a) <= noise && Math.abs(c) <= noise) return undefined;
+  const denominator = hPlus * hMinus * (hPlus + hMinus);
+  const alpha = (a * hMinus * hMinus - c * hPlus * hPlus) / denominator;
+  const beta = (a * hMinus + c * hPlus) / denominator;
+  return Math.abs(alpha) <= 0.05 * Math.abs(beta) * 0.5 * (hPlus + hMinus) ? 'pitchfork' : 'transcritical';
 }
 
+/** Branch points of multiplicity two are located a hundred times tighter than simple ones' bracket (both then land near 1e-10). */
+function doubleCrossingTolerance(branchPointTolerance: number): number {
+  return 1e-2 * branchPointTolerance;
+}
 
 function inRange(v: number, lo: number, hi: number): boolean {
   return v >= lo && v <= hi;

@@ -22,6 +22,7 @@ export interface FoldLocation {
   /** (u, λ) at the fold (best estimate when not converged). */
   x: Float64Array;
   iterations: number;
+  /** ‖F‖_w at x. */
   residual: number;
   message?: string;
 }
@@ -119,7 +120,7 @@ export function locateFold(
     for (let i = 0; i < n; i++) c[i] = sys.weights[i] * b[i];
     if (Math.abs(sol[n]) <= tolerance * Math.max(1, Math.abs(x[n])) && sys.normU(sol) <= 1e-8 * (1 + sys.normU(x))) {
       residual = sys.residual(x.subarray(0, n), x[n]);
-      if (residual <= Math.max(residualTolerance, 1e-8)) return { converged: true, x, iterations: it, residual };
+      if (residual <= sys.residualBound(x.subarray(0, n), x[n], residualTolerance, residual)) return { converged: true, x, iterations: it, residual };
     }
   }
   return { converged: false, x, iterations: maxIterations, residual, message: `fold location did not converge in ${maxIterations} iterations` };

@@ -6,7 +6,7 @@
  * the crossing pair, to the requested tolerance in the parameter.
  */
 import { performance } from 'node:perf_hooks';
-import { EigenTracker, type EigenWarmStart, type RightmostResult } from '../linalg/eigen.js';
+import { EigenTracker, type EigenWarmStart, type FactoredShift, type RightmostResult } from '../linalg/eigen.js';
 import { arcPoint } from './branch-point.js';
 import type { ContinuationSystem } from './system.js';
 import type { NewtonSettings, PointStability } from './types.js';
@@ -29,7 +29,7 @@ export class StabilityAnalyser {
   ) {
     const problem = sys.problem;
     const pattern = problem.pattern();
-    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal });
+    this.tracker = new EigenTracker(pattern, { count, mass: problem.massDiagonal, lu: sys.luOptions });
     this.values = new Float64Array(pattern.colPtr[pattern.cols]);
   }
 
@@ -44,19 +44,20 @@ export class StabilityAnalyser {
 
   /**
    * Rightmost eigenvalues at x = (u, λ), warm-started from `warm` (null: cold start); `precise`
-   * uses a tolerance of 1e-11 (for locating Hopf points).
+   * uses a tolerance of 1e-11 (for locating Hopf points); `shared`: solves with J at x that the
+   * caller already has (see ContinuationSystem.jacobianSolver), used when shift 0 suits the search.
    */
-  analyse(x: Float64Array, warm: EigenWarmStart | null, precise = false): { stability: PointStability; warm: EigenWarmStart } {
+  analyse(x: Float64Array, warm: EigenWarmStart | null, precise = false, shared?: FactoredShift): { stability: PointStability; warm: EigenWarmStart } {
     const n = this.sys.n;
     const t0 = performance.now();
     this.sys.problem.jacobian(x.subarray(0, n), this.sys.params(x[n]), this.values);
     let tracker = this.tracker;
     if (precise) {
       const problem = this.sys.problem;
-      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE });
+      this.precise ??= new EigenTracker(problem.pattern(), { count: this.count, mass: problem.massDiagonal, tolerance: LOCATION_TOLERANCE, lu: this.sys.luOptions });
       tracker = this.precise;
     }
-    const r = tracker.compute(this.values, { warmStart: warm });
+    const r = tracker.compute(this.values, { warmStart: warm, factored: shared });
     this.seconds += (performance.now() - t0) / 1000;
     return { stability: summarise(r, this.count), warm: r.warmStart };
   }

@@ -8,12 +8,15 @@
  * minimally augmented row when locating folds). The (n+1) pattern is analysed once per branch;
  * every Newton iteration refills the values and refactors through the LU's refactor policy.
  *
- * All norms are weighted (discrete L2): ‖x‖² = Σ w_i u_i² + λ².
+ * All norms are weighted (discrete L2): ‖x‖² = Σ w_i u_i² + λ². Residual norms are the true
+ * ‖F‖_w (no scaling); `residualBound` gives what they are tested against (residual-size.ts).
  */
 import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../linalg/bordered.js';
-import { SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
+import { type BackendDecision, SparseLU, SparseLUError, type LUOptions } from '../linalg/lu.js';
 import type { Params, Problem } from '../problem/problem.js';
+import { ResidualSizes } from '../problem/residual-size.js';
+import type { FactoredShift } from '../linalg/eigen.js';
 
 export class ContinuationSystem {
   readonly n: number;
@@ -25,10 +28,10 @@ export class ContinuationSystem {
   /** F_λ(u, λ) of the last `assemble`. */
   readonly fParameter: Float64Array;
   readonly bordered: BorderedMatrix;
-  /** 1 / max(1, max_j |J_ij|) per row, frozen at `setRowScale`: the scaled residual ‖D⁻¹F‖_w is grid- and model-independent. */
-  readonly rowScale: Float64Array;
+  private readonly sizes: ResidualSizes;
   private lu: SparseLU | undefined;
-  private readonly luOptions: LUOptions;
+  /** Options of the bordered matrix's LU (the eigenvalue solver's LU takes the same backend request). */
+  readonly luOptions: LUOptions;
   private readonly rowBuffer: Float64Array;
   factorisations = 0;
   refactorisations = 0;
@@ -55,7 +58,7 @@ export class ContinuationSystem {
     this.f = new Float64Array(this.n);
     this.fParameter = new Float64Array(this.n);
     this.bordered = new BorderedMatrix(pattern, 1);
-    this.rowScale = new Float64Array(this.n).fill(1);
+    this.sizes = new ResidualSizes(problem);
     this.rowBuffer = new Float64Array(this.n);
     this.luOptions = luOptions;
   }
@@ -64,37 +67,39 @@ export class ContinuationSystem {
     return { ...this.base, [this.parameter]: lambda };
   }
 
-  /** this.f = F(u, λ); returns the scaled weighted residual norm ‖D⁻¹F‖_w. */
+  /** this.f = F(u, λ); returns the weighted residual norm ‖F‖_w. */
   residual(u: Float64Array, lambda: number): number {
     this.timed('residual', () => this.problem.residual(u, this.params(lambda), this.f));
-    return this.scaledNorm(this.f);
+    return this.normU(this.f);
   }
 
-  scaledNorm(f: Float64Array): number {
-    const w = this.weights;
-    const s = this.rowScale;
-    let sum = 0;
-    for (let i = 0; i < this.n; i++) {
-      const v = f[i] * s[i];
-      sum += w[i] * v * v;
-    }
-    return Math.sqrt(sum);
+  /**
+   * What ‖F(u, λ)‖_w is tested against: rtol·‖terms‖_w + 16·ε·‖rounding‖_w (residual-size.ts).
+   * Call right after `residual(u, λ)` at the same point (the rule of thumb for models without
+   * term sizes reads this.f). Given the residual `norm`, the rounding part is computed only when
+   * the terms part alone does not already pass it (the returned bound is then that part: the
+   * decision is the same, at about half the cost), and not for a norm far above both parts (then
+   * the bound returned is an estimate that the norm exceeds: a failing test either way, or at
+   * worst one more Newton iteration).
+   */
+  residualBound(u: Float64Array, lambda: number, rtol: number, norm = Infinity): number {
+    const p = this.params(lambda);
+    return this.timed('residual', () => {
+      this.sizes.evaluate(u, p, this.f, false);
+      const partial = this.sizes.bound(rtol);
+      if (norm <= partial || this.sizes.withRounding) return partial;
+      // a residual far above the terms part plus twice the last rounding part computed fails
+      // anyway (the rounding part changes little from one iterate to the next): skip computing it
+      if (Number.isFinite(norm) && norm > partial + 2 * this.roundingHint) return partial + 2 * this.roundingHint;
+      this.sizes.evaluate(u, p, this.f);
+      const full = this.sizes.bound(rtol);
+      this.roundingHint = full - partial;
+      return full;
+    });
   }
 
-  /** Freeze the residual row scaling from the Jacobian at (u, λ). */
-  setRowScale(u: Float64Array, lambda: number): void {
-    this.problem.jacobian(u, this.params(lambda), this.jacobian);
-    const pat = this.problem.pattern();
-    const rowMax = new Float64Array(this.n);
-    for (let j = 0; j < this.n; j++) {
-      for (let p = pat.colPtr[j]; p < pat.colPtr[j + 1]; p++) {
-        const a = Math.abs(this.jacobian[p]);
-        const i = pat.rowIdx[p];
-        if (a > rowMax[i]) rowMax[i] = a;
-      }
-    }
-    for (let i = 0; i < this.n; i++) this.rowScale[i] = 1 / Math.max(1, rowMax[i]);
-  }
+  /** The rounding part of the last full residual bound (Infinity: none since the last restart). */
+  private roundingHint = Infinity;
 
   /** Fill J and F_λ at (u, λ) and put them into the bordered matrix. */
   assemble(u: Float64Array, lambda: number): void {
@@ -135,6 +140,11 @@ export class ContinuationSystem {
     this.bordered.setColumn(0, column);
   }
 
+  /** Which sparse LU factors the bordered matrix and why (undefined before the first factorisation). */
+  get luDecision(): BackendDecision | undefined {
+    return this.lu?.decision;
+  }
+
   private solver(): SparseLU {
     if (!this.lu) this.lu = new SparseLU(this.bordered.pattern, this.luOptions);
     return this.lu;
@@ -173,6 +183,60 @@ export class ContinuationSystem {
     }
   }
 
+  private unitSolution: { stamp: number; z: Float64Array } | undefined;
+
+  /**
+   * z = A⁻¹e_{n+1} for the current factors of the bordered matrix A (one solve, once per
+   * factorisation): the unnormalised tangent when the border row is the previous tangent, and the
+   * second solution the bordering lemma needs (`jacobianSolver`). Do not modify it.
+   */
+  lastColumnSolution(): Float64Array {
+    if (this.unitSolution?.stamp !== this.stamp) {
+      const e = new Float64Array(this.n + 1);
+      e[this.n] = 1;
+      this.unitSolution = { stamp: this.stamp, z: this.solve(e, new Float64Array(this.n + 1)) };
+    }
+    return this.unitSolution.z;
+  }
+
+  /**
+   * Solves with the Jacobian J inside the current factors of the bordered matrix A = [J b; cᵀ d],
+   * without a factorisation of J (the bordering lemma): with A[z; ζ] = e_{n+1} and
+   * A[x₁; y₁] = [r; 0], J(x₁ − (y₁/ζ)z) = r, since Jz + bζ = 0 and Jx₁ + by₁ = r. One solve with
+   * A per solve with J. The eigenvalue solver uses it as its shift-invert operator at shift 0, so
+   * that a point whose bordered matrix was factored at the point itself needs no factorisation of
+   * J for the eigenvalues (when shift 0 suits the search). Undefined when ζ is negligible against
+   * z (J singular to working precision: a fold or branch point); valid until the next
+   * factorisation (a solve after it throws).
+   */
+  jacobianSolver(): FactoredShift | undefined {
+    const n = this.n;
+    const z = this.lastColumnSolution();
+    const zeta = z[n];
+    let zMax = 0;
+    for (let i = 0; i < n; i++) zMax = Math.max(zMax, Math.abs(z[i]));
+    if (!(Math.abs(zeta) > 1e-10 * zMax)) return undefined;
+    const stamp = this.stamp;
+    const lu = this.solver();
+    const rhs = new Float64Array(n + 1);
+    const x1 = new Float64Array(n + 1);
+    return {
+      shift: 0,
+      lu: {
+        solve: (b: Float64Array, out?: Float64Array): Float64Array => {
+          if (this.stamp !== stamp) throw new Error('jacobianSolver: the bordered matrix was factored again since this solver was made');
+          rhs.set(b.subarray(0, n));
+          rhs[n] = 0;
+          lu.solve(rhs, x1);
+          const x = out ?? new Float64Array(n);
+          const c = x1[n] / zeta;
+          for (let i = 0; i < n; i++) x[i] = x1[i] - c * z[i];
+          return x;
+        },
+      },
+    };
+  }
+
   /** Sign and log|det| of the factored bordered matrix. */
   determinant(): { sign: number; logAbs: number } {
     return this.solver().logDeterminant();
@@ -206,6 +270,7 @@ export class ContinuationSystem {
   restart(): void {
     this.freshPending = true;
     this.stamp++;
+    this.roundingHint = Infinity;
   }
 
   private freshPending = false;

@@ -57,6 +57,8 @@ export interface ContinuationSettings {
   stability: { eigenvalues: number };
   /** Tolerance on the parameter when locating a Hopf point. */
   hopfTolerance: number;
+  /** Sparse LU for every factorisation of the run: 'auto' (default: chosen from the pattern), 'klu' or 'superlu'. */
+  sparseLu?: 'auto' | 'klu' | 'superlu';
 }
 
 export const defaultSettings: Omit<ContinuationSettings, 'parameter' | 'bounds'> = {
@@ -73,6 +75,7 @@ export const defaultSettings: Omit<ContinuationSettings, 'parameter' | 'bounds'>
   branchPointTolerance: 1e-8,
   stability: { eigenvalues: 0 },
   hopfTolerance: 1e-8,
+  sparseLu: 'auto',
 };
 
 /** Stability of one point, from its rightmost eigenvalues. */
@@ -140,6 +143,12 @@ export interface ContinuationPoint {
   determinantSign: number;
   /** Stability from the rightmost eigenvalues (absent when stability analysis is off). */
   stability?: PointStability;
+  /**
+   * Set when the unstable count changed over the step that reached this point and no fold,
+   * branch point or Hopf point explains it even at the minimum step, e.g. "the unstable count
+   * changed from 1 to 2".
+   */
+  unexplained?: string;
 }
 
 export type BranchPointType = 'pitchfork' | 'transcritical' | 'unknown';

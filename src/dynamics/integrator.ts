@@ -603,7 +603,10 @@ export class TimeIntegration {
    * integrated state (then, with eigenvalues asked for, with its stability); else undefined, and a
    * log line says why.
    */
-  private polished(measure: number, events: DynamicsEvent[]): { u: Float64Array; residual: number; iterations: number; distance: number; stability?: SteadyStability } | undefined {
+  private polished(
+    measure: number,
+    events: DynamicsEvent[],
+  ): { u: Float64Array; residual: number; residualBound: number; iterations: number; distance: number; stability?: SteadyStability } | undefined {
     const s = this.state;
     const st = this.settings;
     const u = s.u.slice();
@@ -611,7 +614,7 @@ export class TimeIntegration {
     this.syncCounters();
     const m = this.matrix;
     const before = m.factorisations + m.refactorisations;
-    const r = polishSteadyState(this.problem, this.params, u, m, (f) => this.scaledNorm(f), st.newton);
+    const r = polishSteadyState(this.problem, this.params, u, m, st.newton);
     s.counters.polish.attempts++;
     s.counters.polish.iterations += r.iterations;
     s.counters.polish.factorisations += m.factorisations + m.refactorisations - before;
@@ -633,7 +636,7 @@ export class TimeIntegration {
           events.push({ type: 'log', level: 'warning', message: `the eigenvalues of the steady state could not be computed: ${(e as Error).message}` });
         }
       }
-      return { u, residual: r.residual, iterations: r.iterations, distance, ...(stability ? { stability } : {}) };
+      return { u, residual: r.residual, residualBound: r.residualBound, iterations: r.iterations, distance, ...(stability ? { stability } : {}) };
     }
     s.polishFailedAt = measure;
     events.push({
@@ -650,13 +653,15 @@ export class TimeIntegration {
     const s = this.state;
     const integratedResidual = s.residual;
     s.u = found.u;
-    s.residual = found.residual;
+    // the integration's own measure (scaled) of the polished state; the outcome carries its ‖F‖_w
+    s.residual = this.residualOf(found.u);
     return this.finish(
       {
         kind: 'steady',
         time: s.t,
         integratedResidual,
         residual: found.residual,
+        residualBound: found.residualBound,
         newtonIterations: found.iterations,
         distance: found.distance,
         ...(found.stability ? { stability: found.stability } : {}),

@@ -24,8 +24,11 @@ export interface TimeSettings {
    * 1, at the start) falls below this; the state is then polished by Newton's method.
    */
   steadyTolerance: number;
-  /** Newton polish of the steady state: scaled residual tolerance and iteration limit. */
-  newton: { tolerance: number; maxIterations: number };
+  /**
+   * Newton polish of the steady state: the residual test's and the update test's tolerances (as
+   * for continuation: README, "When is a state converged?") and the iteration limit.
+   */
+  newton: { residualTolerance: number; stepTolerance: number; maxIterations: number };
   /** Blown up when max |u| exceeds this. */
   blowUp: number;
   snapshots: SnapshotSchedule;
@@ -43,7 +46,7 @@ export const defaultTimeSettings: Omit<TimeSettings, 'end'> = {
   relativeTolerance: 1e-4,
   absoluteTolerance: 1e-6,
   steadyTolerance: 1e-6,
-  newton: { tolerance: 1e-9, maxIterations: 10 },
+  newton: { residualTolerance: 1e-9, stepTolerance: 1e-9, maxIterations: 10 },
   blowUp: 1e8,
   snapshots: 'auto',
 };
@@ -53,9 +56,11 @@ export type Outcome =
   | {
       kind: 'steady';
       time: number;
-      /** Scaled residual of the integrated state when it was judged steady, and after the polish. */
+      /** Scaled residual ‖D⁻¹F‖_w of the integrated state when it was judged steady. */
       integratedResidual: number;
+      /** ‖F‖_w of the polished state (the one written to disk), and what the polish tested it against. */
       residual: number;
+      residualBound: number;
       /** Newton iterations of the polish. */
       newtonIterations: number;
       /** Weighted RMS distance between the integrated and the polished state, in tolerance units. */
@@ -140,7 +145,7 @@ export function outcomeText(o: Outcome): string {
   switch (o.kind) {
     case 'steady':
       return (
-        `steady state reached at t = ${t(o.time)} (residual ${o.integratedResidual.toExponential(2)}, polished by Newton to ${o.residual.toExponential(2)})` +
+        `steady state reached at t = ${t(o.time)} (scaled residual ${o.integratedResidual.toExponential(2)}; polished by Newton to a residual of ${o.residual.toExponential(2)})` +
         (o.stability?.stable === false ? ': an unstable one, which the state did not leave by the limit (a symmetric state cannot; noise on the initial state lets it)' : '')
       );
     case 'oscillating':

@@ -43,7 +43,7 @@
  * The small projected problems are solved in schur.ts (ordered real Schur form).
  */
 export type { Complex } from './schur.js';
-export type { ComputeExtras, EigenOptions, EigenValue, EigenWarmStart, RightmostOptions, RightmostResult, SearchDisc, SearchedRegion } from './eigen/types.js';
+export type { ComputeExtras, EigenOptions, EigenValue, EigenWarmStart, FactoredShift, RightmostOptions, RightmostResult, SearchDisc, SearchedRegion } from './eigen/types.js';
 export { EigenTracker, rightmostEigenvalues } from './eigen/tracker.js';
 export { eigenvaluesDense } from './eigen/dense.js';
 export { apolloniusDisc, applyShiftInvert, cayleyImage } from './eigen/transform.js';

@@ -12,6 +12,8 @@ export const reservedColumnNames: readonly string[] = Object.freeze([
   'min',
   'l2-norm',
   'newton-iterations',
+  'residual',
+  'unexplained-change',
   'stable',
   'unstable-count',
   'leading-real',

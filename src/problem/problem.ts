@@ -100,6 +100,33 @@ export interface Problem {
   /** Fill `values` (aligned with `pattern().rowIdx`) with F_u(u, p). No allocation. */
   jacobian(u: Float64Array, p: Params, values: Float64Array): void;
 
+  /**
+   * Optional: how large the separate contributions to each residual row are at (u, p), for the
+   * Newton convergence test, which no row scaling can fake (src/problem/residual-size.ts):
+   *
+   *   ‖F‖_w ≤ rtol·‖terms‖_w + 16·ε·‖rounding‖_w        (ε the double-precision unit roundoff)
+   *
+   * - `terms[i]` = Σ_t |T_t,i| where F_i = Σ_t T_t,i are the row's terms as the model states
+   *   them: each operator applied as a whole (a diffusion term D·(Δu)_i with its boundary data,
+   *   a bending term EI·(w⁗)_i), each reaction summand, each load; for a constraint row
+   *   Σ_j c_j(u_j) = 0, its summands |c_j(u_j)|. At a solution the terms cancel; their size is
+   *   what "relatively small" is measured against.
+   * - `rounding[i]` = Σ_k |a_k|·max(|v_k|, 1) over the products a_k·v_k of coefficients and
+   *   unknowns that the evaluation of F_i sums (stencil entries, boundary data, and each
+   *   nonlinear summand counted by its own size): the size of the rounding errors made in
+   *   evaluating F_i at a state whose unknowns are counted as at least of unit size. It bounds
+   *   what any double-precision state can reach (fourth-order stencils on fine grids cancel
+   *   many digits) and serves as the absolute tolerance near zero states.
+   *
+   * `rounding` may be left out: then only `terms` are filled (the test tries the cheaper part
+   * first).
+   *
+   * Models without it get the rule of `ResidualSizes` in residual-size.ts: with J = F_u(u, p),
+   * terms = |J u| + |F − J u| and rounding = Σ_j |J_ij|·max(|u_j|, 1) + |F − J u| (the linear
+   * part applied as a whole, the remainder as one term).
+   */
+  residualMagnitudes?(u: Float64Array, p: Params, terms: Float64Array, rounding?: Float64Array): void;
+
   /** out = ∂F/∂p_name (u, p). */
   parameterDerivative(u: Float64Array, p: Params, name: string, out: Float64Array): void;
 

@@ -16,9 +16,10 @@
  *     max-points: 500                    # per branch
  *     stop-when: [{monitor: max, above: 8}]
  *     branch-switching: {depth: 1}      # the default when left out (0: stay on the first branch)
- *     newton: {tolerance: 1e-9, max-iterations: 10}
+ *     newton: {residual-tolerance: 1e-9, step-tolerance: 1e-9, max-iterations: 10}   # tolerance: T sets both
  *     locate: {folds: true, branch-points: true}
  *     max-turn-degrees: 30
+ *     sparse-lu: auto                    # auto | klu | superlu (auto: chosen from the pattern)
  *   output: {directory: runs/slab, solutions: special}   # special | none | all
  *   stability: {eigenvalues: 0}          # rightmost eigenvalues per point (0: no stability analysis)
  *   checkpoint: {every-points: 25, every-seconds: 60}    # used by checkpoint/resume
@@ -93,9 +94,10 @@ export interface ResolvedContinuation {
   maxPoints: number;
   stopWhen: { monitor: string; above?: number; below?: number }[];
   branchSwitching: { depth: number };
-  newton: { tolerance: number; maxIterations: number };
+  newton: { residualTolerance: number; stepTolerance: number; maxIterations: number };
   locate: { folds: boolean; branchPoints: boolean };
   maxTurnDegrees: number;
+  sparseLu: 'auto' | 'klu' | 'superlu';
 }
 
 export interface ResolvedCase {
@@ -257,10 +259,13 @@ const continuationSchema = section({
   'branch-switching': section({ depth: integerIn(0, maxDepthLimit) }).optional(),
   newton: section({
     tolerance: z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
+    'residual-tolerance': z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
+    'step-tolerance': z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
     'max-iterations': integerIn(1, 100).optional(),
   }).optional(),
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
+  'sparse-lu': word(['auto', 'klu', 'superlu']).optional(),
 });
 
 const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster', 'search'] as const;
@@ -680,7 +685,9 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     stopWhen,
     branchSwitching: { depth: c['branch-switching']?.depth ?? defaultSettings.branchSwitching.depth },
     newton: {
-      tolerance: c.newton?.tolerance ?? defaultSettings.newton.residualTolerance,
+      // `tolerance` is shorthand for both; the specific keys win
+      residualTolerance: c.newton?.['residual-tolerance'] ?? c.newton?.tolerance ?? defaultSettings.newton.residualTolerance,
+      stepTolerance: c.newton?.['step-tolerance'] ?? c.newton?.tolerance ?? defaultSettings.newton.stepTolerance,
       maxIterations: c.newton?.['max-iterations'] ?? defaultSettings.newton.maxIterations,
     },
     locate: {
@@ -688,6 +695,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
       branchPoints: c.locate?.['branch-points'] ?? defaultSettings.locate.branchPoints,
     },
     maxTurnDegrees: c['max-turn-degrees'] ?? defaultSettings.maxTurnDegrees,
+    sparseLu: (c['sparse-lu'] ?? 'auto') as 'auto' | 'klu' | 'superlu',
   };
 
   // 9. output, stability, checkpoint
@@ -862,9 +870,10 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
     maxPoints: c.maxPoints,
     stopWhen: c.stopWhen.map((s) => ({ ...s })),
     branchSwitching: { depth: c.branchSwitching.depth },
-    newton: { residualTolerance: c.newton.tolerance, stepTolerance: c.newton.tolerance, maxIterations: c.newton.maxIterations },
+    newton: { residualTolerance: c.newton.residualTolerance, stepTolerance: c.newton.stepTolerance, maxIterations: c.newton.maxIterations },
     locate: { folds: c.locate.folds, branchPoints: c.locate.branchPoints },
     maxTurnDegrees: c.maxTurnDegrees,
+    sparseLu: c.sparseLu,
   };
 }
 
@@ -896,9 +905,10 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
       'max-points': k.maxPoints,
       'stop-when': k.stopWhen,
       'branch-switching': k.branchSwitching,
-      newton: { tolerance: k.newton.tolerance, 'max-iterations': k.newton.maxIterations },
+      newton: { 'residual-tolerance': k.newton.residualTolerance, 'step-tolerance': k.newton.stepTolerance, 'max-iterations': k.newton.maxIterations },
       locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
       'max-turn-degrees': k.maxTurnDegrees,
+      'sparse-lu': k.sparseLu,
     },
     output: { ...(c.output.directory !== undefined ? { directory: c.output.directory } : {}), solutions: c.output.solutions },
     stability: { eigenvalues: c.stability.eigenvalues },

@@ -68,7 +68,7 @@ export interface AxisInfo {
 }
 
 /** Columns of a branch CSV that are not monitors. */
-const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
+const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'residual', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete', 'unexplained-change']);
 
 const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
 
@@ -171,7 +171,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
     }
     let csv: { columns: string[]; rows: number[][] };
     try {
-      csv = readCsv(path);
+      csv = readCsv(path, ['unexplained-change']);
     } catch (e) {
       warnings.push(`branch ${b.id}: ${(e as Error).message}`);
       continue;

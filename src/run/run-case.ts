@@ -58,6 +58,8 @@ export interface EngineLike {
    * from here exactly what an engine resumed from a snapshot taken now computes (sync points).
    */
   restartLinearAlgebra?(): void;
+  /** When present: which sparse LU the continuation uses and why (recorded in run.json). */
+  linearSolver?(): { backend: string; requested: string; reason: string } | undefined;
   dispose(): void;
 }
 
@@ -315,6 +317,10 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
         const r = events.next();
         if (r.done) break;
         writer.handle(r.value);
+        if (!record.linearSolver && r.value.type === 'point') {
+          const d = engine.linearSolver?.();
+          if (d) record.linearSolver = { backend: d.backend, requested: d.requested, reason: d.reason };
+        }
         if (r.value.type === 'point') {
           const p = r.value.point;
           options.progress?.({ branch: p.branch, index: p.index, parameter: p.parameter, step: p.step, points: ledger.points, maxPoints: settings.maxPoints });

@@ -112,9 +112,11 @@ export function eigenvalueColumns(count: number): string[] {
 /**
  * Columns of a branch CSV: point, arclength, the continuation parameter, the monitors (in the
  * problem's order: max, min, l2-norm per field, then model monitors), the extra unknowns by
- * name, newton-iterations, step, and with stability analysis (`eigenvalues` > 0) the stability
- * columns, `search-complete` (whether every eigenvalue with real part ≥ 0 was certified found)
- * and the real and imaginary parts of the `eigenvalues` rightmost eigenvalues.
+ * name, newton-iterations, residual (‖F‖ of the point's state, weighted norm), step-length, and
+ * with stability analysis (`eigenvalues` > 0) the stability columns, `search-complete` (whether every eigenvalue with real part ≥ 0 was certified found),
+ * the real and imaginary parts of the `eigenvalues` rightmost eigenvalues, and
+ * `unexplained-change` (empty, or e.g. "the unstable count changed from 1 to 2" when no fold,
+ * branch point or Hopf point located in the step explains the change, even at the minimum step).
  */
 export function columnPlan(problem: Problem, parameter: string, eigenvalues: number): ColumnPlan {
   const monitors = problem.monitors.map((m) => m.name);
@@ -127,8 +129,9 @@ export function columnPlan(problem: Problem, parameter: string, eigenvalues: num
     ...monitors,
     ...extras,
     'newton-iterations',
+    'residual',
     'step-length',
-    ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues)] : []),
+    ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues), 'unexplained-change'] : []),
   ];
   return { columns, monitors, extras, stability, eigenvalues };
 }
@@ -152,7 +155,7 @@ export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoin
   const row: CsvCell[] = [p.index, p.arclength, p.parameter];
   for (const m of plan.monitors) row.push(p.monitors[m]);
   plan.extras.forEach((_name, i) => row.push(p.u[problem.gridUnknowns + i]));
-  row.push(p.newtonIterations, p.step);
+  row.push(p.newtonIterations, p.residual, p.step);
   if (plan.stability) {
     // empty cells when the point has no stability data (or `stable` is not certified: null)
     const s = (p as { stability?: PointStabilityCells }).stability;
@@ -161,6 +164,7 @@ export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoin
       const e = s?.eigenvalues?.[k];
       row.push(e?.re, e?.im);
     }
+    row.push(p.unexplained);
   }
   return row;
 }

@@ -63,6 +63,8 @@ export class RunRecord {
   continuationSeconds = 0;
   /** When run.json was last written (ms). */
   lastWritten = 0;
+  /** Which sparse LU the continuation uses and why (the engine's `linearSolver()`, once known). */
+  linearSolver: { backend: string; requested: string; reason: string } | undefined;
   /** A remark on how the run ended (e.g. left at once), recorded as `note`. */
   note: string | undefined;
 
@@ -98,6 +100,7 @@ export class RunRecord {
       problem: problemDocument(problem),
       'start-parameters': { ...params },
       'continuation-parameter': settings.parameter,
+      ...(this.linearSolver ? { 'linear-solver': { ...this.linearSolver } } : {}),
       columns: plan.columns,
       branches: ledger.branches.map((b) => ({
         id: b.id,

@@ -10,7 +10,8 @@
  *     initial-step: 0.01                  # default: from the size of F at the start
  *     max-step: 500                       # default: no limit
  *     steady-tolerance: 1.0e-6            # steady when the scaled residual is below this...
- *     newton: {tolerance: 1.0e-9, max-iterations: 10}   # ...then Newton polishes the state
+ *     newton: {residual-tolerance: 1.0e-9, step-tolerance: 1.0e-9, max-iterations: 10}   # ...then
+ *                                         # Newton polishes the state (tolerance: T sets both)
  *     blow-up: 1.0e8                      # blown up when max |u| passes this
  *     snapshots: auto                     # auto (1, 2, 5 × 10^k), none, or every T time units
  *
@@ -66,7 +67,12 @@ const timeSchema = section({
   'initial-step': positive.optional(),
   'max-step': positive.optional(),
   'steady-tolerance': fraction.optional(),
-  newton: section({ tolerance: fraction.optional(), 'max-iterations': z.number(wholeText).int(wholeText).min(1, wholeText).max(100, accepted('at most 100')).optional() }).optional(),
+  newton: section({
+    tolerance: fraction.optional(),
+    'residual-tolerance': fraction.optional(),
+    'step-tolerance': fraction.optional(),
+    'max-iterations': z.number(wholeText).int(wholeText).min(1, wholeText).max(100, accepted('at most 100')).optional(),
+  }).optional(),
   'blow-up': positive.optional(),
   snapshots: z.union([z.enum(['auto', 'none']), positive], accepted('auto, none, or a time interval (a positive number)')).optional(),
 });
@@ -101,7 +107,12 @@ export function resolveTime(raw: unknown, fail: (field: string, detail: string) 
     ...(t['initial-step'] !== undefined ? { initialStep: t['initial-step'] } : {}),
     ...(t['max-step'] !== undefined ? { maxStep: t['max-step'] } : {}),
     steadyTolerance: t['steady-tolerance'] ?? d.steadyTolerance,
-    newton: { tolerance: t.newton?.tolerance ?? d.newton.tolerance, maxIterations: t.newton?.['max-iterations'] ?? d.newton.maxIterations },
+    newton: {
+      // `tolerance` is shorthand for both; the specific keys win (as for continuation)
+      residualTolerance: t.newton?.['residual-tolerance'] ?? t.newton?.tolerance ?? d.newton.residualTolerance,
+      stepTolerance: t.newton?.['step-tolerance'] ?? t.newton?.tolerance ?? d.newton.stepTolerance,
+      maxIterations: t.newton?.['max-iterations'] ?? d.newton.maxIterations,
+    },
     blowUp: t['blow-up'] ?? d.blowUp,
     snapshots,
   };
@@ -167,7 +178,7 @@ export function settleCaseDocument(c: ResolvedSettleCase): Record<string, unknow
       ...(t.initialStep !== undefined ? { 'initial-step': t.initialStep } : {}),
       ...(t.maxStep !== undefined ? { 'max-step': t.maxStep } : {}),
       'steady-tolerance': t.steadyTolerance,
-      newton: { tolerance: t.newton.tolerance, 'max-iterations': t.newton.maxIterations },
+      newton: { 'residual-tolerance': t.newton.residualTolerance, 'step-tolerance': t.newton.stepTolerance, 'max-iterations': t.newton.maxIterations },
       'blow-up': t.blowUp,
       snapshots: typeof t.snapshots === 'object' ? t.snapshots.every : t.snapshots,
     },

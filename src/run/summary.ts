@@ -14,6 +14,9 @@ import type { RunResult } from './run-case.js';
 const namedPerBranch = 6;
 
 /** `digits` significant digits, trailing zeros dropped; nan/inf spelled out. */
+/** Warnings written out in the summary (all of them are in run.json). */
+const shownWarnings = 5;
+
 export function formatValue(x: number, digits: number): string {
   if (Number.isNaN(x)) return 'nan';
   if (!Number.isFinite(x)) return x > 0 ? 'inf' : '-inf';
@@ -167,7 +170,10 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const pictures = existsSync(join(result.directory, 'plots')) ? readdirSync(join(result.directory, 'plots')).filter((f) => f.endsWith('.svg')).length : 0;
   if (pictures) files.push(`plots/ (${pictures} .svg file${pictures === 1 ? '' : 's'})`);
   out.push(`Files in ${shown}: ${files.join(', ')}`);
-  if (result.ledger.warnings.length) out.push(`${result.ledger.warnings.length} warning${result.ledger.warnings.length === 1 ? '' : 's'} (listed in run.json).`);
+  if (result.ledger.warnings.length) {
+    out.push(`${result.ledger.warnings.length} warning${result.ledger.warnings.length === 1 ? '' : 's'} (listed in run.json)${result.ledger.warnings.length > shownWarnings ? `, the first ${shownWarnings}` : ''}:`);
+    for (const w of result.ledger.warnings.slice(0, shownWarnings)) out.push(`  ${w}`);
+  }
   if (prepared.caution) out.push(`Caution: ${prepared.caution}`);
   return out.join('\n') + '\n';
 }

@@ -304,8 +304,12 @@ export class WriteError extends Error {
   }
 }
 
-/** Read a CSV file written by CsvWriter: header and numeric rows (text cells are not expected). */
-export function readCsv(path: string): { columns: string[]; rows: number[][] } {
+/**
+ * Read a CSV file written by CsvWriter: header and numeric rows. Cells of the columns named in
+ * `textColumns` read as NaN (their text is not needed by numeric readers); text anywhere else is an
+ * error.
+ */
+export function readCsv(path: string, textColumns: readonly string[] = []): { columns: string[]; rows: number[][] } {
   const text = readFileSync(path, 'utf8');
   const lines = text.split('\n');
   if (lines[lines.length - 1] === '') lines.pop();
@@ -314,7 +318,7 @@ export function readCsv(path: string): { columns: string[]; rows: number[][] } {
   const rows = lines.slice(1).map((l, i) => {
     const cells = l.split(',');
     if (cells.length !== columns.length) throw new Error(`${path}: row ${i + 1} has ${cells.length} cells, the header ${columns.length}`);
-    return cells.map((c) => (c === 'true' ? 1 : c === 'false' ? 0 : parseNumber(c)));
+    return cells.map((c, j) => (c === 'true' ? 1 : c === 'false' ? 0 : textColumns.includes(columns[j]) ? NaN : parseNumber(c)));
   });
   return { columns, rows };
 }

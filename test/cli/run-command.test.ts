@@ -52,7 +52,7 @@ describe('branchline run (in process, real engine)', () => {
   it('writes one CSV row per accepted point with the documented columns', () => {
     const run = json(join(out, 'run.json'));
     const csv = readCsv(join(out, 'branches/1.csv'));
-    expect(csv.columns).toEqual(['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'step-length']);
+    expect(csv.columns).toEqual(['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'residual', 'step-length']);
     expect(csv.rows.length).toBe(run.branches[0].points);
     expect(csv.rows.length).toBe(run.counts.points);
     expect(csv.rows[0][2]).toBe(0.2); // the start value
@@ -227,7 +227,7 @@ describe('stability columns from the real engine', () => {
     expect(r.code, r.err).toBe(0);
     const text = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
     const header = text[0].split(',');
-    expect(header.slice(-9)).toEqual(['stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete', 'eigenvalue-1-real', 'eigenvalue-1-imag', 'eigenvalue-2-real', 'eigenvalue-2-imag']);
+    expect(header.slice(-10)).toEqual(['stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete', 'eigenvalue-1-real', 'eigenvalue-1-imag', 'eigenvalue-2-real', 'eigenvalue-2-imag', 'unexplained-change']);
     const rows = text.slice(1, -1).map((l) => l.split(','));
     const col = (name: string): string[] => rows.map((row) => row[header.indexOf(name)]);
     const lambda = col('lambda').map(Number);

@@ -1,15 +1,18 @@
 /** Run a continuation in memory and collect its events (test helper). */
 import { expect } from 'vitest';
 import { models } from '../../discretisations/index.js';
-import { Continuation, type EngineSummary } from '../../src/continuation/engine.js';
+import { Continuation, type ContinuationOptions, type EngineSummary } from '../../src/continuation/engine.js';
 import { defaultSettings, type ContinuationPoint, type ContinuationSettings, type SpecialPoint } from '../../src/continuation/types.js';
 import { type Problem, resolveParameters } from '../../src/problem/problem.js';
+import { residualTest } from '../../src/problem/residual-size.js';
 
 export interface Collected {
   problem: Problem;
   points: ContinuationPoint[];
   specials: SpecialPoint[];
   ends: { branch: number; reason: string; message: string }[];
+  /** Warnings the engine logged. */
+  warnings: string[];
   summary: EngineSummary;
   branch(id: number): ContinuationPoint[];
 }
@@ -23,12 +26,13 @@ export function runModel(model: string, options: Record<string, unknown>, given:
   return runProblem(problem, given, s);
 }
 
-export function runProblem(problem: Problem, given: Record<string, number>, s: ContinuationSettings): Collected {
+export function runProblem(problem: Problem, given: Record<string, number>, s: ContinuationSettings, options: ContinuationOptions = {}): Collected {
   const params = resolveParameters(problem, given);
-  const c = new Continuation(problem, params, s);
+  const c = new Continuation(problem, params, s, options);
   const points: ContinuationPoint[] = [];
   const specials: SpecialPoint[] = [];
   const ends: Collected['ends'] = [];
+  const warnings: string[] = [];
   const it = c.events();
   let r = it.next();
   while (!r.done) {
@@ -36,12 +40,24 @@ export function runProblem(problem: Problem, given: Record<string, number>, s: C
     if (e.type === 'point') points.push(e.point);
     else if (e.type === 'special') specials.push(e.point);
     else if (e.type === 'branch-end') ends.push({ branch: e.branch, reason: e.reason, message: e.message });
+    else if (e.type === 'log' && e.level === 'warning') warnings.push(e.message);
     r = it.next();
   }
   c.dispose();
-  // every converged point satisfies the residual tolerance (scaled weighted norm)
-  for (const p of points) expect(p.residual).toBeLessThanOrEqual(s.newton.residualTolerance);
-  return { problem, points, specials, ends, summary: r.value, branch: (id) => points.filter((p) => p.branch === id) };
+  // every accepted point's state satisfies the residual test, re-evaluated here, and the residual
+  // it carries is that state's own ‖F‖_w; so do the special points that were located
+  const at = (u: Float64Array, value: number) => residualTest(problem, u, { ...params, [s.parameter]: value }, s.newton.residualTolerance);
+  for (const p of points) {
+    const r = at(p.u, p.parameter);
+    expect(p.residual).toBe(r.norm);
+    expect(r.norm, `branch ${p.branch} point ${p.index}`).toBeLessThanOrEqual(r.bound);
+  }
+  for (const sp of specials) {
+    const r = at(sp.u, sp.value);
+    expect(sp.residual).toBe(r.norm);
+    if (sp.kind === 'end' || sp.located) expect(r.norm, `${sp.kind} on branch ${sp.branch}`).toBeLessThanOrEqual(r.bound);
+  }
+  return { problem, points, specials, ends, warnings, summary: r.value, branch: (id) => points.filter((p) => p.branch === id) };
 }
 
 /** Observed order from three values on grids refined by a constant ratio r. */

@@ -108,6 +108,14 @@ checkpoint: {every-points: 5, every-seconds: 30}
     expect(prepared.case.checkpoint).toEqual({ everyPoints: 5, everySeconds: 30 });
   });
 
+  it('newton: residual-tolerance and step-tolerance separately; tolerance is shorthand for both, the specific keys win', async () => {
+    const read = async (newton: string) =>
+      (await prepareCase(caseFile(`model: bratu\ngrid: {intervals: [8]}\ncontinuation: {parameter: lambda, bounds: [0, 3], newton: ${newton}}\n`))).settings.newton;
+    expect(await read('{residual-tolerance: 1.0e-7, step-tolerance: 1.0e-10}')).toEqual({ residualTolerance: 1e-7, stepTolerance: 1e-10, maxIterations: 10 });
+    expect(await read('{tolerance: 1.0e-6, step-tolerance: 1.0e-8}')).toEqual({ residualTolerance: 1e-6, stepTolerance: 1e-8, maxIterations: 10 });
+    await expect(read('{residual-tolerance: 2}')).rejects.toThrow(/continuation\.newton\.residual-tolerance.*between 0 and 1/);
+  });
+
   it('accepts JSON, and the resolved case document reads back to the same case', async () => {
     const prepared = await prepareCase(
       caseFile(JSON.stringify({ name: 'j', model: 'allen-cahn', grid: { intervals: [12] }, continuation: { parameter: 'lambda', bounds: [0, 50] } }), '.json'),
@@ -156,6 +164,7 @@ describe('bad case files give one line naming the file, the field, the value and
     ['a parameter value as text', variant((l) => l.map((s) => s.replace('lambda: 0.5}', "lambda: 'half'}"))), /: parameters\.lambda: 'half' is not accepted \(accepted: a finite number\)/],
     ['a non-finite number', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, .inf]'))), /: continuation\.bounds\[1\]: inf is not accepted \(accepted: a finite number\)/],
     ['direction misspelt', good + '  direction: upward\n', /: continuation\.direction: 'upward' is not accepted \(accepted: increase, decrease\)/],
+    ['unknown sparse LU', good + '  sparse-lu: umfpack\n', /: continuation\.sparse-lu: 'umfpack' is not accepted \(accepted: auto, klu, superlu\)/],
     ['missing continuation', good.replace(/continuation:[\s\S]*$/, ''), /: continuation: is missing \(accepted: a map with keys parameter, bounds, direction/],
     ['missing model', good.replace('model: bratu\n', ''), /: model: is missing \(accepted: a model id \(bratu, .*reaction-diffusion\) or a path/],
     // unknown names

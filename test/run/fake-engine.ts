@@ -20,6 +20,8 @@ export interface Script {
   stability?: boolean;
   /** Emit a Hopf point on branch 1. */
   hopf?: boolean;
+  /** Mark point 3 of branch 1 with an unexplained change of the unstable count (and its warning). */
+  unexplained?: boolean;
 }
 
 export const defaultScript: Script = { points1: 10, points2: 4, reason1: 'parameter-bound' };
@@ -69,7 +71,9 @@ export function scriptedEvents(problem: Problem, params: Params, settings: Conti
   for (let i = 0; i < script.points1; i++) {
     const lambda = lam0 + 0.3 * i;
     last = point(1, i, lambda, 0.1 * (i + 1));
+    if (i === 3 && script.unexplained) last.unexplained = 'the unstable count changed from 0 to 1';
     events.push({ type: 'point', point: last });
+    if (i === 3 && script.unexplained) events.push({ type: 'log', level: 'warning', message: 'branch 1: the unstable count changed from 0 to 1 between lambda = 1.3 and 1.6 with nothing located to explain it' });
     if (i === 4) events.push({ type: 'special', point: special(last, { kind: 'fold', located: true, turn: 'maximum' }) });
     if (i === 8 && script.hopf) {
       events.push({ type: 'special', point: special(last, { kind: 'hopf', located: true, frequency: 2, period: Math.PI, crossing: 'destabilising' }) });

@@ -47,7 +47,7 @@ describe('a run on the scripted engine', () => {
     expect(run.caution).toMatch(/licensed engineer/);
     expect(run.case.continuation.bounds).toEqual([0, 4]);
 
-    const expectedColumns = ['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'step-length'];
+    const expectedColumns = ['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'residual', 'step-length'];
     const b1 = readCsv(join(out, 'branches/1.csv'));
     expect(b1.columns).toEqual(expectedColumns);
     expect(b1.rows.length).toBe(10);
@@ -132,6 +132,23 @@ describe('a run on the scripted engine', () => {
     expect(json(join(outNone, 'points.json')).points.every((p: any) => p.solution === undefined)).toBe(true);
   });
 
+  it('an unexplained change of the unstable count: named in its CSV cell, in run.json and in the summary', async () => {
+    const withStability = await prepareCaseObject(
+      { model: 'bratu', grid: { intervals: [32] }, parameters: { lambda: 0.2 }, continuation: { parameter: 'lambda', bounds: [0, 4] }, stability: { eigenvalues: 2 } },
+      { label: 'slab', baseDir: tmp },
+    );
+    const out = fresh();
+    const result = await runCase(withStability, { outDir: out, engine: fakeEngine({ ...defaultScript, stability: true, unexplained: true }) });
+    const csv = readCsv(join(out, 'branches/1.csv'), ['unexplained-change']);
+    const text = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
+    const cell = csv.columns.indexOf('unexplained-change');
+    expect(cell).toBe(csv.columns.length - 1);
+    expect(text[4].endsWith(',the unstable count changed from 0 to 1')).toBe(true); // point 3
+    expect(text.filter((l) => l.includes('unstable count changed'))).toHaveLength(1);
+    expect(json(join(out, 'run.json')).warnings).toEqual([expect.stringMatching(/the unstable count changed from 0 to 1 between lambda/)]);
+    expect(formatSummary(result, withStability)).toMatch(/1 warning \(listed in run\.json\):\n {2}branch 1: the unstable count changed from 0 to 1/);
+  });
+
   it('adds the stability columns when eigenvalues are asked for, and writes extra unknowns by name', async () => {
     // Brusselator on a periodic line with a phase condition: one extra unknown, drift-x
     const c = await prepareCaseObject(
@@ -149,10 +166,10 @@ describe('a run on the scripted engine', () => {
     await runCase(c, { outDir: out, engine: fakeEngine({ ...defaultScript, stability: true }) });
     const csv = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
     const eigen = [1, 2, 3, 4].flatMap((k) => [`eigenvalue-${k}-real`, `eigenvalue-${k}-imag`]).join(',');
-    expect(csv[0]).toBe(`point,arclength,b,max:u,min:u,l2-norm:u,max:v,min:v,l2-norm:v,drift-x,newton-iterations,step-length,stable,unstable-count,leading-real,leading-imag,search-complete,${eigen}`);
+    expect(csv[0]).toBe(`point,arclength,b,max:u,min:u,l2-norm:u,max:v,min:v,l2-norm:v,drift-x,newton-iterations,residual,step-length,stable,unstable-count,leading-real,leading-imag,search-complete,${eigen},unexplained-change`);
     // (the scripted engine gives no eigenvalue list: those cells stay empty)
-    expect(csv[1].endsWith(',true,0,-1,0,true,,,,,,,,')).toBe(true);
-    expect(csv[2].endsWith(',,1,-0.9,0,true,,,,,,,,')).toBe(true); // stable not certified: empty cell
+    expect(csv[1].endsWith(',true,0,-1,0,true,,,,,,,,,')).toBe(true);
+    expect(csv[2].endsWith(',,1,-0.9,0,true,,,,,,,,,')).toBe(true); // stable not certified: empty cell
     const points = json(join(out, 'points.json')).points;
     expect(points[0]['extra-unknowns']).toEqual({ 'drift-x': 0.25 * 0.5 });
     expect(readNpy(join(out, points[0].solution)).shape).toEqual([2, 16]);

@@ -11,6 +11,8 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
+import { weightedNorm } from '../../src/problem/problem.js';
+import { residualTest } from '../../src/problem/residual-size.js';
 import { prepareSettleCase } from '../../src/run/settle-case.js';
 import { prepareSettleResume, settleCase } from '../../src/run/settle.js';
 import { settleView, settledFraction } from '../../src/run/settle-progress.js';
@@ -62,7 +64,7 @@ describe('branchline settle (in process)', () => {
   it('exits 0 with a summary that names the steady state, its stability and how to trace it', () => {
     expect(result.code, result.err).toBe(0);
     expect(result.out).toMatch(/^Case pulse: Gray–Scott/);
-    expect(result.out).toMatch(/\nSteady state reached at t = [\d.]+ \(residual [\d.e-]+, polished by Newton to [\d.e-]+\)\.\n/);
+    expect(result.out).toMatch(/\nSteady state reached at t = [\d.]+ \(scaled residual [\d.e-]+; polished by Newton to a residual of [\d.e-]+\)\.\n/);
     expect(result.out).toMatch(/The steady state is stable \(rightmost eigenvalue -/);
     expect(result.out).toMatch(/start: \{run: .*pulse, point: final\}/);
   });
@@ -93,6 +95,13 @@ describe('branchline settle (in process)', () => {
     const f = new Float64Array(u.length);
     prepared.problem.residual(u, prepared.params, f);
     expect(Math.max(...f.map(Math.abs))).toBeLessThan(1e-10);
+    // the recorded residual is ‖F‖_w of that very state, and it passes the polish's residual test
+    // (no row scaling: README, "When is a state converged?")
+    expect(run.final.residual).toBe(weightedNorm(prepared.problem.weights, f));
+    expect(run.outcome.residual).toBe(run.final.residual);
+    const test = residualTest(prepared.problem, u, prepared.params, prepared.time.newton.residualTolerance);
+    expect(test.passed).toBe(true);
+    expect(run.outcome.residualBound).toBe(test.bound);
     expect(run.final.monitors['max:v']).toBeCloseTo(Math.max(...data.subarray(61)), 12);
   });
 
@@ -198,6 +207,14 @@ describe('bad settle cases', () => {
     expect(r.err).toMatch(pattern);
     expect(r.err.trim().split('\n')).toHaveLength(1);
     expect(existsSync(dir)).toBe(false);
+  });
+
+  it('newton: residual-tolerance and step-tolerance, with tolerance as shorthand for both (the specific keys win)', async () => {
+    const read = async (newton: string) => (await prepareSettleCase(caseFile(pulse().replace('time: {end: 50000}', `time: {end: 50000, newton: ${newton}}`)))).time.newton;
+    expect(await read('{tolerance: 1.0e-8}')).toEqual({ residualTolerance: 1e-8, stepTolerance: 1e-8, maxIterations: 10 });
+    expect(await read('{tolerance: 1.0e-8, step-tolerance: 1.0e-6, max-iterations: 4}')).toEqual({ residualTolerance: 1e-8, stepTolerance: 1e-6, maxIterations: 4 });
+    expect(await read('{residual-tolerance: 1.0e-10}')).toEqual({ residualTolerance: 1e-10, stepTolerance: 1e-9, maxIterations: 10 });
+    await expect(read('{step-tolerance: 3}')).rejects.toThrow(/time\.newton\.step-tolerance: 3 is not accepted \(accepted: a number between 0 and 1\)/);
   });
 
   it('a case for run without continuation says so; one for settle may hold both', async () => {

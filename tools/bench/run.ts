@@ -5,7 +5,11 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory,settle   a subset
+ *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,settle,reference   a subset
+ *
+ * `reference` times whole `branchline run`s of 2D Bratu 200x200 against a SciPy implementation of
+ * the same continuation (tools/bench/reference.ts) and prints the ratios; without Python and
+ * SciPy it says so and prints our figures alone.
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
@@ -16,6 +20,8 @@ import { benchLu } from './lu.js';
 import { benchExpressionAssembly } from './expression.js';
 import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
+import { benchReference } from './reference.js';
+import { type BackendRow, backendCases, backendTable } from './backends.js';
 import { type SettleBenchRow, settleTable } from './settle.js';
 
 const args = process.argv.slice(2);
@@ -46,6 +52,16 @@ if (want('lu')) {
   results.lu = lu.rows;
 }
 
+if (want('backends')) {
+  console.log('KLU against SuperLU on the bordered continuation matrix of each case (CPU seconds, minimum of the repeats; each run in its own process)');
+  const rows: BackendRow[] = [];
+  backendCases(quick).forEach((c, i) => {
+    for (const backend of ['klu', 'superlu']) rows.push(inChild<BackendRow>('backend', String(i), quick ? '1' : '0', backend, String(quick ? 1 : 3)));
+  });
+  console.log(backendTable(rows) + '\n');
+  results.backends = rows;
+}
+
 if (want('assembly')) {
   const n = quick ? 128 : 256;
   console.log(`Residual + Jacobian assembly, 2D Gray–Scott ${n}x${n} (${2 * n * n} unknowns)`);
@@ -65,6 +81,8 @@ if (want('steps')) {
   }
   const gs = quick ? 64 : 128;
   for (const eig of [0, 6]) rows.push(inChild<StepBenchRow>('steps', 'gray-scott', String(gs), '10', String(eig), String(repeats)));
+  // 3D Bratu 40³ intervals (59,319 unknowns): a few steps, one repetition (minutes per step with KLU)
+  if (!quick) rows.push(inChild<StepBenchRow>('steps', 'bratu3d', '40', '3', '6', '1'));
   console.log('Continuation steps (pseudo-arclength; each case in its own process)');
   console.log(stepTable(rows) + '\n');
   console.log('Where the time of a step goes');
@@ -93,6 +111,17 @@ if (want('memory') && !quick) {
   console.log('Peak memory, 2D Bratu 400x400 (160,000 unknowns), a few steps with 6 eigenvalues per point');
   console.log(table(['case', 'unknowns', 'peak RSS'], [[r.case, r.unknowns, r.peakRssMiB.toFixed(0) + ' MiB']]) + '\n');
   results.memory = r;
+}
+
+if (want('reference')) {
+  const m = quick ? 60 : 200;
+  const stepCounts = quick ? [10, 20] : [20, 40];
+  console.log(`Outside reference: whole runs of 2D Bratu ${m}x${m} (start point included), branchline against SciPy (splu per Newton iteration, ARPACK shift-invert)`);
+  const r = benchReference(m, stepCounts, (line) => console.log(line));
+  if (!r.python) console.log(`  ${r.note}: our figures alone`);
+  else console.log(`  reference: ${r.note}`);
+  console.log(r.text + '\n');
+  results.reference = { python: r.python, note: r.note, rows: r.rows };
 }
 
 if (want('settle')) {

@@ -13,7 +13,7 @@
 #include <string.h>
 #include <stdint.h>
 #include "klu.h"
-#include "metis.h"
+#include "bl_order.h"
 
 #define BL_OK 0
 #define BL_SINGULAR 1          /* factorisation completed with a zero pivot */
@@ -40,69 +40,12 @@ typedef struct {
 } bl_handle;
 
 /* ------------------------------------------------------------------------------------------ */
-/* Nested-dissection ordering for one diagonal block, through METIS_NodeND on pattern(A + A'). */
-/* Called by KLU (ordering 3). Returns an estimate of nnz(L) (> 0) or 0 on failure.            */
+/* Nested-dissection ordering for one diagonal block, through METIS_NodeND on pattern(A + A')  */
+/* (bl_order.c). Called by KLU (ordering 3). Returns a positive number, or 0 on failure.       */
 /* ------------------------------------------------------------------------------------------ */
 static int bl_metis_order(int n, int *Cp, int *Ci, int *Perm, klu_common *Common) {
     (void)Common;
-    if (n <= 3) {
-        for (int k = 0; k < n; k++) Perm[k] = k;
-        return n * (n + 1) / 2 + 1;
-    }
-    /* count the entries of the symmetrised pattern without the diagonal */
-    int *deg = (int *)calloc((size_t)n, sizeof(int));
-    if (!deg) return 0;
-    for (int j = 0; j < n; j++)
-        for (int p = Cp[j]; p < Cp[j + 1]; p++) {
-            int i = Ci[p];
-            if (i != j) { deg[i]++; deg[j]++; }
-        }
-    idx_t *xadj = (idx_t *)malloc(sizeof(idx_t) * (size_t)(n + 1));
-    idx_t total = 0;
-    for (int k = 0; k < n; k++) total += deg[k];
-    idx_t *adj = (idx_t *)malloc(sizeof(idx_t) * (size_t)(total > 0 ? total : 1));
-    idx_t *fill = (idx_t *)malloc(sizeof(idx_t) * (size_t)n);
-    if (!xadj || !adj || !fill) { free(deg); free(xadj); free(adj); free(fill); return 0; }
-    xadj[0] = 0;
-    for (int k = 0; k < n; k++) { xadj[k + 1] = xadj[k] + deg[k]; fill[k] = xadj[k]; }
-    for (int j = 0; j < n; j++)
-        for (int p = Cp[j]; p < Cp[j + 1]; p++) {
-            int i = Ci[p];
-            if (i != j) { adj[fill[i]++] = j; adj[fill[j]++] = i; }
-        }
-    free(deg);
-    /* remove duplicate neighbours (entries present in both A and A') in place */
-    idx_t *mark = fill; /* reuse as marker array */
-    for (int k = 0; k < n; k++) mark[k] = -1;
-    idx_t w = 0;
-    idx_t start = 0;
-    for (int k = 0; k < n; k++) {
-        idx_t end = xadj[k + 1];
-        xadj[k] = w;
-        for (idx_t p = start; p < end; p++) {
-            idx_t j = adj[p];
-            if (mark[j] != k) { mark[j] = k; adj[w++] = j; }
-        }
-        start = end;
-    }
-    xadj[n] = w;
-    idx_t nv = n;
-    idx_t options[METIS_NOPTIONS];
-    METIS_SetDefaultOptions(options);
-    options[METIS_OPTION_NUMBERING] = 0;
-    idx_t *perm = (idx_t *)malloc(sizeof(idx_t) * (size_t)n);
-    idx_t *iperm = (idx_t *)malloc(sizeof(idx_t) * (size_t)n);
-    int ok = 0;
-    if (perm && iperm) {
-        int status = METIS_NodeND(&nv, xadj, adj, NULL, options, perm, iperm);
-        if (status == METIS_OK) {
-            for (int k = 0; k < n; k++) Perm[k] = (int)perm[k];
-            ok = 1;
-        }
-    }
-    free(xadj); free(adj); free(fill); free(perm); free(iperm);
-    /* KLU only needs a positive estimate here; it recomputes nnz(L) during factorisation. */
-    return ok ? (int)(w + n > 0 ? w + n : 1) : 0;
+    return bl_metis_nd(n, Cp, Ci, Perm, 0);
 }
 
 /* ------------------------------------------------------------------------------------------ */

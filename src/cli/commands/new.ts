@@ -143,7 +143,7 @@ function commonTail(s: Suggestion, parameter: string, start: number, monitors: s
     s.stopWhen ? `  stop-when: [${s.stopWhen}]` : `  # stop-when: [{monitor: ${monitors[0] ?? 'max'}, above: 10}]`,
     `  # monitors of this model: ${monitors.join(', ')}`,
     c(`  branch-switching: {depth: ${defaultSettings.branchSwitching.depth}}`, `follow the branches crossing at branch points this many levels deep (the default when left out; 0: none)`),
-    '  # newton: {tolerance: 1.0e-9, max-iterations: 10}',
+    '  # newton: {residual-tolerance: 1.0e-9, step-tolerance: 1.0e-9, max-iterations: 10}   # residual relative to its terms; step relative to 1 + |x|; tolerance: T sets both',
     '  # locate: {folds: true, branch-points: true}',
     'stability:',
     c(`  eigenvalues: ${s.eigenvalues}`, `rightmost eigenvalues per point, for stability and Hopf points (0: none)`),

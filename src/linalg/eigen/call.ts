@@ -19,7 +19,7 @@ import { type KnownPair, closeConjugates, fmt, pencilResidual, selectRightmost, 
 import type { SearchOutcome, SearchSpec } from './search.js';
 import { type Purify, makeWarmStart } from './seeding.js';
 import { type ShiftOperator, cabs } from './transform.js';
-import type { EigenValue, RightmostResult, SearchDisc } from './types.js';
+import type { EigenValue, FactoredShift, RightmostResult, SearchDisc } from './types.js';
 
 /** What a call needs from its tracker. */
 export interface CallSetup {
@@ -93,11 +93,11 @@ export class EigenCall {
   }
 
   /** The operator of an LU of J − shift·M factored by the caller. */
-  external(f: { lu: SparseLU; shift: number }): ShiftOperator {
+  external(f: FactoredShift): ShiftOperator {
     return this.solverOperator(f.lu, f.shift);
   }
 
-  private solverOperator(lu: SparseLU, sigma: number): ShiftOperator {
+  private solverOperator(lu: FactoredShift['lu'], sigma: number): ShiftOperator {
     this.shifts.push(sigma);
     const { n, mass, counters } = this;
     const mx = new Float64Array(n);

@@ -20,7 +20,6 @@
  *     Krylov decomposition and a fresh random vector exploring the rest (seeding.ts). Up to
  *     `maxShifts` Cayley shifts; what stays uncovered is reported.
  */
-import type { SparseLU } from '../lu.js';
 import type { Complex } from '../schur.js';
 import type { EigenCall } from './call.js';
 import { type Enclosure, certifiedLine, reaches } from './certification.js';
@@ -29,9 +28,9 @@ import { KrylovSchur } from './krylov-schur.js';
 import { runSearch } from './search.js';
 import { injectMissing, lockedStart, seedFromWarm } from './seeding.js';
 import type { ShiftOperator } from './transform.js';
-import type { EigenWarmStart } from './types.js';
+import type { EigenWarmStart, FactoredShift } from './types.js';
 
-type Factored = { lu: SparseLU; shift: number } | undefined;
+type Factored = FactoredShift | undefined;
 
 /** The operator about `shift`: the caller's LU when it was factored at that shift, else a new one. */
 function operatorAt(call: EigenCall, shift: number, factored: Factored): ShiftOperator {
@@ -82,7 +81,9 @@ export function searchRightmost(call: EigenCall, o: { count: number; shift: numb
     const spread = Math.max(knownValues[0].re - knownValues[Math.min(kw, knownValues.length) - 1].re, scaleHint, 1e-3 * Math.max(Math.abs(knownValues[0].re), floor), floor);
     const capBeta = (shiftNo === 0 ? 32 : 2048) * spread;
     let plan = planCayley(knownValues, o.count, kw, R, Y, scaleHint, floor, shiftNo === 0 ? 0 : 2 * prevBeta, capBeta);
-    const op = first && factored && factored.shift > plan.alpha + 4 * plan.delta ? call.external(factored) : call.operator(plan.sigma);
+    // the caller's factors serve when their shift is right of the line and at least the planned σ
+    // (β no smaller than planned, so the claimed disc covers at least what the plan needs)
+    const op = first && factored && factored.shift > plan.alpha + 4 * plan.delta && factored.shift >= plan.sigma ? call.external(factored) : call.operator(plan.sigma);
     const purify = call.purifier(op);
     plan = withSigma(plan, op.sigma);
     prevBeta = plan.beta;

@@ -3,7 +3,7 @@
  * options, the result with its searched region, and the JSON-safe warm start carried along a
  * branch.
  */
-import type { LUOptions, SparseLU } from '../lu.js';
+import type { LUOptions } from '../lu.js';
 
 export interface EigenValue {
   re: number;
@@ -99,8 +99,18 @@ export interface EigenOptions {
 export interface ComputeExtras {
   /** Overrides the tracker's own warm start (null: cold start). */
   warmStart?: EigenWarmStart | null;
-  /** An LU of J − shift·M already factored by the caller, used when it suits the plan. */
-  factored?: { lu: SparseLU; shift: number };
+  /**
+   * Solves with J − shift·M that the caller already has (a SparseLU of it, or the factors of a
+   * matrix bordered by J − shift·M through the bordering lemma, see ContinuationSystem), used in
+   * place of a factorisation of the solver's own when it suits the plan.
+   */
+  factored?: FactoredShift;
+}
+
+/** Solves with J − shift·M: x = (J − shift·M)⁻¹ b, into `out` when given. */
+export interface FactoredShift {
+  lu: { solve(b: Float64Array, out?: Float64Array): Float64Array };
+  shift: number;
 }
 
 export interface RightmostOptions extends EigenOptions, ComputeExtras {}

@@ -1,0 +1,87 @@
+/**
+ * The accounting rules for the unstable count (src/continuation/crossings.ts) on hand-made
+ * eigenvalue lists: only crossings of the imaginary axis change the count, and each must be
+ * matched by what the step saw.
+ */
+import { describe, expect, it } from 'vitest';
+import { accountFirstStep, accountStep, pairCrossings } from '../../src/continuation/crossings.js';
+import type { PointStability } from '../../src/continuation/types.js';
+
+function stability(values: [number, number][], complete = true): PointStability {
+  const eigenvalues = values.map(([re, im]) => ({ re, im, residual: 0 }));
+  const unstable = eigenvalues.filter((v) => v.re > 0);
+  return {
+    stable: unstable.length === 0,
+    unstableCount: unstable.length,
+    unstableComplex: unstable.filter((v) => v.im !== 0).length,
+    leadingReal: eigenvalues[0].re,
+    leadingImag: eigenvalues[0].im,
+    eigenvalues,
+    complete,
+    searched: 'hand-made',
+  };
+}
+
+const none = { fold: false, branchPoint: false };
+
+describe('counting crossings between neighbouring points', () => {
+  it('two positive real eigenvalues merging into a complex pair (trace² = 4 det) change nothing', () => {
+    const a = stability([[0.02, 0], [0.01, 0], [-1, 0]]);
+    const b = stability([[0.015, 0.003], [0.015, -0.003], [-1, 0]]);
+    const account = accountStep(a, b, none)!;
+    expect(account.real).toBe(0);
+    expect(account.pairs).toBe(0);
+    expect(account.explained).toBe(true);
+    expect(account.double).toBe(false);
+  });
+
+  it('a complex pair crossing into the right half-plane is +2, carried by the pair (a Hopf point)', () => {
+    const a = stability([[-0.01, 0.5], [-0.01, -0.5], [-1, 0]]);
+    const b = stability([[0.02, 0.49], [0.02, -0.49], [-1, 0]]);
+    expect(pairCrossings(a, b)).toBe(2);
+    const account = accountStep(a, b, none)!;
+    expect([account.from, account.to, account.real, account.explained]).toEqual([0, 2, 0, true]);
+    expect(pairCrossings(b, a)).toBe(-2);
+  });
+
+  it('one real eigenvalue crossing needs a fold or a branch point; without one it is unexplained', () => {
+    const a = stability([[-0.1, 0], [-2, 0]]);
+    const b = stability([[0.1, 0], [-2, 0]]);
+    expect(accountStep(a, b, { fold: true, branchPoint: false })!.explained).toBe(true);
+    expect(accountStep(a, b, { fold: false, branchPoint: true })!.explained).toBe(true);
+    const alone = accountStep(a, b, none)!;
+    expect(alone.explained).toBe(false);
+    expect(alone.double).toBe(false);
+  });
+
+  it('two real eigenvalues crossing with no sign change seen: a double crossing to split down to', () => {
+    const a = stability([[-0.1, 0], [-0.1, 0], [-2, 0]]);
+    const b = stability([[0.1, 0], [0.1, 0], [-2, 0]]);
+    const account = accountStep(a, b, none)!;
+    expect(account.explained).toBe(false);
+    expect(account.double).toBe(true);
+    // a fold and a branch point in the same step explain two
+    expect(accountStep(a, b, { fold: true, branchPoint: true })!.explained).toBe(true);
+    // a single branch point cannot explain an even change
+    expect(accountStep(a, b, { fold: false, branchPoint: true })!.explained).toBe(false);
+  });
+
+  it('uncertified counts are lower bounds and are not compared', () => {
+    const a = stability([[-0.1, 0]], false);
+    const b = stability([[0.1, 0]]);
+    expect(accountStep(a, b, none)).toBeUndefined();
+  });
+
+  it('the first step off a branch point: the critical eigenvalue may go either way, anything more is unexplained', () => {
+    // origin: the critical eigenvalue 1e-13 (zero up to location), one more unstable one
+    const origin = stability([[0.8, 0], [1e-13, 0], [-3, 0]]);
+    expect(accountFirstStep(origin, stability([[0.8, 0], [0.05, 0], [-3, 0]]), 1)!.explained).toBe(true);
+    expect(accountFirstStep(origin, stability([[0.8, 0], [-0.05, 0], [-3, 0]]), 1)!.explained).toBe(true);
+    // a further eigenvalue crossed within the first step (the beam's mode-2 branch): 1 → 3
+    const crossed = accountFirstStep(origin, stability([[0.8, 0], [0.05, 0], [0.01, 0]]), 1)!;
+    expect(crossed.explained).toBe(false);
+    expect([crossed.from, crossed.to]).toEqual([2, 3]);
+    // and one that went stable: 1 → 0 besides the critical one
+    expect(accountFirstStep(origin, stability([[-0.2, 0], [-0.05, 0], [-3, 0]]), 1)!.explained).toBe(false);
+  });
+});
