@@ -35,3 +35,9 @@ export { prepareSettleCase, prepareSettleCaseObject } from './run/settle-case.js
 export type { PreparedSettleCase, ResolvedSettleCase } from './run/settle-case.js';
 export { settleCase } from './run/settle.js';
 export type { SettleResult } from './run/settle.js';
+export { DeflatedSearch, Deflation, StateDistance, defaultDeflation, defaultSearchSettings } from './deflation/index.js';
+export type { DeflationSettings, FoundState, Guess, SearchEvent, SearchSettings, SolveRecord } from './deflation/index.js';
+export { prepareFindCase, prepareFindCaseObject } from './run/find-states-case.js';
+export type { PreparedFindCase } from './run/find-states-case.js';
+export { findStates } from './run/find-states.js';
+export type { FindResult } from './run/find-states.js';

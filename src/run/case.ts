@@ -289,7 +289,7 @@ const continuationSchema = section({
   'sparse-lu': word(['auto', 'klu', 'superlu']).optional(),
 });
 
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster'] as const;
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster', 'search'] as const;
 
 const setupLineText = accepted('a list of shell lines run before the run in a cluster job, e.g. ["module load nodejs/20"]');
 
@@ -307,6 +307,8 @@ const caseSchema = z.looseObject(
     // checked by ./initial.ts (its shape depends on the model) and ./settle-case.ts
     initial: z.unknown().optional(),
     time: z.unknown().optional(),
+    // checked by ./find-states-case.ts (used by `branchline find-states`, ignored by the others)
+    search: z.unknown().optional(),
     output: section({
       directory: z.string(accepted('a folder path')).min(1, accepted('a folder path')).optional(),
       solutions: word(solutionChoices).optional(),

@@ -281,9 +281,10 @@ export function finalPoint(dir: string): RunPoint {
 }
 
 /** `settle` for the folder of a time integration, `continuation` for other runs, undefined when unreadable. */
-export function runKind(dir: string): 'settle' | 'continuation' | undefined {
+export function runKind(dir: string): 'settle' | 'find-states' | 'continuation' | undefined {
   try {
-    return readRunJson(dir).kind === 'settle' ? 'settle' : 'continuation';
+    const kind = readRunJson(dir).kind;
+    return kind === 'settle' || kind === 'find-states' ? kind : 'continuation';
   } catch {
     return undefined;
   }

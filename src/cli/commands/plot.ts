@@ -5,6 +5,7 @@ import { join, relative, resolve } from 'node:path';
 import { defaultMaxSolutionPlots, drawRunPlots } from '../../run/plots.js';
 import { drawStudyPlots } from '../../refine/study.js';
 import { drawSettlePlots } from '../../run/settle-plots.js';
+import { drawFindPlots } from '../../run/find-states-plots.js';
 import { runKind } from '../../run/start.js';
 
 /** `branchline plot DIR`: (re)draw the SVG pictures of a run, or of a refinement study, from its files. */
@@ -24,6 +25,13 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
         const r = drawStudyPlots(abs, options);
         for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
         io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where}: ${summarise(r.files)}\n`);
+        setExit(r.warnings.length ? 1 : 0);
+        return;
+      }
+      if (runKind(abs) === 'find-states') {
+        const r = drawFindPlots(abs, options);
+        for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
+        io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (a search for steady states${r.monitor ? `; diagram: ${r.monitor}` : ''}): ${summarise(r.files)}\n`);
         setExit(r.warnings.length ? 1 : 0);
         return;
       }

@@ -62,6 +62,7 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
         return;
       }
       if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit }, code);
+      if (runKind(dirGiven) === 'find-states') throw new InputError(`${dirGiven}: a search for steady states (find-states) keeps no checkpoints; run it again (with --force to replace this folder), or start cases from its states (start: {solution: ${join(dirGiven, 'solutions', 'state-1.npy')}})`);
       const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true, code });
       try {
         await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);
