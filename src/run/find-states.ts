@@ -32,7 +32,7 @@ import { join, relative, resolve } from 'node:path';
 import { periodicAxes } from '../deflation/distance.js';
 import { DeflatedSearch, type FoundState, type SearchEndReason, type SolveRecord, searchEndText } from '../deflation/search.js';
 import { stabilityWords } from '../dynamics/stability.js';
-import { caseDocumentHead, prepareCaseObject } from './case.js';
+import { caseDocumentHead, ownCodeModel, prepareCaseObject } from './case.js';
 import { type PreparedFindCase, findCaseDocument } from './find-states-case.js';
 import { drawFindPlots } from './find-states-plots.js';
 import { makeFolder, removeIfEmpty } from './folders.js';
@@ -347,7 +347,7 @@ async function traceStates(prepared: PreparedFindCase, outDir: string, states: r
     for (const direction of ['increase', 'decrease'] as const) {
       if (options.signal?.aborted) return true;
       const doc = traceDocument(prepared, outDir, s, direction);
-      const run = await prepareCaseObject(doc, { label: `${prepared.label} (trace of state ${s.id}, ${direction})`, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}) });
+      const run = await prepareCaseObject(doc, { label: `${prepared.label} (trace of state ${s.id}, ${direction})`, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}), ...ownCodeModel(prepared.case) });
       // the state exactly as found (with its extra unknowns), not as read back from the node array
       run.start = { u: Float64Array.from(s.u), from: `state ${s.id} found by find-states` };
       const dir = join(outDir, 'traces', `state-${s.id}-${direction}`);

@@ -6,7 +6,7 @@
 import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { outputFolderProblem } from '../../run/batch.js';
-import { prepareCaseObject } from '../../run/case.js';
+import { ownCodeModel, prepareCaseObject } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
 import { prepareFindCase } from '../../run/find-states-case.js';
 import { findDirectory, findStates } from '../../run/find-states.js';
@@ -44,7 +44,7 @@ Exit codes: 0 finished with at least one state; 1 no state found, failed or stop
       if (trace && prepared.case.continuation === undefined) throw new InputError(`${prepared.label}: --trace needs a continuation: section (the parameter, bounds and steps of the traces)`);
       if (trace) {
         // the traces' case is checked before anything is written (a bad continuation: is one line)
-        await prepareCaseObject({ ...prepared.raw, search: undefined }, { label: prepared.label, baseDir: prepared.baseDir });
+        await prepareCaseObject({ ...prepared.raw, search: undefined }, { label: prepared.label, baseDir: prepared.baseDir, ...ownCodeModel(prepared.case) });
       }
       const outDir = findDirectory(prepared, opts.out);
       const folder = outputFolderProblem(outDir, opts.force === true);
