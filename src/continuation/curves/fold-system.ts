@@ -1,0 +1,300 @@
+/**
+ * The minimally augmented fold system (Govaerts 2000): unknowns y = (u, parameter, free),
+ * equations
+ *
+ *     F(u, p) = 0,      g(u, p) = 0,
+ *
+ * with g from the bordered null-vector system of J (./null-border.ts). Size n + 2; each
+ * evaluation factors the bordered matrix M = [[J, b], [cᵀ, 0]] once (n + 1) with the sparse LU.
+ *
+ * Newton matrix, bordered by a row r = (r_u, r_p):
+ *
+ *     [ J     F_p ] [du]   [a]
+ *     [ g_uᵀ  g_p ] [dp] = [β]         (dp: the two parameters)
+ *     [ r_uᵀ  r_p ]        [γ]
+ *
+ * solved by block elimination with M (J itself is singular on the curve): with ζ = cᵀdu,
+ * [du; s] = M⁻¹[a − F_p dp; ζ] must have s = 0, so
+ *
+ *     [du; s] = X0 + ζ X1 − X2 dp,   X0 = M⁻¹[a; 0],  X1 = M⁻¹[0; 1] = [v; g],  X2 = M⁻¹[F_p; 0],
+ *
+ * and ζ, dp solve a 3×3 system (the s row, the g row and the border row). Per linearisation:
+ * one factorisation and four solves (v, w, two columns of X2), plus one solve per right-hand side.
+ *
+ * Test functions: the quadratic normal-form coefficient ⟨ŵ, F_uu(v̂, v̂)⟩ (zero at a cusp),
+ * ⟨ŵ, M v̂⟩ (zero at a Bogdanov–Takens point) and the sign of det M (it changes where a second,
+ * independent null vector appears: the fold curve crosses a curve of branch points).
+ */
+import type { LUOptions } from '../../linalg/lu.js';
+import type { Params, Problem } from '../../problem/problem.js';
+import { type AugmentedSystem, type SystemCounters, type TestFunction, type TestValue, solveSmall } from './augmented.js';
+import { NullVectorBorder } from './null-border.js';
+import { frozenRowScale, scaledNorm } from './scale.js';
+
+export const foldTestFunctions: readonly TestFunction[] = [
+  { name: 'cusp-coefficient', kind: 'cusp', type: 'value', description: 'quadratic normal-form coefficient ⟨w, F_uu(v, v)⟩ (normalised null vectors); zero at a cusp' },
+  { name: 'bogdanov-takens', kind: 'bogdanov-takens', type: 'value', description: '⟨w, M v⟩ (normalised null vectors); zero where the zero eigenvalue becomes double' },
+  { name: 'determinant-sign', kind: 'fold-branch-point', type: 'determinant', description: 'sign of the bordered null-vector matrix; it changes where a second null vector appears' },
+];
+
+export class FoldSystem implements AugmentedSystem {
+  readonly kind = 'fold' as const;
+  readonly n: number;
+  readonly size: number;
+  readonly weights: Float64Array;
+  readonly parameterIndex: number;
+  readonly freeIndex: number;
+  readonly testFunctions = foldTestFunctions;
+  readonly border: NullVectorBorder;
+  /** 1 / max(1, row max of |J|) per equation row, and the scale of g (frozen per curve). */
+  rowScale: Float64Array;
+  gScale = 1;
+  private readonly jac: Float64Array;
+  private readonly f: Float64Array;
+  private readonly fPar: Float64Array;
+  private readonly fFree: Float64Array;
+  private readonly gu: Float64Array;
+  private gPar = 0;
+  private gFree = 0;
+  private readonly x2a: Float64Array;
+  private readonly x2b: Float64Array;
+  private readonly x0: Float64Array;
+  private readonly work: Float64Array;
+  private guV = 0;
+  private guX2a = 0;
+  private guX2b = 0;
+  private y: Float64Array;
+  private linearised = false;
+
+  constructor(
+    readonly problem: Problem,
+    readonly base: Params,
+    readonly parameter: string,
+    readonly free: string,
+    luOptions: LUOptions = {},
+  ) {
+    for (const name of [parameter, free]) {
+      if (!(name in base)) throw new Error(`unknown parameter '${name}' (known: ${Object.keys(base).join(', ')})`);
+    }
+    if (parameter === free) throw new Error(`the free parameter must differ from the continuation parameter (both are '${parameter}')`);
+    const n = problem.size;
+    this.n = n;
+    this.size = n + 2;
+    this.parameterIndex = n;
+    this.freeIndex = n + 1;
+    this.weights = new Float64Array(n + 2);
+    this.weights.set(problem.weights);
+    this.weights[n] = 1;
+    this.weights[n + 1] = 1;
+    this.border = new NullVectorBorder(problem, luOptions);
+    this.rowScale = new Float64Array(n).fill(1);
+    this.jac = new Float64Array(problem.pattern().colPtr[n]);
+    this.f = new Float64Array(n);
+    this.fPar = new Float64Array(n);
+    this.fFree = new Float64Array(n);
+    this.gu = new Float64Array(n);
+    this.x2a = new Float64Array(n + 1);
+    this.x2b = new Float64Array(n + 1);
+    this.x0 = new Float64Array(n + 1);
+    this.work = new Float64Array(n + 1);
+    this.y = new Float64Array(n + 2);
+  }
+
+  get counters(): SystemCounters {
+    return this.border.counters;
+  }
+
+  params(y: Float64Array): Params {
+    return { ...this.base, [this.parameter]: y[this.n], [this.free]: y[this.n + 1] };
+  }
+
+  state(y: Float64Array): Float64Array {
+    return y.slice(0, this.n);
+  }
+
+  fromState(u: Float64Array, p: Params): Float64Array {
+    if (u.length !== this.n) throw new Error(`the start state has ${u.length} values, the problem has ${this.n} unknowns`);
+    const y = new Float64Array(this.n + 2);
+    y.set(u);
+    y[this.n] = p[this.parameter];
+    y[this.n + 1] = p[this.free];
+    return y;
+  }
+
+  private assemble(y: Float64Array): void {
+    const u = y.subarray(0, this.n);
+    const p = this.params(y);
+    const c = this.border.counters;
+    const t0 = performance.now();
+    this.problem.jacobian(u, p, this.jac);
+    c.seconds.assembly += (performance.now() - t0) / 1000;
+    c.assemblies++;
+  }
+
+  initialise(y: Float64Array): void {
+    this.assemble(y);
+    this.border.initialise(this.jac);
+  }
+
+  setScale(y: Float64Array): void {
+    this.assemble(y);
+    this.rowScale = frozenRowScale(this.problem, this.jac);
+    this.evaluate(y, new Float64Array(this.n + 1));
+    this.linearise();
+    this.gScale = Math.max(1, Math.hypot(this.gPar, this.gFree));
+  }
+
+  evaluate(y: Float64Array, out: Float64Array): number {
+    const n = this.n;
+    this.y.set(y);
+    const u = this.y.subarray(0, n);
+    const p = this.params(this.y);
+    const t0 = performance.now();
+    this.problem.residual(u, p, this.f);
+    this.border.counters.seconds.residual += (performance.now() - t0) / 1000;
+    this.assemble(this.y);
+    this.border.factor(this.jac);
+    this.linearised = false;
+    out.set(this.f);
+    out[n] = this.border.g;
+    const fn = scaledNorm(this.f, this.rowScale, this.problem.weights);
+    const gn = this.border.g / this.gScale;
+    return Math.sqrt(fn * fn + gn * gn);
+  }
+
+  /** Derivatives at the last evaluated point (on demand: a converged point needs them only for its tangent). */
+  private linearise(): void {
+    if (this.linearised) return;
+    const n = this.n;
+    const u = this.y.subarray(0, n);
+    const p = this.params(this.y);
+    const c = this.border.counters;
+    const t0 = performance.now();
+    this.problem.parameterDerivative(u, p, this.parameter, this.fPar);
+    this.problem.parameterDerivative(u, p, this.free, this.fFree);
+    c.seconds.derivatives += (performance.now() - t0) / 1000;
+    this.border.gradient(u, p, this.gu);
+    this.gPar = this.border.parameterDerivative(u, p, this.parameter);
+    this.gFree = this.border.parameterDerivative(u, p, this.free);
+    this.work.set(this.fPar);
+    this.work[n] = 0;
+    this.border.solveM(this.work, this.x2a);
+    this.work.set(this.fFree);
+    this.work[n] = 0;
+    this.border.solveM(this.work, this.x2b);
+    const v = this.border.v;
+    let a = 0;
+    let b = 0;
+    let d = 0;
+    for (let i = 0; i < n; i++) {
+      a += this.gu[i] * v[i];
+      b += this.gu[i] * this.x2a[i];
+      d += this.gu[i] * this.x2b[i];
+    }
+    this.guV = a;
+    this.guX2a = b;
+    this.guX2b = d;
+    this.linearised = true;
+  }
+
+  solve(row: Float64Array, rhs: Float64Array, out: Float64Array): void {
+    this.linearise();
+    const n = this.n;
+    const v = this.border.v;
+    const g = this.border.g;
+    let zero = true;
+    for (let i = 0; i < n; i++) {
+      if (rhs[i] !== 0) {
+        zero = false;
+        break;
+      }
+    }
+    if (zero) this.x0.fill(0);
+    else {
+      this.work.set(rhs.subarray(0, n));
+      this.work[n] = 0;
+      this.border.solveM(this.work, this.x0);
+    }
+    let rv = 0;
+    let ra = 0;
+    let rb = 0;
+    let r0 = 0;
+    let g0 = 0;
+    for (let i = 0; i < n; i++) {
+      rv += row[i] * v[i];
+      ra += row[i] * this.x2a[i];
+      rb += row[i] * this.x2b[i];
+      r0 += row[i] * this.x0[i];
+      g0 += this.gu[i] * this.x0[i];
+    }
+    const z = solveSmall(
+      [
+        [g, -this.x2a[n], -this.x2b[n]],
+        [this.guV, this.gPar - this.guX2a, this.gFree - this.guX2b],
+        [rv, row[n] - ra, row[n + 1] - rb],
+      ],
+      [-this.x0[n], rhs[n] - g0, rhs[n + 1] - r0],
+    );
+    if (!z) throw new Error('the fold system is singular here (not a simple fold, or the curve is degenerate)');
+    const [zeta, da, db] = z;
+    for (let i = 0; i < n; i++) out[i] = this.x0[i] + zeta * v[i] - da * this.x2a[i] - db * this.x2b[i];
+    out[n] = da;
+    out[n + 1] = db;
+  }
+
+  /** G_y δ at the last evaluated point (the linearisation `solve` inverts; for derivative checks). */
+  jacobianTimes(delta: Float64Array, out: Float64Array): void {
+    this.linearise();
+    const n = this.n;
+    const pat = this.problem.pattern();
+    out.fill(0);
+    for (let j = 0; j < n; j++) {
+      const dj = delta[j];
+      if (dj === 0) continue;
+      for (let k = pat.colPtr[j]; k < pat.colPtr[j + 1]; k++) out[pat.rowIdx[k]] += this.jac[k] * dj;
+    }
+    let s = this.gPar * delta[n] + this.gFree * delta[n + 1];
+    for (let i = 0; i < n; i++) {
+      out[i] += this.fPar[i] * delta[n] + this.fFree[i] * delta[n + 1];
+      s += this.gu[i] * delta[i];
+    }
+    out[n] = s;
+  }
+
+  tests(): TestValue[] {
+    const u = this.y.subarray(0, this.n);
+    const p = this.params(this.y);
+    const det = this.border.determinant();
+    return [
+      { value: this.border.quadraticCoefficient(u, p) },
+      { value: this.border.massProduct() },
+      { value: det.sign, logAbs: det.logAbs },
+    ];
+  }
+
+  adopt(): void {
+    this.border.adopt();
+  }
+
+  saveState(): Float64Array[] {
+    return [this.border.b.slice(), this.border.c.slice(), this.rowScale.slice(), Float64Array.of(this.gScale)];
+  }
+
+  restoreState(saved: readonly Float64Array[]): void {
+    if (saved.length !== 4 || saved[0].length !== this.n || saved[1].length !== this.n || saved[2].length !== this.n) {
+      throw new Error(`the saved fold-curve state does not fit this problem (${this.n} unknowns)`);
+    }
+    this.border.b.set(saved[0]);
+    this.border.c.set(saved[1]);
+    this.rowScale = saved[2].slice();
+    this.gScale = saved[3][0];
+  }
+
+  restart(): void {
+    this.border.restart();
+  }
+
+  dispose(): void {
+    this.border.dispose();
+  }
+}
