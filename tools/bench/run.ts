@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory   a subset
+ *   npm run bench -- --only lu,assembly,steps,branch,memory,curves   a subset
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
@@ -16,6 +16,7 @@ import { benchLu } from './lu.js';
 import { benchExpressionAssembly } from './expression.js';
 import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
+import { type CurveBenchRow, curveTable } from './curves.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -92,6 +93,14 @@ if (want('memory') && !quick) {
   console.log('Peak memory, 2D Bratu 400x400 (160,000 unknowns), a few steps with 6 eigenvalues per point');
   console.log(table(['case', 'unknowns', 'peak RSS'], [[r.case, r.unknowns, r.peakRssMiB.toFixed(0) + ' MiB']]) + '\n');
   results.memory = r;
+}
+
+if (want('curves')) {
+  const m = quick ? 60 : 200;
+  const r = inChild<CurveBenchRow>('curves', String(m), quick ? '5' : '10', String(repeats));
+  console.log('A fold-curve step against a one-parameter step on the same grid (no eigenvalues; target ratio at most 3)');
+  console.log(curveTable([r]) + '\n');
+  results.curves = r;
 }
 
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');

@@ -3,8 +3,10 @@
  * (spawned by run.ts so that peak resident memory belongs to the case alone).
  *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
  *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
+ *   node dist/tools/bench/worker.js curves <m> <steps> <repeats>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
+import { benchCurveSteps } from './curves.js';
 
 const [kind, ...rest] = process.argv.slice(2);
 if (kind === 'steps') {
@@ -14,6 +16,9 @@ if (kind === 'steps') {
 } else if (kind === 'branch') {
   const [n, eig] = rest;
   console.log(JSON.stringify(benchBranch(bratu1d(Number(n)), Number(eig))));
+} else if (kind === 'curves') {
+  const [m, steps, repeats] = rest;
+  console.log(JSON.stringify(benchCurveSteps(Number(m), Number(steps), Number(repeats))));
 } else {
   console.error(`worker: unknown kind '${kind}'`);
   process.exit(2);

@@ -8,14 +8,16 @@
  * solutions form a curve, followed by pseudo-arclength continuation in the weighted norm
  * ‖y‖² = Σ weights_i y_i² (quadrature weights on grid values, 1 on scalars).
  *
- * A system owns its linear algebra. `evaluate` computes G at y and factors whatever it needs
- * there; `solve` then solves the linearisation bordered by one more row,
+ * A system owns its linear algebra. `evaluate` computes G at y exactly; `solve` then solves a
+ * linearisation bordered by one more row,
  *
  *     [ G_y(y) ] z = rhs,
  *     [ rowᵀ   ]
  *
  * which serves Newton corrections (row: the weighted tangent, or a unit vector fixing a
- * parameter) and tangents (rhs: the last unit vector). Test functions are evaluated at the last
+ * parameter) and tangents (rhs: the last unit vector). Between `exact` calls the linearisation
+ * may be an earlier point's (chord iterations: the corrector calls `exact` when they contract
+ * slowly, the engine at every converged point before its tangent). Test functions are evaluated at the last
  * evaluated point; a sign change between two accepted points marks a special point, which the
  * engine locates along the curve.
  *
@@ -81,12 +83,21 @@ export interface AugmentedSystem {
    * (not finite when G is not). Throws SparseLUError when a bordered matrix is singular.
    */
   evaluate(y: Float64Array, out: Float64Array): number;
-  /** Solve the linearisation at the last evaluated point, bordered by `row` (weighted already). */
+  /**
+   * Solve a linearisation bordered by `row` (weighted already): the one at the last evaluated
+   * point after `exact`, otherwise possibly an earlier one (chord iterations).
+   */
   solve(row: Float64Array, rhs: Float64Array, out: Float64Array): void;
+  /** Make `solve` use the exact linearisation at the last evaluated point (factoring there). */
+  exact(): void;
   /** G_y δ at the last evaluated point (what `solve` inverts; derivative checks compare it with differences). */
   jacobianTimes(delta: Float64Array, out: Float64Array): void;
-  /** Test functions at the last evaluated point (aligned with `testFunctions`). */
-  tests(): TestValue[];
+  /**
+   * Test functions at the last evaluated point (aligned with `testFunctions`). `determinant`
+   * functions come from the last factorisation, which may lie a Newton step away unless `exact`
+   * (then the system factors at the point): they only flag a sign change, confirmed exactly.
+   */
+  tests(exact?: boolean): TestValue[];
   /** The converged point is accepted: refresh borders from its null vectors. */
   adopt(): void;
 

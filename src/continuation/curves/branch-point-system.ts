@@ -14,7 +14,8 @@
  *     [ g_c   g_p ]       g_c = −wᵀ F_uu[v, e_f],  g_p = −wᵀ F_up v,
  *     [ r_c   r_p ]
  *
- * and each evaluation factors the (n + 1) bordered matrix once.
+ * and g and the null vectors come from the (n + 1) bordered matrix (a factorisation per step,
+ * refinement with it in between: ./null-border.ts).
  *
  * The critical mode is the null vector v; its wavenumbers come from ./mode.ts. Where another
  * mode's eigenvalue reaches zero the sign of det M changes (test function `determinant-sign`):
@@ -148,7 +149,7 @@ export class BranchPointSystem implements AugmentedSystem {
     const t0 = performance.now();
     this.problem.residual(this.u, p, this.f);
     this.border.counters.seconds.residual += (performance.now() - t0) / 1000;
-    this.border.factor(this.jac);
+    this.border.update(this.jac);
     this.lin = null;
     this.modeCache = null;
     fieldAverages(this.space, this.problem.weights, this.f, out);
@@ -167,6 +168,11 @@ export class BranchPointSystem implements AugmentedSystem {
       for (let i = 0; i < this.n; i++) if (fld.indicator[i] === 1) r[i] -= avg[k];
     });
     return scaledNorm(r, this.rowScale, this.problem.weights);
+  }
+
+  /** The border LU at the last evaluated point (the dense linearisation is always exact). */
+  exact(): void {
+    this.border.ensureFactored();
   }
 
   private linearise(): number[][] {
@@ -215,8 +221,8 @@ export class BranchPointSystem implements AugmentedSystem {
     });
   }
 
-  tests(): TestValue[] {
-    const det = this.border.determinant();
+  tests(exact = false): TestValue[] {
+    const det = this.border.determinant(exact);
     return [{ value: det.sign, logAbs: det.logAbs }];
   }
 
@@ -273,8 +279,7 @@ export class BranchPointSystem implements AugmentedSystem {
     if (saved.length !== 4 || saved[0].length !== this.n || saved[1].length !== this.n || saved[2].length !== this.n) {
       throw new Error(`the saved branch-point-curve state does not fit this problem (${this.n} unknowns)`);
     }
-    this.border.b.set(saved[0]);
-    this.border.c.set(saved[1]);
+    this.border.restoreBorders(saved[0], saved[1]);
     this.rowScale = saved[2].slice();
     this.gScale = saved[3][0];
   }

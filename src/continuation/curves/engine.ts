@@ -222,9 +222,12 @@ export class CurveContinuation {
    * The unit tangent at the last evaluated point: [G_y; (W d)ᵀ] z = e_last, normalised (so
    * ⟨d, z⟩_w > 0: oriented along d).
    */
-  private tangentAlong(d: Float64Array): Float64Array {
+  private tangentAlong(d: Float64Array, exact: boolean): Float64Array {
     const sys = this.sys!;
     const m = sys.size;
+    // along a curve the step's own linearisation (made within a Newton step of the point) is
+    // accurate enough for a predictor; first points get the exact one
+    if (exact) sys.exact();
     const row = new Float64Array(m);
     for (let i = 0; i < m; i++) row[i] = sys.weights[i] * d[i];
     const rhs = new Float64Array(m);
@@ -315,14 +318,14 @@ export class CurveContinuation {
     }
     let tangent: Float64Array;
     try {
-      tangent = this.tangentAlong(eParam);
+      tangent = this.tangentAlong(eParam, true);
     } catch {
       // the curve is vertical here (parameter at a turn): orient along the free parameter instead
-      tangent = this.tangentAlong(this.unit(sys.freeIndex));
+      tangent = this.tangentAlong(this.unit(sys.freeIndex), true);
     }
     const dir = st.direction === 'increase' ? 1 : -1;
     if (tangent[sys.parameterIndex] * dir < 0) for (let i = 0; i < tangent.length; i++) tangent[i] = -tangent[i];
-    const tests = sys.tests();
+    const tests = sys.tests(true);
     const mode = sys.mode?.();
     sys.adopt();
     const info: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, ...(mode ? { mode } : {}) };
@@ -413,7 +416,7 @@ export class CurveContinuation {
       let tangent: Float64Array | undefined;
       if (res.converged) {
         try {
-          tangent = this.tangentAlong(b.tangent);
+          tangent = this.tangentAlong(b.tangent, false);
           const cos = wdot(sys, tangent, b.tangent);
           if (cos < cosMax && ds > st.step.min) rejection = `the tangent turned by ${((Math.acos(Math.min(1, cos)) * 180) / Math.PI).toFixed(1)}°`;
         } catch (e) {
@@ -437,6 +440,18 @@ export class CurveContinuation {
     const sys = this.sys!;
     const out: { s: number; special: CurveSpecialPoint; y: Float64Array; tests: TestValue[] }[] = [];
     if (!this.settings.locate) return out;
+    // determinant signs come from the step's factorisation: confirm a change at the point itself
+    let exactNew: TestValue[] | undefined;
+    sys.testFunctions.forEach((f, i) => {
+      if (f.type !== 'determinant' || exactNew) return;
+      if (Math.sign(b.tests[i]?.value) * Math.sign(testsNew[i]?.value) < 0) exactNew = sys.tests(true);
+    });
+    if (exactNew) {
+      testsNew = testsNew.slice();
+      sys.testFunctions.forEach((f, i) => {
+        if (f.type === 'determinant') testsNew[i] = exactNew![i];
+      });
+    }
     sys.testFunctions.forEach((f, i) => {
       const a = b.tests[i]?.value;
       const c = testsNew[i]?.value;
@@ -483,7 +498,7 @@ export class CurveContinuation {
     if (det) {
       // the current point's determinant with this step's borders (they changed since it was accepted)
       sys.evaluate(b.y, g);
-      const ta = sys.tests()[i];
+      const ta = sys.tests(true)[i];
       ref = ta.logAbs ?? 0;
       fa = value(ta);
     } else {
@@ -507,7 +522,7 @@ export class CurveContinuation {
       if (!r.converged) {
         return { s: best.s, y: best.y, tests: best.tests, residual: best.residual, located: false, note: `the location stopped: ${r.message ?? r.failure} (the nearer bracketing point is reported)` };
       }
-      const tests = sys.tests();
+      const tests = sys.tests(det);
       const f = value(tests[i]);
       if (Math.abs(f) < Math.abs(best.f) || best.residual !== best.residual) best = { s, f, y: y.slice(), tests, residual: r.residual };
       if (f === 0) return { s, y, tests, residual: r.residual, located: true };
@@ -655,8 +670,8 @@ export class CurveContinuation {
       const r = correctCurve(sys, y, d, yp, { ...this.newton(true), maxUpdate: 2 * h }, this.work!);
       if (!r.converged) continue;
       try {
-        const tangent = this.tangentAlong(d);
-        first = { y, tangent, tests: sys.tests(), residual: r.residual };
+        const tangent = this.tangentAlong(d, true);
+        first = { y, tangent, tests: sys.tests(true), residual: r.residual };
       } catch {
         continue;
       }

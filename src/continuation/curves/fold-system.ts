@@ -5,7 +5,7 @@
  *     F(u, p) = 0,      g(u, p) = 0,
  *
  * with g from the bordered null-vector system of J (./null-border.ts). Size n + 2; each
- * evaluation factors the bordered matrix M = [[J, b], [cᵀ, 0]] once (n + 1) with the sparse LU.
+ * evaluation factors the bordered matrix M = [[J, b], [cᵀ, d]] once (n + 1) with the sparse LU.
  *
  * Newton matrix, bordered by a row r = (r_u, r_p):
  *
@@ -18,8 +18,12 @@
  *
  *     [du; s] = X0 + ζ X1 − X2 dp,   X0 = M⁻¹[a; 0],  X1 = M⁻¹[0; 1] = [v; g],  X2 = M⁻¹[F_p; 0],
  *
- * and ζ, dp solve a 3×3 system (the s row, the g row and the border row). Per linearisation:
+ * and ζ, dp solve a 3×3 system (the s row, the g row and the border row). A linearisation costs
  * one factorisation and four solves (v, w, two columns of X2), plus one solve per right-hand side.
+ * Newton iterates between linearisations are chord iterations: the residual (F and g, g by
+ * refinement with the reference LU: ./null-border.ts) is exact at every iterate, the matrix is the
+ * last linearisation's — made at the last converged point (`exact`), or afresh at an iterate
+ * when the corrector sees slow contraction or the refinement falls back to a factorisation.
  *
  * Test functions: the quadratic normal-form coefficient ⟨ŵ, F_uu(v̂, v̂)⟩ (zero at a cusp),
  * ⟨ŵ, M v̂⟩ (zero at a Bogdanov–Takens point) and the sign of det M (it changes where a second,
@@ -64,7 +68,10 @@ export class FoldSystem implements AugmentedSystem {
   private guX2a = 0;
   private guX2b = 0;
   private y: Float64Array;
-  private linearised = false;
+  /** The border factorisation (stamp) the linearisation was made with; X1 = [vRef; gRef] there. */
+  private linStamp = -1;
+  private readonly vRef: Float64Array;
+  private gRef = 0;
 
   constructor(
     readonly problem: Problem,
@@ -98,6 +105,7 @@ export class FoldSystem implements AugmentedSystem {
     this.x0 = new Float64Array(n + 1);
     this.work = new Float64Array(n + 1);
     this.y = new Float64Array(n + 2);
+    this.vRef = new Float64Array(n);
   }
 
   get counters(): SystemCounters {
@@ -140,7 +148,7 @@ export class FoldSystem implements AugmentedSystem {
     this.assemble(y);
     this.rowScale = frozenRowScale(this.problem, this.jac);
     this.evaluate(y, new Float64Array(this.n + 1));
-    this.linearise();
+    this.exact();
     this.gScale = Math.max(1, Math.hypot(this.gPar, this.gFree));
   }
 
@@ -153,8 +161,7 @@ export class FoldSystem implements AugmentedSystem {
     this.problem.residual(u, p, this.f);
     this.border.counters.seconds.residual += (performance.now() - t0) / 1000;
     this.assemble(this.y);
-    this.border.factor(this.jac);
-    this.linearised = false;
+    this.border.update(this.jac);
     out.set(this.f);
     out[n] = this.border.g;
     const fn = scaledNorm(this.f, this.rowScale, this.problem.weights);
@@ -162,9 +169,15 @@ export class FoldSystem implements AugmentedSystem {
     return Math.sqrt(fn * fn + gn * gn);
   }
 
-  /** Derivatives at the last evaluated point (on demand: a converged point needs them only for its tangent). */
+  /** The linearisation at the last evaluated point (factored there). */
+  exact(): void {
+    this.border.ensureFactored();
+    if (this.linStamp !== this.border.stamp) this.linearise();
+  }
+
+  /** Derivatives at the last evaluated point, where the border LU is (see `solve`). */
   private linearise(): void {
-    if (this.linearised) return;
+    this.border.ensureFactored();
     const n = this.n;
     const u = this.y.subarray(0, n);
     const p = this.params(this.y);
@@ -194,14 +207,17 @@ export class FoldSystem implements AugmentedSystem {
     this.guV = a;
     this.guX2a = b;
     this.guX2b = d;
-    this.linearised = true;
+    this.vRef.set(v);
+    this.gRef = this.border.g;
+    this.linStamp = this.border.stamp;
   }
 
   solve(row: Float64Array, rhs: Float64Array, out: Float64Array): void {
-    this.linearise();
+    // a factorisation since the linearisation was made happened at the last evaluated point
+    if (this.linStamp !== this.border.stamp) this.linearise();
     const n = this.n;
-    const v = this.border.v;
-    const g = this.border.g;
+    const v = this.vRef;
+    const g = this.gRef;
     let zero = true;
     for (let i = 0; i < n; i++) {
       if (rhs[i] !== 0) {
@@ -244,7 +260,7 @@ export class FoldSystem implements AugmentedSystem {
 
   /** G_y δ at the last evaluated point (the linearisation `solve` inverts; for derivative checks). */
   jacobianTimes(delta: Float64Array, out: Float64Array): void {
-    this.linearise();
+    this.exact();
     const n = this.n;
     const pat = this.problem.pattern();
     out.fill(0);
@@ -261,10 +277,10 @@ export class FoldSystem implements AugmentedSystem {
     out[n] = s;
   }
 
-  tests(): TestValue[] {
+  tests(exact = false): TestValue[] {
     const u = this.y.subarray(0, this.n);
     const p = this.params(this.y);
-    const det = this.border.determinant();
+    const det = this.border.determinant(exact);
     return [
       { value: this.border.quadraticCoefficient(u, p) },
       { value: this.border.massProduct() },
@@ -284,8 +300,7 @@ export class FoldSystem implements AugmentedSystem {
     if (saved.length !== 4 || saved[0].length !== this.n || saved[1].length !== this.n || saved[2].length !== this.n) {
       throw new Error(`the saved fold-curve state does not fit this problem (${this.n} unknowns)`);
     }
-    this.border.b.set(saved[0]);
-    this.border.c.set(saved[1]);
+    this.border.restoreBorders(saved[0], saved[1]);
     this.rowScale = saved[2].slice();
     this.gScale = saved[3][0];
   }

@@ -6,6 +6,10 @@
  * of the last update below `stepTolerance`·(1 + ‖y‖_w), or a residual four orders below the
  * tolerance after at least one iteration (near singular points the update stalls at rounding
  * level). Failures carry a reason in words.
+ *
+ * The residual is exact at every iterate; the linearisation starts as the system's last one
+ * (chord iterations: the last converged point's) unless `exact` is set, and is made exact at
+ * the current iterate as soon as an iteration fails to quarter the residual.
  */
 import { SparseLUError } from '../../linalg/lu.js';
 import type { NewtonFailure } from '../newton.js';
@@ -49,7 +53,7 @@ export function correctCurve(
   y: Float64Array,
   t: Float64Array,
   ref: Float64Array,
-  options: NewtonSettings & { maxUpdate?: number },
+  options: NewtonSettings & { maxUpdate?: number; exact?: boolean },
   work: CurveWork,
 ): CurveNewtonResult {
   const m = sys.size;
@@ -59,6 +63,8 @@ export function correctCurve(
   let firstResidual = NaN;
   let bestResidual = Infinity;
   let sinceBest = 0;
+  let previous = Infinity;
+  let exact = false;
   for (let it = 0; ; it++) {
     let res: number;
     try {
@@ -90,6 +96,18 @@ export function correctCurve(
     } else if (++sinceBest >= 4 && res > options.residualTolerance) {
       return { converged: false, iterations: it, residual: res, failure: 'stalled', message: `Newton stalled at residual ${res.toExponential(2)}` };
     }
+    // chord iterations while they contract well (the residual at least quartered); else the
+    // exact linearisation here (full Newton from now on)
+    if (!exact && (it === 0 ? options.exact === true : res > 0.25 * previous)) {
+      try {
+        sys.exact();
+      } catch (e) {
+        if (e instanceof SparseLUError) return { converged: false, iterations: it, residual: res, failure: 'singular', message: e.message };
+        throw e;
+      }
+      exact = true;
+    }
+    previous = res;
     for (let i = 0; i < m - 1; i++) rhs[i] = -g[i];
     rhs[m - 1] = -c;
     try {

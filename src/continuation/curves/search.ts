@@ -1,8 +1,8 @@
 /**
  * The first point of a curve when the case does not start at one: follow the steady states from
  * the start state in the free parameter (the one-parameter engine, pseudo-arclength, no
- * eigenvalues, no branch switching) and take the first fold, or the first branch point, met on
- * the way. The engine locates it (folds to 1e-10 in the parameter, branch points to 1e-8); the
+ * branch switching; for branch points the rightmost eigenvalues, so that two crossings in one step
+ * are split) and take the first fold, or the first branch point, met on the way. The engine locates it (folds to 1e-10 in the parameter, branch points to 1e-8); the
  * curve system then converges it to its own tolerance.
  */
 import { Continuation, ContinuationError } from '../engine.js';
@@ -41,7 +41,9 @@ export function searchFirstPoint(problem: Problem, params: Params, settings: Cur
     newton: { ...settings.newton },
     maxTurnDegrees: settings.maxTurnDegrees,
     locate: { folds: wantFold, branchPoints: !wantFold },
-    stability: { eigenvalues: 0 },
+    // branch points: the eigenvalue count splits steps over which two eigenvalues cross (the
+    // determinant would not change sign), so the first branch point met is not skipped
+    stability: { eigenvalues: wantFold ? 0 : 4 },
   };
   const what = wantFold ? 'fold' : 'branch point';
   let engine: Continuation;
@@ -57,6 +59,11 @@ export function searchFirstPoint(problem: Problem, params: Params, settings: Cur
       if (ev.type === 'point') points++;
       else if (ev.type === 'special' && ev.point.kind === (wantFold ? 'fold' : 'branch-point')) {
         if (!ev.point.located) continue;
+        if (ev.point.kind === 'branch-point' && ev.point.multiplicity > 1) {
+          throw new CurveError(
+            `the first branch point met (${settings.free} = ${ev.point.value}) has multiplicity ${ev.point.multiplicity}: two modes go unstable together (a square or symmetric domain), and a curve of such points needs both null vectors; make the domain's sides unequal`,
+          );
+        }
         return { u: ev.point.u.slice(), params: { ...params, [settings.free]: ev.point.value }, points };
       } else if (ev.type === 'branch-end') {
         ended = ev.message;
