@@ -48,7 +48,7 @@ export function fieldMonitors(grid: Grid, weights: Float64Array): Monitor[] {
     });
     out.push({
       name: `l2-norm${suffix}`,
-      description: `discrete L2 norm of ${name}, sqrt(sum of weight·${name}²)`,
+      description: `L2 norm of ${name}, √(∫${name}²) by the grid's quadrature weights: it grows with the domain (√(domain size) for ${name} ≡ 1); divide by that for a root-mean-square`,
       evaluate(u: Float64Array): number {
         let s = 0;
         for (let k = 0; k < idx.length; k++) s += weights[idx[k]] * u[idx[k]] * u[idx[k]];

@@ -44,7 +44,7 @@ export const reactionDiffusionOptions: readonly OptionSpec[] = [
   {
     name: 'boundary',
     description:
-      'neumann, dirichlet or periodic for every side of every field; or per side {all, xmin, xmax, ...}; or per field {u: ..., v: ...}; a side is a kind word or {kind, value | flux | coefficient}',
+      'neumann, dirichlet, robin or periodic for every side of every field; or per side {all, xmin, xmax, ...}; or per field {u: ..., v: ...}; a side is a kind word or {kind, value | flux | coefficient}; robin (convective): {kind: robin, coefficient: c, value: g} means ∂u/∂n + c·u = g',
   },
   { name: 'initial', description: 'initial state per field: an expression in the parameters and x, y, z (default 0)' },
   { name: 'phase-condition', description: 'true: add a drift-speed unknown per periodic axis that removes the translation mode' },

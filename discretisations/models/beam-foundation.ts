@@ -139,7 +139,7 @@ export function beamFoundation(options: Record<string, unknown> & { grid: GridOp
   const L = grid.axes[0].length;
   const monitors: Monitor[] = [
     ...fieldMonitors(grid, weights),
-    pointMonitor(grid, 'midspan', 'deflection w at midspan', 0, [L / 2]),
+    pointMonitor(grid, 'centre', 'deflection w at the centre of the span', 0, [L / 2]),
   ];
   const description: ProblemDescription = {
     model: m,

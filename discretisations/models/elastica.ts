@@ -141,8 +141,8 @@ export function elastica(options: Record<string, unknown> & { grid: GridOptions 
     ...fieldMonitors(grid, weights),
     { name: 'end-rotation', description: 'tangent angle θ at the end s = 0 (radians)', evaluate: (u) => u[0] },
     {
-      name: 'midspan-deflection',
-      description: 'transverse deflection at midspan, ∫₀^½ sin θ ds (in units of the strut length)',
+      name: 'centre',
+      description: 'transverse deflection at the centre of the strut, ∫₀^½ sin θ ds (in units of the strut length)',
       evaluate: (u) => halfIntegral(u, Math.sin),
     },
     {

@@ -17,7 +17,7 @@ import type { EigenWarmStart } from '../linalg/eigen.js';
 import { difference } from '../linalg/vector.js';
 import type {
   BranchInfo,
-  BranchPoint,
+  ContinuationPoint,
   BranchPointEvent,
   ContinuationSettings,
   EngineEvent,
@@ -213,7 +213,7 @@ export class Continuation {
   }
 
   private pointEvent(b: BranchState, step: number, newton: number, residual: number): EngineEvent {
-    const point: BranchPoint = {
+    const point: ContinuationPoint = {
       branch: b.info.id,
       index: b.index,
       arclength: b.arclength,

@@ -118,7 +118,7 @@ export const stopReasonText: Record<StopReason, string> = {
 };
 
 /** One accepted point on a branch. */
-export interface BranchPoint {
+export interface ContinuationPoint {
   branch: number;
   /** Point number on the branch, from 0. */
   index: number;
@@ -207,7 +207,7 @@ export interface BranchInfo {
 
 export type EngineEvent =
   | { type: 'branch-start'; branch: BranchInfo }
-  | { type: 'point'; point: BranchPoint }
+  | { type: 'point'; point: ContinuationPoint }
   | { type: 'special'; point: SpecialPoint }
   | { type: 'branch-end'; branch: number; reason: StopReason; message: string }
   | { type: 'log'; level: 'info' | 'warning'; message: string };

@@ -7,7 +7,7 @@ import type { Problem } from './problem.js';
 export const reservedColumnNames: readonly string[] = Object.freeze([
   'point',
   'arclength',
-  'step',
+  'step-length',
   'max',
   'min',
   'l2-norm',

@@ -47,7 +47,11 @@ export interface RefinementJson {
   readonly order: number | null;
   readonly 'order-source': 'observed' | 'assumed' | 'none';
   readonly extrapolated: number | null;
+  /** Error estimate of the extrapolated value (see `error-estimate-source`). */
   readonly 'error-estimate': number | null;
+  readonly 'error-estimate-source': 'extrapolation-spread' | 'finest-grid-gci' | 'round-off' | null;
+  /** Bound on the error of the finest grid's value (its GCI in the value's units). */
+  readonly 'finest-grid-error-bound': number | null;
   readonly 'safety-factor': number | null;
   /** Relative GCI on the finest grid (fraction of the finest value). */
   readonly 'grid-convergence-index': number | null;
@@ -80,6 +84,8 @@ export function refinementJson(
     'order-source': result.orderSource,
     extrapolated: result.extrapolated,
     'error-estimate': result.errorEstimate,
+    'error-estimate-source': result.errorEstimateSource,
+    'finest-grid-error-bound': result.gciAbsolute,
     'safety-factor': result.safetyFactor,
     'grid-convergence-index': result.gci,
     'extrapolation-spread': result.extrapolationSpread,

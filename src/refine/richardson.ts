@@ -20,9 +20,13 @@
  *     GCI_fine = Fs · |(v_1 − v_2)/v_1| / (r21^p − 1)
  *   with safety factor Fs = 1.25 when the order is observed from three or more grids and
  *   Fs = 3 when only two grids are available and the order is assumed.
- * - With four or more grids every consecutive triple gives its own order and its own
- *   extrapolated value; the spread of the two finest extrapolations is a second, independent
- *   error estimate. The reported error estimate is the larger of the two.
+ * - The GCI bounds the error of the FINEST GRID'S value (it is about Fs times the distance from
+ *   that value to the extrapolation), not of the extrapolated value, which is usually orders of
+ *   magnitude closer on smooth problems. With four or more grids every consecutive triple gives
+ *   its own order and its own extrapolated value; the spread of the two finest extrapolations
+ *   is the error estimate of the extrapolated value. With three grids (or two and an assumed
+ *   order) no such spread exists, and the finest grid's GCI stands in for it, conservatively
+ *   (`errorEstimateSource` says which).
  *
  * Pure computation: no I/O. Values are never rounded here.
  */
@@ -103,12 +107,18 @@ export interface RefinementResult {
   readonly safetyFactor: number | null;
   /** GCI on the finest grid, relative (a fraction of the finest value; null if that is 0). */
   readonly gci: number | null;
-  /** GCI on the finest grid in the units of the value: Fs·|v_1 − v_2|/(r21^p − 1). */
+  /** GCI on the finest grid in the units of the value, Fs·|v_1 − v_2|/(r21^p − 1): a bound on the error of the finest grid's value. */
   readonly gciAbsolute: number | null;
   /** |difference of the two finest successive extrapolations| (four or more grids). */
   readonly extrapolationSpread: number | null;
-  /** Error estimate of the extrapolated value: max(gciAbsolute, extrapolationSpread). */
+  /**
+   * Error estimate of the extrapolated value: the extrapolation spread with four or more grids,
+   * else the finest grid's GCI (a conservative stand-in), or the round-off level when the finest
+   * values agree to round-off.
+   */
   readonly errorEstimate: number | null;
+  /** Where `errorEstimate` comes from. */
+  readonly errorEstimateSource: 'extrapolation-spread' | 'finest-grid-gci' | 'round-off' | null;
   /**
    * 'consistent': the observed orders agree with each other (four or more grids) or with the
    * expected order; 'not-reached': the sequence is not yet in the asymptotic range;
@@ -307,6 +317,7 @@ export function analyseRefinement(
   let gciAbs: number | null = null;
   let spread: number | null = null;
   let errorEstimate: number | null = null;
+  let errorSource: RefinementResult['errorEstimateSource'] = null;
   let notReached = flips.length > 0;
   let verified = false;
 
@@ -332,6 +343,7 @@ export function analyseRefinement(
       gciAbs = (safety * Math.abs(d)) / denom;
       gci = v[1] !== 0 ? gciAbs / Math.abs(v[1]) : null;
       errorEstimate = gciAbs;
+      errorSource = 'finest-grid-gci';
       warn(
         'too-few-grids',
         `Only two grids: the order ${fmt(p)} is assumed, not observed, so the safety factor is ${fmt(safety)} ` +
@@ -343,6 +355,7 @@ export function analyseRefinement(
     if (st === 'all-agree') {
       extrapolated = v[finest];
       errorEstimate = zeroLevel;
+      errorSource = 'round-off';
       warn(
         'converged-to-roundoff',
         `The three finest values agree to round-off (differences below ${fmt(zeroLevel)}): ` +
@@ -351,6 +364,7 @@ export function analyseRefinement(
     } else if (st === 'fine-agree') {
       extrapolated = v[finest];
       errorEstimate = zeroLevel;
+      errorSource = 'round-off';
       warn(
         'finest-agree',
         `The two finest values agree to round-off while the coarser ones differ: the finest value is taken ` +
@@ -387,11 +401,13 @@ export function analyseRefinement(
         gciAbs = (safety * Math.abs(d)) / Math.expm1(p * Math.log(r));
         gci = v[finest] !== 0 ? gciAbs / Math.abs(v[finest]) : null;
         errorEstimate = gciAbs;
+        errorSource = 'finest-grid-gci';
         if (n >= 4) {
           const prev = extrap[finest - 1];
           if (prev !== null) {
             spread = Math.abs((extrapolated as number) - prev);
-            errorEstimate = Math.max(gciAbs, spread);
+            errorEstimate = spread;
+            errorSource = 'extrapolation-spread';
           }
           const pPrev = order[finest - 1];
           if (pPrev !== null) {
@@ -464,6 +480,7 @@ export function analyseRefinement(
     gciAbsolute: gciAbs,
     extrapolationSpread: spread,
     errorEstimate,
+    errorEstimateSource: errorSource,
     asymptoticRange,
     warnings,
   };

@@ -457,6 +457,8 @@ function finishStudy(
     'order-source': analysisJson?.['order-source'] ?? 'none',
     extrapolated: analysisJson?.extrapolated ?? null,
     'error-estimate': analysisJson?.['error-estimate'] ?? null,
+    'error-estimate-source': analysisJson?.['error-estimate-source'] ?? null,
+    'finest-grid-error-bound': analysisJson?.['finest-grid-error-bound'] ?? null,
     'safety-factor': analysisJson?.['safety-factor'] ?? null,
     'grid-convergence-index': analysisJson?.['grid-convergence-index'] ?? null,
     'extrapolation-spread': analysisJson?.['extrapolation-spread'] ?? null,
@@ -611,12 +613,7 @@ export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string 
           ? `Richardson extrapolation with the assumed order ${plainValue(a.order!, 4)}`
           : 'the finest values agree to round-off';
     out.push(`Extrapolated: ${r.parameter} = ${plainValue(a.extrapolated, 12)} (${how}).`);
-    if (a.errorEstimate !== null) {
-      const gci = a.gciAbsolute !== null ? `the grid convergence index of the finest grid, safety factor ${a.safetyFactor} (Roache 1994)` : undefined;
-      const spread = a.extrapolationSpread !== null ? `the spread of the two finest extrapolations, ${plainValue(a.extrapolationSpread, 2)}` : undefined;
-      const why = gci && spread ? ` (the larger of ${gci}, and ${spread})` : gci ? ` (${gci})` : spread ? ` (${spread})` : '';
-      out.push(`Error estimate: ± ${plainValue(a.errorEstimate, 2)}${why}.`);
-    }
+    out.push(...errorEstimateLines(a, r.parameter));
   } else if (a) {
     out.push('No extrapolation: see the warnings.');
   }
@@ -633,6 +630,32 @@ export function formatStudySummary(r: StudyResult, cwd = process.cwd()): string 
   out.push(`Files in ${shown}: ${[...r.files, ...folders].join(', ')}${folders.length ? ' (each grid-* folder is a run folder)' : ''}`);
   if (r.caution) out.push(`Caution: ${r.caution}`);
   return out.join('\n') + '\n';
+}
+
+/**
+ * The two error figures, each labelled with what it applies to: the estimate of the extrapolated
+ * value (the spread of successive extrapolations; with three grids the finest grid's bound stands
+ * in for it) and the bound on the finest grid's own value (its grid convergence index).
+ */
+function errorEstimateLines(a: RefinementResult, parameter: string): string[] {
+  const lines: string[] = [];
+  if (a.errorEstimateSource === 'extrapolation-spread' || a.errorEstimateSource === 'round-off') {
+    const source = a.errorEstimateSource === 'round-off' ? 'the finest values agree to round-off' : 'the spread of the two finest successive extrapolations';
+    lines.push(`Error estimate of the extrapolated value: ± ${plainValue(a.errorEstimate!, 2)} (${source}).`);
+  }
+  if (a.gciAbsolute !== null) {
+    const finest = a.grids[a.grids.length - 1];
+    lines.push(
+      `Error bound of the finest grid's value (${parameter} = ${plainValue(finest.value, 12)}): ± ${plainValue(a.gciAbsolute, 2)} ` +
+        `(grid convergence index, safety factor ${a.safetyFactor}, Roache 1994).`,
+    );
+    lines.push(
+      lines.length === 2
+        ? "The first figure is the uncertainty of the extrapolated value, the second that of the finest grid's value; the extrapolated value is normally far closer to the limit."
+        : "Without a fourth grid this bound is also the only (conservative) error estimate of the extrapolated value; a fourth grid gives a sharper one.",
+    );
+  }
+  return lines;
 }
 
 export { pointSpecText };

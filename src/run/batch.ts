@@ -500,6 +500,7 @@ export function jsonSummary(outcomes: readonly CaseOutcome[]): Record<string, un
               ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, message: b.message } : {}),
             })),
             'special-points': c.result.ledger.specials,
+            ...(typeof c.result.record.caution === 'string' ? { caution: c.result.record.caution } : {}),
           }
         : {}),
     })),

@@ -15,12 +15,12 @@
  *     step: {initial: 0.05, min: 1e-6, max: 0.5}
  *     max-points: 500                    # per branch
  *     stop-when: [{monitor: max, above: 8}]
- *     branch-switching: {depth: 1}
+ *     branch-switching: {depth: 1}      # the default when left out (0: stay on the first branch)
  *     newton: {tolerance: 1e-9, max-iterations: 10}
  *     locate: {folds: true, branch-points: true}
  *     max-turn-degrees: 30
  *   output: {directory: runs/slab, solutions: special}   # special | none | all
- *   stability: {eigenvalues: 0}          # reserved for the stability issue (passed through)
+ *   stability: {eigenvalues: 0}          # rightmost eigenvalues per point (0: no stability analysis)
  *   checkpoint: {every-points: 25, every-seconds: 60}    # used by checkpoint/resume
  *   plot: {monitor: max}                 # the diagram's vertical axis (default: max, or max:<first field>)
  *   start: {solution: saved.npy}         # start from a saved node array instead of the initial guess,
@@ -833,13 +833,29 @@ function modelErrorField(message: string, modelId: string, kind: ModelKind): { f
 }
 
 /** The parameters and options of every model, for `branchline models`. */
-export function modelCatalogue(): { id: string; description: string; dimensions: readonly number[]; parameters: { name: string; default: number; description: string }[]; options: readonly OptionSpec[]; caution?: string }[] {
+export function modelCatalogue(): {
+  id: string;
+  description: string;
+  dimensions: readonly number[];
+  parameters: { name: string; default: number; description: string }[];
+  options: readonly OptionSpec[];
+  /** The monitors of the model with its default options (built on a small grid of its first dimension); null for expression models (they depend on the fields). */
+  monitors: { name: string; description: string }[] | null;
+  caution?: string;
+}[] {
   return Object.entries(models).map(([id, e]) => ({
     id,
     description: e.description,
     dimensions: e.dimensions,
     parameters: e.parameters.map((p) => ({ name: p.name, default: p.default, description: p.description })),
     options: e.options.filter((o) => o.name !== 'grid'),
+    monitors: id === 'reaction-diffusion' ? null : catalogueMonitors(e),
     ...(e.caution ? { caution: e.caution } : {}),
   }));
+}
+
+function catalogueMonitors(e: (typeof models)[string]): { name: string; description: string }[] {
+  const dim = e.dimensions[0];
+  const problem = e.factory({ grid: { intervals: new Array(dim).fill(8), length: new Array(dim).fill(1) } });
+  return problem.monitors.map((m) => ({ name: m.name, description: m.description }));
 }

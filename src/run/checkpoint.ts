@@ -27,7 +27,7 @@
  * `readCheckpoint` falls back to. Before a checkpoint records the CSV byte lengths, the CSVs are
  * fsynced (`RunDirectory.syncAll`), so the recorded rows are on the disk.
  *
- * The `Checkpointer` decides when to write, only ever at sync points (run-case.ts, `syncEvery`:
+ * The `Checkpointer` decides when to write, only ever at sync points (run-hooks.ts, `syncEvery`:
  * between steps, where the engine has just restarted its linear algebra, so that a resumed run
  * repeats the uninterrupted one bit for bit): after the first point (so any run that got going
  * can be resumed), then at the first sync point after `every-points` points were computed or
@@ -39,7 +39,7 @@ import { createHash } from 'node:crypto';
 import { existsSync, readFileSync, renameSync, unlinkSync } from 'node:fs';
 import { join } from 'node:path';
 import type { RunLedger } from './run-directory.js';
-import type { CheckpointContext } from './run-case.js';
+import type { CheckpointContext } from './run-hooks.js';
 import { fsyncDirectory, writeTemporary } from './writers.js';
 
 export const checkpointFile = 'checkpoint.bin';

@@ -67,7 +67,7 @@ interface AxisInfo {
 }
 
 /** Columns of a branch CSV that are not monitors. */
-const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
+const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
 
 const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
 
@@ -89,14 +89,13 @@ function monitorColumns(columns: readonly string[], parameter: string, extras: r
 }
 
 /** A monitor column in words for an axis title: `max` → `max u`, `l2-norm:v` → `L2 norm of v`. */
-export function monitorWords(monitor: string, fields: readonly string[]): string {
-  if (monitor === 'centre' && fields.length === 1) return `${fields[0]} at the centre`;
-  if (monitor === 'midspan' && fields.length === 1) return `${fields[0]} at midspan`;
+export function monitorWords(monitor: string, fields: readonly string[], descriptions: Readonly<Record<string, string>> = {}): string {
+  if (monitor === 'centre') return typeof descriptions.centre === 'string' ? descriptions.centre.replace(/,.*$/, '') : fields.length === 1 ? `${fields[0]} at the centre` : monitor;
   const m = /^(max|min|l2-norm)(?::(.+))?$/.exec(monitor);
   if (!m) return monitor;
   const field = m[2] ?? (fields.length === 1 ? fields[0] : undefined);
   if (field === undefined) return monitor;
-  return m[1] === 'l2-norm' ? `L2 norm of ${field}` : `${m[1]} ${field}`;
+  return m[1] === 'l2-norm' ? `L2 norm of ${field}, √(∫${field}²)` : `${m[1]} ${field}`;
 }
 
 /** The title of the run's pictures. */
@@ -131,6 +130,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   const parameter = str(run['continuation-parameter'], 'parameter');
   const problem = (run.problem ?? {}) as Record<string, unknown>;
   const fields = (Array.isArray(problem.fields) ? problem.fields : []) as string[];
+  const descriptions = (problem.monitors !== null && typeof problem.monitors === 'object' ? problem.monitors : {}) as Record<string, string>;
   const extras = (Array.isArray(problem['extra-unknowns']) ? problem['extra-unknowns'] : []) as string[];
   const columns = (Array.isArray(run.columns) ? run.columns : []) as string[];
   const caution = typeof run.caution === 'string' ? run.caution : undefined;
@@ -192,10 +192,10 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
   const svg = diagramSvg({
-    title: `${title.name}: ${monitorWords(chosen, fields)} against ${parameter}${statusNote}`,
+    title: `${title.name}: ${monitorWords(chosen, fields, descriptions)} against ${parameter}${statusNote}`,
     subtitle: [title.summary, title.grid].filter((t) => t !== '').join('; '),
     parameterName: parameter,
-    monitorName: monitorWords(chosen, fields),
+    monitorName: monitorWords(chosen, fields, descriptions),
     branches,
     specialPoints: shown,
     ...(caution ? { caution } : {}),
@@ -222,7 +222,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       const file = `plots/${name}.svg`;
       try {
         const array = readNpy(join(dir, s.solution));
-        const plot = solutionSvg(array, s, { fields, axes, parameter, caution, caseName: title.name, monitor: chosen });
+        const plot = solutionSvg(array, s, { fields, axes, parameter, caution, caseName: title.name, monitor: chosen, descriptions });
         mkdirSync(plotsDir, { recursive: true });
         writeFileAtomic(join(dir, file), plot);
         written.push(file);
@@ -333,6 +333,8 @@ interface SolutionContext {
   caution?: string;
   caseName: string;
   monitor: string;
+  /** Monitor descriptions from run.json (older runs: none). */
+  descriptions?: Readonly<Record<string, string>>;
 }
 
 /** `fold 2 on branch 1`, `the end of branch 3` (from the record and its file name). */
@@ -347,7 +349,7 @@ function pointTitle(s: SpecialRecord): string {
 function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
   const parts = [`${ctx.parameter} = ${formatValue(num(s.value), 10)}`];
   const m = s.monitors?.[ctx.monitor];
-  if (typeof m === 'number') parts.push(`${monitorWords(ctx.monitor, ctx.fields)} = ${formatValue(m, 6)}`);
+  if (typeof m === 'number') parts.push(`${monitorWords(ctx.monitor, ctx.fields, ctx.descriptions)} = ${formatValue(m, 6)}`);
   const extras = s['extra-unknowns'];
   if (extras && typeof extras === 'object') {
     for (const [k, v] of Object.entries(extras as Record<string, unknown>)) parts.push(`${k} = ${formatValue(num(v), 6)}`);

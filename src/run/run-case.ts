@@ -1,10 +1,17 @@
 /**
- * Run a prepared case: create the run directory, converge the start point and continue (the
- * engine), write every accepted point and special point as it arrives, and keep run.json's
- * status true at every moment (running → finished | stopped | failed).
+ * Run a prepared case: prepare (or, resuming, reopen) the run directory, converge the start point
+ * and continue (the engine), write every accepted point and special point as it arrives, and keep
+ * run.json's status true at every moment (running → finished | stopped | failed).
  *
  * Free of command-line concerns (no process.exit, no argument parsing, no stdout): the `run`
- * command, `resume`, batches and worker processes all call `runCase`.
+ * command, `resume`, batches and worker processes all call `runCase`, which performs four steps:
+ *
+ *  1. `prepareRunFolder` (a new run) or `resumeRunFolder` (from a checkpoint): the only steps that
+ *     may refuse (bad output folder), before anything is written;
+ *  2. the first run.json and points.json;
+ *  3. `driveEngine`: engine events into files (run-events.ts), sync points, checkpoints, stop
+ *     requests;
+ *  4. `finishRun`: close the files, the final run.json, checkpoints removed when finished, plots.
  *
  * Order of work per event, so that a checkpoint always sees consistent files: a point's CSV row
  * (and its solution file, for `output.solutions: all`) is written before control goes back to
@@ -20,30 +27,21 @@
  * temporary files a killed process left) are removed; the run then goes on as if never stopped.
  */
 import { readdirSync, rmSync } from 'node:fs';
-import { hostname } from 'node:os';
 import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
-import type { BranchPoint, ContinuationSettings, EngineEvent, StopReason } from '../continuation/types.js';
+import type { ContinuationSettings, EngineEvent } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { type PreparedCase, caseDocument } from './case.js';
-import {
-  type BranchRecord,
-  type ColumnPlan,
-  type RunLedger,
-  type RunStatus,
-  RunDirectory,
-  columnPlan,
-  emptyLedger,
-  hasStability,
-  pointRow,
-  runFormat,
-  runFormatVersion,
-  specialRecord,
-} from './run-directory.js';
-import { softwareVersion } from './version.js';
 import { removeCheckpoints } from './checkpoint.js';
 import { drawPlotsAfterRun } from './plots.js';
+import { EventWriter, type RunLog, failureReasons } from './run-events.js';
+import { type CheckpointContext, type CheckpointWritten, type ProgressInfo, type SyncState, syncEvery } from './run-hooks.js';
+import { RunRecord, isoNow } from './run-record.js';
+import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger } from './run-directory.js';
+
+export { failureReasons, syncEvery };
+export type { CheckpointContext, CheckpointWritten, ProgressInfo };
 
 /** What runCase needs from the continuation engine (src/continuation/engine.ts). */
 export interface EngineLike {
@@ -59,17 +57,6 @@ export interface EngineLike {
   dispose(): void;
 }
 
-/**
- * Sync points: the engine starts its linear algebra afresh after the first point and then about
- * every this many points (whenever the run's point count passes a multiple of it, between
- * steps). Checkpoints are taken only at sync points: a run resumed from one repeats the
- * uninterrupted run bit for bit (kept pivot orders and the eigen solver's random start vectors
- * would otherwise differ in the last digits, and eigenvalues near a collision or located Hopf
- * points magnify such differences up to their tolerances). The cost is one fresh factorisation
- * per sync point (a few per cent at most).
- */
-export const syncEvery = 5;
-
 export type EngineFactory = (
   problem: Problem,
   params: Params,
@@ -80,54 +67,6 @@ export type EngineFactory = (
 export const defaultEngine: EngineFactory = (problem, params, settings, options) =>
   new Continuation(problem, params, settings, options as ConstructorParameters<typeof Continuation>[3]);
 
-/** Stop reasons that make a run `failed` when they end the first branch. */
-export const failureReasons: readonly StopReason[] = ['newton-failed', 'non-finite', 'minimum-step'];
-
-export interface ProgressInfo {
-  branch: number;
-  /** Point index on the branch. */
-  index: number;
-  parameter: number;
-  step: number;
-  /** Points written in this run so far (all branches). */
-  points: number;
-  maxPoints: number;
-}
-
-export interface CheckpointContext {
-  /** 'point': points were written since the last call (called between steps); 'stop': the run is stopping on request. */
-  reason: 'point' | 'stop';
-  /** This moment is a sync point (see `syncEvery`): a checkpoint of it resumes bit for bit. */
-  sync: boolean;
-  /** The ledger and engine state at the last sync point (for a stop between sync points), with its point count. */
-  lastSync?: { ledger: RunLedger; snapshot: unknown; points: number };
-  directory: RunDirectory;
-  /** The run layer's own state (branches, special points, CSV byte lengths): plain, checkpointable. */
-  ledger: RunLedger;
-  /** Whether the engine can be snapshotted now (between steps). */
-  canSnapshot: boolean;
-  /** The engine's state (plain object with Float64Arrays). */
-  snapshot(): unknown;
-  /** The resolved case in case-file form (what a resume reads back). */
-  caseDocument: Record<string, unknown>;
-  run: {
-    started: string;
-    /** Seconds of work so far, earlier sessions included. */
-    seconds(): number;
-    caseFile: string | null;
-    /** When the run was resumed before (ISO times). */
-    resumes: string[];
-  };
-}
-
-/** What a checkpoint hook reports when it wrote one (recorded in run.json). */
-export interface CheckpointWritten {
-  file: string;
-  sequence: number;
-  written: string;
-  points: number;
-}
-
 export interface RunCaseOptions {
   /** Output folder; default: see outputDirectory(). */
   outDir?: string;
@@ -136,7 +75,7 @@ export interface RunCaseOptions {
   /** Stop request (SIGINT/SIGTERM): the current event is finished, files written, status `stopped`. */
   signal?: AbortSignal;
   /** Log lines (the CLI sends them to stderr). */
-  log?: (level: 'info' | 'warning', message: string) => void;
+  log?: RunLog;
   /** Called after every accepted point is written. */
   progress?: (p: ProgressInfo) => void;
   /**
@@ -149,7 +88,17 @@ export interface RunCaseOptions {
   /** Initial guess for the start point (e.g. read from a saved solution). */
   start?: Float64Array;
   /** Continue an interrupted run (the resume command): reopen `outDir` with this state. */
-  resume?: { ledger: RunLedger; engineState: unknown; started: string; previousSeconds?: number; resumes?: string[]; checkpoint?: CheckpointWritten };
+  resume?: ResumeState;
+}
+
+/** The state a resumed run continues from (a checkpoint's contents). */
+export interface ResumeState {
+  ledger: RunLedger;
+  engineState: unknown;
+  started: string;
+  previousSeconds?: number;
+  resumes?: string[];
+  checkpoint?: CheckpointWritten;
 }
 
 export interface RunResult {
@@ -174,200 +123,73 @@ export function outputDirectory(prepared: PreparedCase, outOverride?: string): s
 
 const tick = (): Promise<void> => new Promise((r) => setImmediate(r));
 
-function isoNow(): string {
-  return new Date().toISOString();
+/** A run directory opened for writing, with the run layer's state. */
+interface OpenRun {
+  outDir: string;
+  dir: RunDirectory;
+  ledger: RunLedger;
+  plan: ColumnPlan;
 }
 
 /** Run a prepared case to the end (or to a stop request); never throws for numerical failures. */
 export async function runCase(prepared: PreparedCase, options: RunCaseOptions = {}): Promise<RunResult> {
   const t0 = Date.now();
-  const { problem, params, settings } = prepared;
-  const parameter = settings.parameter;
-  const log = options.log ?? (() => {});
   const outDir = options.outDir !== undefined ? resolve(options.outDir) : outputDirectory(prepared);
-  const stabilityColumnsOn = prepared.case.stability.eigenvalues > 0;
-  const plan: ColumnPlan = columnPlan(problem, parameter, prepared.case.stability.eigenvalues);
-  const ledger: RunLedger = options.resume ? structuredClone(options.resume.ledger) : emptyLedger();
-
-  // the only step that may refuse (bad output folder) happens before anything is written
-  const dir = options.resume
-    ? RunDirectory.reopen(outDir, ledger, () => plan.columns)
-    : RunDirectory.create(outDir, { force: options.force });
-  if (options.resume) removeUnrecorded(outDir, ledger, prepared.case.output.solutions);
-
-  const started = options.resume?.started ?? isoNow();
-  const resumes = [...(options.resume?.resumes ?? []), ...(options.resume ? [isoNow()] : [])];
-  let lastCheckpoint: CheckpointWritten | undefined = options.resume?.checkpoint;
-  const previousSeconds = options.resume?.previousSeconds ?? 0;
-  const description = problem.describe();
-  let status: RunStatus = 'running';
-  let failure: string | undefined;
-  let continuationSeconds = 0;
-  const solutionsMode = prepared.case.output.solutions;
-  const kindCount = new Map<string, number>();
-  for (const s of ledger.specials) {
-    const key = `${s.branch}:${s.kind}`;
-    kindCount.set(key, (kindCount.get(key) ?? 0) + 1);
-  }
-
-  let lastRecord = Date.now();
-  const record = (): Record<string, unknown> => ({
-    format: runFormat,
-    'format-version': runFormatVersion,
-    software: { ...softwareVersion(), node: process.version },
-    status,
-    ...(failure !== undefined ? { failure } : {}),
-    'case-file': prepared.file ?? null,
-    started,
-    ended: status === 'running' ? null : isoNow(),
-    ...(resumes.length ? { resumed: resumes } : {}),
-    // who writes this run while it goes (resume refuses to start a second writer)
-    ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
-    ...(lastCheckpoint && status !== 'finished' ? { checkpoint: { ...lastCheckpoint } } : {}),
-    problem: {
-      model: description.model,
-      summary: description.summary,
-      fields: description.fields,
-      axes: description.axes.map((a) => ({ name: a.name, intervals: a.intervals, length: a.length, h: a.h, nodes: a.nodes })),
-      unknowns: problem.size,
-      'grid-unknowns': problem.gridUnknowns,
-      'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
-      ...(description.layout ? { layout: description.layout } : {}),
-    },
-    'start-parameters': { ...params },
-    'continuation-parameter': parameter,
-    columns: plan.columns,
-    branches: ledger.branches.map((b) => ({
-      id: b.id,
-      depth: b.depth,
-      origin: b.origin,
-      file: b.file,
-      points: b.points,
-      ...(b.first !== undefined ? { 'first-value': b.first, 'last-value': b.last } : {}),
-      ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, 'stop-text': b.stopText, message: b.message } : {}),
-    })),
-    counts: {
-      branches: ledger.branches.length,
-      points: ledger.points,
-      folds: ledger.specials.filter((s) => s.kind === 'fold').length,
-      'branch-points': ledger.specials.filter((s) => s.kind === 'branch-point').length,
-      hopf: ledger.specials.filter((s) => s.kind === 'hopf').length,
-      ends: ledger.specials.filter((s) => s.kind === 'end').length,
-      solutions: ledger.solutions,
-    },
-    timings: {
-      'continuation-seconds': previousSeconds + continuationSeconds,
-      'total-seconds': previousSeconds + (Date.now() - t0) / 1000,
-    },
-    ...(ledger.warnings.length ? { warnings: ledger.warnings } : {}),
-    ...(prepared.caution ? { caution: prepared.caution } : {}),
-    case: caseDocument(prepared.case),
+  // 1. the only step that may refuse (bad output folder) happens before anything is written
+  const run = options.resume ? resumeRunFolder(prepared, outDir, options.resume) : prepareRunFolder(prepared, outDir, options.force === true);
+  // 2. run.json says `running` from here on
+  const resume = options.resume;
+  const record = new RunRecord(prepared, run.plan, run.ledger, {
+    t0,
+    started: resume?.started ?? isoNow(),
+    resumes: [...(resume?.resumes ?? []), ...(resume ? [isoNow()] : [])],
+    previousSeconds: resume?.previousSeconds ?? 0,
   });
-
-  const writeRecord = (): void => {
-    dir.writeRunJson(record());
-    lastRecord = Date.now();
-  };
-  writeRecord();
+  record.lastCheckpoint = resume?.checkpoint;
+  record.write(run.dir);
   // a resumed run's points.json may hold points found after the checkpoint: rewrite it
-  dir.writePoints(parameter, ledger.specials);
-  let stabilityWarned = false;
+  run.dir.writePoints(prepared.settings.parameter, run.ledger.specials);
+  // 3. the continuation
+  await driveEngine(prepared, run, record, options);
+  // 4. the end
+  return finishRun(prepared, run, record, options.log ?? (() => {}));
+}
 
-  const paramsAt = (value: number): Params => ({ ...params, [parameter]: value });
-  const branchOf = (id: number): BranchRecord | undefined => ledger.branches.find((b) => b.id === id);
+/** Step 1 of a new run: the output folder, created or (with `force`) emptied of an earlier run. */
+function prepareRunFolder(prepared: PreparedCase, outDir: string, force: boolean): OpenRun {
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const dir = RunDirectory.create(outDir, { force });
+  return { outDir, dir, ledger: emptyLedger(), plan };
+}
+
+/** Step 1 of a resumed run: the folder cut back to what the checkpoint's ledger records. */
+function resumeRunFolder(prepared: PreparedCase, outDir: string, resume: ResumeState): OpenRun {
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const ledger = structuredClone(resume.ledger);
+  const dir = RunDirectory.reopen(outDir, ledger, () => plan.columns);
+  removeUnrecorded(outDir, ledger, prepared.case.output.solutions);
+  return { outDir, dir, ledger, plan };
+}
+
+/**
+ * Step 3: drive the engine to its end, a stop request or an error, writing its events, taking
+ * sync points and calling the checkpoint hook between steps. Sets the record's status (and
+ * failure); never throws for numerical failures.
+ */
+async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunRecord, options: RunCaseOptions): Promise<void> {
+  const { problem, params, settings } = prepared;
+  const { dir, ledger, plan } = run;
+  const log = options.log ?? (() => {});
   let engine: EngineLike | undefined;
   const tc = Date.now();
   // run.json is rewritten at branch starts and ends, and at least this often in between, so that
   // its counts and timings stay current during long branches
   const refreshMs = 10_000;
-
-  const handle = (ev: EngineEvent): void => {
-    switch (ev.type) {
-      case 'branch-start': {
-        const info = ev.branch;
-        const origin: BranchRecord['origin'] =
-          info.origin.kind === 'start'
-            ? { kind: 'start', direction: settings.direction }
-            : { kind: 'branch-point', branch: info.origin.branch, value: info.origin.value };
-        if (origin.kind === 'branch-point') {
-          const bp = ledger.specials.find((s) => s.kind === 'branch-point' && Array.isArray(s['new-branches']) && (s['new-branches'] as number[]).includes(info.id));
-          const d = bp?.['new-branch-direction'];
-          if (d === 'increase' || d === 'decrease' || d === 'both') origin.direction = d;
-        }
-        ledger.branches.push({ id: info.id, depth: info.depth, origin, file: RunDirectory.branchFile(info.id), points: 0 });
-        dir.openBranch(info.id, plan.columns, ledger);
-        log('info', `branch ${info.id} started ${origin.kind === 'start' ? 'from the start point' : `at the branch point ${parameter} = ${origin.value} on branch ${origin.branch}`}`);
-        writeRecord();
-        break;
-      }
-      case 'point': {
-        const p: BranchPoint = ev.point;
-        dir.appendRow(p.branch, pointRow(plan, problem, p), ledger);
-        if (stabilityColumnsOn && !stabilityWarned && !hasStability(p)) {
-          stabilityWarned = true;
-          const w = `stability.eigenvalues = ${prepared.case.stability.eigenvalues}, but the points carry no stability data; the stability columns stay empty`;
-          ledger.warnings.push(w);
-          log('warning', w);
-        }
-        if (solutionsMode === 'all') {
-          dir.writeSolution(`branch-${p.branch}-point-${p.index}`, problem, p.u, paramsAt(p.parameter));
-          ledger.solutions++;
-        }
-        ledger.points++;
-        const b = branchOf(p.branch);
-        if (b) {
-          b.points++;
-          if (b.first === undefined) b.first = p.parameter;
-          b.last = p.parameter;
-          // (a branch's first point at a branch point is singular there: its eigenvalue count says nothing)
-          if (p.stability && !(p.index === 0 && b.origin.kind === 'branch-point')) {
-            const st = (b.stability ??= []);
-            const last = st[st.length - 1];
-            if (last && last.stable === p.stability.stable && last.unstable === p.stability.unstableCount) last.to = p.parameter;
-            else st.push({ from: p.parameter, to: p.parameter, stable: p.stability.stable, unstable: p.stability.unstableCount });
-          }
-        }
-        break;
-      }
-      case 'special': {
-        const s = ev.point;
-        const key = `${s.branch}:${s.kind}`;
-        const k = (kindCount.get(key) ?? 0) + 1;
-        kindCount.set(key, k);
-        let file: string | undefined;
-        if (solutionsMode !== 'none') {
-          file = dir.writeSolution(`branch-${s.branch}-${s.kind}-${k}`, problem, s.u, paramsAt(s.value));
-          ledger.solutions++;
-        }
-        ledger.specials.push(specialRecord(problem, parameter, s, file));
-        dir.writePoints(parameter, ledger.specials);
-        if (s.kind !== 'end') log('info', `${s.kind.replace('-', ' ')} on branch ${s.branch} at ${parameter} = ${s.value}`);
-        break;
-      }
-      case 'branch-end': {
-        const b = branchOf(ev.branch);
-        if (b) {
-          b.stopReason = ev.reason;
-          b.stopText = stopReasonText[ev.reason] ?? ev.reason;
-          b.message = ev.message;
-        }
-        dir.closeBranch(ev.branch);
-        log(failureReasons.includes(ev.reason) ? 'warning' : 'info', `branch ${ev.branch} ended: ${ev.message || stopReasonText[ev.reason]}`);
-        writeRecord();
-        break;
-      }
-      case 'log':
-        log(ev.level, ev.message);
-        if (ev.level === 'warning') ledger.warnings.push(ev.message);
-        break;
-    }
-  };
+  const writer = new EventWriter(prepared, dir, plan, ledger, log, () => record.write(dir));
 
   const caseDoc = caseDocument(prepared.case);
   // a resumed run starts at the sync point its checkpoint was taken at
-  let lastSync: { ledger: RunLedger; snapshot: unknown; points: number } | undefined = options.resume
-    ? { ledger: structuredClone(ledger), snapshot: options.resume.engineState, points: ledger.points }
-    : undefined;
+  let lastSync: SyncState | undefined = options.resume ? { ledger: structuredClone(ledger), snapshot: options.resume.engineState, points: ledger.points } : undefined;
   let lastSyncPoints = options.resume ? ledger.points : -1;
   const context = (reason: 'point' | 'stop', sync = false): CheckpointContext => ({
     reason,
@@ -382,11 +204,11 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       return engine.snapshot();
     },
     caseDocument: caseDoc,
-    run: { started, seconds: () => previousSeconds + (Date.now() - t0) / 1000, caseFile: prepared.file ?? null, resumes },
+    run: { started: record.times.started, seconds: () => record.seconds(), caseFile: prepared.file ?? null, resumes: record.times.resumes },
   });
   const checkpoint = (reason: 'point' | 'stop', sync = false): void => {
     const w = options.checkpoint?.(context(reason, sync));
-    if (w) lastCheckpoint = w;
+    if (w) record.lastCheckpoint = w;
   };
   /** Whether the moment (between steps) is a sync point; if so the engine is restarted there. */
   const syncHere = (): boolean => {
@@ -419,7 +241,7 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
         }
         const r = events.next();
         if (r.done) break;
-        handle(r.value);
+        writer.handle(r.value);
         if (r.value.type === 'point') {
           const p = r.value.point;
           options.progress?.({ branch: p.branch, index: p.index, parameter: p.parameter, step: p.step, points: ledger.points, maxPoints: settings.maxPoints });
@@ -427,9 +249,9 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
         if (ledger.points > hookPoints && between()) {
           hookPoints = ledger.points;
           checkpoint('point', syncHere());
-          if (Date.now() - lastRecord > refreshMs) {
-            continuationSeconds = (Date.now() - tc) / 1000;
-            writeRecord();
+          if (Date.now() - record.lastWritten > refreshMs) {
+            record.continuationSeconds = (Date.now() - tc) / 1000;
+            record.write(dir);
           }
           // let signal handlers and timers run between steps
           await tick();
@@ -439,10 +261,10 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       // let the engine clean up if we left early
       if (stopped) events.return(undefined);
     }
-    continuationSeconds = (Date.now() - tc) / 1000;
+    record.continuationSeconds = (Date.now() - tc) / 1000;
     if (stopped) {
       checkpoint('stop');
-      status = 'stopped';
+      record.status = 'stopped';
       for (const b of ledger.branches) {
         if (b.stopReason === undefined) {
           b.stopReason = 'stopped';
@@ -454,20 +276,20 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
     } else {
       const first = ledger.branches[0];
       if (!first) {
-        status = 'failed';
-        failure = 'the engine produced no branch';
+        record.status = 'failed';
+        record.failure = 'the engine produced no branch';
       } else if (first.stopReason !== undefined && failureReasons.includes(first.stopReason)) {
-        status = 'failed';
-        failure = `branch ${first.id} ended: ${first.message || first.stopText}`;
+        record.status = 'failed';
+        record.failure = `branch ${first.id} ended: ${first.message || first.stopText}`;
       } else {
-        status = 'finished';
+        record.status = 'finished';
       }
     }
   } catch (e) {
-    continuationSeconds = (Date.now() - tc) / 1000;
-    status = 'failed';
-    failure = e instanceof Error ? e.message : String(e);
-    log('warning', `run failed: ${failure}`);
+    record.continuationSeconds = (Date.now() - tc) / 1000;
+    record.status = 'failed';
+    record.failure = e instanceof Error ? e.message : String(e);
+    log('warning', `run failed: ${record.failure}`);
   } finally {
     try {
       engine?.dispose();
@@ -475,21 +297,26 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
       /* nothing more to do */
     }
   }
+}
 
+/** Step 4: close the files, write the final points.json and run.json, clean up, draw the plots. */
+function finishRun(prepared: PreparedCase, run: OpenRun, record: RunRecord, log: RunLog): RunResult {
+  const { dir, ledger, outDir } = run;
   dir.close();
-  dir.writePoints(parameter, ledger.specials);
-  const final = record();
+  dir.writePoints(prepared.settings.parameter, ledger.specials);
+  const final = record.document();
   dir.writeRunJson(final);
+  const status = record.status as Exclude<RunStatus, 'running'>;
   // a finished run has nothing left to resume
   if (status === 'finished') removeCheckpoints(outDir);
   drawPlotsAfterRun(outDir, log);
   return {
-    status: status as Exclude<RunStatus, 'running'>,
+    status,
     directory: outDir,
     record: final,
     ledger,
-    ...(failure !== undefined ? { failure } : {}),
-    seconds: previousSeconds + (Date.now() - t0) / 1000,
+    ...(record.failure !== undefined ? { failure: record.failure } : {}),
+    seconds: record.seconds(),
   };
 }
 

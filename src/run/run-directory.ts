@@ -20,7 +20,7 @@
  */
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
-import type { BranchPoint, SpecialPoint, StopReason } from '../continuation/types.js';
+import type { ContinuationPoint, SpecialPoint, StopReason } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
 import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
@@ -127,7 +127,7 @@ export function columnPlan(problem: Problem, parameter: string, eigenvalues: num
     ...monitors,
     ...extras,
     'newton-iterations',
-    'step',
+    'step-length',
     ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues)] : []),
   ];
   return { columns, monitors, extras, stability, eigenvalues };
@@ -144,11 +144,11 @@ interface PointStabilityCells {
 }
 
 /** Whether a point carries stability data. */
-export function hasStability(p: BranchPoint): boolean {
+export function hasStability(p: ContinuationPoint): boolean {
   return (p as { stability?: unknown }).stability != null;
 }
 
-export function pointRow(plan: ColumnPlan, problem: Problem, p: BranchPoint): CsvCell[] {
+export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoint): CsvCell[] {
   const row: CsvCell[] = [p.index, p.arclength, p.parameter];
   for (const m of plan.monitors) row.push(p.monitors[m]);
   plan.extras.forEach((_name, i) => row.push(p.u[problem.gridUnknowns + i]));

@@ -119,6 +119,8 @@ describe('batches', () => {
     expect(s.cases).toHaveLength(1);
     expect(s.cases[0]).toMatchObject({ name: 'slab-1d', directory: out, status: 'finished', 'case-file': slab });
     expect(s.cases[0]['special-points'].map((p: any) => p.kind)).toEqual(['fold', 'end']);
+    // an ignition model: the caution travels with the machine-readable summary as with the text one
+    expect(s.cases[0].caution).toMatch(/not a substitute for design codes.*local codes and licensed practice govern/);
   });
 });
 

@@ -52,7 +52,7 @@ describe('branchline run (in process, real engine)', () => {
   it('writes one CSV row per accepted point with the documented columns', () => {
     const run = json(join(out, 'run.json'));
     const csv = readCsv(join(out, 'branches/1.csv'));
-    expect(csv.columns).toEqual(['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'step']);
+    expect(csv.columns).toEqual(['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'step-length']);
     expect(csv.rows.length).toBe(run.branches[0].points);
     expect(csv.rows.length).toBe(run.counts.points);
     expect(csv.rows[0][2]).toBe(0.2); // the start value

@@ -3,7 +3,7 @@ import { runModel, settings } from './collect.js';
 import type { BranchPointEvent, FoldPoint } from '../../src/continuation/types.js';
 import { analyseRefinement } from '../../src/refine/index.js';
 
-/** Discrete eigenvalue of −d²/dx² with the standard 3-point stencil: (4/h²) sin²(nπh/2) (standard FD result). */
+/** Discrete eigenvalue of −d²/dx² with the standard 3-point stencil: (4/h²) sin²(nπh/2) (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory; the closed forms are checked against ml-matrix in test/discretisations/laplacian.test.ts). */
 const mu = (n: number, h: number) => (4 / (h * h)) * Math.sin((n * Math.PI * h) / 2) ** 2;
 
 function branchPoints(specials: { kind: string }[]): BranchPointEvent[] {
@@ -100,7 +100,7 @@ describe('Euler elastica, pinned–pinned', () => {
       const bps = branchPoints(run.specials.filter((s) => s.branch === 1));
       expect(bps.length).toBe(2);
       // Euler: λ_n = n²π²; the linearisation θ″ + λθ = r with ∫θ = 0 and θ′ = 0 at the ends has the
-      // discrete Neumann eigenvalues (4/h²) sin²(nπh/2) (standard FD result) as its exact values
+      // discrete Neumann eigenvalues (4/h²) sin²(nπh/2) (discrete cosine modes; the closed forms are checked against ml-matrix in test/discretisations/laplacian.test.ts) as its exact values
       for (let n = 1; n <= 2; n++) {
         expect(Math.abs(bps[n - 1].value - mu(n, h))).toBeLessThan(1e-8 * mu(n, h));
         expect(Math.abs(bps[n - 1].value - n * n * Math.PI * Math.PI)).toBeLessThan(0.01 * n * n * Math.PI * Math.PI);

@@ -2,16 +2,16 @@
 import { expect } from 'vitest';
 import { models } from '../../discretisations/index.js';
 import { Continuation, type EngineSummary } from '../../src/continuation/engine.js';
-import { defaultSettings, type BranchPoint, type ContinuationSettings, type SpecialPoint } from '../../src/continuation/types.js';
+import { defaultSettings, type ContinuationPoint, type ContinuationSettings, type SpecialPoint } from '../../src/continuation/types.js';
 import { type Problem, resolveParameters } from '../../src/problem/problem.js';
 
 export interface Collected {
   problem: Problem;
-  points: BranchPoint[];
+  points: ContinuationPoint[];
   specials: SpecialPoint[];
   ends: { branch: number; reason: string; message: string }[];
   summary: EngineSummary;
-  branch(id: number): BranchPoint[];
+  branch(id: number): ContinuationPoint[];
 }
 
 export function settings(partial: Partial<ContinuationSettings> & Pick<ContinuationSettings, 'parameter' | 'bounds'>): ContinuationSettings {
@@ -26,7 +26,7 @@ export function runModel(model: string, options: Record<string, unknown>, given:
 export function runProblem(problem: Problem, given: Record<string, number>, s: ContinuationSettings): Collected {
   const params = resolveParameters(problem, given);
   const c = new Continuation(problem, params, s);
-  const points: BranchPoint[] = [];
+  const points: ContinuationPoint[] = [];
   const specials: SpecialPoint[] = [];
   const ends: Collected['ends'] = [];
   const it = c.events();

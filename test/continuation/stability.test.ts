@@ -2,7 +2,7 @@ import { describe, expect, test } from 'vitest';
 import { runModel, settings } from './collect.js';
 import type { BranchPointEvent, FoldPoint, HopfPoint } from '../../src/continuation/types.js';
 
-/** Discrete eigenvalue of −d²/dx² for mode k on a grid of spacing h over length L (standard FD result). */
+/** Discrete eigenvalue of −d²/dx² for mode k on a grid of spacing h over length L (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory; the closed forms are checked against ml-matrix in test/discretisations/laplacian.test.ts). */
 const q = (k: number, h: number, length: number) => (4 / (h * h)) * Math.sin((k * Math.PI * h) / (2 * length)) ** 2;
 
 describe('stability along branches', () => {

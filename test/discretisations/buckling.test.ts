@@ -2,7 +2,7 @@
  * Buckling models against handbook results.
  *  - elastica: the straight strut's stability from the generalised eigenproblem J v = μ M v
  *    (M = diag(1, …, 1, 0)) with the algebraic constraint row eliminated; the discrete Euler
- *    loads λ_n = (4/h²) sin²(nπh/2) (standard FD result; continuum n²π², Euler); and the
+ *    loads λ_n = (4/h²) sin²(nπh/2) (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory; continuum n²π², Euler); and the
  *    post-buckled state: θ(0) = α at λ = (2K(k))², k = sin(α/2), with midspan deflection
  *    2 sin(α/2)/√λ (Timoshenko & Gere, Theory of Elastic Stability; the deflection from the
  *    first integral θ'² = 2λ(cos θ − cos α)).
@@ -98,7 +98,7 @@ describe('elastica', () => {
       expect(Math.abs(u[q.size - 1])).toBeLessThan(1e-9); // no end reaction by symmetry
       const mon = (name: string) => q.monitors.find((m) => m.name === name)!.evaluate(u, { lambda });
       errA.push(Math.abs(mon('end-rotation') - alpha));
-      errY.push(Math.abs(mon('midspan-deflection') - (2 * Math.sin(alpha / 2)) / Math.sqrt(lambda)));
+      errY.push(Math.abs(mon('centre') - (2 * Math.sin(alpha / 2)) / Math.sqrt(lambda)));
     }
     for (const e of [errA, errY]) {
       for (let i = 0; i + 1 < e.length; i++) {

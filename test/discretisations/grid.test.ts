@@ -99,7 +99,7 @@ describe('names', () => {
       for (const s of pr.parameters) expect(reservedColumnNames).not.toContain(s.name);
     }
     const pr = models.bratu.factory({ grid: { intervals: [4] } });
-    const bad = { ...pr, parameters: [{ name: 'step', default: 1, description: '' }] };
-    expect(() => validateProblemNames(bad)).toThrow(/parameter name 'step' is reserved/);
+    const bad = { ...pr, parameters: [{ name: 'step-length', default: 1, description: '' }] };
+    expect(() => validateProblemNames(bad)).toThrow(/parameter name 'step-length' is reserved/);
   });
 });

@@ -116,9 +116,9 @@ describe('monitors and descriptions', () => {
     const b = models.bratu.factory({ grid: { intervals: [6, 6] } });
     expect(b.monitors.map((m) => m.name)).toEqual(['max', 'min', 'l2-norm', 'centre']);
     const beam = models['beam-foundation'].factory({ grid: { intervals: [10] } });
-    expect(beam.monitors.map((m) => m.name)).toContain('midspan');
+    expect(beam.monitors.map((m) => m.name)).toContain('centre');
     const el = models.elastica.factory({ grid: { intervals: [10] } });
-    expect(el.monitors.map((m) => m.name)).toEqual(['max', 'min', 'l2-norm', 'end-rotation', 'midspan-deflection', 'end-shortening', 'end-reaction']);
+    expect(el.monitors.map((m) => m.name)).toEqual(['max', 'min', 'l2-norm', 'end-rotation', 'centre', 'end-shortening', 'end-reaction']);
   });
 
   it('describe() gives fields, axes, layout, and cautions where results bear on safety', () => {

@@ -104,7 +104,7 @@ export function controlledMatrix(spec: Spectrum, o: ControlledOptions): { J: Csc
 
 /**
  * Five-point Dirichlet Laplacian on an nx × ny interior grid of a lx × ly rectangle, plus a
- * diagonal term c(i, j). With c constant its eigenvalues are, exactly (standard FD result),
+ * diagonal term c(i, j). With c constant its eigenvalues are, exactly (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory),
  * −(4/hx²) sin²(aπhx/(2lx)) − (4/hy²) sin²(bπhy/(2ly)) + c.
  */
 export function laplacian2d(nx: number, ny: number, lx: number, ly: number, c: (i: number, j: number) => number): CscMatrix {

@@ -61,7 +61,7 @@ function denseWithCondition(rows: number[][]): { values: (C & { cond: number })[
 }
 
 describe('rightmost eigenvalues: exact finite-difference oracle', () => {
-  // Dirichlet five-point Laplacian: eigenvalues −(4/hx²)sin²(aπhx/2lx) − (4/hy²)sin²(bπhy/2ly) (standard FD result)
+  // Dirichlet five-point Laplacian: eigenvalues −(4/hx²)sin²(aπhx/2lx) − (4/hy²)sin²(bπhy/2ly) (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory)
   it('rectangle 60×50 (3000 unknowns), shifted so that one eigenvalue is positive', () => {
     const c = 30;
     const J = laplacian2d(60, 50, 1, 0.83, () => c);
@@ -304,7 +304,7 @@ describe('tracking along a branch', () => {
 
 describe('Brusselator uniform state across its Hopf point', () => {
   // Uniform state (a, b/a): each cosine mode with discrete Laplacian eigenvalue −κ (ghost-point
-  // Neumann, κ = (4/h²)(sin²(iπ/2N) + sin²(jπ/2N)), standard FD result) has the 2×2 Jacobian
+  // Neumann, κ = (4/h²)(sin²(iπ/2N) + sin²(jπ/2N)); the closed forms are checked against ml-matrix in test/discretisations/laplacian.test.ts) has the 2×2 Jacobian
   // [[b − 1 − Du κ, a²], [−b, −a² − Dv κ]]; the κ = 0 pair crosses at b = 1 + a² with frequency a
   // (Prigogine & Lefever 1968).
   const N = 30;

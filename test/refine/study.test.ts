@@ -35,7 +35,7 @@ function bratuFold1D(): number {
   const theta = 4 * t;
   return theta ** 2 / (2 * Math.cosh(theta / 4) ** 2);
 }
-const exactFold1D = 3.513830719125; // DESIGN.md check table (exact, Bratu 1914)
+const exactFold1D = 3.513830719125; // exact: the closed-form branch u = −2 ln[cosh((x−½)θ/2)/cosh(θ/4)], fold at (θ/4)·tanh(θ/4) = 1 (Bratu 1914)
 
 const bratu1d = {
   name: 'bratu-1d',
@@ -124,6 +124,49 @@ describe('refine on 1D Bratu', () => {
     expect(Math.abs(a.extrapolated! - exactFold1D)).toBeLessThan(1e-6);
     expect(a.extrapolationSpread).not.toBeNull();
     expect(json(join(out, 'refine.json'))['extrapolation-spread']).toBe(a.extrapolationSpread);
+    expect(json(join(out, 'refine.json'))).toMatchObject({ 'error-estimate-source': 'extrapolation-spread', 'finest-grid-error-bound': a.gciAbsolute });
+    // the spread is the realistic figure for the extrapolated value: within two orders of magnitude
+    // of its true error, while the GCI (a bound for the finest value) is far larger
+    expect(a.errorEstimate!).toBeLessThan(100 * Math.max(Math.abs(a.extrapolated! - exactFold1D), 1e-12));
+    expect(a.gciAbsolute!).toBeGreaterThan(100 * a.errorEstimate!);
+  });
+
+  it('convective (Robin) faces: each error figure brackets the true error of the value it claims to cover', async () => {
+    // Exact family (Bratu 1914 for u'' + λe^u = 0, worked for the Robin faces as in
+    // test/cli/run-command.test.ts): λ(a) = 2a² sech²(a/2) exp(−(2a/Bi) tanh(a/2)); the fold is its maximum.
+    const biot = 5;
+    const lambdaOf = (a: number): number => ((2 * a * a) / Math.cosh(a / 2) ** 2) * Math.exp(-((2 * a) / biot) * Math.tanh(a / 2));
+    let lo = 0.1;
+    let hi = 5;
+    const g = (Math.sqrt(5) - 1) / 2;
+    for (let i = 0; i < 200; i++) {
+      const m1 = hi - g * (hi - lo);
+      const m2 = lo + g * (hi - lo);
+      if (lambdaOf(m1) < lambdaOf(m2)) lo = m1;
+      else hi = m2;
+    }
+    const exact = lambdaOf((lo + hi) / 2);
+    const robin = {
+      name: 'slab-robin',
+      model: 'bratu',
+      boundary: 'robin',
+      grid: { intervals: [25] },
+      parameters: { lambda: 0.05, biot },
+      continuation: { parameter: 'lambda', bounds: [0, 5], 'max-points': 300, 'stop-when': [{ monitor: 'max', above: 3 }] },
+    };
+    for (const grids of [
+      [25, 50, 100],
+      [25, 50, 100, 200],
+    ]) {
+      const out = fresh(`bratu-robin-${grids.length}`);
+      const r = await runStudy(await prepare(robin), { grids, outDir: out });
+      expect(r.status).toBe('finished');
+      const a = r.analysis!;
+      const fine = a.grids[a.grids.length - 1].value;
+      expect(Math.abs(fine - exact)).toBeLessThanOrEqual(a.gciAbsolute!);
+      expect(Math.abs(a.extrapolated! - exact)).toBeLessThanOrEqual(a.errorEstimate!);
+      expect(a.errorEstimateSource).toBe(grids.length === 3 ? 'finest-grid-gci' : 'extrapolation-spread');
+    }
   });
 
   it('handles non-uniform ratios (24, 40, 100 intervals: ratios 5/3 and 5/2)', async () => {
@@ -169,7 +212,7 @@ describe('refine at a branch point (1D Allen–Cahn, u = 0 on the walls)', () =>
     const r = await runStudy(await prepare(allenCahn), { grids: [16, 32, 64], outDir: out, point: { kind: 'branch-point', index: 1 } });
     expect(r.status).toBe('finished');
     const a = r.analysis!;
-    // discrete values (4/h²) sin²(πh/2) (standard FD result), exact for the discretisation
+    // discrete values (4/h²) sin²(πh/2) (LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory), exact for the discretisation
     const discrete = (n: number) => 4 * n * n * Math.sin(Math.PI / (2 * n)) ** 2;
     a.grids.forEach((g, i) => expect(Math.abs(g.value - discrete([16, 32, 64][i]))).toBeLessThan(1e-7));
     expect(Math.abs(a.order! - 2)).toBeLessThan(0.02);
@@ -259,7 +302,8 @@ describe('the refine command', () => {
     expect(r.out).toMatch(/^Refinement of lambda at fold 1 on branch 1 \(case bratu-1d\), 3 grids:\n/);
     expect(r.out).toMatch(/\n  16 +15 +0\.0625 +3\.5\d+/);
     expect(r.out).toMatch(/\nExtrapolated: lambda = 3\.5138\d+ \(Richardson extrapolation with the observed order 2\.0\d*\)\.\n/);
-    expect(r.out).toMatch(/\nError estimate: ± [\d.e-]+ \(the grid convergence index of the finest grid, safety factor 1\.25 \(Roache 1994\)\)\.\n/);
+    expect(r.out).toMatch(/\nError bound of the finest grid's value \(lambda = 3\.51\d+\): ± [\d.e-]+ \(grid convergence index, safety factor 1\.25, Roache 1994\)\.\n/);
+    expect(r.out).toMatch(/\nWithout a fourth grid this bound is also the only \(conservative\) error estimate of the extrapolated value/);
     expect(r.out).toMatch(/\nCaution: .*licensed/);
     expect(r.err).toBe('');
   });

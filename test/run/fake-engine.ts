@@ -4,7 +4,7 @@
  * with states built from the problem so that monitors and node arrays are real. Its whole state
  * is the index of the next event, so snapshot/resume can be tested on the run layer alone.
  */
-import type { BranchPoint, ContinuationSettings, EngineEvent, SpecialPoint, StopReason } from '../../src/continuation/types.js';
+import type { ContinuationPoint, ContinuationSettings, EngineEvent, SpecialPoint, StopReason } from '../../src/continuation/types.js';
 import type { Params, Problem } from '../../src/problem/problem.js';
 import type { EngineFactory, EngineLike } from '../../src/run/run-case.js';
 
@@ -41,7 +41,7 @@ export function scriptedEvents(problem: Problem, params: Params, settings: Conti
   const name = settings.parameter;
   const events: EngineEvent[] = [];
   const lam0 = params[name];
-  const point = (branch: number, index: number, lambda: number, amp: number): BranchPoint => {
+  const point = (branch: number, index: number, lambda: number, amp: number): ContinuationPoint => {
     const u = state(problem, amp);
     const p = { ...params, [name]: lambda };
     return {
@@ -59,13 +59,13 @@ export function scriptedEvents(problem: Problem, params: Params, settings: Conti
       ...(script.stability
         ? { stability: { stable: index % 2 === 0 ? true : null, unstableCount: index % 2, unstableComplex: 0, leadingReal: -1 + index * 0.1, leadingImag: 0, eigenvalues: [], complete: true, searched: 'fake' } }
         : {}),
-    } as BranchPoint;
+    } as ContinuationPoint;
   };
-  const special = (base: BranchPoint, extra: Record<string, unknown>): SpecialPoint =>
+  const special = (base: ContinuationPoint, extra: Record<string, unknown>): SpecialPoint =>
     ({ branch: base.branch, value: base.parameter, arclength: base.arclength, u: base.u, monitors: base.monitors, residual: 1e-13, ...extra }) as unknown as SpecialPoint;
 
   events.push({ type: 'branch-start', branch: { id: 1, depth: 0, origin: { kind: 'start' } } });
-  let last: BranchPoint | undefined;
+  let last: ContinuationPoint | undefined;
   for (let i = 0; i < script.points1; i++) {
     const lambda = lam0 + 0.3 * i;
     last = point(1, i, lambda, 0.1 * (i + 1));
@@ -87,7 +87,7 @@ export function scriptedEvents(problem: Problem, params: Params, settings: Conti
   if (script.points2 > 0) {
     const origin = lam0 + 0.3 * 6;
     events.push({ type: 'branch-start', branch: { id: 2, depth: 1, origin: { kind: 'branch-point', branch: 1, value: origin } } });
-    let l2: BranchPoint | undefined;
+    let l2: ContinuationPoint | undefined;
     for (let i = 0; i < script.points2; i++) {
       l2 = point(2, i, origin + 0.05 * i, -0.2 * (i + 1));
       events.push({ type: 'point', point: l2 });

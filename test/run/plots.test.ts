@@ -83,7 +83,7 @@ describe('diagram.svg of a run with branch switching and stability', () => {
 
   it('names the monitor in words and says which branches lie along others (mirror images)', () => {
     const root = svgOf(join(acDir, 'diagram.svg'));
-    expect(textContent(findAll(root, 'text', { 'data-role': 'y-title' })[0])).toBe('u at the centre');
+    expect(textContent(findAll(root, 'text', { 'data-role': 'y-title' })[0])).toBe('u at the centre of the domain');
     const legend = findAll(root, 'g', { 'data-legend': 'branch' }).map(textContent);
     // the n = 2 states are odd about the centre: u(1/2) = 0 along the trivial branch
     expect(legend).toEqual(['branch 1', 'branch 2', 'branch 3', 'branch 4 (lies along branch 1)', 'branch 5 (lies along branch 1)']);
@@ -99,7 +99,7 @@ describe('diagram.svg of a run with branch switching and stability', () => {
     const curve = findAll(root, 'path', { 'data-field': 'u' });
     expect(curve).toHaveLength(1);
     expect(pathPoints(curve[0].attrs.d)).toHaveLength(33);
-    expect(textContent(findAll(root, 'g', { 'data-role': 'header' })[0])).toMatch(/^u at the end of branch 2lambda = 45, u at the centre = -?0\.9\d*; case pitchforks$/);
+    expect(textContent(findAll(root, 'g', { 'data-role': 'header' })[0])).toMatch(/^u at the end of branch 2lambda = 45, u at the centre of the domain = -?0\.9\d*; case pitchforks$/);
   });
 });
 
@@ -161,7 +161,7 @@ describe('the plot command and drawRunPlots', () => {
     expect(r.code, r.err).toBe(0);
     expect(r.out).toMatch(/^Drew 8 pictures in .*pitchforks \(diagram: l2-norm against the continuation parameter\): diagram\.svg, plots\/ \(7 files\)\n$/);
     const root = svgOf(join(acDir, 'diagram.svg'));
-    expect(textContent(findAll(root, 'text', { 'data-role': 'y-title' })[0])).toBe('L2 norm of u');
+    expect(textContent(findAll(root, 'text', { 'data-role': 'y-title' })[0])).toBe('L2 norm of u, √(∫u²)');
     expect(existsSync(join(acDir, 'plots', 'branch-9-fold-1.svg'))).toBe(false);
     expect(existsSync(join(acDir, 'plots', 'my-notes.svg'))).toBe(true);
     // u and −u have the same norm: the mirror halves lie along each other
@@ -194,7 +194,7 @@ describe('the plot command and drawRunPlots', () => {
   it('monitor names in words', () => {
     expect(monitorWords('max', ['u'])).toBe('max u');
     expect(monitorWords('min:v', ['u', 'v'])).toBe('min v');
-    expect(monitorWords('l2-norm:T', ['c', 'T'])).toBe('L2 norm of T');
+    expect(monitorWords('l2-norm:T', ['c', 'T'])).toBe('L2 norm of T, √(∫T²)');
     expect(monitorWords('max', ['u', 'v'])).toBe('max');
     expect(monitorWords('end-rotation', ['theta'])).toBe('end-rotation');
   });

@@ -47,7 +47,7 @@ describe('a run on the scripted engine', () => {
     expect(run.caution).toMatch(/licensed engineer/);
     expect(run.case.continuation.bounds).toEqual([0, 4]);
 
-    const expectedColumns = ['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'step'];
+    const expectedColumns = ['point', 'arclength', 'lambda', 'max', 'min', 'l2-norm', 'centre', 'newton-iterations', 'step-length'];
     const b1 = readCsv(join(out, 'branches/1.csv'));
     expect(b1.columns).toEqual(expectedColumns);
     expect(b1.rows.length).toBe(10);
@@ -149,7 +149,7 @@ describe('a run on the scripted engine', () => {
     await runCase(c, { outDir: out, engine: fakeEngine({ ...defaultScript, stability: true }) });
     const csv = readFileSync(join(out, 'branches/1.csv'), 'utf8').split('\n');
     const eigen = [1, 2, 3, 4].flatMap((k) => [`eigenvalue-${k}-real`, `eigenvalue-${k}-imag`]).join(',');
-    expect(csv[0]).toBe(`point,arclength,b,max:u,min:u,l2-norm:u,max:v,min:v,l2-norm:v,drift-x,newton-iterations,step,stable,unstable-count,leading-real,leading-imag,search-complete,${eigen}`);
+    expect(csv[0]).toBe(`point,arclength,b,max:u,min:u,l2-norm:u,max:v,min:v,l2-norm:v,drift-x,newton-iterations,step-length,stable,unstable-count,leading-real,leading-imag,search-complete,${eigen}`);
     // (the scripted engine gives no eigenvalue list: those cells stay empty)
     expect(csv[1].endsWith(',true,0,-1,0,true,,,,,,,,')).toBe(true);
     expect(csv[2].endsWith(',,1,-0.9,0,true,,,,,,,,')).toBe(true); // stable not certified: empty cell

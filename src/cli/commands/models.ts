@@ -21,6 +21,12 @@ export function registerModels(program: Command, { io }: CommandContext): void {
         for (const o of m.options) {
           lines.push(`  key ${o.name}: ${o.choices ? `${o.choices.join(' | ')} (default ${o.choices[0]}); ` : ''}${o.description}`);
         }
+        if (m.monitors) {
+          lines.push(`  monitors (CSV columns, stop-when, plot.monitor): ${m.monitors.map((x) => x.name).join(', ')}`);
+          for (const x of m.monitors) lines.push(`    ${x.name}: ${x.description}`);
+        } else {
+          lines.push('  monitors: per field f, max:f, min:f and l2-norm:f (plain max, min, l2-norm with one field); l2-norm is √(∫f²), growing with the domain');
+        }
         if (m.caution) lines.push(`  caution: ${m.caution}`);
         lines.push('');
       }

@@ -3,6 +3,7 @@ import type { CommandContext } from '../io.js';
 import { models } from '../../../discretisations/index.js';
 import type { OptionSpec } from '../../../discretisations/models/options.js';
 import type { ParameterSpec, Problem } from '../../problem/problem.js';
+import { defaultSettings } from '../../continuation/types.js';
 import { defaultCheckpoint } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
 
@@ -16,7 +17,6 @@ interface Suggestion {
   bounds: (dim: number) => [number, number];
   step: { initial: number; min: number; max: number };
   maxPoints: number;
-  depth: number;
   eigenvalues: number;
   stopWhen?: string;
   /** Domain length per axis (default 1). */
@@ -30,7 +30,6 @@ const suggestions: Record<string, Suggestion> = {
     bounds: (d) => [0, [4, 8, 12][d - 1]],
     step: { initial: 0.05, min: 1e-8, max: 0.5 },
     maxPoints: 400,
-    depth: 0,
     eigenvalues: 4,
     stopWhen: '{monitor: max, above: 10}',
     note: 'the lower states lose stability at the fold (ignition); past it the branch turns back through unstable states',
@@ -40,7 +39,6 @@ const suggestions: Record<string, Suggestion> = {
     bounds: () => [0, 100],
     step: { initial: 0.5, min: 1e-8, max: 2 },
     maxPoints: 300,
-    depth: 1,
     eigenvalues: 4,
     note: 'u = 0 is a solution for every lambda; pitchforks leave it where lambda crosses the Laplacian eigenvalues',
   },
@@ -49,7 +47,6 @@ const suggestions: Record<string, Suggestion> = {
     bounds: () => [0.01, 0.1],
     step: { initial: 0.002, min: 1e-10, max: 0.01 },
     maxPoints: 300,
-    depth: 1,
     eigenvalues: 6,
     note: 'from the uniform state (1, 0); start from initial: pulse to follow spot patterns instead',
   },
@@ -58,17 +55,15 @@ const suggestions: Record<string, Suggestion> = {
     bounds: () => [1, 8],
     step: { initial: 0.05, min: 1e-8, max: 0.25 },
     maxPoints: 300,
-    depth: 0,
     eigenvalues: 6,
     length: 10,
-    note: 'the uniform state (a, b/a) meets Turing branch points and a Hopf point as b grows (length 10 leaves room for patterns; set branch-switching depth 1 to follow the patterns, a longer run)',
+    note: 'the uniform state (a, b/a) meets Turing branch points and a Hopf point as b grows (length 10 leaves room for patterns; following the pattern branches makes a longer run: depth 0 skips them)',
   },
   elastica: {
     parameter: 'lambda',
     bounds: () => [0, 50],
     step: { initial: 0.5, min: 1e-8, max: 2 },
     maxPoints: 300,
-    depth: 1,
     eigenvalues: 4,
     note: 'the straight strut buckles at branch points near lambda = n²π²',
   },
@@ -77,7 +72,6 @@ const suggestions: Record<string, Suggestion> = {
     bounds: () => [0, 60],
     step: { initial: 0.5, min: 1e-8, max: 2 },
     maxPoints: 300,
-    depth: 1,
     eigenvalues: 4,
     note: 'the straight beam buckles at branch points; a softening foundation (k3 > 0) makes them subcritical',
   },
@@ -103,7 +97,6 @@ function genericSuggestion(p: ParameterSpec): Suggestion {
     bounds: () => [lo, hi],
     step: { initial: span / 100, min: span * 1e-9, max: span / 10 },
     maxPoints: 300,
-    depth: 1,
     eigenvalues: 4,
     note: 'set the bounds to the range you want to explore',
   };
@@ -136,7 +129,7 @@ function commonTail(s: Suggestion, parameter: string, start: number, monitors: s
     c(`  max-points: ${s.maxPoints}`, `per branch`),
     s.stopWhen ? `  stop-when: [${s.stopWhen}]` : `  # stop-when: [{monitor: ${monitors[0] ?? 'max'}, above: 10}]`,
     `  # monitors of this model: ${monitors.join(', ')}`,
-    c(`  branch-switching: {depth: ${s.depth}}`, `follow the branches crossing at branch points, this many levels deep (0: none)`),
+    c(`  branch-switching: {depth: ${defaultSettings.branchSwitching.depth}}`, `follow the branches crossing at branch points this many levels deep (the default when left out; 0: none)`),
     '  # newton: {tolerance: 1.0e-9, max-iterations: 10}',
     '  # locate: {folds: true, branch-points: true}',
     'stability:',
@@ -173,7 +166,6 @@ export function starterCase(id: string, dimension?: number): string {
       bounds: () => [0, 4],
       step: { initial: 0.05, min: 1e-8, max: 0.5 },
       maxPoints: 400,
-      depth: 0,
       eigenvalues: 4,
       stopWhen: '{monitor: max, above: 10}',
       note: '',
@@ -191,7 +183,8 @@ export function starterCase(id: string, dimension?: number): string {
       '  u: mu * exp(u)',
       c('diffusion:', 'a number, a parameter name or an expression in the parameters'),
       '  u: 1',
-      c('boundary: dirichlet', 'neumann | dirichlet | periodic, or per side / per field (see `branchline models`)'),
+      c('boundary: dirichlet', 'neumann | dirichlet | robin | periodic, or per side / per field (see `branchline models`)'),
+      '# robin (convective) sides: {kind: robin, coefficient: 2, value: 0} means ∂u/∂n + 2·u = 0',
       '# initial: {u: 0}                # initial state per field (default 0)',
       'grid:',
       c(`  intervals: [${intervals.join(', ')}]`, `intervals per axis (1 to 3 axes); h = length / intervals`),

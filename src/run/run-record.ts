@@ -1,0 +1,117 @@
+/**
+ * run.json while a run goes: the document (resolved case, software version, times, status,
+ * grid, per-branch stop reasons, counts, timings, caution) built from the run's ledger and
+ * status, and written atomically whenever it changes or grows stale.
+ *
+ * `status` is `running` from the first write until the run ends, then `finished`, `stopped` or
+ * `failed` (with `failure`); while it is `running`, `process` names the writer.
+ */
+import { hostname } from 'node:os';
+import type { PreparedCase } from './case.js';
+import { caseDocument } from './case.js';
+import type { CheckpointWritten } from './run-hooks.js';
+import { type ColumnPlan, type RunDirectory, type RunLedger, type RunStatus, runFormat, runFormatVersion } from './run-directory.js';
+import { softwareVersion } from './version.js';
+
+export function isoNow(): string {
+  return new Date().toISOString();
+}
+
+export class RunRecord {
+  status: RunStatus = 'running';
+  failure: string | undefined;
+  /** The last checkpoint written (or the one a resumed run started from). */
+  lastCheckpoint: CheckpointWritten | undefined;
+  /** Seconds spent in the continuation in this session. */
+  continuationSeconds = 0;
+  /** When run.json was last written (ms). */
+  lastWritten = 0;
+
+  constructor(
+    private readonly prepared: PreparedCase,
+    private readonly plan: ColumnPlan,
+    private readonly ledger: RunLedger,
+    readonly times: {
+      /** Date.now() when this session began. */
+      t0: number;
+      /** When the run first started (ISO). */
+      started: string;
+      /** When it was resumed (ISO), this session included. */
+      resumes: string[];
+      /** Seconds of work in earlier sessions. */
+      previousSeconds: number;
+    },
+  ) {}
+
+  /** Seconds of work so far, earlier sessions included. */
+  seconds(): number {
+    return this.times.previousSeconds + (Date.now() - this.times.t0) / 1000;
+  }
+
+  /** The run.json document as of now. */
+  document(): Record<string, unknown> {
+    const { prepared, plan, ledger, status, failure } = this;
+    const { problem, params, settings } = prepared;
+    const description = problem.describe();
+    const { started, resumes, previousSeconds } = this.times;
+    return {
+      format: runFormat,
+      'format-version': runFormatVersion,
+      software: { ...softwareVersion(), node: process.version },
+      status,
+      ...(failure !== undefined ? { failure } : {}),
+      'case-file': prepared.file ?? null,
+      started,
+      ended: status === 'running' ? null : isoNow(),
+      ...(resumes.length ? { resumed: resumes } : {}),
+      // who writes this run while it goes (resume refuses to start a second writer)
+      ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
+      ...(this.lastCheckpoint && status !== 'finished' ? { checkpoint: { ...this.lastCheckpoint } } : {}),
+      problem: {
+        model: description.model,
+        summary: description.summary,
+        fields: description.fields,
+        axes: description.axes.map((a) => ({ name: a.name, intervals: a.intervals, length: a.length, h: a.h, nodes: a.nodes })),
+        unknowns: problem.size,
+        'grid-unknowns': problem.gridUnknowns,
+        'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
+        monitors: Object.fromEntries(problem.monitors.map((m) => [m.name, m.description])),
+        ...(description.layout ? { layout: description.layout } : {}),
+      },
+      'start-parameters': { ...params },
+      'continuation-parameter': settings.parameter,
+      columns: plan.columns,
+      branches: ledger.branches.map((b) => ({
+        id: b.id,
+        depth: b.depth,
+        origin: b.origin,
+        file: b.file,
+        points: b.points,
+        ...(b.first !== undefined ? { 'first-value': b.first, 'last-value': b.last } : {}),
+        ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, 'stop-text': b.stopText, message: b.message } : {}),
+      })),
+      counts: {
+        branches: ledger.branches.length,
+        points: ledger.points,
+        folds: ledger.specials.filter((s) => s.kind === 'fold').length,
+        'branch-points': ledger.specials.filter((s) => s.kind === 'branch-point').length,
+        hopf: ledger.specials.filter((s) => s.kind === 'hopf').length,
+        ends: ledger.specials.filter((s) => s.kind === 'end').length,
+        solutions: ledger.solutions,
+      },
+      timings: {
+        'continuation-seconds': previousSeconds + this.continuationSeconds,
+        'total-seconds': this.seconds(),
+      },
+      ...(ledger.warnings.length ? { warnings: ledger.warnings } : {}),
+      ...(prepared.caution ? { caution: prepared.caution } : {}),
+      case: caseDocument(prepared.case),
+    };
+  }
+
+  /** Write run.json now. */
+  write(dir: RunDirectory): void {
+    dir.writeRunJson(this.document());
+    this.lastWritten = Date.now();
+  }
+}
