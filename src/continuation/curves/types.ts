@@ -9,7 +9,7 @@
  * special points carry the free parameter's value and the test functions besides what branch
  * points carry, so the run layer writes them with the same machinery.
  */
-import type { BranchPoint, MonitorStop, NewtonSettings, SpecialPointBase, StepSettings, StopReason } from '../types.js';
+import type { ContinuationPoint, MonitorStop, NewtonSettings, SpecialPointBase, StepSettings, StopReason } from '../types.js';
 
 /** What a curve follows. (`hopf` comes with the Hopf-curve system.) */
 export type CurveKind = 'fold' | 'branch-point';
@@ -96,7 +96,7 @@ export interface CurveInfo {
 }
 
 /** One accepted point on a curve. `parameter` is the moving parameter's value. */
-export interface CurvePoint extends BranchPoint {
+export interface CurvePoint extends ContinuationPoint {
   /** The free parameter's value. */
   free: number;
   /** Test functions by column name (see AugmentedSystem.tests). */
