@@ -49,6 +49,8 @@ import { type ContinuationSettings, defaultSettings } from '../continuation/type
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
+import { type ResolvedFollow, curveSettingsOf, followDocument, resolveFollow } from './curve-case.js';
+import { type CurveSettings, curveKinds } from '../continuation/curves/types.js';
 import {
   type RunPoint,
   extrasForSolutionFile,
@@ -93,6 +95,8 @@ export interface ResolvedContinuation {
   newton: { tolerance: number; maxIterations: number };
   locate: { folds: boolean; branchPoints: boolean };
   maxTurnDegrees: number;
+  /** A curve run: what it follows and the free parameter (./curve-case.ts). */
+  follow?: ResolvedFollow;
 }
 
 export interface ResolvedCase {
@@ -135,6 +139,11 @@ export interface PreparedCase {
   caution?: string;
   /** Start state (grid unknowns and extra unknowns) from `start:`, with where it came from in words. */
   start?: { u: Float64Array; from: string };
+  /**
+   * A curve run (`continuation.follow`): the curve engine's settings, and whether the start state
+   * is the special point itself (a run point of the followed kind: no search).
+   */
+  curve?: { settings: CurveSettings; atPoint: boolean };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -242,7 +251,7 @@ const turnText = accepted('a number of degrees above 0 and at most 90');
 const continuationSchema = section({
   parameter: z.string(accepted('the name of a parameter of the model')),
   bounds: z.tuple([finite, finite], accepted('two finite numbers [low, high]')),
-  direction: word(['increase', 'decrease']).optional(),
+  direction: word(['increase', 'decrease', 'both']).optional(),
   method: word(['arclength', 'natural']).optional(),
   step: stepSchema.optional(),
   'max-points': integerIn(1, maxPointsLimit).optional(),
@@ -254,6 +263,12 @@ const continuationSchema = section({
   }).optional(),
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
+  // curve runs (./curve-case.ts)
+  follow: word(curveKinds).optional(),
+  free: z.string(accepted('the name of a parameter of the model')).optional(),
+  'free-bounds': z.tuple([finite, finite], accepted('two finite numbers [low, high]')).optional(),
+  'free-direction': word(['increase', 'decrease']).optional(),
+  search: section({ step: stepSchema.optional(), 'max-points': integerIn(1, maxPointsLimit).optional() }).optional(),
 });
 
 const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start'] as const;
@@ -536,7 +551,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     fail('continuation.bounds', `${showValue(c.bounds)} reaches outside the accepted range of ${parameter}, [${pspec.min ?? '-inf'}, ${pspec.max ?? 'inf'}]`);
   }
   const start = params[parameter];
-  const direction = (c.direction ?? defaultSettings.direction) as 'increase' | 'decrease';
+  // `both` (curve runs: one curve each way from the first point) is checked with the curve keys
+  const direction = (c.direction === 'both' ? 'increase' : (c.direction ?? defaultSettings.direction)) as 'increase' | 'decrease';
   if (start < lo || start > hi) {
     fail(
       `parameters.${parameter}`,
@@ -579,6 +595,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     },
     maxTurnDegrees: c['max-turn-degrees'] ?? defaultSettings.maxTurnDegrees,
   };
+  const follow = resolveFollow(c, problem, params, parameter, input.stability?.eigenvalues, fail);
+  if (follow) continuation.follow = follow;
 
   // 9. output, stability, checkpoint
   const solutions = (input.output?.solutions ?? 'special') as SolutionChoice;
@@ -629,6 +647,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     settings: toSettings(continuation, resolved.stability.eigenvalues),
     ...(description.caution ?? registryCaution ? { caution: description.caution ?? registryCaution } : {}),
     ...(startState ? { start: startState } : {}),
+    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), atPoint: startFrom?.point?.record.kind === follow.kind } } : {}),
   };
 }
 
@@ -762,13 +781,14 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
       parameter: k.parameter,
       bounds: k.bounds,
       direction: k.direction,
-      method: k.method,
+      // (curve runs have no method, branch switching or locate keys)
+      ...(k.follow ? followDocument(k.follow) : { method: k.method }),
       step: k.step,
       'max-points': k.maxPoints,
       'stop-when': k.stopWhen,
-      'branch-switching': k.branchSwitching,
+      ...(k.follow ? {} : { 'branch-switching': k.branchSwitching }),
       newton: { tolerance: k.newton.tolerance, 'max-iterations': k.newton.maxIterations },
-      locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
+      ...(k.follow ? {} : { locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints } }),
       'max-turn-degrees': k.maxTurnDegrees,
     },
     output: { ...(c.output.directory !== undefined ? { directory: c.output.directory } : {}), solutions: c.output.solutions },

@@ -69,7 +69,17 @@ interface AxisInfo {
 /** Columns of a branch CSV that are not monitors. */
 const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete']);
 
-const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
+const kindWords: Record<string, string> = {
+  fold: 'fold',
+  'branch-point': 'branch point',
+  hopf: 'Hopf point',
+  end: 'end',
+  cusp: 'cusp',
+  'bogdanov-takens': 'Bogdanov–Takens point',
+  'fold-branch-point': 'fold meeting a branch point',
+  'mode-change': 'mode change',
+  'mode-crossing': 'mode crossing',
+};
 
 function str(v: unknown, fallback = ''): string {
   return typeof v === 'string' ? v : fallback;
@@ -143,8 +153,10 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     throw new InputError(`monitor '${chosen}' is not a column of this run (accepted: ${monitors.join(', ') || 'none'})`);
   }
 
-  // --- the diagram
-  const branchRecords = (Array.isArray(run.branches) ? run.branches : []) as { id: number; file: string }[];
+  // --- the diagram (curve runs: the curves in the plane of the two parameters)
+  const free = typeof run['free-parameter'] === 'string' ? run['free-parameter'] : undefined;
+  const across = free ?? chosen;
+  const branchRecords = (Array.isArray(run.branches) ? run.branches : []) as { id: number; file: string; follow?: string; mode?: number[] }[];
   const branchFiles = branchRecords.length
     ? branchRecords.map((b) => ({ id: b.id, file: b.file }))
     : listBranchFiles(dir);
@@ -163,18 +175,20 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       continue;
     }
     const ip = csv.columns.indexOf(parameter);
-    const im = csv.columns.indexOf(chosen);
+    const im = csv.columns.indexOf(across);
     const is = csv.columns.indexOf('stable');
     if (ip < 0 || im < 0) {
-      warnings.push(`branch ${b.id}: ${b.file} has no column ${ip < 0 ? parameter : chosen}`);
+      warnings.push(`branch ${b.id}: ${b.file} has no column ${ip < 0 ? parameter : across}`);
       continue;
     }
+    const record = branchRecords.find((r) => r.id === b.id);
     branches.push({
       id: b.id,
+      ...(free ? { name: `${record?.follow ?? 'curve'} curve ${b.id}${Array.isArray(record?.mode) ? `, mode ${record!.mode.join(', ')}` : ''}` } : {}),
       points: csv.rows.map((r) => ({
         parameter: r[ip],
         monitor: r[im],
-        stable: is < 0 || Number.isNaN(r[is]) ? null : r[is] === 1,
+        stable: free ? true : is < 0 || Number.isNaN(r[is]) ? null : r[is] === 1,
       })),
     });
   }
@@ -182,7 +196,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   const shown: DiagramSpecialPoint[] = [];
   for (const s of specials) {
     if (!(SPECIAL_POINT_KINDS as readonly string[]).includes(s.kind) || !ids.has(String(s.branch))) continue;
-    const m = s.monitors?.[chosen];
+    const m = free ? num(s.free) : s.monitors?.[chosen];
     const value = num(s.value);
     if (typeof m !== 'number' || !Number.isFinite(m) || !Number.isFinite(value)) continue;
     // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
@@ -191,13 +205,17 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   nameCoincidentBranches(branches);
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
+  const follow = str(run.follow, 'special point');
   const svg = diagramSvg({
-    title: `${title.name}: ${monitorWords(chosen, fields, descriptions)} against ${parameter}${statusNote}`,
+    title: free
+      ? `${title.name}: the ${follow.replace(/-/g, ' ')} curve${branches.length === 1 ? '' : 's'} in the plane of ${parameter} and ${free}${statusNote}`
+      : `${title.name}: ${monitorWords(chosen, fields, descriptions)} against ${parameter}${statusNote}`,
     subtitle: [title.summary, title.grid].filter((t) => t !== '').join('; '),
     parameterName: parameter,
-    monitorName: monitorWords(chosen, fields, descriptions),
+    monitorName: free ?? monitorWords(chosen, fields, descriptions),
     branches,
     specialPoints: shown,
+    ...(free ? { curves: true } : {}),
     ...(caution ? { caution } : {}),
   });
   writeFileAtomic(join(dir, 'diagram.svg'), svg);
@@ -340,14 +358,17 @@ interface SolutionContext {
 /** `fold 2 on branch 1`, `the end of branch 3` (from the record and its file name). */
 function pointTitle(s: SpecialRecord): string {
   const k = /-(\d+)\.npy$/.exec(String(s.solution ?? ''))?.[1];
-  if (s.kind === 'end') return `the end of branch ${s.branch}`;
+  const what = typeof s['free-parameter'] === 'string' ? 'curve' : 'branch';
+  if (s.kind === 'end') return `the end of ${what} ${s.branch}`;
   const words = kindWords[s.kind] ?? s.kind.replace(/-/g, ' ');
-  return `${words}${k ? ` ${k}` : ''} on branch ${s.branch}`;
+  return `${words}${k ? ` ${k}` : ''} on ${what} ${s.branch}`;
 }
 
 /** One line under the title: parameter value, the diagram's monitor, extra unknowns, location status. */
 function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
   const parts = [`${ctx.parameter} = ${formatValue(num(s.value), 10)}`];
+  // points on curves: the free parameter too
+  if (typeof s['free-parameter'] === 'string') parts.push(`${s['free-parameter']} = ${formatValue(num(s.free), 10)}`);
   const m = s.monitors?.[ctx.monitor];
   if (typeof m === 'number') parts.push(`${monitorWords(ctx.monitor, ctx.fields, ctx.descriptions)} = ${formatValue(m, 6)}`);
   const extras = s['extra-unknowns'];

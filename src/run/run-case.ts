@@ -30,6 +30,8 @@ import { readdirSync, rmSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
 import type { ContinuationSettings, EngineEvent } from '../continuation/types.js';
+import type { CurveEvent } from '../continuation/curves/types.js';
+import { curveColumns, curveEngine } from './curve-run.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { type PreparedCase, caseDocument } from './case.js';
@@ -45,7 +47,8 @@ export type { CheckpointContext, CheckpointWritten, ProgressInfo };
 
 /** What runCase needs from the continuation engine (src/continuation/engine.ts). */
 export interface EngineLike {
-  events(): Generator<EngineEvent, unknown>;
+  /** Branch events (the one-parameter engine) or curve events (the curve engine: curve runs). */
+  events(): Generator<EngineEvent | CurveEvent, unknown>;
   snapshot(): unknown;
   /** When present: whether a snapshot taken now resumes cleanly. */
   readonly canSnapshot?: boolean;
@@ -157,14 +160,14 @@ export async function runCase(prepared: PreparedCase, options: RunCaseOptions = 
 
 /** Step 1 of a new run: the output folder, created or (with `force`) emptied of an earlier run. */
 function prepareRunFolder(prepared: PreparedCase, outDir: string, force: boolean): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const dir = RunDirectory.create(outDir, { force });
   return { outDir, dir, ledger: emptyLedger(), plan };
 }
 
 /** Step 1 of a resumed run: the folder cut back to what the checkpoint's ledger records. */
 function resumeRunFolder(prepared: PreparedCase, outDir: string, resume: ResumeState): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const ledger = structuredClone(resume.ledger);
   const dir = RunDirectory.reopen(outDir, ledger, () => plan.columns);
   removeUnrecorded(outDir, ledger, prepared.case.output.solutions);
@@ -226,7 +229,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
 
   let stopped = false;
   try {
-    engine = (options.engine ?? defaultEngine)(problem, params, settings, {
+    engine = (options.engine ?? (prepared.curve ? curveEngine(prepared) : defaultEngine))(problem, params, settings, {
       ...((options.start ?? prepared.start) ? { start: options.start ?? prepared.start!.u } : {}),
       ...(options.resume ? { state: options.resume.engineState } : {}),
     });
@@ -278,7 +281,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
       if (!first) {
         record.status = 'failed';
         record.failure = 'the engine produced no branch';
-      } else if (first.stopReason !== undefined && failureReasons.includes(first.stopReason)) {
+      } else if (first.stopReason !== undefined && (failureReasons as readonly string[]).includes(first.stopReason)) {
         record.status = 'failed';
         record.failure = `branch ${first.id} ended: ${first.message || first.stopText}`;
       } else {

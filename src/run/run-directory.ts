@@ -21,6 +21,7 @@
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import type { ContinuationPoint, SpecialPoint, StopReason } from '../continuation/types.js';
+import type { CurveStopReason } from '../continuation/curves/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
 import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
@@ -40,14 +41,21 @@ const ownEntryPattern = /^(checkpoint.*|\..*\.tmp)$/;
 export interface BranchRecord {
   id: number;
   depth: number;
-  origin: { kind: 'start'; direction: 'increase' | 'decrease' } | { kind: 'branch-point'; branch: number; value: number; direction?: 'increase' | 'decrease' | 'both' };
+  origin:
+    | { kind: 'start'; direction: 'increase' | 'decrease' }
+    | { kind: 'branch-point'; branch: number; value: number; direction?: 'increase' | 'decrease' | 'both' }
+    /** Curve runs: a curve that follows the new critical mode from a mode change of curve `branch`. */
+    | { kind: 'mode-change'; branch: number; value: number };
+  /** Curve runs: what the curve follows, and (branch-point curves) its critical mode at the start. */
+  follow?: string;
+  mode?: number[];
   /** CSV file, relative to the run directory. */
   file: string;
   points: number;
   /** Continuation parameter at the first and last accepted point. */
   first?: number;
   last?: number;
-  stopReason?: StopReason;
+  stopReason?: StopReason | CurveStopReason;
   stopText?: string;
   message?: string;
   /**
@@ -100,6 +108,18 @@ export interface ColumnPlan {
   stability: boolean;
   /** Eigenvalues written per point (real and imaginary part each): stability.eigenvalues. */
   eigenvalues: number;
+  /** Curve runs: the free parameter's column, test-function columns and mode columns. */
+  curve?: CurveColumns;
+}
+
+/** The extra columns of a curve run's CSVs (./curve-run.ts). */
+export interface CurveColumns {
+  /** The free parameter (its column follows the continuation parameter's). */
+  free: string;
+  /** Test-function columns (last), in the system's order. */
+  tests: string[];
+  /** Mode columns (`mode-x`, …) for branch-point curves: the critical mode's wavenumber per axis. */
+  modes: string[];
 }
 
 /** Per-point eigenvalue columns: `eigenvalue-1-real`, `eigenvalue-1-imag`, … (rightmost first). */
@@ -116,7 +136,7 @@ export function eigenvalueColumns(count: number): string[] {
  * columns, `search-complete` (whether every eigenvalue with real part ≥ 0 was certified found)
  * and the real and imaginary parts of the `eigenvalues` rightmost eigenvalues.
  */
-export function columnPlan(problem: Problem, parameter: string, eigenvalues: number): ColumnPlan {
+export function columnPlan(problem: Problem, parameter: string, eigenvalues: number, curve?: CurveColumns): ColumnPlan {
   const monitors = problem.monitors.map((m) => m.name);
   const extras = problem.extraUnknowns.map((e) => e.name).filter((n) => !monitors.includes(n));
   const stability = eigenvalues > 0;
@@ -124,13 +144,15 @@ export function columnPlan(problem: Problem, parameter: string, eigenvalues: num
     'point',
     'arclength',
     parameter,
+    ...(curve ? [curve.free] : []),
     ...monitors,
     ...extras,
     'newton-iterations',
     'step-length',
     ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues)] : []),
+    ...(curve ? [...curve.tests, ...curve.modes] : []),
   ];
-  return { columns, monitors, extras, stability, eigenvalues };
+  return { columns, monitors, extras, stability, eigenvalues, ...(curve ? { curve } : {}) };
 }
 
 /** The stability data a point carries when the engine computes eigenvalues (see types.ts). */
@@ -150,6 +172,9 @@ export function hasStability(p: ContinuationPoint): boolean {
 
 export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoint): CsvCell[] {
   const row: CsvCell[] = [p.index, p.arclength, p.parameter];
+  // a curve point also carries the free parameter, its test functions and its critical mode
+  const cp = p as ContinuationPoint & { free?: number; tests?: Record<string, number>; mode?: number[] };
+  if (plan.curve) row.push(cp.free);
   for (const m of plan.monitors) row.push(p.monitors[m]);
   plan.extras.forEach((_name, i) => row.push(p.u[problem.gridUnknowns + i]));
   row.push(p.newtonIterations, p.step);
@@ -161,6 +186,10 @@ export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoin
       const e = s?.eigenvalues?.[k];
       row.push(e?.re, e?.im);
     }
+  }
+  if (plan.curve) {
+    for (const t of plan.curve.tests) row.push(cp.tests?.[t]);
+    plan.curve.modes.forEach((_c, a) => row.push(cp.mode?.[a]));
   }
   return row;
 }

@@ -12,6 +12,7 @@ import { caseDocument } from './case.js';
 import type { CheckpointWritten } from './run-hooks.js';
 import { type ColumnPlan, type RunDirectory, type RunLedger, type RunStatus, runFormat, runFormatVersion } from './run-directory.js';
 import { softwareVersion } from './version.js';
+import { curveSpecialKinds } from '../continuation/curves/types.js';
 
 export function isoNow(): string {
   return new Date().toISOString();
@@ -80,6 +81,8 @@ export class RunRecord {
       },
       'start-parameters': { ...params },
       'continuation-parameter': settings.parameter,
+      // curve runs: what the curves follow and the parameter that adjusts along them
+      ...(prepared.curve ? { follow: prepared.curve.settings.follow, 'free-parameter': prepared.curve.settings.free } : {}),
       columns: plan.columns,
       branches: ledger.branches.map((b) => ({
         id: b.id,
@@ -89,6 +92,8 @@ export class RunRecord {
         points: b.points,
         ...(b.first !== undefined ? { 'first-value': b.first, 'last-value': b.last } : {}),
         ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, 'stop-text': b.stopText, message: b.message } : {}),
+        ...(b.follow !== undefined ? { follow: b.follow } : {}),
+        ...(b.mode !== undefined ? { mode: b.mode } : {}),
       })),
       counts: {
         branches: ledger.branches.length,
@@ -98,6 +103,8 @@ export class RunRecord {
         hopf: ledger.specials.filter((s) => s.kind === 'hopf').length,
         ends: ledger.specials.filter((s) => s.kind === 'end').length,
         solutions: ledger.solutions,
+        // codimension-two points of curve runs, by kind
+        ...(prepared.curve ? Object.fromEntries(curveSpecialKinds.map((k) => [k, ledger.specials.filter((s) => s.kind === k).length])) : {}),
       },
       timings: {
         'continuation-seconds': previousSeconds + this.continuationSeconds,

@@ -21,7 +21,7 @@ import { basename, dirname, join, relative, resolve } from 'node:path';
 import type { SpecialRecord } from './run-directory.js';
 import { parseJsonNumber, readNpy } from './writers.js';
 
-export const pointKinds = ['fold', 'branch-point', 'hopf', 'end'] as const;
+export const pointKinds = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing'] as const;
 export type PointKind = (typeof pointKinds)[number];
 
 /** The N-th special point of a kind (index from 1). */
@@ -30,7 +30,8 @@ export interface PointSpec {
   index: number;
 }
 
-export const pointSpecAccepted = 'fold, branch-point, hopf or end, optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2';
+export const pointSpecAccepted =
+  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2';
 
 /** Parse `fold`, `fold:2`, `branch-point:1`...; returns null when the text is not one of these. */
 export function parsePointSpec(text: string): PointSpec | null {
@@ -45,7 +46,7 @@ export function parsePointSpec(text: string): PointSpec | null {
 
 /** `fold 1`, `branch point 2`, `Hopf point 1`, `end 1` (plain words). */
 export function pointWords(spec: PointSpec): string {
-  const word = spec.kind === 'branch-point' ? 'branch point' : spec.kind === 'hopf' ? 'Hopf point' : spec.kind;
+  const word = spec.kind === 'branch-point' ? 'branch point' : spec.kind === 'hopf' ? 'Hopf point' : spec.kind.replace(/-/g, ' ');
   return `${word} ${spec.index}`;
 }
 
@@ -147,6 +148,14 @@ export function runPointParameters(files: RunFiles, record: SpecialRecord): Reco
     }
   }
   out[record.parameter] = record.value;
+  // a point on a curve: the free parameter's value there too
+  if (typeof record['free-parameter'] === 'string') {
+    try {
+      out[record['free-parameter']] = parseJsonNumber(record.free);
+    } catch {
+      /* left to the run's start value */
+    }
+  }
   return out;
 }
 

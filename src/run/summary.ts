@@ -6,6 +6,7 @@
 import { existsSync, readdirSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { stopReasonText } from '../continuation/types.js';
+import { curveStopText } from '../continuation/curves/types.js';
 import type { PreparedCase } from './case.js';
 import type { BranchRecord, SpecialRecord } from './run-directory.js';
 import type { RunResult } from './run-case.js';
@@ -40,7 +41,9 @@ function leadingMonitor(s: SpecialRecord, prepared: PreparedCase): string | unde
 
 function specialText(s: SpecialRecord, prepared: PreparedCase): string {
   const p = prepared.settings.parameter;
-  const at = `${p} = ${formatValue(s.value, parameterDigits)}`;
+  // on curves a point has both parameters
+  const free = typeof s['free-parameter'] === 'string' && typeof s.free === 'number' ? `, ${s['free-parameter']} = ${formatValue(s.free, parameterDigits)}` : '';
+  const at = `${p} = ${formatValue(s.value, parameterDigits)}${free}`;
   const mon = leadingMonitor(s, prepared);
   const details: string[] = [];
   if (mon) details.push(mon);
@@ -64,6 +67,13 @@ function specialText(s: SpecialRecord, prepared: PreparedCase): string {
       if (typeof s.period === 'number') words.push(`period ${formatValue(s.period, monitorDigits)}`);
       if (typeof s.crossing === 'string') words.push(s.crossing);
       return `Hopf point at ${at} (${[...words, ...details].join(', ')})`;
+    }
+    case 'mode-change':
+    case 'mode-crossing': {
+      const words = Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? [`mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}`] : [];
+      const nb = Array.isArray(s['new-branches']) ? (s['new-branches'] as number[]) : [];
+      if (nb.length) words.push(`followed as curve ${nb.join(', ')}`);
+      return `${s.kind.replace(/-/g, ' ')} at ${at} (${[...words, ...details].join(', ')})`;
     }
     default:
       return `${s.kind.replace(/-/g, ' ')} at ${at}${details.length ? ` (${details.join(', ')})` : ''}`;
@@ -92,7 +102,7 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
     case 'point-limit':
       return `reached the point limit (${prepared.settings.maxPoints})`;
     default: {
-      const text = stopReasonText[reason] ?? reason;
+      const text = reason === 'free-bound' || reason === 'mode-change' ? curveStopText[reason] : (stopReasonText[reason] ?? reason);
       return b.message && b.message !== text ? `${text} (${b.message})` : text;
     }
   }
@@ -100,7 +110,14 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
 
 function originText(b: BranchRecord, prepared: PreparedCase): string {
   const p = prepared.settings.parameter;
+  const mode = b.mode ? `, mode ${b.mode.join(', ')}` : '';
+  if (b.follow !== undefined) {
+    const what = `${b.follow} curve${mode}`;
+    if (b.origin.kind === 'mode-change') return `${what}, from the mode change at ${p} = ${formatValue(b.origin.value, parameterDigits)} on curve ${b.origin.branch}`;
+    return `${what}, ${p} ${b.origin.kind === 'start' && b.origin.direction === 'decrease' ? 'decreasing' : 'increasing'} from the first point`;
+  }
   if (b.origin.kind === 'start') return `from the start, ${p} ${b.origin.direction === 'increase' ? 'increasing' : 'decreasing'}`;
+  if (b.origin.kind === 'mode-change') return `from the mode change at ${p} = ${formatValue(b.origin.value, parameterDigits)}`;
   const dir = b.origin.direction === 'increase' ? `, ${p} increasing` : b.origin.direction === 'decrease' ? `, ${p} decreasing` : '';
   return `from the branch point at ${p} = ${formatValue(b.origin.value, parameterDigits)} on branch ${b.origin.branch}${dir}`;
 }
@@ -114,9 +131,9 @@ export function branchLines(result: RunResult, prepared: PreparedCase): string[]
     const parts = [`${b.points} point${b.points === 1 ? '' : 's'}`];
     for (const s of specials.slice(0, namedPerBranch)) parts.push(specialText(s, prepared));
     if (specials.length > namedPerBranch) parts.push(`${specials.length - namedPerBranch} more special points (see points.json)`);
-    if (specials.length === 0 && b.points > 0) parts.push('no fold or branch point');
+    if (specials.length === 0 && b.points > 0) parts.push(b.follow !== undefined ? 'no codimension-two point' : 'no fold or branch point');
     parts.push(`ended: ${endText(b, end, prepared)}`);
-    lines.push(`Branch ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
+    lines.push(`${b.follow !== undefined ? 'Curve' : 'Branch'} ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
     if (b.stability?.length) lines.push(`  stability: ${stabilityText(b.stability, prepared.settings.parameter)}`);
   }
   return lines;
@@ -147,7 +164,9 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const h = d.axes.map((a) => formatValue(a.h, 6)).join(', ');
   const out: string[] = [];
   out.push(`Case ${prepared.case.name}: ${d.summary}`);
-  out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`);
+  const curve = prepared.curve?.settings;
+  const what = curve ? `the ${curve.follow} followed in ${curve.parameter} over [${curve.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}], ${curve.free} free` : `continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`;
+  out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; ${what}`);
   out.push(...branchLines(result, prepared));
   const status =
     result.status === 'finished'

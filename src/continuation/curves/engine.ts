@@ -43,9 +43,12 @@ export { CurveError };
 /** A curve waiting to be followed (queued at a mode change). */
 export interface PendingCurve {
   info: CurveInfo;
-  /** Where it starts (the mode change) and its first converged point beyond. */
+  /**
+   * Where it starts (a mode change, or the first point again for the second way of
+   * `direction: both`) and, off a mode change, its first converged point beyond.
+   */
   origin: Float64Array;
-  first: Float64Array;
+  first?: Float64Array;
   tangent: Float64Array;
   step: number;
   tests: TestValue[];
@@ -323,12 +326,18 @@ export class CurveContinuation {
       // the curve is vertical here (parameter at a turn): orient along the free parameter instead
       tangent = this.tangentAlong(this.unit(sys.freeIndex), true);
     }
-    const dir = st.direction === 'increase' ? 1 : -1;
+    const dir = st.direction === 'decrease' ? -1 : 1;
     if (tangent[sys.parameterIndex] * dir < 0) for (let i = 0; i < tangent.length; i++) tangent[i] = -tangent[i];
     const tests = sys.tests(true);
     const mode = sys.mode?.();
     sys.adopt();
-    const info: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, ...(mode ? { mode } : {}) };
+    const info: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, direction: dir > 0 ? 'increase' : 'decrease', ...(mode ? { mode } : {}) };
+    if (st.direction === 'both') {
+      // the other way from the same first point, once this curve has ended
+      const back = tangent.map((t) => -t);
+      const other: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, direction: 'decrease', ...(mode ? { mode } : {}) };
+      this.state.queue.push({ info: other, origin: y.slice(), tangent: back, step: st.step.initial, tests, residual: res.residual, system: sys.saveState() });
+    }
     const b: CurveBranchState = {
       info,
       y,
@@ -364,6 +373,13 @@ export class CurveContinuation {
       firstTangent: p.tangent.slice(),
     };
     this.state.curves.push(p.info);
+    if (!p.first) {
+      // the second way from the first point: the same point, the tangent reversed
+      b.residual = p.residual;
+      b.tests = p.tests;
+      this.state.current = b;
+      return [{ type: 'branch-start', branch: p.info }, this.pointEvent(b, 0, 0, p.info.mode)];
+    }
     const events: CurveEvent[] = [{ type: 'branch-start', branch: p.info }, this.pointEvent(b, 0, 0, p.info.mode)];
     const ds = wnorm(sys, difference(p.first, p.origin));
     b.y = p.first.slice();
@@ -683,7 +699,14 @@ export class CurveContinuation {
     }
     const newMode = sys.mode?.() ?? special.newMode;
     sys.adopt();
-    const info: CurveInfo = { id: this.state.nextId++, depth: b.info.depth + 1, follow: b.info.follow, origin: { kind: 'mode-change', branch: b.info.id, value: at.y[ip] }, ...(newMode ? { mode: newMode } : {}) };
+    const info: CurveInfo = {
+      id: this.state.nextId++,
+      depth: b.info.depth + 1,
+      follow: b.info.follow,
+      origin: { kind: 'mode-change', branch: b.info.id, value: at.y[ip] },
+      direction: first.tangent[ip] >= 0 ? 'increase' : 'decrease',
+      ...(newMode ? { mode: newMode } : {}),
+    };
     special.newBranches.push(info.id);
     if (newMode) special.newMode = newMode;
     this.state.queue.push({ info, origin: at.y.slice(), first: first.y, tangent: first.tangent, step: h, tests: first.tests, residual: first.residual, system: sys.saveState() });

@@ -39,8 +39,8 @@ export interface CurveSettings {
   bounds: [number, number];
   /** Bounds of the free parameter (±Infinity: none); they end the curve, and the search for the first point. */
   freeBounds: [number, number];
-  /** Which way `parameter` moves at the start. */
-  direction: 'increase' | 'decrease';
+  /** Which way `parameter` moves from the first point (`both`: one curve each way). */
+  direction: 'increase' | 'decrease' | 'both';
   /** Which way `free` moves from the start state when searching for the first fold or branch point. */
   freeDirection: 'increase' | 'decrease';
   step: StepSettings;
@@ -91,6 +91,8 @@ export interface CurveInfo {
     | { kind: 'start' }
     /** Born where the critical mode of curve `branch` changed, at `value` of the parameter. */
     | { kind: 'mode-change'; branch: number; value: number };
+  /** Which way the parameter moves at the curve's start. */
+  direction: 'increase' | 'decrease';
   /** The critical mode's wavenumbers per axis at the curve's start (branch-point curves). */
   mode?: number[];
 }
