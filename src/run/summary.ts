@@ -165,7 +165,7 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const out: string[] = [];
   out.push(`Case ${prepared.case.name}: ${d.summary}`);
   const curve = prepared.curve?.settings;
-  const what = curve ? `the ${curve.follow} followed in ${curve.parameter} over [${curve.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}], ${curve.free} free` : `continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`;
+  const what = curve ? `the ${curve.follow.replace(/-/g, ' ')} followed in ${curve.parameter} over [${curve.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}], ${curve.free} free` : `continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`;
   out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; ${what}`);
   out.push(...branchLines(result, prepared));
   const status =

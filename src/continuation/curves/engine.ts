@@ -710,8 +710,8 @@ export class CurveContinuation {
     special.newBranches.push(info.id);
     if (newMode) special.newMode = newMode;
     this.state.queue.push({ info, origin: at.y.slice(), first: first.y, tangent: first.tangent, step: h, tests: first.tests, residual: first.residual, system: sys.saveState() });
-    const words = (k?: number[]): string => (k ? `(${k.join(', ')})` : 'unknown');
-    events.push({ type: 'special', point: special }, ...this.end(b, 'mode-change', `the critical mode changed from ${words(oldMode)} to ${words(newMode)} at ${st.parameter} = ${fmt(at.y[ip])}; curve ${info.id} follows the new mode`));
+    const words = (k?: number[]): string => (k ? k.join(', ') : 'unknown');
+    events.push({ type: 'special', point: special }, ...this.end(b, 'mode-change', `mode ${words(oldMode)} → ${words(newMode)} at ${st.parameter} = ${fmt(at.y[ip])}; curve ${info.id} follows the new mode`));
     return events;
   }
 

@@ -79,7 +79,7 @@ export type CurveStopReason = StopReason | 'free-bound' | 'mode-change';
 
 export const curveStopText: Record<'free-bound' | 'mode-change', string> = {
   'free-bound': 'the free parameter reached a bound',
-  'mode-change': 'the critical mode changed (the curve goes on with the new mode)',
+  'mode-change': 'the critical mode changed',
 };
 
 /** A curve's identity and origin (the branch-start event of a curve run carries this). */
