@@ -93,6 +93,36 @@ describe('curve runs: files', () => {
     expect(existsSync(join(out, 'plots', 'branch-2-cusp-1.svg'))).toBe(true);
   });
 
+  it('check covers the augmented systems (fold and branch-point curves)', async () => {
+    const a = await cli('check', write('cusp-check.yaml', cusp));
+    expect(a.code, a.out + a.err).toBe(0);
+    expect(a.out).toMatch(/fold curve system \(F = 0 and the bordered null-vector condition, in p2 and p1\): agrees — linearisation against differences [\d.]+e-\d+, bordered solve [\d.]+e-\d+ \(relative\)/);
+    const b = await cli('check', write('turing-check.yaml', turing), '--json');
+    expect(b.code).toBe(0);
+    const doc = JSON.parse(b.out);
+    expect(doc.agree).toBe(true);
+    expect(doc.curve.kind).toBe('branch-point curve');
+    expect(doc.curve['jacobian-error']).toBeLessThan(1e-6);
+  });
+
+  it('new --follow prints curve starters that check accepts; models without one are told which exist', async () => {
+    for (const [model, kind] of [['bratu', 'fold'], ['brusselator', 'branch-point'], ['beam-foundation', 'fold'], ['beam-foundation', 'branch-point']]) {
+      const r = await cli('new', model, '--follow', kind);
+      expect(r.code, r.err).toBe(0);
+      expect(r.out).toContain(`follow: ${kind}`);
+      const file = write(`starter-${model}-${kind}.yaml`, r.out.replace(/intervals: \[100\]/, 'intervals: [20]'));
+      const c = await cli('check', file, '--json');
+      expect(c.code, `${model} ${kind}: ${c.err}`).toBe(0);
+      expect(JSON.parse(c.out).curve.kind).toBe(`${kind} curve`);
+    }
+    const none = await cli('new', 'allen-cahn', '--follow', 'fold');
+    expect(none.code).toBe(2);
+    expect(none.err).toMatch(/no curve starter for model 'allen-cahn' \(offered: bratu --follow fold, brusselator --follow branch-point/);
+    const bad = await cli('new', 'bratu', '--follow', 'hopf');
+    expect(bad.code).toBe(2);
+    expect(bad.err).toMatch(/--follow: 'hopf' is not accepted \(accepted: fold, branch-point\)/);
+  });
+
   it('bad curve keys: one line naming the field and what is accepted (exit 2)', async () => {
     const bad: [string, string, RegExp][] = [
       ['free missing', cusp.replace('  free: p1\n', ''), /continuation\.free: is missing: the parameter that adjusts to stay on the fold \(accepted: one of p1, p2 other than p2\)/],

@@ -83,6 +83,8 @@ export interface AugmentedSystem {
    * (not finite when G is not). Throws SparseLUError when a bordered matrix is singular.
    */
   evaluate(y: Float64Array, out: Float64Array): number;
+  /** The rounding level of the last evaluated residual in the measure `evaluate` returns (0 when negligible). */
+  residualFloor?(): number;
   /**
    * Solve a linearisation bordered by `row` (weighted already): the one at the last evaluated
    * point after `exact`, otherwise possibly an earlier one (chord iterations).

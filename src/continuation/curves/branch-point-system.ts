@@ -221,6 +221,11 @@ export class BranchPointSystem implements AugmentedSystem {
     });
   }
 
+  /** The rounding level of the last evaluated residual, in its scaled measure (that of g: F's is far below). */
+  residualFloor(): number {
+    return this.border.gRoundingLevel() / this.gScale;
+  }
+
   tests(exact = false): TestValue[] {
     const det = this.border.determinant(exact);
     return [{ value: det.sign, logAbs: det.logAbs }];

@@ -13,7 +13,10 @@
  * The solve is measured by its backward error ‖A z − b‖∞ / (‖A‖∞‖z‖∞ + ‖b‖∞), ‖A‖∞ estimated
  * from products with random sign vectors.
  */
+import type { Params, Problem } from '../../problem/problem.js';
 import { type AugmentedSystem, pseudoRandomVector } from './augmented.js';
+import { curveSystem } from './engine.js';
+import type { CurveSettings } from './types.js';
 
 export interface AugmentedCheck {
   /** Largest relative error of G_y δ against central differences over the directions tried. */
@@ -101,4 +104,28 @@ export function checkAugmentedSystem(sys: AugmentedSystem, y: Float64Array, opti
   // leave the system evaluated at y
   sys.evaluate(y, g0);
   return { jacobianError, solveError, directions: count, passed: jacobianError <= tolerance && solveError <= tolerance };
+}
+
+/**
+ * The check of a curve case's system at its start state `u` (default: the model's initial guess)
+ * and parameters, with borders set up there; `{error}` when the system cannot be built or set up
+ * there (e.g. a branch-point curve from a state that is not uniform).
+ */
+export function checkCurveCase(problem: Problem, params: Params, settings: CurveSettings, u?: Float64Array): AugmentedCheck | { error: string } {
+  const state = u ?? problem.initialGuess(params);
+  let sys: AugmentedSystem;
+  try {
+    sys = curveSystem(problem, params, settings, state);
+  } catch (e) {
+    return { error: (e as Error).message };
+  }
+  try {
+    const y = sys.fromState(state, params);
+    sys.initialise(y);
+    return checkAugmentedSystem(sys, y);
+  } catch (e) {
+    return { error: (e as Error).message };
+  } finally {
+    sys.dispose();
+  }
 }

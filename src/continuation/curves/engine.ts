@@ -68,6 +68,8 @@ export interface CurveBranchState {
   tests: TestValue[];
   firstY: Float64Array;
   firstTangent: Float64Array;
+  /** The followed critical mode at the current point (branch-point curves). */
+  mode?: number[];
 }
 
 export interface CurveState {
@@ -349,6 +351,7 @@ export class CurveContinuation {
       tests,
       firstY: y.slice(),
       firstTangent: tangent.slice(),
+      ...(mode ? { mode } : {}),
     };
     this.state.curves.push(info);
     this.state.current = b;
@@ -371,6 +374,7 @@ export class CurveContinuation {
       tests: p.tests.map(() => ({ value: NaN })),
       firstY: p.origin.slice(),
       firstTangent: p.tangent.slice(),
+      ...(p.info.mode ? { mode: p.info.mode } : {}),
     };
     this.state.curves.push(p.info);
     if (!p.first) {
@@ -475,7 +479,8 @@ export class CurveContinuation {
       const loc = this.locate(b, i, yNew, testsNew, ds);
       const u = sys.state(loc.y);
       const p = sys.params(loc.y);
-      const mode = sys.mode?.();
+      // the followed mode (at the located point itself two modes mix)
+      const mode = b.mode ?? sys.mode?.();
       const special: CurveSpecialPoint = {
         kind: f.kind,
         branch: b.info.id,
@@ -563,7 +568,8 @@ export class CurveContinuation {
     const nt = this.settings.newton;
     const strict = { ...this.newton(true), residualTolerance: Math.max(1e-3 * nt.residualTolerance, 1e-14), stepTolerance: Math.max(1e-3 * nt.stepTolerance, 1e-14) };
     const r = correctCurve(this.sys!, y, t, ref, strict, this.work!);
-    if (!r.converged && (r.failure === 'stalled' || r.failure === 'max-iterations') && r.residual <= nt.residualTolerance) return { ...r, converged: true };
+    const floor = Math.max(nt.residualTolerance, this.sys!.residualFloor?.() ?? 0);
+    if (!r.converged && (r.failure === 'stalled' || r.failure === 'max-iterations') && r.residual <= floor) return { ...r, converged: true };
     return r;
   }
 
@@ -625,6 +631,7 @@ export class CurveContinuation {
         b.index++;
         b.residual = r.residual;
         b.tests = tests;
+        if (mode) b.mode = mode;
         sys.adopt();
         const within = (y: Float64Array): boolean => y[ip] >= st.bounds[0] && y[ip] <= st.bounds[1] && y[jf] >= st.freeBounds[0] && y[jf] <= st.freeBounds[1];
         const name = bound.index === ip ? st.parameter : st.free;
@@ -641,6 +648,7 @@ export class CurveContinuation {
     b.index++;
     b.residual = residual;
     b.tests = testsNew;
+    if (modeNew) b.mode = modeNew;
     sys.adopt();
     const grow = iterations <= 1 ? 2 : iterations === 2 ? 1.5 : iterations === 3 ? 1.2 : iterations <= 5 ? 1 : 0.6;
     b.step = Math.min(st.step.max, Math.max(st.step.min, ds * (located.length ? Math.min(grow, 1) : grow)));

@@ -277,6 +277,11 @@ export class FoldSystem implements AugmentedSystem {
     out[n] = s;
   }
 
+  /** The rounding level of the last evaluated residual, in its scaled measure (that of g: F's is far below). */
+  residualFloor(): number {
+    return this.border.gRoundingLevel() / this.gScale;
+  }
+
   tests(exact = false): TestValue[] {
     const u = this.y.subarray(0, this.n);
     const p = this.params(this.y);

@@ -5,7 +5,8 @@
  * (../newton.ts): the system's scaled residual below `residualTolerance` and the weighted norm
  * of the last update below `stepTolerance`·(1 + ‖y‖_w), or a residual four orders below the
  * tolerance after at least one iteration (near singular points the update stalls at rounding
- * level). Failures carry a reason in words.
+ * level). The residual tolerance is raised to the system's rounding level where that is higher
+ * (g near a second singularity). Failures carry a reason in words.
  *
  * The residual is exact at every iterate; the linearisation starts as the system's last one
  * (chord iterations: the last converged point's) unless `exact` is set, and is made exact at
@@ -81,7 +82,9 @@ export function correctCurve(
     for (let i = 0; i < m; i++) c += row[i] * (y[i] - ref[i]);
     const yNorm = wnorm(sys, y);
     const stepOk = it === 0 ? Math.abs(c) <= options.stepTolerance * (1 + yNorm) : lastUpdate <= options.stepTolerance * (1 + yNorm);
-    if (res <= options.residualTolerance && (stepOk || (it > 0 && res <= 1e-4 * options.residualTolerance))) {
+    // near a second singularity the residual cannot go below its rounding level
+    const tol = Math.max(options.residualTolerance, sys.residualFloor?.() ?? 0);
+    if (res <= tol && (stepOk || (it > 0 && res <= 1e-4 * tol))) {
       return { converged: true, iterations: it, residual: res };
     }
     if (it >= options.maxIterations) {
@@ -93,7 +96,7 @@ export function correctCurve(
     if (res < 0.9 * bestResidual) {
       bestResidual = res;
       sinceBest = 0;
-    } else if (++sinceBest >= 4 && res > options.residualTolerance) {
+    } else if (++sinceBest >= 4 && res > tol) {
       return { converged: false, iterations: it, residual: res, failure: 'stalled', message: `Newton stalled at residual ${res.toExponential(2)}` };
     }
     // chord iterations while they contract well (the residual at least quartered); else the

@@ -324,6 +324,30 @@ export class NullVectorBorder {
   }
 
   /**
+   * The rounding level of g at the last update: g is the coefficient of b in J v + b g = 0, so
+   * its error is about ε·max_i Σ_j |J_ij v_j| / max_i |b_i| (times a safety factor 64). Near a
+   * second singularity (mode changes, where M is nearly singular) the computed g cannot be
+   * smaller than this.
+   */
+  gRoundingLevel(): number {
+    const pat = this.problem.pattern();
+    const J = this.J!;
+    const v = this.v;
+    const m = this.scratch;
+    m.fill(0);
+    let bmax = 0;
+    for (let i = 0; i < this.n; i++) bmax = Math.max(bmax, Math.abs(this.b[i]));
+    for (let j = 0; j < this.n; j++) {
+      const vj = Math.abs(v[j]);
+      if (vj === 0) continue;
+      for (let k = pat.colPtr[j]; k < pat.colPtr[j + 1]; k++) m[pat.rowIdx[k]] += Math.abs(J[k]) * vj;
+    }
+    let mag = 0;
+    for (let i = 0; i < this.n; i++) mag = Math.max(mag, m[i]);
+    return (64 * Number.EPSILON * mag) / Math.max(bmax, 1e-300);
+  }
+
+  /**
    * Sign and log |det M| of the reference factorisation: at the last update's point when
    * `exact` (factoring there when needed), otherwise wherever the LU was made (within a step of
    * the point: a sign change is then confirmed exactly before it is located).
