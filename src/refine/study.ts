@@ -362,7 +362,7 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
   }
 
   const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t), options.signal?.aborted));
-  return finishStudy(prepared, { studyDir, branch, parameter, expected, point: options.point, outcomes, stopped: options.signal?.aborted ?? false });
+  return finishStudy(prepared, { studyDir, branch, branchGiven: options.branch !== undefined, parameter, expected, point: options.point, outcomes, stopped: options.signal?.aborted ?? false });
 }
 
 /** Pick the point, analyse, write refine.csv / refine.json / refine.svg. */
@@ -371,6 +371,8 @@ function finishStudy(
   s: {
     studyDir: string;
     branch: number;
+    /** Whether --branch was given (curve runs: otherwise the curve holding the point). */
+    branchGiven?: boolean;
     parameter: string;
     expected: number | null;
     point?: PointSpec;
@@ -379,7 +381,19 @@ function finishStudy(
   },
 ): StudyResult {
   const warnings: string[] = [];
-  const { branch, parameter, outcomes } = s;
+  const { parameter, outcomes } = s;
+  let branch = s.branch;
+  // curve runs without --branch: the curve on which the point first appears (curves are numbered
+  // alike on every grid), rather than always curve 1
+  if (s.branchGiven === false && prepared.curve && s.point) {
+    for (const o of outcomes) {
+      const rec = o.specials.filter((r) => r.kind === s.point!.kind).sort((a, b) => a.branch - b.branch)[0];
+      if (rec) {
+        branch = rec.branch;
+        break;
+      }
+    }
+  }
   // the default point: the first fold; when no grid has one, say what there is
   let spec = s.point;
   let failure: string | undefined;
@@ -412,7 +426,8 @@ function finishStudy(
     try {
       analysis = analyseRefinement(
         found.map((r) => ({ h: r.h!, value: r.value!, intervals: r.intervals, ...(r.unknowns !== undefined ? { unknowns: r.unknowns } : {}) })),
-        { ...(s.expected !== null ? { expectedOrder: s.expected, assumedOrder: s.expected } : {}) },
+        // curve points are located to about 1e-10 (their values may sit at zero: a cusp at the origin)
+        { ...(s.expected !== null ? { expectedOrder: s.expected, assumedOrder: s.expected } : {}), ...(prepared.curve ? { locationTolerance: 1e-10 } : {}) },
       );
     } catch (e) {
       failure = `the analysis failed: ${(e as Error).message}`;

@@ -123,6 +123,37 @@ describe('curve runs: files', () => {
     expect(bad.err).toMatch(/--follow: 'hopf' is not accepted \(accepted: fold, branch-point\)/);
   });
 
+  it('refine --point cusp and --point bogdanov-takens: the points of uniform states are the same on every grid', async () => {
+    const a = await cli('refine', write('cusp-refine.yaml', cusp), '--grids', '8,16,32', '--point', 'cusp', '--out', join(tmp, 'cusp-refine'));
+    expect(a.code, a.err).toBe(0);
+    expect(a.out).toMatch(/Refinement of p2 at cusp 1 on branch 2 \(case cusp\), 3 grids/);
+    expect(a.out).toMatch(/the finest values agree to round-off/);
+    const study = json(join(tmp, 'cusp-refine', 'refine.json'));
+    for (const r of study.runs) expect(Math.abs(r.value)).toBeLessThan(1e-8);
+    // Gray–Scott by expressions, from a uniform state on the upper root at F = k = 0.05
+    const gs = `name: gray-scott-uniform
+model: reaction-diffusion
+fields: [u, v]
+parameters: {F: 0.05, k: 0.05}
+reaction: {u: -u*v^2 + F*(1 - u), v: u*v^2 - (F + k)*v}
+diffusion: {u: 1, v: 1}
+boundary: neumann
+initial: {u: 0.1127016653792583, v: 0.4436491673103709}
+grid: {intervals: [8]}
+continuation:
+  follow: fold
+  parameter: k
+  free: F
+  bounds: [0.03, 0.07]
+  free-bounds: [0, 1]
+  step: {initial: 0.004, max: 0.008}
+`;
+    const b = await cli('refine', write('gs-refine.yaml', gs), '--grids', '8,16,32', '--point', 'bogdanov-takens', '--out', join(tmp, 'gs-refine'));
+    expect(b.code, b.err).toBe(0);
+    // Gray & Scott 1984: k = F = 1/16 at the Bogdanov–Takens point of the uniform fold curve
+    for (const r of json(join(tmp, 'gs-refine', 'refine.json')).runs) expect(Math.abs(r.value - 1 / 16)).toBeLessThan(1e-7);
+  });
+
   it('bad curve keys: one line naming the field and what is accepted (exit 2)', async () => {
     const bad: [string, string, RegExp][] = [
       ['free missing', cusp.replace('  free: p1\n', ''), /continuation\.free: is missing: the parameter that adjusts to stay on the fold \(accepted: one of p1, p2 other than p2\)/],
