@@ -3,7 +3,7 @@
  * colour; stable parts solid, unstable dashed, stability not computed dotted; special points
  * marked by shape and named in plain words.
  */
-import { bottomMarginFor, drawAxes, formatValue, leftMarginFor, linearAxis, withRange, type Rect } from './axes.js';
+import { bottomMarginFor, drawAxes, formatValue, leftMarginFor, linearAxis, logAxis, withRange, type Rect } from './axes.js';
 import { footer, header, SIDE } from './figure.js';
 import { placeLabels, type Box, type LabelRequest, type Segment } from './labels.js';
 import { el, escapeXml, num, svgDocument, text, textWidth } from './svg.js';
@@ -77,6 +77,9 @@ export interface DiagramInput {
    * stability (the lines are drawn solid), and the description says what the axes are.
    */
   readonly curves?: boolean;
+  /** Logarithmic axes (every value must be positive). */
+  readonly logParameter?: boolean;
+  readonly logMonitor?: boolean;
 }
 
 export interface StabilitySegment {
@@ -357,8 +360,8 @@ export function diagramSvg(input: DiagramInput): string {
   const legendWidth = Math.max(120, Math.min(220, 34 + Math.max(...legendTexts.map((t) => textWidth(t, TYPE.legend)))));
 
   const head = header(width, input.title, input.subtitle);
-  const xAxis0 = linearAxis(xmin, xmax, [0, 1], input.parameterName);
-  const yAxis0 = linearAxis(ymin, ymax, [1, 0], input.monitorName);
+  const xAxis0 = input.logParameter && xmin > 0 ? logAxis(xmin, xmax, [0, 1], input.parameterName) : linearAxis(xmin, xmax, [0, 1], input.parameterName);
+  const yAxis0 = input.logMonitor && ymin > 0 ? logAxis(ymin, ymax, [1, 0], input.monitorName) : linearAxis(ymin, ymax, [1, 0], input.monitorName);
   const left = SIDE + leftMarginFor(yAxis0.labels, true) - 8;
   const plot: Rect = {
     x: left,

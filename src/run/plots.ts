@@ -56,6 +56,8 @@ export interface PlotResult {
   notes: string[];
   /** The monitor used on the diagram. */
   monitor: string;
+  /** Curve runs: the diagram's axes, the two parameters. */
+  plane?: [string, string];
 }
 
 interface AxisInfo {
@@ -199,13 +201,22 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     const m = free ? num(s.free) : s.monitors?.[chosen];
     const value = num(s.value);
     if (typeof m !== 'number' || !Number.isFinite(m) || !Number.isFinite(value)) continue;
+    // a curve that ends at a mode change goes on as another curve: its end is the mode change
+    if (s.kind === 'end' && s.reason === 'mode-change') continue;
     // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
-    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : {}) });
+    const modes = s.kind === 'mode-change' && Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? { label: `mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}` } : {};
+    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : modes) });
   }
   nameCoincidentBranches(branches);
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
   const follow = str(run.follow, 'special point');
+  // curves spanning more than two decades of positive values get a log axis (an ignition limit
+  // over Biot numbers from 0.01 to 100, an imperfection from 1e-6 to 1e-3)
+  const decades = (pick: (p: { parameter: number; monitor: number }) => number): boolean => {
+    const vs = [...branches.flatMap((b) => b.points.map(pick)), ...shown.map(pick)].filter(Number.isFinite);
+    return vs.length > 1 && Math.min(...vs) > 0 && Math.max(...vs) >= 100 * Math.min(...vs);
+  };
   const svg = diagramSvg({
     title: free
       ? `${title.name}: the ${follow.replace(/-/g, ' ')} curve${branches.length === 1 ? '' : 's'} in the plane of ${parameter} and ${free}${statusNote}`
@@ -215,7 +226,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     monitorName: free ?? monitorWords(chosen, fields, descriptions),
     branches,
     specialPoints: shown,
-    ...(free ? { curves: true } : {}),
+    ...(free ? { curves: true, logParameter: decades((p) => p.parameter), logMonitor: decades((p) => p.monitor) } : {}),
     ...(caution ? { caution } : {}),
   });
   writeFileAtomic(join(dir, 'diagram.svg'), svg);
@@ -256,7 +267,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       if (/^branch-\d+-.*\.svg$/.test(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
     }
   }
-  return { files: written, warnings, notes, monitor: chosen };
+  return { files: written, warnings, notes, monitor: chosen, ...(free ? { plane: [parameter, free] as [string, string] } : {}) };
 }
 
 
