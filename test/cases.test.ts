@@ -11,6 +11,8 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { parseCaseText, prepareCase, prepareCaseObject } from '../src/run/case.js';
 import { runCase } from '../src/run/run-case.js';
 import { parseXml, findAll } from './plot/xml-check.js';
+import { readCsv } from '../src/run/writers.js';
+import { ignitionLimit } from './continuation/curves/helpers.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-cases-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -120,6 +122,54 @@ describe('the bundled case files', () => {
     expect(Object.values(models)).toEqual(
       expect.arrayContaining(['bratu 1D stability', 'bratu 2D stability', 'brusselator 2D stability', 'allen-cahn 1D stability', 'elastica 1D stability', 'beam-foundation 1D stability', 'reaction-diffusion 1D stability']),
     );
+  });
+});
+
+describe('smoke runs of the bundled curve cases', () => {
+  it('slab-ignition-limit (on 100 intervals here): the ignition limit against the Biot number, from Semenov’s limit to the cold-wall fold', async () => {
+    const r = await run('slab-ignition-limit', [100]);
+    expect(r.result.status).toBe('finished');
+    const ends = r.points.filter((p) => p.kind === 'end');
+    expect(ends.map((p) => p.value).sort((a, b) => a - b)).toEqual([0.01, 100]);
+    for (const e of ends) expect(Math.abs(e.free / ignitionLimit(e.value) - 1)).toBeLessThan(2e-4); // the closed form (slab.test.ts)
+    // Semenov 1928 (from memory): λ* → 2·Bi/e for a nearly isothermal slab
+    const low = ends.find((p) => p.value === 0.01)!;
+    expect(Math.abs(low.free / ((2 * 0.01) / Math.E) - 1)).toBeLessThan(0.01);
+    const root = checkDiagram(r.out, ['end']);
+    expect(findAll(root, 'g', { 'data-role': 'caution' })).toHaveLength(1);
+  });
+
+  it('rail-imperfection (on 100 intervals here): the limit load falls below the perfect rail’s buckling load like imperfection^(2/3)', async () => {
+    const r = await run('rail-imperfection', [100]);
+    expect(r.result.status).toBe('finished');
+    const mu = discreteEigenvalue(1, 1 / 100);
+    const Pc = mu + 100 / mu; // Timoshenko & Gere, with the grid's μ
+    const rows = r.result.ledger.branches.flatMap((b) => readCsv(join(r.out, b.file)).rows);
+    const small = rows.filter((row) => row[2] <= 1e-3).map((row) => [Math.log(row[2]), Math.log(Pc - row[3])]);
+    for (const row of rows) expect(row[3]).toBeLessThan(Pc);
+    const n = small.length;
+    expect(n).toBeGreaterThan(10);
+    const mx = small.reduce((a, p) => a + p[0], 0) / n;
+    const my = small.reduce((a, p) => a + p[1], 0) / n;
+    const slope = small.reduce((a, p) => a + (p[0] - mx) * (p[1] - my), 0) / small.reduce((a, p) => a + (p[0] - mx) ** 2, 0);
+    // Koiter 1945: the two-thirds power law (up to higher-order terms at imperfection 1e-3)
+    expect(Math.abs(slope - 2 / 3)).toBeLessThan(0.03);
+  });
+
+  it('turing-lines: the critical mode changes where the lines of neighbouring modes cross', async () => {
+    const r = await run('turing-lines');
+    expect(r.result.status).toBe('finished');
+    const changes = r.points.filter((p) => p.kind === 'mode-change');
+    expect(changes.length).toBeGreaterThanOrEqual(3);
+    const h = 20 / 100;
+    const q2 = (k: number) => (4 / h ** 2) * Math.sin((k * Math.PI * h) / 40) ** 2; // the grid's no-flux Laplacian eigenvalues
+    for (const c of changes) {
+      const [m1, m2] = [c.mode[0], c['new-mode'][0]].sort((a: number, b: number) => a - b);
+      expect(m2).toBe(m1 + 1);
+      // b_n(a) = b_m(a) where a² = Du Dv q_n² q_m² (the Turing lines of Prigogine & Lefever 1968 crossing)
+      expect(Math.abs(c.value - Math.sqrt(8 * q2(m1) * q2(m2)))).toBeLessThan(1e-9);
+    }
+    checkDiagram(r.out, ['mode-change']);
   });
 });
 

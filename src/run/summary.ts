@@ -101,8 +101,11 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
     }
     case 'point-limit':
       return `reached the point limit (${prepared.settings.maxPoints})`;
+    case 'mode-change':
+      // the special point before says which modes and which curve goes on
+      return 'at the mode change';
     default: {
-      const text = reason === 'free-bound' || reason === 'mode-change' ? curveStopText[reason] : (stopReasonText[reason] ?? reason);
+      const text = reason === 'free-bound' ? curveStopText[reason] : (stopReasonText[reason] ?? reason);
       return b.message && b.message !== text ? `${text} (${b.message})` : text;
     }
   }

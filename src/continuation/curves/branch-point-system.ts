@@ -226,8 +226,9 @@ export class BranchPointSystem implements AugmentedSystem {
     return this.border.gRoundingLevel() / this.gScale;
   }
 
-  tests(exact = false): TestValue[] {
-    const det = this.border.determinant(exact);
+  tests(): TestValue[] {
+    // always at the point itself (a factorisation there): mode changes decide which curve goes on
+    const det = this.border.determinant(true);
     return [{ value: det.sign, logAbs: det.logAbs }];
   }
 

@@ -456,10 +456,16 @@ export class CurveContinuation {
   }
 
   /** Locate zeros of the test functions between the current point and yNew (before the borders change). */
-  private locateAll(b: CurveBranchState, yNew: Float64Array, testsNew: TestValue[], ds: number): { s: number; special: CurveSpecialPoint; y: Float64Array; tests: TestValue[] }[] {
+  private locateAll(
+    b: CurveBranchState,
+    yNew: Float64Array,
+    testsNew: TestValue[],
+    ds: number,
+  ): { found: { s: number; special: CurveSpecialPoint; y: Float64Array; tests: TestValue[] }[]; tests: TestValue[]; logs: CurveEvent[] } {
     const sys = this.sys!;
     const out: { s: number; special: CurveSpecialPoint; y: Float64Array; tests: TestValue[] }[] = [];
-    if (!this.settings.locate) return out;
+    const logs: CurveEvent[] = [];
+    if (!this.settings.locate) return { found: out, tests: testsNew, logs };
     // determinant signs come from the step's factorisation: confirm a change at the point itself
     let exactNew: TestValue[] | undefined;
     sys.testFunctions.forEach((f, i) => {
@@ -477,6 +483,16 @@ export class CurveContinuation {
       const c = testsNew[i]?.value;
       if (!Number.isFinite(a) || !Number.isFinite(c) || a === 0 || c === 0 || Math.sign(a) === Math.sign(c)) return;
       const loc = this.locate(b, i, yNew, testsNew, ds);
+      if (!loc) {
+        // the exact determinants agree at both ends: the sign change the step's factorisation
+        // suggested happened just before the current point (or not at all)
+        logs.push({
+          type: 'log',
+          level: 'warning',
+          message: `curve ${b.info.id}: ${f.description.replace(/;.*$/, '')} changed sign near ${this.settings.parameter} = ${fmt(b.y[sys.parameterIndex])}, ${this.settings.free} = ${fmt(b.y[sys.freeIndex])}, just before a computed point: a ${f.kind.replace(/-/g, ' ')} there was not located`,
+        });
+        return;
+      }
       const u = sys.state(loc.y);
       const p = sys.params(loc.y);
       // the followed mode (at the located point itself two modes mix)
@@ -498,7 +514,7 @@ export class CurveContinuation {
       out.push({ s: loc.s, special, y: loc.y, tests: loc.tests });
     });
     out.sort((x, y) => x.s - y.s);
-    return out;
+    return { found: out, tests: testsNew, logs };
   }
 
   /**
@@ -507,7 +523,7 @@ export class CurveContinuation {
    * ⟨t, y − (y_b + s t)⟩_w = 0. Determinant-type functions use sign·exp(log|det| − ref), smooth
    * while the borders stay fixed.
    */
-  private locate(b: CurveBranchState, i: number, yNew: Float64Array, testsNew: TestValue[], ds: number): { s: number; y: Float64Array; tests: TestValue[]; residual: number; located: boolean; note?: string } {
+  private locate(b: CurveBranchState, i: number, yNew: Float64Array, testsNew: TestValue[], ds: number): { s: number; y: Float64Array; tests: TestValue[]; residual: number; located: boolean; note?: string } | undefined {
     const sys = this.sys!;
     const st = this.settings;
     const m = sys.size;
@@ -527,7 +543,10 @@ export class CurveContinuation {
     }
     let lo = { s: 0, f: fa, y: b.y.slice() };
     let hi = { s: ds, f: value(testsNew[i]), y: yNew.slice() };
-    let best = Math.abs(lo.f) < Math.abs(hi.f) ? { ...lo, tests: b.tests, residual: b.residual } : { ...hi, tests: testsNew, residual: NaN };
+    if (Math.sign(lo.f) === Math.sign(hi.f)) return undefined;
+    // the answer is the latest trial point (the secant estimate inside the shrinking bracket);
+    // |f| is no guide between points, determinants vary by orders of magnitude along a step
+    let best = { ...hi, tests: testsNew, residual: NaN };
     let side = 0;
     const tol = st.locateTolerance * Math.max(1, ds);
     for (let it = 0; it < 80; it++) {
@@ -541,11 +560,11 @@ export class CurveContinuation {
       for (let k = 0; k < m; k++) ref0[k] = b.y[k] + s * b.tangent[k];
       const r = this.polished(y, b.tangent, ref0);
       if (!r.converged) {
-        return { s: best.s, y: best.y, tests: best.tests, residual: best.residual, located: false, note: `the location stopped: ${r.message ?? r.failure} (the nearer bracketing point is reported)` };
+        return { s: best.s, y: best.y, tests: best.tests, residual: best.residual, located: false, note: `the location stopped: ${r.message ?? r.failure} (the latest estimate is reported)` };
       }
       const tests = sys.tests(det);
       const f = value(tests[i]);
-      if (Math.abs(f) < Math.abs(best.f) || best.residual !== best.residual) best = { s, f, y: y.slice(), tests, residual: r.residual };
+      best = { s, f, y: y.slice(), tests, residual: r.residual };
       if (f === 0) return { s, y, tests, residual: r.residual, located: true };
       if (Math.sign(f) === Math.sign(lo.f)) {
         lo = { s, f, y };
@@ -580,9 +599,10 @@ export class CurveContinuation {
     const m = sys.size;
     const ip = sys.parameterIndex;
     const jf = sys.freeIndex;
-    const testsNew = sys.tests();
     const modeNew = sys.mode?.();
-    const located = this.locateAll(b, yNew, testsNew, ds);
+    const scan = this.locateAll(b, yNew, sys.tests(), ds);
+    const located = scan.found;
+    const testsNew = scan.tests;
     const yOld = b.y;
     // bounds of either parameter: where along the step the first one is crossed
     let bound: { s: number; index: number; value: number; reason: CurveStopReason } | undefined;
@@ -606,7 +626,7 @@ export class CurveContinuation {
       const sw = sys.switchMode(l.y, b.tangent);
       if (sw) l.special.newMode = sw.mode;
       if (sw && sw.growth > 0 && (!bound || l.s < bound.s * ds)) {
-        return this.switchAt(b, l, sw.direction, located.filter((x) => x.s < l.s));
+        return [...scan.logs, ...this.switchAt(b, l, sw.direction, located.filter((x) => x.s < l.s))];
       }
       sys.restoreState(saved);
       l.special.kind = 'mode-crossing';
@@ -636,6 +656,7 @@ export class CurveContinuation {
         const within = (y: Float64Array): boolean => y[ip] >= st.bounds[0] && y[ip] <= st.bounds[1] && y[jf] >= st.freeBounds[0] && y[jf] <= st.freeBounds[1];
         const name = bound.index === ip ? st.parameter : st.free;
         return [
+          ...scan.logs,
           this.pointEvent(b, sb, r.iterations, mode),
           ...located.filter((l) => within(l.y)).map((l): CurveEvent => ({ type: 'special', point: l.special })),
           ...this.end(b, bound.reason, `reached ${name} = ${fmt(bound.value)}`),
@@ -653,7 +674,7 @@ export class CurveContinuation {
     const grow = iterations <= 1 ? 2 : iterations === 2 ? 1.5 : iterations === 3 ? 1.2 : iterations <= 5 ? 1 : 0.6;
     b.step = Math.min(st.step.max, Math.max(st.step.min, ds * (located.length ? Math.min(grow, 1) : grow)));
     const pe = this.pointEvent(b, ds, iterations, modeNew);
-    const events: CurveEvent[] = [pe, ...located.map((l): CurveEvent => ({ type: 'special', point: l.special }))];
+    const events: CurveEvent[] = [pe, ...located.map((l): CurveEvent => ({ type: 'special', point: l.special })), ...scan.logs];
     const stop = this.stopCheck(b, pe.type === 'point' ? pe.point.monitors : {});
     if (stop) events.push(...this.end(b, stop.reason, stop.message));
     return events;

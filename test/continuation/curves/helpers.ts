@@ -72,3 +72,22 @@ export function independentResidual(problem: Problem, u: Float64Array, p: Params
   for (let i = 0; i < f.length; i++) m = Math.max(m, Math.abs(f[i]) / (1 + Math.max(...J[i].map(Math.abs))));
   return m;
 }
+
+/**
+ * The ignition limit λ*(Bi) of the unit slab with convective faces from its closed-form family
+ * (derived in slab.test.ts): the maximum over θ of θ²/(2cosh²(θ/4))·exp(−θ tanh(θ/4)/Bi), at the
+ * root of d ln λ/dθ = 0 (bisection).
+ */
+export function ignitionLimit(Bi: number): number {
+  const slope = (t: number): number => 2 / t - 0.5 * Math.tanh(t / 4) - (Math.tanh(t / 4) + (t / 4) / Math.cosh(t / 4) ** 2) / Bi;
+  let a = 1e-12;
+  let b = 60;
+  for (let k = 0; k < 200; k++) {
+    const m = 0.5 * (a + b);
+    if (slope(m) > 0) a = m;
+    else b = m;
+  }
+  const t = 0.5 * (a + b);
+  return ((t * t) / (2 * Math.cosh(t / 4) ** 2)) * Math.exp((-t * Math.tanh(t / 4)) / Bi);
+}
+

@@ -16,21 +16,7 @@
 import { describe, expect, test } from 'vitest';
 import { models } from '../../../discretisations/index.js';
 import type { CurvePoint } from '../../../src/continuation/curves/types.js';
-import { curveSettings, runCurve } from './helpers.js';
-
-/** λ*(Bi) from the closed form: the root of d ln λ/dθ = 0 by bisection. */
-function ignitionLimit(Bi: number): number {
-  const slope = (t: number): number => 2 / t - 0.5 * Math.tanh(t / 4) - (Math.tanh(t / 4) + (t / 4) / Math.cosh(t / 4) ** 2) / Bi;
-  let a = 1e-12;
-  let b = 60;
-  for (let k = 0; k < 200; k++) {
-    const m = 0.5 * (a + b);
-    if (slope(m) > 0) a = m;
-    else b = m;
-  }
-  const t = 0.5 * (a + b);
-  return ((t * t) / (2 * Math.cosh(t / 4) ** 2)) * Math.exp((-t * Math.tanh(t / 4)) / Bi);
-}
+import { curveSettings, ignitionLimit, runCurve } from './helpers.js';
 
 const LAMBDA_DIRICHLET = 3.513830719125; // Bratu 1914: the fold where (θ/4) tanh(θ/4) = 1
 
