@@ -21,3 +21,17 @@ test('the README library example finds the 1D Bratu fold', () => {
   // exact continuum value 3.513830719125 (Bratu 1914); h = 0.01 puts the discrete fold within 1e-3
   expect(Math.abs(folds[0].value - 3.513830719125)).toBeLessThan(1e-3);
 });
+
+test('the library follows a fold in two parameters (CurveContinuation)', async () => {
+  const { CurveContinuation, defaultCurveSettings } = await import('../src/index.js');
+  const problem = models.bratu.factory({ grid: { intervals: [40] }, boundary: 'robin' });
+  const params = resolveParameters(problem, { lambda: 0.1, biot: 1 });
+  const engine = new CurveContinuation(problem, params, { ...defaultCurveSettings, follow: 'fold', parameter: 'biot', free: 'lambda', bounds: [1, 3] });
+  const points: { biot: number; lambda: number }[] = [];
+  for (const event of engine.events()) if (event.type === 'point') points.push({ biot: event.point.parameter, lambda: event.point.free });
+  engine.dispose();
+  expect(points[0].biot).toBe(1);
+  expect(points[points.length - 1].biot).toBe(3);
+  // the ignition limit rises with the cooling
+  for (let i = 1; i < points.length; i++) expect(points[i].lambda).toBeGreaterThan(points[i - 1].lambda);
+});
