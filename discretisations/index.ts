@@ -106,6 +106,7 @@ export * from './pattern.js';
 export * from './monitors.js';
 export * from './memory.js';
 export * from './reaction-diffusion.js';
+export * from './initial-state.js';
 export { bratuReaction } from './models/bratu.js';
 export { allenCahnReaction } from './models/allen-cahn.js';
 export { grayScottReaction } from './models/gray-scott.js';

@@ -4,7 +4,8 @@
  * - models and discretisations: the model registry, grids, stencils and assembly helpers for
  *   models written in code;
  * - the Problem contract and its tools (Jacobian checker, second derivatives);
- * - the continuation engine (no I/O: it yields points and special points);
+ * - the continuation engine (no I/O: it yields points and special points) and the time
+ *   integrator to a steady state (no I/O: it yields steps and an outcome);
  * - sparse linear algebra (KLU in WebAssembly) and the rightmost-eigenvalue solver;
  * - case files and run directories (what the command line uses);
  * - grid-refinement analysis and SVG plots.
@@ -31,3 +32,11 @@ export { runCase, outputDirectory } from './run/run-case.js';
 export type { RunResult } from './run/run-case.js';
 export * from './refine/index.js';
 export * from './plot/index.js';
+export { TimeIntegration, DynamicsError } from './dynamics/integrator.js';
+export type { IntegratorState, IntegrationOptions } from './dynamics/integrator.js';
+export * from './dynamics/types.js';
+export { steadyStability, type SteadyStability } from './dynamics/stability.js';
+export { prepareSettleCase, prepareSettleCaseObject } from './run/settle-case.js';
+export type { PreparedSettleCase, ResolvedSettleCase } from './run/settle-case.js';
+export { settleCase } from './run/settle.js';
+export type { SettleResult } from './run/settle.js';

@@ -8,10 +8,12 @@ import { mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { parseCaseText, prepareCase, prepareCaseObject } from '../src/run/case.js';
+import { parseCaseText, prepareCaseObject } from '../src/run/case.js';
 import { runCase } from '../src/run/run-case.js';
+import { prepareSettleCaseObject } from '../src/run/settle-case.js';
+import { settleCase } from '../src/run/settle.js';
 import { parseXml, findAll } from './plot/xml-check.js';
-import { readCsv } from '../src/run/writers.js';
+import { readCsv, readNpy } from '../src/run/writers.js';
 import { ignitionLimit } from './continuation/curves/helpers.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-cases-'));
@@ -20,10 +22,30 @@ const folder = resolve('cases');
 const files = readdirSync(folder).filter((f) => f.endsWith('.yaml')).sort();
 const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 
-/** Run a bundled case (optionally on another grid) and return its run folder and points. */
-async function run(name: string, intervals?: number[]) {
+/** A bundled case's document; `start.run` of another bundled case's run is redirected to `runs[name]`. */
+function bundled(name: string, runs: Record<string, string> = {}): { file: string; doc: Record<string, any> } {
   const file = join(folder, `${name}.yaml`);
   const doc = parseCaseText(readFileSync(file, 'utf8'), file) as Record<string, any>;
+  const from = /^\.\.\/runs\/(.+)$/.exec(doc.start?.run ?? '')?.[1];
+  if (from !== undefined && runs[from]) doc.start = { ...doc.start, run: runs[from] };
+  return { file, doc };
+}
+
+/** The bundled cases that start from another one's run (`start: {run: ../runs/<name>}`): name → that case. */
+function startsFrom(name: string): string | undefined {
+  return /^\.\.\/runs\/(.+)$/.exec(bundled(name).doc.start?.run ?? '')?.[1];
+}
+
+/** Prepare a bundled case for its command: settle for a case with time: and no continuation:. */
+async function prepareBundled(name: string, runs: Record<string, string> = {}) {
+  const { file, doc } = bundled(name, runs);
+  const opts = { label: file, file, baseDir: folder };
+  return doc.continuation === undefined && doc.time !== undefined ? prepareSettleCaseObject(doc, opts) : prepareCaseObject(doc, opts);
+}
+
+/** Run a bundled case (optionally on another grid) and return its run folder and points. */
+async function run(name: string, intervals?: number[], runs: Record<string, string> = {}) {
+  const { file, doc } = bundled(name, runs);
   if (intervals) doc.grid = { ...doc.grid, intervals };
   const prepared = await prepareCaseObject(doc, { label: file, file, baseDir: folder });
   const out = join(tmp, name);
@@ -106,7 +128,14 @@ describe('the bundled case files', () => {
     expect(text.startsWith('# ')).toBe(true);
     expect(header.length).toBeGreaterThanOrEqual(5);
     expect(text).toMatch(/invented scenario, invented numbers/);
-    const prepared = await prepareCase(join(folder, f));
+    const name = f.replace(/\.yaml$/, '');
+    const before = startsFrom(name);
+    if (before !== undefined) {
+      // it starts from another bundled case's run: prepared in the smoke run below
+      expect(files).toContain(`${before}.yaml`);
+      return;
+    }
+    const prepared = await prepareBundled(name);
     if (prepared.caution && prepared.case.model !== 'reaction-diffusion') {
       // ignition, runaway and buckling models: the caution in the header too
       expect(header.map((l) => l.replace(/^#\s*/, '')).join(' ')).toMatch(/not a substitute for design codes, safety standards or a licensed engineer's judgement; local codes and licensed practice govern/);
@@ -116,11 +145,13 @@ describe('the bundled case files', () => {
   it('cover the scenarios the users bring: ignition 1D and 2D, a 2D pattern with stability, a pitchfork, strut buckling, a subcritical beam, an expression model', async () => {
     const models: Record<string, string> = {};
     for (const f of files) {
-      const p = await prepareCase(join(folder, f));
-      models[f] = `${p.case.model} ${p.case.grid.intervals.length}D${p.case.stability.eigenvalues > 0 ? ' stability' : ''}`;
+      const name = f.replace(/\.yaml$/, '');
+      if (startsFrom(name) !== undefined) continue;
+      const p = await prepareBundled(name);
+      models[f] = `${p.case.model} ${p.case.grid.intervals.length}D${p.case.stability.eigenvalues > 0 ? ' stability' : ''}${'time' in p ? ' time' : ''}`;
     }
     expect(Object.values(models)).toEqual(
-      expect.arrayContaining(['bratu 1D stability', 'bratu 2D stability', 'brusselator 2D stability', 'allen-cahn 1D stability', 'elastica 1D stability', 'beam-foundation 1D stability', 'reaction-diffusion 1D stability']),
+      expect.arrayContaining(['bratu 1D stability', 'bratu 2D stability', 'brusselator 2D stability', 'allen-cahn 1D stability', 'elastica 1D stability', 'beam-foundation 1D stability', 'reaction-diffusion 1D stability', 'gray-scott 2D stability time']),
     );
   });
 });
@@ -256,5 +287,60 @@ describe('smoke runs of the bundled cases', () => {
     const stable = csv[0].split(',').indexOf('stable');
     expect(csv[csv.length - 1].split(',')[stable]).toBe('true');
     checkDiagram(r.out, ['branch-point']);
+  });
+
+  it('gel-spots: the drop grows into a stable pattern of four spots; traced in F, it keeps stable down to F ≈ 0.025, where a complex pair crosses (Hopf)', async () => {
+    const prepared = (await prepareBundled('gel-spots')) as Awaited<ReturnType<typeof prepareSettleCaseObject>>;
+    const grown = join(tmp, 'gel-spots');
+    const r = await settleCase(prepared, { outDir: grown });
+    expect(r.status).toBe('finished');
+    expect(r.outcome?.kind).toBe('steady');
+    expect(r.stability?.stable).toBe(true);
+    // four spots: four separate regions where v stands well above the background
+    const { shape, data } = readNpy(join(grown, 'solutions/final.npy'));
+    const [, ny, nx] = shape;
+    const v = data.subarray(nx * ny);
+    const seen = new Uint8Array(nx * ny);
+    let spots = 0;
+    for (let start = 0; start < nx * ny; start++) {
+      if (seen[start] || v[start] < 0.2) continue;
+      spots++;
+      const stack = [start];
+      seen[start] = 1;
+      while (stack.length) {
+        const k = stack.pop()!;
+        const i = k % nx;
+        const j = Math.floor(k / nx);
+        for (const [di, dj] of [[1, 0], [-1, 0], [0, 1], [0, -1]]) {
+          const a = i + di;
+          const b = j + dj;
+          const q = b * nx + a;
+          if (a >= 0 && a < nx && b >= 0 && b < ny && !seen[q] && v[q] >= 0.2) {
+            seen[q] = 1;
+            stack.push(q);
+          }
+        }
+      }
+    }
+    expect(spots).toBe(4);
+    expect(readFileSync(join(grown, 'monitors.svg'), 'utf8')).toContain('data-plot="time-series"');
+
+    const t = await run('gel-spots-trace', undefined, { 'gel-spots': grown });
+    expect(t.result.status).toBe('finished');
+    const csv = readCsv(join(t.out, 'branches', '1.csv'));
+    const col = (c: string) => csv.rows.map((row) => row[csv.columns.indexOf(c)]);
+    const F = col('F');
+    const unstable = col('unstable-count');
+    expect(F[0]).toBe(0.04);
+    expect(col('newton-iterations')[0]).toBe(0);
+    // stable from the start down to the first change, which is a complex pair (two eigenvalues)
+    const k = unstable.findIndex((n) => n > 0);
+    expect(unstable.slice(0, k).every((n) => n === 0)).toBe(true);
+    expect(unstable[k]).toBe(2);
+    expect(Math.abs(col('leading-imag')[k])).toBeGreaterThan(0.01);
+    expect(F[k - 1]).toBeGreaterThan(0.024);
+    expect(F[k]).toBeLessThan(0.026);
+    // the run names a Hopf point in that neighbourhood
+    expect(t.of('hopf').some((h) => h.value > 0.023 && h.value < 0.026)).toBe(true);
   });
 });

@@ -35,3 +35,23 @@ test('the library follows a fold in two parameters (CurveContinuation)', async (
   // the ignition limit rises with the cooling
   for (let i = 1; i < points.length; i++) expect(points[i].lambda).toBeGreaterThan(points[i - 1].lambda);
 });
+
+test('the README time-integration example ends at a stable one-signed Allen–Cahn state (Chafee & Infante 1974)', async () => {
+  const { TimeIntegration, defaultTimeSettings, initialStateBuilder } = await import('../src/index.js');
+  const problem = models['allen-cahn'].factory({ grid: { intervals: [40] } });
+  const params = resolveParameters(problem, { lambda: 60 });
+  const start = initialStateBuilder(problem, { values: { u: 0 }, noise: { amplitude: 0.1, seed: 3 } }).build(params);
+  const run = new TimeIntegration(problem, params, { ...defaultTimeSettings, end: 200, stability: { eigenvalues: 2 } }, { start });
+  let kind = '';
+  let centre = NaN;
+  for (const event of run.events()) {
+    if (event.type === 'end') {
+      kind = event.outcome.kind;
+      centre = event.monitors.centre;
+    }
+  }
+  run.dispose();
+  expect(kind).toBe('steady');
+  // only the one-signed states ±u₁ are stable: the centre value is clear of zero
+  expect(Math.abs(centre)).toBeGreaterThan(0.9);
+});

@@ -30,3 +30,4 @@ export {
 export { linePlotSvg, type LinePlotInput, type LineField } from './line.js';
 export { heatMapSvg, blockAverage, type HeatMapInput, type HeatMapField, type BlockGrid } from './heatmap.js';
 export { refinementSvg, type RefinementPlotInput } from './refinement.js';
+export { timeSeriesSvg, type TimeSeriesInput, type TimeSeriesPanel, type TimeSeries } from './time-series.js';

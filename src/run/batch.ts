@@ -274,11 +274,10 @@ function processAlive(pid: number): boolean {
 }
 
 /**
- * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
- * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
- * problem that matches the saved state. InputError (one line) otherwise.
+ * The checks every resume starts with: the folder holds a run of ours that did not finish, no
+ * live process is writing it (unless `force`), and a usable checkpoint exists. InputError otherwise.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+export function resumableCheckpoint(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint> } {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
@@ -290,13 +289,34 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (pid !== undefined && !options.force) {
     throw new InputError(`${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`);
   }
-  let found;
   try {
-    found = readCheckpoint(dir);
+    return { dir, run, status, found: readCheckpoint(dir) };
   } catch (e) {
     if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
     throw e;
   }
+}
+
+/** The CSV files must still hold every row the checkpoint counts (checked before any is touched). */
+export function checkRecordedLengths(dirGiven: string, dir: string, csvLengths: Record<string, number>): void {
+  for (const [file, length] of Object.entries(csvLengths)) {
+    let size: number;
+    try {
+      size = statSync(join(dir, file)).size;
+    } catch {
+      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
+    }
+    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
+  }
+}
+
+/**
+ * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
+ * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
+ * problem that matches the saved state. InputError (one line) otherwise.
+ */
+export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  const { dir, status, found } = resumableCheckpoint(dirGiven, options);
   const c = found.document;
   const caseFile = c.run.caseFile;
   const prepared = await prepareCaseObject(c.case, {
@@ -311,16 +331,7 @@ export async function prepareResume(dirGiven: string, options: { force?: boolean
   if (saved !== undefined && saved !== prepared.problem.size) {
     throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds states of ${saved} unknowns, the case's problem has ${prepared.problem.size} (was the model changed?)`);
   }
-  // the branch files must still hold every row the checkpoint counts (checked before any is touched)
-  for (const [file, length] of Object.entries(c.ledger.csvLengths)) {
-    let size: number;
-    try {
-      size = statSync(join(dir, file)).size;
-    } catch {
-      throw new InputError(`${dirGiven}: cannot resume: ${file} is missing (the checkpoint counts ${length} bytes of it)`);
-    }
-    if (size < length) throw new InputError(`${dirGiven}: cannot resume: ${file} has ${size} bytes, fewer than the ${length} the checkpoint counts (was it edited?)`);
-  }
+  checkRecordedLengths(dirGiven, dir, c.ledger.csvLengths);
   return { prepared, outDir: dir, plan: { checkpoint: c, file: found.file, skipped: found.skipped, previousStatus: status } };
 }
 

@@ -43,7 +43,7 @@ import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { LineCounter, parseDocument } from 'yaml';
 import { z } from 'zod';
-import { assertFactorMemory, estimateFactorMemory, modelEntry, models } from '../../discretisations/index.js';
+import { InitialStateError, assertFactorMemory, estimateFactorMemory, initialStateBuilder, modelEntry, models } from '../../discretisations/index.js';
 import type { OptionSpec } from '../../discretisations/models/options.js';
 import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
 import { validateProblemNames } from '../problem/names.js';
@@ -51,10 +51,12 @@ import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/pr
 import { CaseError } from './errors.js';
 import { type ResolvedFollow, curveSettingsOf, followDocument, resolveFollow } from './curve-case.js';
 import { type CurveSettings, curveKinds } from '../continuation/curves/types.js';
+import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
 import {
   type RunPoint,
   extrasForSolutionFile,
   extrasVector,
+  finalPoint,
   parsePointSpec,
   pointSpecAccepted,
   pointSpecText,
@@ -119,6 +121,8 @@ export interface ResolvedCase {
   plot: { monitor: string };
   /** Where the start state comes from (absolute paths), when not the model's initial guess. */
   start?: ResolvedStart;
+  /** The `initial:` key, resolved (absolute file path, noise seed filled in). */
+  initial?: ResolvedInitial;
 }
 
 export type ResolvedStart = { solution: string } | { run: string; point: string; branch: number };
@@ -271,7 +275,7 @@ const continuationSchema = section({
   search: section({ step: stepSchema.optional(), 'max-points': integerIn(1, maxPointsLimit).optional() }).optional(),
 });
 
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start'] as const;
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time'] as const;
 
 const caseSchema = z.looseObject(
   {
@@ -282,7 +286,11 @@ const caseSchema = z.looseObject(
     model: z.string(accepted(`a model id (${Object.keys(models).join(', ')}) or a path to a code model (.mjs)`)),
     grid: gridSchema,
     parameters: z.record(z.string(), z.unknown(), accepted('a map of parameter names to values, e.g. {lambda: 0.5}')).optional(),
-    continuation: continuationSchema,
+    // required by `run` (prepareCaseObject), optional for `settle` (a case may hold both)
+    continuation: continuationSchema.optional(),
+    // checked by ./initial.ts (its shape depends on the model) and ./settle-case.ts
+    initial: z.unknown().optional(),
+    time: z.unknown().optional(),
     output: section({
       directory: z.string(accepted('a folder path')).min(1, accepted('a folder path')).optional(),
       solutions: word(solutionChoices).optional(),
@@ -332,6 +340,12 @@ export function parseCaseText(text: string, label: string, json = false): unknow
 
 /** Read and check a case file, build its problem; nothing is written. */
 export async function prepareCase(file: string, options: { label?: string } = {}): Promise<PreparedCase> {
+  const { raw, opts } = readCaseFile(file, options);
+  return prepareCaseObject(raw, opts);
+}
+
+/** Read and parse a case file (one-line CaseErrors); the options for `prepareCaseObject` and its siblings. */
+export function readCaseFile(file: string, options: { label?: string } = {}): { raw: unknown; opts: PrepareObjectOptions } {
   const label = options.label ?? file;
   const abs = resolve(file);
   if (!existsSync(abs)) throw new CaseError(label, '', 'no such file');
@@ -344,7 +358,7 @@ export async function prepareCase(file: string, options: { label?: string } = {}
   }
   const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
   const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
-  return prepareCaseObject(raw, { label, file: abs, baseDir: dirname(abs), defaultName });
+  return { raw, opts: { label, file: abs, baseDir: dirname(abs), defaultName } };
 }
 
 export interface PrepareObjectOptions {
@@ -354,8 +368,38 @@ export interface PrepareObjectOptions {
   defaultName?: string;
 }
 
-/** Check a parsed case (e.g. the resolved case stored in a run directory) and build its problem. */
-export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions): Promise<PreparedCase> {
+/**
+ * What every command reading a case needs, checked: the case keys' shapes, the model and its
+ * problem on the grid, the start parameter values, and the start state (from `start:` and
+ * `initial:`). `prepareCaseObject` (runs) and `prepareSettleCaseObject` (time integration) go on
+ * from here.
+ */
+export interface CaseParts {
+  label: string;
+  fail: (field: string, detail: string) => never;
+  input: CaseInput & Record<string, unknown>;
+  kind: ModelKind;
+  modelId: string;
+  modelRef: string;
+  modelOptions: Record<string, unknown>;
+  intervals: number[];
+  length: number[];
+  problem: Problem;
+  description: ReturnType<Problem['describe']>;
+  params: Record<string, number>;
+  givenParams: Record<string, unknown>;
+  knownParams: string[];
+  /** Parameters whose start values came from the run named by `start:`. */
+  fromRun: Set<string>;
+  startFrom?: StartKey;
+  /** The start state (from `start:` and/or `initial:`), with where it came from in words. */
+  start?: { u: Float64Array; from: string };
+  initial?: ResolvedInitial;
+  caution?: string;
+}
+
+/** Steps 1–7 of reading a case (see CaseParts); nothing is written. */
+export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions): Promise<CaseParts> {
   const label = opts.label;
   const fail = (field: string, detail: string): never => {
     throw new CaseError(label, field, detail);
@@ -459,6 +503,10 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   // 5. parameters given as start values (reaction-diffusion: declarations, passed to the model)
   const givenParams = (input.parameters ?? {}) as Record<string, unknown>;
   const factoryOptions: Record<string, unknown> & { grid: GridOptions } = { ...modelOptions, grid };
+  // `initial:` (./initial.ts): a named state goes to the model as its option; other forms are ours
+  const namedStates = kind === 'code' ? undefined : (optionSpecs?.find((o) => o.name === 'initial')?.choices ?? []);
+  const initial = resolveInitial(input.initial, namedStates, opts.baseDir, fail);
+  if (initial?.named !== undefined) factoryOptions.initial = initial.named;
   if (kind === 'expression') {
     factoryOptions.parameters = givenParams;
   } else {
@@ -531,8 +579,60 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     }
   }
 
+  // the start state: a state of an earlier run or a file (`start:`), and the `initial:` forms
+  const base = startFrom ? readStartState(startFrom, problem, params, fail) : undefined;
+  if (base && initial?.file !== undefined) fail('initial.from', `names a state file, and start: gives a state too: use one of them`);
+  let start = base;
+  if (initial && (initial.file !== undefined || Object.keys(initial.values).length > 0 || initial.noise)) {
+    let baseU = base?.u;
+    if (initial.file !== undefined) baseU = readStartState({ resolved: { solution: initial.file }, solution: initial.file }, problem, params, (_f, d) => fail('initial.from', d)).u;
+    let u: Float64Array;
+    try {
+      u = initialStateBuilder(problem, initialSpec(initial)).build(params, baseU);
+    } catch (e) {
+      if (e instanceof InitialStateError) return fail(e.field ? keyPath('initial', e.field) : 'initial', e.message);
+      throw e;
+    }
+    setPhaseReference(problem, u);
+    start = { u, from: `${initialWords(initial)}${base ? ` on ${base.from}` : ''}` };
+  }
+  const caution = description.caution ?? registryCaution;
+  return {
+    label,
+    fail,
+    input,
+    kind,
+    modelId,
+    modelRef,
+    modelOptions,
+    intervals,
+    length,
+    problem,
+    description,
+    params,
+    givenParams,
+    knownParams,
+    fromRun,
+    ...(startFrom ? { startFrom } : {}),
+    ...(start ? { start } : {}),
+    ...(initial ? { initial } : {}),
+    ...(caution ? { caution } : {}),
+  };
+}
+
+/** Check a parsed case (e.g. the resolved case stored in a run directory) and build its problem. */
+export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions): Promise<PreparedCase> {
+  const parts = await prepareCaseParts(raw, opts);
+  const { label, fail, input, kind, modelId, modelRef, modelOptions, intervals, length, problem, description, params, givenParams, knownParams, fromRun, startFrom } = parts;
+  if (input.continuation === undefined) {
+    fail(
+      'continuation',
+      `is missing (accepted: a map with keys ${Object.keys(continuationSchema.shape).join(', ')}; a case with time: only is for \`branchline settle\`)`,
+    );
+  }
+
   // 8. continuation
-  const c = input.continuation;
+  const c = input.continuation!;
   const parameter = c.parameter.trim();
   const spec = problem.parameters.find((s) => s.name === parameter);
   if (!spec) {
@@ -616,8 +716,6 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
   if (!monitorNames.includes(plotMonitor)) {
     fail('plot.monitor', `${showValue(plotMonitor)} is not a monitor of this problem (accepted: ${monitorNames.join(', ')})`);
   }
-  const startState = startFrom ? readStartState(startFrom, problem, params, fail) : undefined;
-
   const resolved: ResolvedCase = {
     name: input.name ?? opts.defaultName ?? 'case',
     model: modelRef,
@@ -635,6 +733,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     },
     plot: { monitor: plotMonitor },
     ...(startFrom ? { start: startFrom.resolved } : {}),
+    ...(parts.initial ? { initial: parts.initial } : {}),
   };
 
   return {
@@ -645,9 +744,9 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     problem,
     params: Object.freeze({ ...params }),
     settings: toSettings(continuation, resolved.stability.eigenvalues),
-    ...(description.caution ?? registryCaution ? { caution: description.caution ?? registryCaution } : {}),
-    ...(startState ? { start: startState } : {}),
-    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), atPoint: startFrom?.point?.record.kind === follow.kind } } : {}),
+    ...(parts.caution ? { caution: parts.caution } : {}),
+    ...(parts.start ? { start: parts.start } : {}),
+    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), atPoint: startFrom?.point?.record?.kind === follow.kind } } : {}),
   };
 }
 
@@ -674,7 +773,7 @@ function resolveStartKey(
   fail: (field: string, detail: string) => never,
 ): StartKey | undefined {
   if (start === undefined) return undefined;
-  const accepted = '{solution: file.npy} or {run: folder, point: fold[:N], branch: K}';
+  const accepted = '{solution: file.npy}, {run: folder, point: fold[:N], branch: K} or {run: folder, point: final}';
   if (start.solution !== undefined && start.run !== undefined) fail('start', `gives both solution and run (accepted: ${accepted})`);
   if (start.solution !== undefined) {
     if (start.point !== undefined || start.branch !== undefined) fail('start', `point and branch go with run, not with solution (accepted: ${accepted})`);
@@ -683,6 +782,14 @@ function resolveStartKey(
   }
   if (start.run === undefined) fail('start', `names neither a solution file nor a run (accepted: ${accepted})`);
   if (start.point === undefined) fail('start.point', `is missing (accepted: ${pointSpecAccepted})`);
+  if (start.point!.trim().toLowerCase() === 'final') {
+    const dir = resolve(baseDir, start.run!);
+    try {
+      return { resolved: { run: dir, point: 'final', branch: 1 }, point: finalPoint(dir) };
+    } catch (e) {
+      return fail('start.run', (e as Error).message);
+    }
+  }
   const spec = parsePointSpec(start.point!);
   if (!spec) fail('start.point', `${showValue(start.point)} is not accepted (accepted: ${pointSpecAccepted})`);
   const dir = resolve(baseDir, start.run!);
@@ -724,10 +831,14 @@ function readStartState(start: StartKey, problem: Problem, params: Params, fail:
   for (let i = 0; i < u.length; i++) {
     if (!Number.isFinite(u[i])) fail(field, `${file}: holds non-finite values (unknown ${i})`);
   }
-  // a phase condition measures shifts against a reference profile: the start state is the natural one
+  setPhaseReference(problem, u);
+  return { u, from: start.point ? `the ${start.point.words}` : `the solution file ${file}` };
+}
+
+/** A phase condition measures shifts against a reference profile: the start state is the natural one. */
+function setPhaseReference(problem: Problem, u: Float64Array): void {
   const withReference = problem as Problem & { setPhaseReference?: (u: Float64Array) => void };
   if (problem.extraUnknowns.length > 0 && typeof withReference.setPhaseReference === 'function') withReference.setPhaseReference(u);
-  return { u, from: start.point ? `the ${start.point.words}` : `the solution file ${file}` };
 }
 
 function resolveStep(
@@ -765,6 +876,17 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
   };
 }
 
+/** The keys every resolved case writes first: name, model, the model's own keys, grid, parameters. */
+export function caseDocumentHead(c: Pick<ResolvedCase, 'name' | 'model' | 'modelOptions' | 'grid' | 'modelKind' | 'parameterDeclarations' | 'parameters'>): Record<string, unknown> {
+  return {
+    name: c.name,
+    model: c.model,
+    ...c.modelOptions,
+    grid: { intervals: c.grid.intervals, length: c.grid.length },
+    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+  };
+}
+
 /**
  * The resolved case in the case-file format (every default filled in), as stored in run.json;
  * `prepareCaseObject` reads it back (issue: resume).
@@ -772,11 +894,7 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
 export function caseDocument(c: ResolvedCase): Record<string, unknown> {
   const k = c.continuation;
   return {
-    name: c.name,
-    model: c.model,
-    ...c.modelOptions,
-    grid: { intervals: c.grid.intervals, length: c.grid.length },
-    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
+    ...caseDocumentHead(c),
     continuation: {
       parameter: k.parameter,
       bounds: k.bounds,
@@ -796,6 +914,7 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
     checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
     ...(c.plot ? { plot: { monitor: c.plot.monitor } } : {}),
     ...(c.start ? { start: { ...c.start } } : {}),
+    ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
   };
 }
 

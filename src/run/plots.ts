@@ -60,7 +60,7 @@ export interface PlotResult {
   plane?: [string, string];
 }
 
-interface AxisInfo {
+export interface AxisInfo {
   name: string;
   intervals: number;
   length: number;
@@ -394,6 +394,24 @@ function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
 
 /** The solution plot of one special point: a line plot (1D) or heat maps (2D; 3D: the middle z slice). */
 export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: SpecialRecord, ctx: SolutionContext): string {
+  const nf = array.shape[0];
+  const names = ctx.fields.length === nf ? ctx.fields : Array.from({ length: nf }, (_, i) => `field ${i + 1}`);
+  const what = names.length === 1 ? names[0] : names.join(', ');
+  return statePictureSvg(array, {
+    title: `${what} at ${pointTitle(s)}`,
+    subtitle: pointSubtitle(s, ctx),
+    fields: ctx.fields,
+    axes: ctx.axes,
+    ...(ctx.caution ? { caution: ctx.caution } : {}),
+    idPrefix: basename(String(s.solution ?? 'solution')).replace(/\.npy$/, ''),
+  });
+}
+
+/** A state (node array) as a picture: a line plot in 1D, heat maps in 2D, the middle z slice in 3D. */
+export function statePictureSvg(
+  array: { shape: number[]; data: Float64Array },
+  ctx: { title: string; subtitle: string; fields: readonly string[]; axes: readonly AxisInfo[]; caution?: string; idPrefix: string },
+): string {
   const { shape, data } = array;
   const dim = shape.length - 1;
   if (dim < 1 || dim > 3) throw new Error(`shape (${shape.join(', ')}) is not (fields, [nz, ny,] nx)`);
@@ -401,9 +419,8 @@ export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: S
   const names = ctx.fields.length === nf ? ctx.fields : Array.from({ length: nf }, (_, i) => `field ${i + 1}`);
   const nodes = shape.slice(1).reduce((a, b) => a * b, 1);
   const axis = (i: number): AxisInfo | undefined => ctx.axes[i];
-  const what = names.length === 1 ? names[0] : names.join(', ');
-  const title = `${what} at ${pointTitle(s)}`;
-  let subtitle = pointSubtitle(s, ctx);
+  const title = ctx.title;
+  let subtitle = ctx.subtitle;
   const caution = ctx.caution ? { caution: ctx.caution } : {};
   if (dim === 1) {
     const nx = shape[1];
@@ -437,7 +454,7 @@ export function solutionSvg(array: { shape: number[]; data: Float64Array }, s: S
     xLabel: axis(0)?.name ?? 'x',
     yLabel: axis(1)?.name ?? 'y',
     fields: names.map((name, f) => ({ name, values: data.subarray(f * nodes + kz * nx * ny, f * nodes + (kz + 1) * nx * ny) })),
-    idPrefix: basename(String(s.solution ?? 'solution')).replace(/\.npy$/, ''),
+    idPrefix: ctx.idPrefix,
     ...caution,
   });
 }

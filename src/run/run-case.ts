@@ -118,7 +118,7 @@ export interface RunResult {
  * Where a case's run goes: `outOverride` (relative to the current folder), else the case's
  * `output.directory` (relative to the case file), else `runs/<name>` in the current folder.
  */
-export function outputDirectory(prepared: PreparedCase, outOverride?: string): string {
+export function outputDirectory(prepared: { baseDir: string; case: { name: string; output: { directory?: string } } }, outOverride?: string): string {
   if (outOverride !== undefined) return resolve(outOverride);
   if (prepared.case.output.directory !== undefined) return resolve(prepared.baseDir, prepared.case.output.directory);
   return resolve('runs', prepared.case.name);

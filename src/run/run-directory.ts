@@ -32,7 +32,7 @@ export const runFormatVersion = 1;
 export type RunStatus = 'running' | 'finished' | 'stopped' | 'failed';
 
 /** Entries of a run directory that belong to us (removed by `force`). */
-const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots'];
+const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots', 'monitors.csv', 'monitors.svg', 'snapshots'];
 const ownEntryPattern = /^(checkpoint.*|\..*\.tmp)$/;
 
 // ---------------------------------------------------------------------------------------------
@@ -279,7 +279,7 @@ export class RunDirectory {
    * Prepare `path` for a new run (see the header for the policy on existing folders).
    * Throws InputError (bad input, nothing changed) when the folder cannot be used.
    */
-  static create(path: string, options: { force?: boolean } = {}): RunDirectory {
+  static create(path: string, options: { force?: boolean; folders?: readonly string[] } = {}): RunDirectory {
     if (existsSync(path)) {
       if (!statSync(path).isDirectory()) throw new InputError(`output folder ${path} exists and is a file, not a folder`);
       const entries = readdirSync(path);
@@ -298,7 +298,8 @@ export class RunDirectory {
       }
     }
     try {
-      mkdirSync(join(path, 'branches'), { recursive: true });
+      mkdirSync(path, { recursive: true });
+      for (const f of options.folders ?? ['branches']) mkdirSync(join(path, f), { recursive: true });
     } catch (e) {
       throw new InputError(`output folder ${path} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
     }

@@ -7,12 +7,47 @@
  * `failed` (with `failure`); while it is `running`, `process` names the writer.
  */
 import { hostname } from 'node:os';
+import type { Problem } from '../problem/problem.js';
 import type { PreparedCase } from './case.js';
 import { caseDocument } from './case.js';
 import type { CheckpointWritten } from './run-hooks.js';
 import { type ColumnPlan, type RunDirectory, type RunLedger, type RunStatus, runFormat, runFormatVersion } from './run-directory.js';
 import { softwareVersion } from './version.js';
 import { curveSpecialKinds } from '../continuation/curves/types.js';
+
+/** The head of every run.json (runs and integrations): format, software, status, times, writer, checkpoint. */
+export function runHeader(h: { status: RunStatus; failure?: string; caseFile: string | null; started: string; resumes: readonly string[]; checkpoint?: object }): Record<string, unknown> {
+  return {
+    format: runFormat,
+    'format-version': runFormatVersion,
+    software: { ...softwareVersion(), node: process.version },
+    status: h.status,
+    ...(h.failure !== undefined ? { failure: h.failure } : {}),
+    'case-file': h.caseFile,
+    started: h.started,
+    ended: h.status === 'running' ? null : isoNow(),
+    ...(h.resumes.length ? { resumed: [...h.resumes] } : {}),
+    // who writes this run while it goes (resume refuses to start a second writer)
+    ...(h.status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
+    ...(h.checkpoint && h.status !== 'finished' ? { checkpoint: { ...h.checkpoint } } : {}),
+  };
+}
+
+/** run.json's `problem`: model, summary, fields, axes (h, nodes), unknowns, extras, monitors, layout. */
+export function problemDocument(problem: Problem): Record<string, unknown> {
+  const description = problem.describe();
+  return {
+    model: description.model,
+    summary: description.summary,
+    fields: description.fields,
+    axes: description.axes.map((a) => ({ name: a.name, intervals: a.intervals, length: a.length, h: a.h, nodes: a.nodes })),
+    unknowns: problem.size,
+    'grid-unknowns': problem.gridUnknowns,
+    'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
+    monitors: Object.fromEntries(problem.monitors.map((m) => [m.name, m.description])),
+    ...(description.layout ? { layout: description.layout } : {}),
+  };
+}
 
 export function isoNow(): string {
   return new Date().toISOString();
@@ -53,32 +88,10 @@ export class RunRecord {
   document(): Record<string, unknown> {
     const { prepared, plan, ledger, status, failure } = this;
     const { problem, params, settings } = prepared;
-    const description = problem.describe();
     const { started, resumes, previousSeconds } = this.times;
     return {
-      format: runFormat,
-      'format-version': runFormatVersion,
-      software: { ...softwareVersion(), node: process.version },
-      status,
-      ...(failure !== undefined ? { failure } : {}),
-      'case-file': prepared.file ?? null,
-      started,
-      ended: status === 'running' ? null : isoNow(),
-      ...(resumes.length ? { resumed: resumes } : {}),
-      // who writes this run while it goes (resume refuses to start a second writer)
-      ...(status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
-      ...(this.lastCheckpoint && status !== 'finished' ? { checkpoint: { ...this.lastCheckpoint } } : {}),
-      problem: {
-        model: description.model,
-        summary: description.summary,
-        fields: description.fields,
-        axes: description.axes.map((a) => ({ name: a.name, intervals: a.intervals, length: a.length, h: a.h, nodes: a.nodes })),
-        unknowns: problem.size,
-        'grid-unknowns': problem.gridUnknowns,
-        'extra-unknowns': problem.extraUnknowns.map((e) => e.name),
-        monitors: Object.fromEntries(problem.monitors.map((m) => [m.name, m.description])),
-        ...(description.layout ? { layout: description.layout } : {}),
-      },
+      ...runHeader({ status, ...(failure !== undefined ? { failure } : {}), caseFile: prepared.file ?? null, started, resumes, ...(this.lastCheckpoint ? { checkpoint: this.lastCheckpoint } : {}) }),
+      problem: problemDocument(problem),
       'start-parameters': { ...params },
       'continuation-parameter': settings.parameter,
       // curve runs: what the curves follow and the parameter that adjusts along them

@@ -31,7 +31,7 @@ export interface PointSpec {
 }
 
 export const pointSpecAccepted =
-  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2';
+  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
 
 /** Parse `fold`, `fold:2`, `branch-point:1`...; returns null when the text is not one of these. */
 export function parsePointSpec(text: string): PointSpec | null {
@@ -159,9 +159,10 @@ export function runPointParameters(files: RunFiles, record: SpecialRecord): Reco
   return out;
 }
 
-/** A special point of a run, with its solution file and extra unknowns. */
+/** A special point of a run (or the final state of a time integration), with its solution file and extra unknowns. */
 export interface RunPoint {
-  record: SpecialRecord;
+  /** The points.json record (absent for the final state of a time integration). */
+  record?: SpecialRecord;
   /** Absolute path of the solution file. */
   solution: string;
   params: Record<string, number>;
@@ -241,4 +242,45 @@ export function extrasVector(names: readonly string[], extras: Record<string, nu
     out[i] = v;
   }
   return out;
+}
+
+/**
+ * `start: {run: DIR, point: final}`: the final state of a time integration (`branchline settle`),
+ * with its parameter values and extra unknowns (run.json `final`). Any outcome is accepted (a
+ * continuation converges Newton from it; a new integration goes on from it); the words say which.
+ */
+export function finalPoint(dir: string): RunPoint {
+  const run = readRunJson(dir);
+  if (run.kind !== 'settle') {
+    throw new Error(`run ${dir} is a continuation run; final names the last state of a time integration (branchline settle); this run has: ${availablePoints(readPointsJson(dir, true))}`);
+  }
+  const final = run.final as { solution?: unknown; 'extra-unknowns'?: unknown } | undefined;
+  if (!final || typeof final.solution !== 'string') throw new Error(`run ${dir} has no final state yet (status ${String(run.status)}; resume it with branchline resume)`);
+  const solution = resolve(dir, final.solution);
+  if (!existsSync(solution)) throw new Error(`run ${dir}: the final state ${final.solution} is missing`);
+  const params: Record<string, number> = {};
+  for (const [k, v] of Object.entries((run['start-parameters'] ?? {}) as Record<string, unknown>)) {
+    try {
+      params[k] = parseJsonNumber(v);
+    } catch {
+      // left to the case and the model defaults
+    }
+  }
+  const extras = final['extra-unknowns'];
+  const outcome = (run.outcome as { kind?: unknown } | undefined)?.kind;
+  return {
+    solution,
+    params,
+    ...(extras && typeof extras === 'object' ? { extras: numberMap(extras as Record<string, unknown>) } : {}),
+    words: `final state (${typeof outcome === 'string' ? outcome : 'unfinished'}) of the time integration in ${dir}`,
+  };
+}
+
+/** `settle` for the folder of a time integration, `continuation` for other runs, undefined when unreadable. */
+export function runKind(dir: string): 'settle' | 'continuation' | undefined {
+  try {
+    return readRunJson(dir).kind === 'settle' ? 'settle' : 'continuation';
+  } catch {
+    return undefined;
+  }
 }

@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory,curves   a subset
+ *   npm run bench -- --only lu,assembly,steps,branch,memory,settle,curves   a subset
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
@@ -17,6 +17,7 @@ import { benchExpressionAssembly } from './expression.js';
 import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
 import { type CurveBenchRow, curveTable } from './curves.js';
+import { type SettleBenchRow, settleTable } from './settle.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -101,6 +102,15 @@ if (want('curves')) {
   console.log('A fold-curve step against a one-parameter step on the same grid (no eigenvalues; target ratio at most 3)');
   console.log(curveTable([r]) + '\n');
   results.curves = r;
+}
+
+if (want('settle')) {
+  const m = quick ? 64 : 128;
+  const r = inChild<SettleBenchRow>('settle', String(m));
+  console.log(`Time integration to a steady state (BDF2), ${r.outcome}`);
+  console.log(settleTable([r]) + '\n');
+  console.log(`Newton polish of the steady state: ${r.polishFactorisations} factorisations (not counted above)\n`);
+  results.settle = r;
 }
 
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');

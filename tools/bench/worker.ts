@@ -4,9 +4,11 @@
  *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
  *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
  *   node dist/tools/bench/worker.js curves <m> <steps> <repeats>
+ *   node dist/tools/bench/worker.js settle <m>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
 import { benchCurveSteps } from './curves.js';
+import { benchSettle } from './settle.js';
 
 const [kind, ...rest] = process.argv.slice(2);
 if (kind === 'steps') {
@@ -19,6 +21,8 @@ if (kind === 'steps') {
 } else if (kind === 'curves') {
   const [m, steps, repeats] = rest;
   console.log(JSON.stringify(benchCurveSteps(Number(m), Number(steps), Number(repeats))));
+} else if (kind === 'settle') {
+  console.log(JSON.stringify(benchSettle(Number(rest[0]))));
 } else {
   console.error(`worker: unknown kind '${kind}'`);
   process.exit(2);

@@ -2,7 +2,8 @@ import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { type EntryReport, type JacobianCheckReport, checkJacobian } from '../../problem/check.js';
 import type { UnknownLocation } from '../../problem/problem.js';
-import { type PreparedCase, prepareCase } from '../../run/case.js';
+import { type PreparedCase, prepareCaseObject, readCaseFile } from '../../run/case.js';
+import { prepareSettleCaseObject } from '../../run/settle-case.js';
 import { checkCurveCase } from '../../continuation/curves/check.js';
 import { InputError } from '../../run/errors.js';
 import { formatValue } from '../../run/summary.js';
@@ -108,8 +109,12 @@ its contract); 2 the case file is bad.`,
     )
     .action(async (file: string, opts: { tolerance?: string; json?: boolean }) => {
       const tolerance = parseTolerance(opts.tolerance);
-      const prepared = await prepareCase(file);
-      const { problem, params, settings } = prepared;
+      // a case for settle (no continuation: section) is checked as well as one for run
+      const { raw, opts: readOptions } = readCaseFile(file);
+      const withContinuation = raw !== null && typeof raw === 'object' && (raw as Record<string, unknown>).continuation !== undefined;
+      const prepared = withContinuation ? await prepareCaseObject(raw, readOptions) : await prepareSettleCaseObject(raw, readOptions);
+      const { problem, params } = prepared;
+      const parameter = 'settings' in prepared ? prepared.settings.parameter : '';
       const d = problem.describe();
       let report: JacobianCheckReport;
       try {
@@ -121,7 +126,7 @@ its contract); 2 the case file is bad.`,
         return;
       }
       // curve runs: the augmented system's linearisation too (src/continuation/curves/check.ts)
-      const curve = prepared.curve ? checkCurveSystem(prepared) : undefined;
+      const curve = 'curve' in prepared && prepared.curve ? checkCurveSystem(prepared) : undefined;
       const agree = derivativesAgree(report) && (curve?.passed ?? true);
       if (opts.json) {
         io.out(toJson({ case: prepared.case.name, 'case-file': prepared.file ?? null, parameters: params, agree, report, ...(curve ? { curve } : {}) }));
@@ -131,7 +136,7 @@ its contract); 2 the case file is bad.`,
           `  ${problem.size} unknowns; checked at ${Object.entries(params)
             .map(([k, v]) => `${k} = ${formatValue(v, 10)}`)
             .join(', ')} and the initial state (slightly perturbed), tolerance ${formatValue(tolerance, 3)}`,
-          ...reportLines(report, settings.parameter),
+          ...reportLines(report, parameter),
           ...(curve ? [curve.line] : []),
           agree
             ? `The Jacobian and the parameter derivatives${curve ? ` and the ${curve.kind} system` : ''} agree with finite differences.`

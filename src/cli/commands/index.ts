@@ -11,5 +11,6 @@ import { registerCheck } from './check.js';
 import { registerNew } from './new.js';
 import { registerRefine } from './refine.js';
 import { registerPlot } from './plot.js';
+import { registerSettle } from './settle.js';
 
-export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot];
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerSettle, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot];

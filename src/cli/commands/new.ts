@@ -232,6 +232,19 @@ function optionLines(specs: readonly OptionSpec[]): string[] {
   return lines;
 }
 
+/** Commented lines on the initial state and the time integration (`branchline settle`). */
+function initialAndTimeLines(fields: readonly string[], dim: number): string[] {
+  const centre = ['x', 'y', 'z'].slice(0, dim).map((c) => `(${c}-0.5)^2`).join(' + ');
+  return [
+    '# initial state (a continuation starts Newton from it; branchline settle integrates from it):',
+    `# initial: {${fields.map((f, i) => (i === 0 ? `${f}: 1` : `${f}: "0.25*exp(-(${centre})/0.01)"`)).join(', ')}, noise: {amplitude: 0.001, seed: 1}}`,
+    '#   per field a number or an expression in x, y, z and the parameters; noise on top (seed recorded);',
+    '#   from: a named state of the model or a .npy file as the base; extra unknowns by name',
+    '# time integration to a steady state (branchline settle; start a run from it: start: {run: DIR, point: final}):',
+    '# time: {end: 10000, tolerance: {relative: 1.0e-4}, steady-tolerance: 1.0e-6}',
+  ];
+}
+
 function commonTail(s: Suggestion, parameter: string, start: number, monitors: string[], dim: number): string[] {
   const [lo, hi] = s.bounds(dim);
   return [
@@ -300,10 +313,12 @@ export function starterCase(id: string, dimension?: number): string {
       '  u: 1',
       c('boundary: dirichlet', 'neumann | dirichlet | robin | periodic, or per side / per field (see `branchline models`)'),
       '# robin (convective) sides: {kind: robin, coefficient: 2, value: 0} means ∂u/∂n + 2·u = 0',
-      '# initial: {u: 0}                # initial state per field (default 0)',
+      '# initial: {u: "0.1*sin(pi*x)"}  # initial state per field: a number or an expression in x, y, z and the parameters (default 0)',
       'grid:',
       c(`  intervals: [${intervals.join(', ')}]`, `intervals per axis (1 to 3 axes); h = length / intervals`),
       `  length: [${intervals.map(() => 1).join(', ')}]`,
+      '# time integration to a steady state (branchline settle; start a run from it: start: {run: DIR, point: final}):',
+      '# time: {end: 100, steady-tolerance: 1.0e-6}',
       ...commonTail(s, 'mu', 0.1, ['max', 'min', 'l2-norm'], dim),
       `# Caution: ${entry.caution ?? ''}`,
     ];
@@ -328,6 +343,7 @@ export function starterCase(id: string, dimension?: number): string {
       return c(`  ${text}`, p.description);
     }),
     `# ${s.note}`,
+    ...initialAndTimeLines(problem.describe().fields, dim),
     ...commonTail(s, s.parameter, startValue, problem.monitors.map((m) => m.name), dim),
   ];
   if (entry.caution) lines.push(`# Caution: ${entry.caution}`);

@@ -4,6 +4,8 @@ import { existsSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
 import { defaultMaxSolutionPlots, drawRunPlots } from '../../run/plots.js';
 import { drawStudyPlots } from '../../refine/study.js';
+import { drawSettlePlots } from '../../run/settle-plots.js';
+import { runKind } from '../../run/start.js';
 
 /** `branchline plot DIR`: (re)draw the SVG pictures of a run, or of a refinement study, from its files. */
 export function registerPlot(program: Command, { io, setExit }: CommandContext): void {
@@ -22,6 +24,13 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
         const r = drawStudyPlots(abs, options);
         for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
         io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where}: ${summarise(r.files)}\n`);
+        setExit(r.warnings.length ? 1 : 0);
+        return;
+      }
+      if (runKind(abs) === 'settle') {
+        const r = drawSettlePlots(abs);
+        for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
+        io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (a time integration): ${summarise(r.files)}\n`);
         setExit(r.warnings.length ? 1 : 0);
         return;
       }

@@ -7,12 +7,14 @@ import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
 import { jsonSummary } from '../../run/batch.js';
 import { onTerminal, resumeHint, stopOnSignals } from './run.js';
+import { resumeSettle } from './settle.js';
+import { runKind } from '../../run/start.js';
 
 /** `branchline resume DIR`: continue a stopped or killed run from its last checkpoint. */
 export function registerResume(program: Command, { io, setExit }: CommandContext): void {
   program
     .command('resume')
-    .description('continue a stopped or killed run from its last checkpoint, in its own folder')
+    .description('continue a stopped or killed run (or time integration) from its last checkpoint, in its own folder')
     .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin)')
     .option('--force', 'resume even though run.json names a live process as the run\'s writer (when that process is not branchline)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
@@ -28,6 +30,7 @@ Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder h
 a finished run, or no usable checkpoint.`,
     )
     .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
+      if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit });
       const { prepared, outDir, plan } = await prepareResume(dirGiven, { force: opts.force === true });
       const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
       for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);

@@ -15,7 +15,7 @@ const maxJobs = 64;
  * checkpoint written, run.json marked stopped); a second leaves at once (every run can still be
  * resumed from its last checkpoint). Returns the stop signal and a function that removes the handlers.
  */
-export function stopOnSignals(io: Io, view: () => ProgressView | undefined): { signal: AbortSignal; release: () => void } {
+export function stopOnSignals(io: Io, view: () => Pick<ProgressView, 'log' | 'close'> | undefined): { signal: AbortSignal; release: () => void } {
   const controller = new AbortController();
   let count = 0;
   const onSignal = (signal: NodeJS.Signals): void => {
