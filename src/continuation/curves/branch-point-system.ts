@@ -23,30 +23,21 @@
  */
 import type { LUOptions } from '../../linalg/lu.js';
 import type { Params, Problem } from '../../problem/problem.js';
-import { type AugmentedSystem, type SystemCounters, type TestFunction, type TestValue, solveSmall } from './augmented.js';
+import { type AugmentedSystem, type TestFunction, type TestValue, solveSmall } from './augmented.js';
+import { BorderedCurveSystem } from './bordered-system.js';
 import { dominantMode } from './mode.js';
-import { NullVectorBorder } from './null-border.js';
-import { frozenRowScale, scaledNorm } from './scale.js';
+import { scaledNorm } from './scale.js';
 import { type UniformSubspace, fieldAverages, uniformState, uniformSubspace } from './uniform.js';
 
 export const branchPointTestFunctions: readonly TestFunction[] = [
   { name: 'determinant-sign', kind: 'mode-change', type: 'determinant', description: "sign of the bordered null-vector matrix; it changes where another mode's eigenvalue reaches zero" },
 ];
 
-export class BranchPointSystem implements AugmentedSystem {
+export class BranchPointSystem extends BorderedCurveSystem implements AugmentedSystem {
   readonly kind = 'branch-point' as const;
-  readonly size: number;
-  readonly weights: Float64Array;
-  readonly parameterIndex: number;
-  readonly freeIndex: number;
   readonly testFunctions = branchPointTestFunctions;
-  readonly border: NullVectorBorder;
   /** Number of free uniform fields. */
   readonly nu: number;
-  rowScale: Float64Array;
-  gScale = 1;
-  private readonly n: number;
-  private readonly jac: Float64Array;
   private readonly f: Float64Array;
   private readonly u: Float64Array;
   private readonly fp: Float64Array;
@@ -57,29 +48,16 @@ export class BranchPointSystem implements AugmentedSystem {
   private modeCache: number[] | undefined | null = null;
 
   constructor(
-    readonly problem: Problem,
-    readonly base: Params,
-    readonly parameter: string,
-    readonly free: string,
+    problem: Problem,
+    base: Params,
+    parameter: string,
+    free: string,
     readonly space: UniformSubspace,
     luOptions: LUOptions = {},
   ) {
-    for (const name of [parameter, free]) {
-      if (!(name in base)) throw new Error(`unknown parameter '${name}' (known: ${Object.keys(base).join(', ')})`);
-    }
-    if (parameter === free) throw new Error(`the free parameter must differ from the continuation parameter (both are '${parameter}')`);
-    this.n = problem.size;
+    // the uniform values weigh as much as their fields' domain measures
+    super(problem, base, parameter, free, space.free.map((f) => f.measure), luOptions);
     this.nu = space.free.length;
-    this.size = this.nu + 2;
-    this.parameterIndex = this.nu;
-    this.freeIndex = this.nu + 1;
-    this.weights = new Float64Array(this.size);
-    space.free.forEach((f, k) => (this.weights[k] = f.measure));
-    this.weights[this.nu] = 1;
-    this.weights[this.nu + 1] = 1;
-    this.border = new NullVectorBorder(problem, luOptions);
-    this.rowScale = new Float64Array(this.n).fill(1);
-    this.jac = new Float64Array(problem.pattern().colPtr[this.n]);
     this.f = new Float64Array(this.n);
     this.u = new Float64Array(this.n);
     this.fp = new Float64Array(this.n);
@@ -90,14 +68,6 @@ export class BranchPointSystem implements AugmentedSystem {
   /** The uniform subspace through u (the start state), for building the system. */
   static subspace(problem: Problem, u: Float64Array, p: Params): UniformSubspace {
     return uniformSubspace(problem, u, p);
-  }
-
-  get counters(): SystemCounters {
-    return this.border.counters;
-  }
-
-  params(y: Float64Array): Params {
-    return { ...this.base, [this.parameter]: y[this.nu], [this.free]: y[this.nu + 1] };
   }
 
   state(y: Float64Array): Float64Array {
@@ -121,25 +91,14 @@ export class BranchPointSystem implements AugmentedSystem {
     return y;
   }
 
-  private assemble(y: Float64Array): void {
+  protected assemble(y: Float64Array): void {
     uniformState(this.space, y.subarray(0, this.nu), this.u);
-    const t0 = performance.now();
-    this.problem.jacobian(this.u, this.params(y), this.jac);
-    this.border.counters.seconds.assembly += (performance.now() - t0) / 1000;
-    this.border.counters.assemblies++;
+    this.jacobianAt(this.u, this.params(y));
   }
 
-  initialise(y: Float64Array): void {
-    this.assemble(y);
-    this.border.initialise(this.jac);
-  }
-
-  setScale(y: Float64Array): void {
-    this.assemble(y);
-    this.rowScale = frozenRowScale(this.problem, this.jac);
-    this.evaluate(y, new Float64Array(this.size - 1));
+  protected gParameterDerivatives(): [number, number] {
     const lin = this.linearise();
-    this.gScale = Math.max(1, Math.hypot(lin[this.nu][this.nu], lin[this.nu][this.nu + 1]));
+    return [lin[this.nu][this.nu], lin[this.nu][this.nu + 1]];
   }
 
   evaluate(y: Float64Array, out: Float64Array): number {
@@ -221,11 +180,6 @@ export class BranchPointSystem implements AugmentedSystem {
     });
   }
 
-  /** The rounding level of the last evaluated residual, in its scaled measure (that of g: F's is far below). */
-  residualFloor(): number {
-    return this.border.gRoundingLevel() / this.gScale;
-  }
-
   tests(): TestValue[] {
     // always at the point itself (a factorisation there): mode changes decide which curve goes on
     const det = this.border.determinant(true);
@@ -271,30 +225,5 @@ export class BranchPointSystem implements AugmentedSystem {
       if (z) return { mode, direction: Float64Array.from(z), growth };
     }
     return undefined;
-  }
-
-  adopt(): void {
-    this.border.adopt();
-  }
-
-  saveState(): Float64Array[] {
-    return [this.border.b.slice(), this.border.c.slice(), this.rowScale.slice(), Float64Array.of(this.gScale)];
-  }
-
-  restoreState(saved: readonly Float64Array[]): void {
-    if (saved.length !== 4 || saved[0].length !== this.n || saved[1].length !== this.n || saved[2].length !== this.n) {
-      throw new Error(`the saved branch-point-curve state does not fit this problem (${this.n} unknowns)`);
-    }
-    this.border.restoreBorders(saved[0], saved[1]);
-    this.rowScale = saved[2].slice();
-    this.gScale = saved[3][0];
-  }
-
-  restart(): void {
-    this.border.restart();
-  }
-
-  dispose(): void {
-    this.border.dispose();
   }
 }

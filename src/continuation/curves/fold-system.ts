@@ -31,9 +31,9 @@
  */
 import type { LUOptions } from '../../linalg/lu.js';
 import type { Params, Problem } from '../../problem/problem.js';
-import { type AugmentedSystem, type SystemCounters, type TestFunction, type TestValue, solveSmall } from './augmented.js';
-import { NullVectorBorder } from './null-border.js';
-import { frozenRowScale, scaledNorm } from './scale.js';
+import { type AugmentedSystem, type TestFunction, type TestValue, solveSmall } from './augmented.js';
+import { BorderedCurveSystem } from './bordered-system.js';
+import { scaledNorm } from './scale.js';
 
 export const foldTestFunctions: readonly TestFunction[] = [
   { name: 'cusp-coefficient', kind: 'cusp', type: 'value', description: 'quadratic normal-form coefficient ⟨w, F_uu(v, v)⟩ (normalised null vectors); zero at a cusp' },
@@ -41,19 +41,9 @@ export const foldTestFunctions: readonly TestFunction[] = [
   { name: 'determinant-sign', kind: 'fold-branch-point', type: 'determinant', description: 'sign of the bordered null-vector matrix; it changes where a second null vector appears' },
 ];
 
-export class FoldSystem implements AugmentedSystem {
+export class FoldSystem extends BorderedCurveSystem implements AugmentedSystem {
   readonly kind = 'fold' as const;
-  readonly n: number;
-  readonly size: number;
-  readonly weights: Float64Array;
-  readonly parameterIndex: number;
-  readonly freeIndex: number;
   readonly testFunctions = foldTestFunctions;
-  readonly border: NullVectorBorder;
-  /** 1 / max(1, row max of |J|) per equation row, and the scale of g (frozen per curve). */
-  rowScale: Float64Array;
-  gScale = 1;
-  private readonly jac: Float64Array;
   private readonly f: Float64Array;
   private readonly fPar: Float64Array;
   private readonly fFree: Float64Array;
@@ -73,29 +63,9 @@ export class FoldSystem implements AugmentedSystem {
   private readonly vRef: Float64Array;
   private gRef = 0;
 
-  constructor(
-    readonly problem: Problem,
-    readonly base: Params,
-    readonly parameter: string,
-    readonly free: string,
-    luOptions: LUOptions = {},
-  ) {
-    for (const name of [parameter, free]) {
-      if (!(name in base)) throw new Error(`unknown parameter '${name}' (known: ${Object.keys(base).join(', ')})`);
-    }
-    if (parameter === free) throw new Error(`the free parameter must differ from the continuation parameter (both are '${parameter}')`);
-    const n = problem.size;
-    this.n = n;
-    this.size = n + 2;
-    this.parameterIndex = n;
-    this.freeIndex = n + 1;
-    this.weights = new Float64Array(n + 2);
-    this.weights.set(problem.weights);
-    this.weights[n] = 1;
-    this.weights[n + 1] = 1;
-    this.border = new NullVectorBorder(problem, luOptions);
-    this.rowScale = new Float64Array(n).fill(1);
-    this.jac = new Float64Array(problem.pattern().colPtr[n]);
+  constructor(problem: Problem, base: Params, parameter: string, free: string, luOptions: LUOptions = {}) {
+    super(problem, base, parameter, free, problem.weights, luOptions);
+    const n = this.n;
     this.f = new Float64Array(n);
     this.fPar = new Float64Array(n);
     this.fFree = new Float64Array(n);
@@ -106,14 +76,6 @@ export class FoldSystem implements AugmentedSystem {
     this.work = new Float64Array(n + 1);
     this.y = new Float64Array(n + 2);
     this.vRef = new Float64Array(n);
-  }
-
-  get counters(): SystemCounters {
-    return this.border.counters;
-  }
-
-  params(y: Float64Array): Params {
-    return { ...this.base, [this.parameter]: y[this.n], [this.free]: y[this.n + 1] };
   }
 
   state(y: Float64Array): Float64Array {
@@ -129,27 +91,13 @@ export class FoldSystem implements AugmentedSystem {
     return y;
   }
 
-  private assemble(y: Float64Array): void {
-    const u = y.subarray(0, this.n);
-    const p = this.params(y);
-    const c = this.border.counters;
-    const t0 = performance.now();
-    this.problem.jacobian(u, p, this.jac);
-    c.seconds.assembly += (performance.now() - t0) / 1000;
-    c.assemblies++;
+  protected assemble(y: Float64Array): void {
+    this.jacobianAt(y.subarray(0, this.n), this.params(y));
   }
 
-  initialise(y: Float64Array): void {
-    this.assemble(y);
-    this.border.initialise(this.jac);
-  }
-
-  setScale(y: Float64Array): void {
-    this.assemble(y);
-    this.rowScale = frozenRowScale(this.problem, this.jac);
-    this.evaluate(y, new Float64Array(this.n + 1));
+  protected gParameterDerivatives(): [number, number] {
     this.exact();
-    this.gScale = Math.max(1, Math.hypot(this.gPar, this.gFree));
+    return [this.gPar, this.gFree];
   }
 
   evaluate(y: Float64Array, out: Float64Array): number {
@@ -277,11 +225,6 @@ export class FoldSystem implements AugmentedSystem {
     out[n] = s;
   }
 
-  /** The rounding level of the last evaluated residual, in its scaled measure (that of g: F's is far below). */
-  residualFloor(): number {
-    return this.border.gRoundingLevel() / this.gScale;
-  }
-
   tests(exact = false): TestValue[] {
     const u = this.y.subarray(0, this.n);
     const p = this.params(this.y);
@@ -291,30 +234,5 @@ export class FoldSystem implements AugmentedSystem {
       { value: this.border.massProduct() },
       { value: det.sign, logAbs: det.logAbs },
     ];
-  }
-
-  adopt(): void {
-    this.border.adopt();
-  }
-
-  saveState(): Float64Array[] {
-    return [this.border.b.slice(), this.border.c.slice(), this.rowScale.slice(), Float64Array.of(this.gScale)];
-  }
-
-  restoreState(saved: readonly Float64Array[]): void {
-    if (saved.length !== 4 || saved[0].length !== this.n || saved[1].length !== this.n || saved[2].length !== this.n) {
-      throw new Error(`the saved fold-curve state does not fit this problem (${this.n} unknowns)`);
-    }
-    this.border.restoreBorders(saved[0], saved[1]);
-    this.rowScale = saved[2].slice();
-    this.gScale = saved[3][0];
-  }
-
-  restart(): void {
-    this.border.restart();
-  }
-
-  dispose(): void {
-    this.border.dispose();
   }
 }

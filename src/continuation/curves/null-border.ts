@@ -437,8 +437,8 @@ export class NullVectorBorder {
     this.factorNext = true;
   }
 
-  /** Borders from right and left vector approximations x (right) and y (left). */
-  setBorders(x: Float64Array, y: Float64Array): void {
+  /** Borders from right and left vector approximations x (right) and y (left); returns ‖x‖_w and ‖W⁻¹ᐟ²y‖. */
+  setBorders(x: Float64Array, y: Float64Array): { sx: number; sy: number } {
     const wt = this.weights;
     const n = this.n;
     let sx = 0;
@@ -457,6 +457,7 @@ export class NullVectorBorder {
       bmax = Math.max(bmax, Math.abs(this.b[i]));
     }
     this.corner = bmax;
+    return { sx, sy };
   }
 
   /** Borders as saved (checkpoints). */
@@ -500,18 +501,9 @@ export class NullVectorBorder {
     rhs.set(pseudoRandomVector(n, 4048));
     this.counters.solves++;
     const y = this.time('solves', () => this.solver().solveTranspose(rhs, new Float64Array(n + 1))).slice(0, n);
-    this.setBorders(x, y);
     // the new null vectors, normalised as a factorisation with these borders would give them
     // (cᵀv = 1, bᵀw = 1); g = 0 at the point
-    const wt = this.weights;
-    let sx = 0;
-    let sy = 0;
-    for (let i = 0; i < n; i++) {
-      sx += wt[i] * x[i] * x[i];
-      sy += (y[i] * y[i]) / wt[i];
-    }
-    sx = Math.sqrt(sx);
-    sy = Math.sqrt(sy);
+    const { sx, sy } = this.setBorders(x, y);
     for (let i = 0; i < n; i++) {
       this.v[i] = x[i] / sx;
       this.w[i] = y[i] / sy;

@@ -14,6 +14,7 @@ import { checkAugmentedSystem } from '../../../src/continuation/curves/check.js'
 import { FoldSystem } from '../../../src/continuation/curves/fold-system.js';
 import { uniformSubspace } from '../../../src/continuation/curves/uniform.js';
 import type { Problem } from '../../../src/problem/problem.js';
+import type { AugmentedSystem } from '../../../src/continuation/curves/augmented.js';
 import { resolveParameters } from '../../../src/problem/problem.js';
 import { uniformStart } from './helpers.js';
 
@@ -41,6 +42,19 @@ const foldCases: FoldCase[] = [
   },
 ];
 
+/** Borders set up at the state u, then the linearisation against differences and the solve against the linearisation. */
+function expectAgreement(sys: AugmentedSystem, u: Float64Array, p: Record<string, number>, seed: number): void {
+  try {
+    const y = sys.fromState(u, p);
+    sys.initialise(y);
+    const r = checkAugmentedSystem(sys, y, { seed, directions: 3 });
+    expect(r.jacobianError).toBeLessThan(1e-6);
+    expect(r.solveError).toBeLessThan(1e-8);
+  } finally {
+    sys.dispose();
+  }
+}
+
 function draw(problem: Problem, ranges: Record<string, [number, number]>, t: number[]): Record<string, number> {
   const p: Record<string, number> = {};
   Object.entries(ranges).forEach(([k, [lo, hi]], i) => (p[k] = lo + (hi - lo) * t[i % t.length]));
@@ -54,18 +68,9 @@ describe('fold system: linearisation against central differences, bordered solve
       fc.assert(
         fc.property(fc.array(fc.double({ min: 0, max: 1, noNaN: true }), { minLength: 4, maxLength: 4 }), fc.integer({ min: 1, max: 1e6 }), (t, seed) => {
           const p = draw(problem, c.ranges, t);
-          const sys = new FoldSystem(problem, p, c.parameter, c.free);
-          try {
-            const u = problem.initialGuess(p);
-            for (let i = 0; i < u.length; i++) u[i] += c.amp * Math.sin(seed * (i + 1));
-            const y = sys.fromState(u, p);
-            sys.initialise(y);
-            const r = checkAugmentedSystem(sys, y, { seed, directions: 3 });
-            expect(r.jacobianError).toBeLessThan(1e-6);
-            expect(r.solveError).toBeLessThan(1e-8);
-          } finally {
-            sys.dispose();
-          }
+          const u = problem.initialGuess(p);
+          for (let i = 0; i < u.length; i++) u[i] += c.amp * Math.sin(seed * (i + 1));
+          expectAgreement(new FoldSystem(problem, p, c.parameter, c.free), u, p, seed);
         }),
         { numRuns: 12 },
       );
@@ -85,16 +90,7 @@ describe('branch-point system (uniform state)', () => {
         fc.property(fc.array(fc.double({ min: 0, max: 1, noNaN: true }), { minLength: 4, maxLength: 4 }), fc.integer({ min: 1, max: 1e6 }), (t, seed) => {
           const p = draw(c.problem, c.ranges, t);
           const u = uniformStart(c.problem, c.values(p), p);
-          const sys = new BranchPointSystem(c.problem, p, c.parameter, c.free, uniformSubspace(c.problem, u, p));
-          try {
-            const y = sys.fromState(u, p);
-            sys.initialise(y);
-            const r = checkAugmentedSystem(sys, y, { seed, directions: 3 });
-            expect(r.jacobianError).toBeLessThan(1e-6);
-            expect(r.solveError).toBeLessThan(1e-8);
-          } finally {
-            sys.dispose();
-          }
+          expectAgreement(new BranchPointSystem(c.problem, p, c.parameter, c.free, uniformSubspace(c.problem, u, p)), u, p, seed);
         }),
         { numRuns: 8 },
       );
