@@ -232,6 +232,9 @@ export function specialRecord(problem: Problem, parameter: string, s: SpecialPoi
       rec.frequency = s.frequency;
       rec.period = s.period;
       rec.crossing = s.crossing;
+      if (s.lyapunov !== undefined) rec['first-lyapunov-coefficient'] = s.lyapunov;
+      if (s.criticality !== undefined) rec.criticality = s.criticality;
+      if (s.criticalityNote !== undefined) rec.note = s.criticalityNote;
       break;
     case 'end':
       rec.reason = s.reason;

@@ -39,6 +39,13 @@ function leadingMonitor(s: SpecialRecord, prepared: PreparedCase): string | unde
   return name === undefined ? undefined : `${name} = ${formatValue(s.monitors[name], monitorDigits)}`;
 }
 
+/** `supercritical, l₁ = −0.84` (Hopf points, one- and two-parameter runs). */
+function hopfCriticalityWords(s: SpecialRecord): string[] {
+  const l1 = s['first-lyapunov-coefficient'];
+  if (typeof l1 !== 'number' || !Number.isFinite(l1)) return typeof s.criticality === 'string' ? [`criticality ${s.criticality}`] : [];
+  return [`${typeof s.criticality === 'string' && s.criticality !== 'undetermined' ? `${s.criticality}, ` : ''}first Lyapunov coefficient ${formatValue(l1, monitorDigits)}`];
+}
+
 function specialText(s: SpecialRecord, prepared: PreparedCase): string {
   const p = prepared.settings.parameter;
   // on curves a point has both parameters
@@ -66,6 +73,7 @@ function specialText(s: SpecialRecord, prepared: PreparedCase): string {
       if (typeof s.frequency === 'number') words.push(`frequency ${formatValue(s.frequency, monitorDigits)}`);
       if (typeof s.period === 'number') words.push(`period ${formatValue(s.period, monitorDigits)}`);
       if (typeof s.crossing === 'string') words.push(s.crossing);
+      words.push(...hopfCriticalityWords(s));
       return `Hopf point at ${at} (${[...words, ...details].join(', ')})`;
     }
     case 'mode-change':
