@@ -7,7 +7,7 @@
  */
 import type { ContinuationPoint, EngineEvent } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
-import { type CurveEvent, curveStopText } from '../continuation/curves/types.js';
+import { type CurveEvent, curveOnlyStopText } from '../continuation/curves/types.js';
 import { curveBranchRecord, curveSpecialRecord, curveStartWords } from './curve-run.js';
 import type { Params } from '../problem/problem.js';
 import type { PreparedCase } from './case.js';
@@ -131,7 +131,7 @@ export class EventWriter {
       }
       case 'branch-end': {
         const b = this.branchOf(ev.branch);
-        const text = ev.reason === 'free-bound' || ev.reason === 'mode-change' ? curveStopText[ev.reason] : stopReasonText[ev.reason];
+        const text = curveOnlyStopText(ev.reason) ?? stopReasonText[ev.reason as keyof typeof stopReasonText];
         if (b) {
           b.stopReason = ev.reason;
           b.stopText = text ?? ev.reason;

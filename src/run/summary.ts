@@ -6,7 +6,7 @@
 import { existsSync, readdirSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { stopReasonText } from '../continuation/types.js';
-import { curveStopText } from '../continuation/curves/types.js';
+import { curveOnlyStopText } from '../continuation/curves/types.js';
 import type { PreparedCase } from './case.js';
 import type { BranchRecord, SpecialRecord } from './run-directory.js';
 import type { RunResult } from './run-case.js';
@@ -113,7 +113,7 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
       // the special point before says which modes and which curve goes on
       return 'at the mode change';
     default: {
-      const text = reason === 'free-bound' ? curveStopText[reason] : (stopReasonText[reason] ?? reason);
+      const text = curveOnlyStopText(reason) ?? stopReasonText[reason as keyof typeof stopReasonText] ?? reason;
       return b.message && b.message !== text ? `${text} (${b.message})` : text;
     }
   }

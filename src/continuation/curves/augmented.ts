@@ -40,6 +40,8 @@ export interface TestFunction {
    */
   readonly type: 'value' | 'determinant';
   readonly description: string;
+  /** The curve ends at a zero of this function (a Hopf curve at a Bogdanov–Takens point). */
+  readonly ends?: boolean;
 }
 
 export interface TestValue {
@@ -102,6 +104,12 @@ export interface AugmentedSystem {
   tests(exact?: boolean): TestValue[];
   /** The converged point is accepted: refresh borders from its null vectors. */
   adopt(): void;
+
+  /**
+   * A direction to orient the first tangent along, where the continuation parameter cannot say
+   * (a Hopf curve leaving a Bogdanov–Takens point along ω); the curve then goes one way only.
+   */
+  startDirection?(y: Float64Array): Float64Array | undefined;
 
   /** The critical mode's wavenumbers at the last evaluated point, when the system knows them. */
   mode?(): number[] | undefined;

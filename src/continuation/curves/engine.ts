@@ -23,6 +23,7 @@ import type { LUOptions } from '../../linalg/lu.js';
 import type { AugmentedSystem, SystemCounters, TestValue } from './augmented.js';
 import { BranchPointSystem } from './branch-point-system.js';
 import { FoldSystem } from './fold-system.js';
+import { HopfSystem } from './hopf-system.js';
 import { type CurveWork, correctCurve, curveWork, wdot, wnorm } from './newton.js';
 import { CurveError, searchFirstPoint } from './search.js';
 import { uniformSubspace } from './uniform.js';
@@ -33,8 +34,9 @@ import {
   type CurvePoint,
   type CurveSettings,
   type CurveSpecialPoint,
+  type CurveOnlyStopReason,
   type CurveStopReason,
-  curveStopText,
+  curveOnlyStopText,
 } from './types.js';
 import { stopReasonText } from '../types.js';
 
@@ -76,7 +78,7 @@ export interface CurveState {
   version: 1;
   started: boolean;
   /** The state and parameters the curve system was built at (branch-point curves: its uniform subspace). */
-  anchor?: { u: Float64Array; params: Record<string, number> };
+  anchor?: { u: Float64Array; params: Record<string, number>; frequency?: number };
   nextId: number;
   curves: CurveInfo[];
   queue: PendingCurve[];
@@ -91,6 +93,11 @@ export interface CurveOptions {
   start?: Float64Array;
   /** The start state is at the special point already (a fold or branch point of an earlier run): no search. */
   atPoint?: boolean;
+  /**
+   * Hopf curves: the frequency of the critical pair at the start point (0 at a Bogdanov–Takens
+   * point of a fold curve; undefined: the pair nearest the imaginary axis at the start).
+   */
+  frequency?: number;
   /** Resume from a snapshot. */
   state?: CurveState;
   luOptions?: LUOptions;
@@ -102,7 +109,7 @@ export interface CurveSummary {
 }
 
 /** Build the augmented system of a curve kind at a start state (issue: more kinds plug in here). */
-export function curveSystem(problem: Problem, params: Params, settings: CurveSettings, u: Float64Array, luOptions: LUOptions = {}): AugmentedSystem {
+export function curveSystem(problem: Problem, params: Params, settings: CurveSettings, u: Float64Array, luOptions: LUOptions = {}, frequency?: number): AugmentedSystem {
   switch (settings.follow) {
     case 'fold':
       return new FoldSystem(problem, params, settings.parameter, settings.free, luOptions);
@@ -118,6 +125,8 @@ export function curveSystem(problem: Problem, params: Params, settings: CurveSet
       }
       return new BranchPointSystem(problem, params, settings.parameter, settings.free, space, luOptions);
     }
+    case 'hopf':
+      return new HopfSystem(problem, params, settings.parameter, settings.free, frequency, settings.eigenvalues, luOptions);
   }
 }
 
@@ -144,12 +153,12 @@ export class CurveContinuation {
     this.state = options.state
       ? structuredClone(options.state)
       : { version: 1, started: false, nextId: 1, curves: [], queue: [], current: null, ended: [] };
-    if (this.state.anchor) this.build(this.state.anchor.u, this.state.anchor.params);
+    if (this.state.anchor) this.build(this.state.anchor.u, this.state.anchor.params, this.state.anchor.frequency);
     if (this.state.system && this.sys) this.sys.restoreState(this.state.system);
   }
 
-  private build(u: Float64Array, p: Params): void {
-    this.sys = curveSystem(this.problem, { ...this.params, ...p }, this.settings, u, this.options.luOptions);
+  private build(u: Float64Array, p: Params, frequency?: number): void {
+    this.sys = curveSystem(this.problem, { ...this.params, ...p }, this.settings, u, this.options.luOptions, frequency);
     this.work = curveWork(this.sys.size);
   }
 
@@ -292,18 +301,20 @@ export class CurveContinuation {
     let u = this.options.start ?? this.problem.initialGuess(this.params);
     if (u.length !== this.problem.size) throw new CurveError(`the start state has ${u.length} values, the problem has ${this.problem.size} unknowns`);
     let p: Params = this.params;
-    const what = st.follow === 'fold' ? 'fold' : 'branch point';
+    const what = st.follow === 'fold' ? 'fold' : st.follow === 'hopf' ? 'Hopf point' : 'branch point';
+    let frequency = this.options.frequency;
     if (!this.options.atPoint) {
       const found = searchFirstPoint(this.problem, this.params, st, u);
       u = found.u;
       p = found.params;
+      if (found.frequency !== undefined) frequency = found.frequency;
       events.push({ type: 'log', level: 'info', message: `the first ${what} met moving ${st.free} from ${fmt(this.params[st.free])}: ${st.free} = ${fmt(p[st.free])} (after ${found.points} points)` });
     }
     const [lo, hi] = st.bounds;
     const p0 = p[st.parameter];
     if (p0 < lo || p0 > hi) throw new CurveError(`the start value ${st.parameter} = ${p0} lies outside the bounds [${lo}, ${hi}]`);
-    this.build(u, p);
-    this.state.anchor = { u: u.slice(), params: { ...p } };
+    this.build(u, p, frequency);
+    this.state.anchor = { u: u.slice(), params: { ...p }, ...(frequency !== undefined ? { frequency } : {}) };
     const sys = this.sys!;
     const y = sys.fromState(u, p);
     try {
@@ -322,19 +333,26 @@ export class CurveContinuation {
       throw new CurveError(`the first point of the ${what} curve did not converge at ${st.parameter} = ${fmt(p0)} (${res.message ?? res.failure})${hint}`);
     }
     let tangent: Float64Array;
-    try {
-      tangent = this.tangentAlong(eParam, true);
-    } catch {
-      // the curve is vertical here (parameter at a turn): orient along the free parameter instead
-      tangent = this.tangentAlong(this.unit(sys.freeIndex), true);
+    // a Hopf curve leaves a Bogdanov–Takens point along ω, one way only
+    const along = sys.startDirection?.(y);
+    if (along) {
+      tangent = this.tangentAlong(along, true);
+      if (st.direction === 'both') events.push({ type: 'log', level: 'info', message: `the curve leaves the start point one way only (direction: both does not apply there)` });
+    } else {
+      try {
+        tangent = this.tangentAlong(eParam, true);
+      } catch {
+        // the curve is vertical here (parameter at a turn): orient along the free parameter instead
+        tangent = this.tangentAlong(this.unit(sys.freeIndex), true);
+      }
     }
-    const dir = st.direction === 'decrease' ? -1 : 1;
-    if (tangent[sys.parameterIndex] * dir < 0) for (let i = 0; i < tangent.length; i++) tangent[i] = -tangent[i];
+    const dir = along ? (tangent[sys.parameterIndex] < 0 ? -1 : 1) : st.direction === 'decrease' ? -1 : 1;
+    if (!along && tangent[sys.parameterIndex] * dir < 0) for (let i = 0; i < tangent.length; i++) tangent[i] = -tangent[i];
     const tests = sys.tests(true);
     const mode = sys.mode?.();
     sys.adopt();
     const info: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, direction: dir > 0 ? 'increase' : 'decrease', ...(mode ? { mode } : {}) };
-    if (st.direction === 'both') {
+    if (st.direction === 'both' && !along) {
       // the other way from the same first point, once this curve has ended
       const back = tangent.map((t) => -t);
       const other: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, direction: 'decrease', ...(mode ? { mode } : {}) };
@@ -398,7 +416,7 @@ export class CurveContinuation {
 
   private end(b: CurveBranchState, reason: CurveStopReason, message?: string): CurveEvent[] {
     const sys = this.sys!;
-    const text = message ?? (reason === 'free-bound' || reason === 'mode-change' ? curveStopText[reason] : stopReasonText[reason]);
+    const text = message ?? curveOnlyStopText(reason) ?? stopReasonText[reason as keyof typeof stopReasonText];
     const u = sys.state(b.y);
     const p = sys.params(b.y);
     const endPoint: CurveEndPoint = {
@@ -483,6 +501,14 @@ export class CurveContinuation {
       const c = testsNew[i]?.value;
       if (!Number.isFinite(a) || !Number.isFinite(c) || a === 0 || c === 0 || Math.sign(a) === Math.sign(c)) return;
       const loc = this.locate(b, i, yNew, testsNew, ds);
+      if (loc && 'pole' in loc) {
+        logs.push({
+          type: 'log',
+          level: 'info',
+          message: `curve ${b.info.id}: ${f.description.replace(/;.*$/, '')} changed sign through a pole, not a zero, near ${this.settings.parameter} = ${fmt(loc.at[sys.parameterIndex])}, ${this.settings.free} = ${fmt(loc.at[sys.freeIndex])}: no ${f.kind.replace(/-/g, ' ')} point there`,
+        });
+        return;
+      }
       if (!loc) {
         // the exact determinants agree at both ends: the sign change the step's factorisation
         // suggested happened just before the current point (or not at all)
@@ -523,7 +549,13 @@ export class CurveContinuation {
    * ⟨t, y − (y_b + s t)⟩_w = 0. Determinant-type functions use sign·exp(log|det| − ref), smooth
    * while the borders stay fixed.
    */
-  private locate(b: CurveBranchState, i: number, yNew: Float64Array, testsNew: TestValue[], ds: number): { s: number; y: Float64Array; tests: TestValue[]; residual: number; located: boolean; note?: string } | undefined {
+  private locate(
+    b: CurveBranchState,
+    i: number,
+    yNew: Float64Array,
+    testsNew: TestValue[],
+    ds: number,
+  ): { s: number; y: Float64Array; tests: TestValue[]; residual: number; located: boolean; note?: string } | { pole: true; at: Float64Array } | undefined {
     const sys = this.sys!;
     const st = this.settings;
     const m = sys.size;
@@ -549,8 +581,14 @@ export class CurveContinuation {
     let best = { ...hi, tests: testsNew, residual: NaN };
     let side = 0;
     const tol = st.locateTolerance * Math.max(1, ds);
+    // a value that changes sign through a pole (the first Lyapunov coefficient at a zero-Hopf
+    // point) grows in the shrinking bracket instead of falling: that is no zero
+    const endSize = Math.max(Math.abs(lo.f), Math.abs(hi.f));
     for (let it = 0; it < 80; it++) {
-      if (hi.s - lo.s <= tol) return { s: best.s, y: best.y, tests: best.tests, residual: best.residual, located: true };
+      if (hi.s - lo.s <= tol) {
+        if (!det && Math.abs(best.f) > endSize) return { pole: true, at: best.y };
+        return { s: best.s, y: best.y, tests: best.tests, residual: best.residual, located: true };
+      }
       let s = hi.s - (hi.f * (hi.s - lo.s)) / (hi.f - lo.f);
       if (!(s > lo.s && s < hi.s)) s = 0.5 * (lo.s + hi.s);
       const theta = (s - lo.s) / (hi.s - lo.s);
@@ -632,6 +670,11 @@ export class CurveContinuation {
       l.special.kind = 'mode-crossing';
       if (!sw) l.special.note = 'the crossing mode could not be determined';
     }
+    // a zero of a test function that ends the curve (a Hopf curve at a Bogdanov–Takens point)
+    const stopAt = located.find((l) => sys.testFunctions.some((f) => f.ends === true && f.kind === l.special.kind));
+    if (stopAt && (!bound || stopAt.s < bound.s * ds)) {
+      return [...scan.logs, ...this.endAt(b, stopAt, located.filter((l) => l.s < stopAt.s))];
+    }
     if (located.length > 0) {
       // the null vectors at yNew for the new borders (the location evaluated elsewhere)
       sys.evaluate(yNew, this.work!.g);
@@ -678,6 +721,24 @@ export class CurveContinuation {
     const stop = this.stopCheck(b, pe.type === 'point' ? pe.point.monitors : {});
     if (stop) events.push(...this.end(b, stop.reason, stop.message));
     return events;
+  }
+
+  /** The curve ends at a located special point (`at`), after the ones located before it on the step. */
+  private endAt(b: CurveBranchState, at: { s: number; special: CurveSpecialPoint; y: Float64Array; tests: TestValue[] }, before: { special: CurveSpecialPoint }[]): CurveEvent[] {
+    const sys = this.sys!;
+    const st = this.settings;
+    b.y = at.y.slice();
+    b.arclength += at.s;
+    b.index++;
+    b.residual = at.special.residual;
+    b.tests = at.tests;
+    const kind = at.special.kind as CurveOnlyStopReason;
+    return [
+      this.pointEvent(b, at.s, 0, b.mode),
+      ...before.map((l): CurveEvent => ({ type: 'special', point: l.special })),
+      { type: 'special', point: at.special },
+      ...this.end(b, kind, `reached a ${kind.replace(/-/g, ' ')} point at ${st.parameter} = ${fmt(at.y[sys.parameterIndex])}, ${st.free} = ${fmt(at.y[sys.freeIndex])}`),
+    ];
   }
 
   /**

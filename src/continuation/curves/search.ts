@@ -21,6 +21,8 @@ export interface SearchResult {
   params: Params;
   /** Points the search took (for messages). */
   points: number;
+  /** Hopf points: the frequency of the crossing pair. */
+  frequency?: number;
 }
 
 const finiteBound = (v: number): number => (Number.isFinite(v) ? v : Math.sign(v) * Number.MAX_VALUE);
@@ -28,6 +30,8 @@ const finiteBound = (v: number): number => (Number.isFinite(v) ? v : Math.sign(v
 /** Follow the steady states in `settings.free` from `start` until the first point of the curve's kind. */
 export function searchFirstPoint(problem: Problem, params: Params, settings: CurveSettings, start?: Float64Array): SearchResult {
   const wantFold = settings.follow === 'fold';
+  const wantHopf = settings.follow === 'hopf';
+  const kind = wantFold ? 'fold' : wantHopf ? 'hopf' : 'branch-point';
   const s: ContinuationSettings = {
     ...defaultSettings,
     parameter: settings.free,
@@ -40,12 +44,13 @@ export function searchFirstPoint(problem: Problem, params: Params, settings: Cur
     branchSwitching: { depth: 0 },
     newton: { ...settings.newton },
     maxTurnDegrees: settings.maxTurnDegrees,
-    locate: { folds: wantFold, branchPoints: !wantFold },
+    locate: { folds: wantFold, branchPoints: kind === 'branch-point' },
     // branch points: the eigenvalue count splits steps over which two eigenvalues cross (the
-    // determinant would not change sign), so the first branch point met is not skipped
-    stability: { eigenvalues: wantFold ? 0 : 4 },
+    // determinant would not change sign), so the first branch point met is not skipped; Hopf
+    // points are seen only by the eigenvalues
+    stability: { eigenvalues: wantFold ? 0 : wantHopf ? Math.max(6, settings.eigenvalues) : 4 },
   };
-  const what = wantFold ? 'fold' : 'branch point';
+  const what = wantFold ? 'fold' : wantHopf ? 'Hopf point' : 'branch point';
   let engine: Continuation;
   try {
     engine = new Continuation(problem, params, s, start ? { start } : {});
@@ -57,8 +62,9 @@ export function searchFirstPoint(problem: Problem, params: Params, settings: Cur
   try {
     for (const ev of engine.events()) {
       if (ev.type === 'point') points++;
-      else if (ev.type === 'special' && ev.point.kind === (wantFold ? 'fold' : 'branch-point')) {
+      else if (ev.type === 'special' && ev.point.kind === kind) {
         if (!ev.point.located) continue;
+        if (ev.point.kind === 'hopf') return { u: ev.point.u.slice(), params: { ...params, [settings.free]: ev.point.value }, points, frequency: ev.point.frequency };
         if (ev.point.kind === 'branch-point' && ev.point.multiplicity > 1) {
           throw new CurveError(
             `the first branch point met (${settings.free} = ${ev.point.value}) has multiplicity ${ev.point.multiplicity}: two modes go unstable together (a square or symmetric domain), and a curve of such points needs both null vectors; make the domain's sides unequal`,
@@ -76,6 +82,6 @@ export function searchFirstPoint(problem: Problem, params: Params, settings: Cur
     engine.dispose();
   }
   throw new CurveError(
-    `no ${what} was met while following the steady states in ${settings.free} from ${settings.free} = ${params[settings.free]} (${settings.freeDirection}; ${points} points, the branch ended: ${ended || 'no reason given'}); start from a ${what} of an earlier run (start: {run: DIR, point: ${wantFold ? 'fold' : 'branch-point'}}) or change free-bounds or free-direction`,
+    `no ${what} was met while following the steady states in ${settings.free} from ${settings.free} = ${params[settings.free]} (${settings.freeDirection}; ${points} points, the branch ended: ${ended || 'no reason given'}); start from a ${what} of an earlier run (start: {run: DIR, point: ${kind}}) or change free-bounds or free-direction`,
   );
 }

@@ -11,9 +11,9 @@
  */
 import type { ContinuationPoint, MonitorStop, NewtonSettings, SpecialPointBase, StepSettings, StopReason } from '../types.js';
 
-/** What a curve follows. (`hopf` comes with the Hopf-curve system.) */
-export type CurveKind = 'fold' | 'branch-point';
-export const curveKinds: readonly CurveKind[] = ['fold', 'branch-point'];
+/** What a curve follows. */
+export type CurveKind = 'fold' | 'branch-point' | 'hopf';
+export const curveKinds: readonly CurveKind[] = ['fold', 'branch-point', 'hopf'];
 
 /** Special points found on curves, in plain words (the trade's names where it has them). */
 export type CurveSpecialKind =
@@ -26,9 +26,15 @@ export type CurveSpecialKind =
   /** branch-point curves: another mode's eigenvalue reaches zero, and that mode takes over */
   | 'mode-change'
   /** branch-point curves: another mode's curve crosses, its eigenvalue returning to the stable side (the followed mode stays) */
-  | 'mode-crossing';
+  | 'mode-crossing'
+  /** Hopf curves: a real eigenvalue crosses zero while the pair ±iω stays on the imaginary axis */
+  | 'zero-hopf'
+  /** Hopf curves: the first Lyapunov coefficient changes sign (the Hopf bifurcation turns from super- to subcritical) */
+  | 'bautin'
+  /** Hopf curves: a second complex pair reaches the imaginary axis */
+  | 'double-hopf';
 
-export const curveSpecialKinds: readonly CurveSpecialKind[] = ['cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing'];
+export const curveSpecialKinds: readonly CurveSpecialKind[] = ['cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing', 'zero-hopf', 'bautin', 'double-hopf'];
 
 export interface CurveSettings {
   follow: CurveKind;
@@ -43,6 +49,8 @@ export interface CurveSettings {
   direction: 'increase' | 'decrease' | 'both';
   /** Which way `free` moves from the start state when searching for the first fold or branch point. */
   freeDirection: 'increase' | 'decrease';
+  /** Hopf curves: rightmost eigenvalues per point, for the double-Hopf test (0: no such test). */
+  eigenvalues: number;
   step: StepSettings;
   maxPoints: number;
   stopWhen: MonitorStop[];
@@ -64,6 +72,7 @@ export const defaultCurveSettings: Omit<CurveSettings, 'follow' | 'parameter' | 
   freeBounds: [-Infinity, Infinity],
   direction: 'increase',
   freeDirection: 'increase',
+  eigenvalues: 0,
   step: { initial: 0.05, min: 1e-8, max: 0.5 },
   maxPoints: 500,
   stopWhen: [],
@@ -74,13 +83,23 @@ export const defaultCurveSettings: Omit<CurveSettings, 'follow' | 'parameter' | 
   search: { step: { initial: 0.05, min: 1e-8, max: 0.5 }, maxPoints: 2000 },
 };
 
-/** Why a curve stopped: the branch reasons, plus the free parameter's bounds and a mode change. */
-export type CurveStopReason = StopReason | 'free-bound' | 'mode-change';
+/**
+ * Why a curve stopped: the branch reasons, plus the free parameter's bounds, a mode change, and a
+ * Bogdanov–Takens point reached by a Hopf curve (its frequency is zero there: it ends on a fold curve).
+ */
+export type CurveStopReason = StopReason | CurveOnlyStopReason;
+export type CurveOnlyStopReason = 'free-bound' | 'mode-change' | 'bogdanov-takens';
 
-export const curveStopText: Record<'free-bound' | 'mode-change', string> = {
+export const curveStopText: Record<CurveOnlyStopReason, string> = {
   'free-bound': 'the free parameter reached a bound',
   'mode-change': 'the critical mode changed',
+  'bogdanov-takens': 'the Hopf curve reached a Bogdanov–Takens point (zero frequency) on a fold curve',
 };
+
+/** The words of a curve-only stop reason, undefined for the reasons branches share. */
+export function curveOnlyStopText(reason: string): string | undefined {
+  return Object.prototype.hasOwnProperty.call(curveStopText, reason) ? curveStopText[reason as CurveOnlyStopReason] : undefined;
+}
 
 /** A curve's identity and origin (the branch-start event of a curve run carries this). */
 export interface CurveInfo {

@@ -435,8 +435,9 @@ export class ComplexNullBorder {
    * The eigenvalue of the pencil nearest to `guess` (Newton's method on g(μ) = 0, g′ = wᵀMv),
    * with J's values fixed; x and y are its eigenvectors on return. Null when Newton fails.
    */
-  eigenvalueNear(jacobianValues: Float64Array, guess: ComplexNumber, tolerance = 1e-14, maxIterations = 30): ComplexNumber | null {
+  eigenvalueNear(jacobianValues: Float64Array, guess: ComplexNumber, tolerance = 1e-13, maxIterations = 30): ComplexNumber | null {
     let mu = { ...guess };
+    let previous = Infinity;
     for (let it = 0; it < maxIterations; it++) {
       this.factor(jacobianValues, mu);
       const g = this.g;
@@ -448,10 +449,14 @@ export class ComplexNullBorder {
       const di = (g.im * dg.re - g.re * dg.im) / den;
       mu = { re: mu.re - dr, im: mu.im - di };
       if (!Number.isFinite(mu.re) || !Number.isFinite(mu.im)) return null;
-      if (Math.hypot(dr, di) <= tolerance * Math.max(1, Math.hypot(mu.re, mu.im))) {
+      const step = Math.hypot(dr, di) / Math.max(1, Math.hypot(mu.re, mu.im));
+      process.env.DEBUG_HOPF && console.log('eig', it, mu, step);
+      // converged, or at the rounding level (the step no longer shrinks once below 1e-9)
+      if (step <= tolerance || (step < 1e-9 && step >= 0.5 * previous)) {
         this.factor(jacobianValues, mu);
         return mu;
       }
+      previous = step;
       // refresh the borders from the improved vectors every step (the eigenvalue moves)
       this.adopt();
     }
