@@ -192,7 +192,8 @@ export class HopfSystem implements AugmentedSystem {
    * Borders at the first point: from the eigenvectors of the pencil's eigenvalue nearest to
    * i·(start frequency) — refined by Newton's method, which sets y's ω — or, at ω = 0 (a
    * Bogdanov–Takens point), from J's null vectors. Without a start frequency, the complex pair
-   * nearest the imaginary axis among the rightmost eigenvalues.
+   * nearest the imaginary axis among the rightmost eigenvalues (none: ω = 1, borders only —
+   * the first Newton iteration then says whether the state is near a Hopf point).
    */
   initialise(y: Float64Array): void {
     this.assemble(y);
@@ -201,20 +202,20 @@ export class HopfSystem implements AugmentedSystem {
       const r = rightmostEigenvalues({ ...this.problem.pattern(), values: this.jac }, { count: 6, mass: this.problem.massDiagonal });
       let best: { re: number; im: number } | undefined;
       for (const v of r.values) if (v.im > 0 && (!best || Math.abs(v.re) < Math.abs(best.re))) best = v;
-      if (!best) throw new Error('the start state has no complex pair of eigenvalues among its rightmost ones (not a Hopf point)');
-      omega = best.im;
+      omega = best ? best.im : 1;
     }
-    if (omega === 0) {
-      this.border.initialise(this.jac, { re: 0, im: 0 });
-      y[this.frequencyIndex] = 0;
-      return;
+    omega = Math.abs(omega);
+    y[this.frequencyIndex] = omega;
+    this.border.initialise(this.jac, { re: 0, im: omega });
+    if (omega === 0) return;
+    const mu = this.border.eigenvalueNear(this.jac, { re: 0, im: omega });
+    if (mu && mu.im > 0) {
+      y[this.frequencyIndex] = mu.im;
+      this.border.adopt();
+    } else {
+      // no complex eigenvalue there: borders at iω as they are
+      this.border.initialise(this.jac, { re: 0, im: omega });
     }
-    this.border.initialise(this.jac, { re: 0, im: Math.abs(omega) });
-    const mu = this.border.eigenvalueNear(this.jac, { re: 0, im: Math.abs(omega) });
-    if (!mu) throw new Error(`no eigenvalue of the Jacobian converged near ${Math.abs(omega)}i`);
-    if (mu.im <= 0) throw new Error(`the eigenvalue nearest to ${Math.abs(omega)}i is real (${mu.re}): not a Hopf point`);
-    y[this.frequencyIndex] = mu.im;
-    this.border.adopt();
   }
 
   setScale(y: Float64Array): void {

@@ -12,6 +12,7 @@ import { reactionDiffusion } from '../../../discretisations/expression/reaction-
 import { BranchPointSystem } from '../../../src/continuation/curves/branch-point-system.js';
 import { checkAugmentedSystem } from '../../../src/continuation/curves/check.js';
 import { FoldSystem } from '../../../src/continuation/curves/fold-system.js';
+import { HopfSystem } from '../../../src/continuation/curves/hopf-system.js';
 import { uniformSubspace } from '../../../src/continuation/curves/uniform.js';
 import type { Problem } from '../../../src/problem/problem.js';
 import type { AugmentedSystem } from '../../../src/continuation/curves/augmented.js';
@@ -96,4 +97,34 @@ describe('branch-point system (uniform state)', () => {
       );
     }
   });
+});
+
+describe('Hopf system: linearisation against central differences, bordered solve against the linearisation', () => {
+  const hopfCases: { name: string; problem: () => Problem; parameter: string; free: string; ranges: Record<string, [number, number]>; amp: number }[] = [
+    { name: 'brusselator 1D neumann', problem: () => models.brusselator.factory({ grid: { intervals: [6] }, boundary: 'neumann' } as never), parameter: 'a', free: 'b', ranges: { a: [0.5, 3], b: [1, 8], Du: [0.5, 2], Dv: [0.5, 8] }, amp: 0.3 },
+    { name: 'gray-scott 2D neumann', problem: () => models['gray-scott'].factory({ grid: { intervals: [3, 2] }, boundary: 'neumann', initial: 'pulse' } as never), parameter: 'k', free: 'F', ranges: { F: [0.01, 0.1], k: [0.01, 0.1], Du: [0.1, 1], Dv: [0.1, 1] }, amp: 0.2 },
+    {
+      name: 'expression model (finite-difference second derivatives)',
+      problem: () => reactionDiffusion({ grid: { intervals: [5] }, fields: ['u', 'v'], parameters: { mu: 0.1, c: -1 }, reaction: { u: 'mu*u - 2*v + c*u*(u^2+v^2) + 0.1*sin(u*v)', v: '2*u + mu*v + c*v*(u^2+v^2) + u^2' }, diffusion: { u: 1, v: 0.5 }, boundary: 'neumann', initial: { u: 0.2, v: -0.1 } } as never),
+      parameter: 'c',
+      free: 'mu',
+      ranges: { mu: [-1, 1], c: [-2, 2] },
+      amp: 0.5,
+    },
+  ];
+  for (const c of hopfCases) {
+    it(c.name, () => {
+      const problem = c.problem();
+      fc.assert(
+        fc.property(fc.array(fc.double({ min: 0, max: 1, noNaN: true }), { minLength: 4, maxLength: 4 }), fc.integer({ min: 1, max: 1e6 }), fc.double({ min: 0.2, max: 3, noNaN: true }), fc.boolean(), (t, seed, omega, atZero) => {
+          const p = draw(problem, c.ranges, t);
+          const u = problem.initialGuess(p);
+          for (let i = 0; i < u.length; i++) u[i] += c.amp * Math.sin(seed * (i + 1));
+          // any frequency (the system is defined off the curve too), and ω = 0 (the Bogdanov–Takens end)
+          expectAgreement(new HopfSystem(problem, p, c.parameter, c.free, atZero ? 0 : omega, 0), u, p, seed);
+        }),
+        { numRuns: 10 },
+      );
+    });
+  }
 });

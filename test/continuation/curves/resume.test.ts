@@ -90,6 +90,19 @@ const cases: { what: string; problem: typeof brusselator; given: Record<string, 
     start: gsStart,
     expectKinds: ['bogdanov-takens'],
   },
+  {
+    what: 'the Gray–Scott Hopf curve both ways from the first Hopf point met: a Bautin point one way, the Bogdanov–Takens end the other (eigenvalues per point)',
+    problem: grayScott,
+    given: { F: 0.035, k: 0.05, Du: 1, Dv: 1 },
+    settings: curveSettings({ follow: 'hopf', parameter: 'k', free: 'F', bounds: [0.03, 0.07], freeBounds: [0, 1], direction: 'both', freeDirection: 'decrease', eigenvalues: 4, step: { initial: 0.002, min: 1e-9, max: 0.004 } }),
+    start: () => {
+      const F = 0.035;
+      const s = 0.085;
+      const v = (F + Math.sqrt(F * F - 4 * s * s * F)) / (2 * s);
+      return uniformStart(grayScott, [1 - (s * v) / F, v], { F, k: 0.05, Du: 1, Dv: 1 });
+    },
+    expectKinds: ['bautin', 'bogdanov-takens'],
+  },
 ];
 
 describe('the curve engine resumed from checkpoint files repeats the uninterrupted run', () => {
