@@ -18,10 +18,10 @@ import {
   type StabilityClass,
 } from './theme.js';
 
-export type SpecialPointKind = 'fold' | 'branch-point' | 'hopf' | 'end' | 'cusp' | 'bogdanov-takens' | 'fold-branch-point' | 'mode-change' | 'mode-crossing';
-export const SPECIAL_POINT_KINDS: readonly SpecialPointKind[] = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing'];
+export type SpecialPointKind = 'fold' | 'branch-point' | 'hopf' | 'end' | 'cusp' | 'bogdanov-takens' | 'fold-branch-point' | 'mode-change' | 'mode-crossing' | 'zero-hopf' | 'bautin' | 'double-hopf';
+export const SPECIAL_POINT_KINDS: readonly SpecialPointKind[] = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing', 'zero-hopf', 'bautin', 'double-hopf'];
 
-/** Plain words for each kind of special point, as shown on plots (the last five: points on curves). */
+/** Plain words for each kind of special point, as shown on plots (from `cusp` on: points on curves). */
 export const SPECIAL_POINT_WORDS: Readonly<Record<SpecialPointKind, string>> = {
   fold: 'fold',
   'branch-point': 'branch point',
@@ -32,6 +32,9 @@ export const SPECIAL_POINT_WORDS: Readonly<Record<SpecialPointKind, string>> = {
   'fold-branch-point': 'fold meets branch point',
   'mode-change': 'mode change',
   'mode-crossing': 'modes cross',
+  'zero-hopf': 'zero-Hopf',
+  bautin: 'Bautin',
+  'double-hopf': 'double Hopf',
 };
 
 export interface DiagramPoint {
@@ -247,6 +250,30 @@ export function markerShape(kind: SpecialPointKind, x: number, y: number, colour
         el('circle', { cx: x, cy: y, r, fill: PAPER, stroke: INK, 'stroke-width': 1.6 }) +
         el('path', { d: `M${num(x - r * 0.6)} ${num(y - r * 0.6)}L${num(x + r * 0.6)} ${num(y + r * 0.6)}M${num(x + r * 0.6)} ${num(y - r * 0.6)}L${num(x - r * 0.6)} ${num(y + r * 0.6)}`, stroke: INK, 'stroke-width': 1.4 })
       );
+    case 'zero-hopf':
+    case 'bautin': {
+      // the Hopf triangle hollow (Bautin), with a centre dot where a real eigenvalue also crosses (zero-Hopf)
+      const h = r * 1.3;
+      const tri = el('path', {
+        d: `M${num(x)} ${num(y - h)}L${num(x + h * 0.95)} ${num(y + h * 0.62)}H${num(x - h * 0.95)}Z`,
+        fill: PAPER,
+        stroke: INK,
+        'stroke-width': 1.8,
+        'stroke-linejoin': 'round',
+      });
+      return kind === 'zero-hopf' ? tri + el('circle', { cx: x, cy: y + h * 0.12, r: 1.8, fill: INK }) : tri;
+    }
+    case 'double-hopf': {
+      // two Hopf triangles tip to tip: a filled hourglass
+      const h = r * 1.2;
+      return el('path', {
+        d: `M${num(x)} ${num(y)}L${num(x - h * 0.85)} ${num(y - h)}H${num(x + h * 0.85)}ZM${num(x)} ${num(y)}L${num(x + h * 0.85)} ${num(y + h)}H${num(x - h * 0.85)}Z`,
+        fill: INK,
+        stroke: PAPER,
+        'stroke-width': 1.2,
+        'stroke-linejoin': 'round',
+      });
+    }
   }
 }
 

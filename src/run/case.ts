@@ -50,7 +50,7 @@ import { type ContinuationSettings, defaultSettings } from '../continuation/type
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
-import { type ResolvedFollow, curveSettingsOf, followDocument, resolveFollow } from './curve-case.js';
+import { type ResolvedFollow, curveSettingsOf, curveStartAt, followDocument, resolveFollow } from './curve-case.js';
 import { type CurveSettings, curveKinds } from '../continuation/curves/types.js';
 import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
 import {
@@ -150,7 +150,7 @@ export interface PreparedCase {
    * A curve run (`continuation.follow`): the curve engine's settings, and whether the start state
    * is the special point itself (a run point of the followed kind: no search).
    */
-  curve?: { settings: CurveSettings; atPoint: boolean };
+  curve?: { settings: CurveSettings; atPoint: boolean; frequency?: number };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -755,7 +755,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     settings: toSettings(continuation, resolved.stability.eigenvalues),
     ...(parts.caution ? { caution: parts.caution } : {}),
     ...(parts.start ? { start: parts.start } : {}),
-    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), atPoint: startFrom?.point?.record?.kind === follow.kind } } : {}),
+    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), ...curveStartAt(follow.kind, startFrom?.point?.record) } } : {}),
   };
 }
 

@@ -2,7 +2,7 @@
  * Case keys of curve runs: a special point followed in two parameters.
  *
  *   continuation:
- *     follow: fold                 # fold | branch-point (of a uniform state): a curve run
+ *     follow: fold                 # fold | branch-point (of a uniform state) | hopf: a curve run
  *     parameter: biot              # moves along the curve; the curve ends at its bounds
  *     bounds: [0.01, 100]
  *     direction: both              # which way `parameter` moves from the first point (or both ways)
@@ -18,7 +18,9 @@
  * (`parameters`, `start: {solution: ...}` or a run point of another kind).
  *
  * Keys of one-parameter runs that mean nothing for a curve (method, branch-switching, locate,
- * stability eigenvalues) are refused with a one-line error rather than ignored.
+ * stability eigenvalues except on Hopf curves, where they find double-Hopf points) are refused
+ * with a one-line error rather than ignored. Hopf curves also start at a Bogdanov–Takens point of
+ * an earlier fold-curve run (`point: bogdanov-takens`).
  */
 import { type CurveKind, type CurveSettings, curveKinds, defaultCurveSettings } from '../continuation/curves/types.js';
 import type { Problem } from '../problem/problem.js';
@@ -33,7 +35,12 @@ export interface ResolvedFollow {
   freeBounds: [number | null, number | null];
   freeDirection: 'increase' | 'decrease';
   search: { step: { initial: number; min: number; max: number }; maxPoints: number };
+  /** Hopf curves: rightmost eigenvalues per point for the double-Hopf test (`stability.eigenvalues`; 0 for other curves). */
+  eigenvalues: number;
 }
+
+/** Rightmost eigenvalues per point of a Hopf curve when the case does not say (the double-Hopf test). */
+export const defaultHopfEigenvalues = 6;
 
 /** The `continuation` keys of a curve run as read from the case (after the shape check). */
 export interface FollowInput {
@@ -76,8 +83,8 @@ export function resolveFollow(
   for (const k of ['method', 'branch-switching', 'locate'] as const) {
     if (c[k] !== undefined) fail(`continuation.${k}`, `does not apply to a curve run (follow: ${kind}); remove it`);
   }
-  if (eigenvalues !== undefined && eigenvalues > 0) {
-    fail('stability.eigenvalues', `${eigenvalues}: curve runs compute no eigenvalues (every state on a ${kind} curve has a zero eigenvalue by construction); use 0 or remove stability`);
+  if (kind !== 'hopf' && eigenvalues !== undefined && eigenvalues > 0) {
+    fail('stability.eigenvalues', `${eigenvalues}: ${kind} curves compute no eigenvalues (every state on a ${kind} curve has a zero eigenvalue by construction); use 0 or remove stability (Hopf curves use them to find double-Hopf points)`);
   }
   const known = problem.parameters.map((s) => s.name);
   if (c.free === undefined) fail('continuation.free', `is missing: the parameter that adjusts to stay on the ${kind} (accepted: one of ${known.join(', ')} other than ${parameter})`);
@@ -111,7 +118,22 @@ export function resolveFollow(
     freeBounds,
     freeDirection: (c['free-direction'] ?? 'increase') as 'increase' | 'decrease',
     search: { step: { initial, min, max }, maxPoints: c.search?.['max-points'] ?? defaultCurveSettings.search.maxPoints },
+    eigenvalues: kind === 'hopf' ? (eigenvalues ?? defaultHopfEigenvalues) : 0,
   };
+}
+
+/**
+ * Whether a curve run starts at the special point itself — a run point of the followed kind (for
+ * Hopf curves also a Bogdanov–Takens point, where ω = 0, or a codimension-two point of an earlier
+ * Hopf curve) — and for Hopf curves the frequency there.
+ */
+export function curveStartAt(kind: CurveKind, record: { kind: string; frequency?: unknown } | undefined): { atPoint: boolean; frequency?: number } {
+  if (!record) return { atPoint: false };
+  if (kind !== 'hopf') return { atPoint: record.kind === kind };
+  if (record.kind === 'bogdanov-takens') return { atPoint: true, frequency: 0 };
+  const f = record.frequency;
+  if (['hopf', 'zero-hopf', 'bautin', 'double-hopf'].includes(record.kind) && typeof f === 'number' && f > 0) return { atPoint: true, frequency: f };
+  return { atPoint: false };
 }
 
 /** The engine's settings of a curve run. */
@@ -132,6 +154,7 @@ export function curveSettingsOf(c: ResolvedContinuation & { follow: ResolvedFoll
     newton: { residualTolerance: c.newton.tolerance, stepTolerance: c.newton.tolerance, maxIterations: c.newton.maxIterations },
     maxTurnDegrees: c.maxTurnDegrees,
     search: { step: { ...f.search.step }, maxPoints: f.search.maxPoints },
+    eigenvalues: f.eigenvalues,
   };
 }
 

@@ -27,6 +27,8 @@ import {
   heatMapSvg,
   linePlotSvg,
 } from '../plot/index.js';
+import { curveName } from '../continuation/curves/types.js';
+import { earlierCurves } from './plane-diagram.js';
 import { defaultPlotMonitor } from './case.js';
 import { InputError } from './errors.js';
 import type { SpecialRecord } from './run-directory.js';
@@ -81,6 +83,9 @@ const kindWords: Record<string, string> = {
   'fold-branch-point': 'fold meeting a branch point',
   'mode-change': 'mode change',
   'mode-crossing': 'mode crossing',
+  'zero-hopf': 'zero-Hopf point',
+  bautin: 'Bautin point',
+  'double-hopf': 'double-Hopf point',
 };
 
 function str(v: unknown, fallback = ''): string {
@@ -201,7 +206,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
     const record = branchRecords.find((r) => r.id === b.id);
     branches.push({
       id: b.id,
-      ...(free ? { name: `${record?.follow ?? 'curve'} curve ${b.id}${Array.isArray(record?.mode) ? `, mode ${record!.mode.join(', ')}` : ''}` } : {}),
+      ...(free ? { name: `${record?.follow ? curveName(record.follow) : 'curve'} ${b.id}${Array.isArray(record?.mode) ? `, mode ${record!.mode.join(', ')}` : ''}` } : {}),
       points: csv.rows.map((r) => ({
         parameter: r[ip],
         monitor: r[im],
@@ -235,10 +240,18 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   const written: string[] = [];
   const problem = (run.problem ?? {}) as Record<string, unknown>;
   const title = runTitle(run);
+  // a curve run started at a point of an earlier curve run in the same plane: its curves too
+  const earlier = free ? earlierCurves(run, parameter, free) : undefined;
+  const own = branches.length;
+  if (earlier) {
+    branches.push(...earlier.branches);
+    shown.push(...earlier.shown);
+  }
   nameCoincidentBranches(branches);
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
   const follow = str(run.follow, 'special point');
+  const withEarlier = earlier?.names.length ? `with the curves of ${earlier.names.join(', ')}, where it started` : '';
   // curves spanning more than two decades of positive values get a log axis (an ignition limit
   // over Biot numbers from 0.01 to 100, an imperfection from 1e-6 to 1e-3)
   const decades = (pick: (p: { parameter: number; monitor: number }) => number): boolean => {
@@ -247,9 +260,9 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   };
   const svg = diagramSvg({
     title: free
-      ? `${title.name}: the ${follow.replace(/-/g, ' ')} curve${branches.length === 1 ? '' : 's'} in the plane of ${parameter} and ${free}${statusNote}`
+      ? `${title.name}: the ${curveName(follow).replace(/-/g, ' ')}${own === 1 ? '' : 's'} in the plane of ${parameter} and ${free}${statusNote}`
       : `${title.name}: ${monitorWords(chosen, fields, descriptions)} against ${parameter}${statusNote}`,
-    subtitle: [title.summary, title.grid].filter((t) => t !== '').join('; '),
+    subtitle: [withEarlier, title.summary, title.grid].filter((t) => t !== '').join('; '),
     parameterName: parameter,
     monitorName: free ?? monitorWords(chosen, fields, descriptions),
     branches,

@@ -42,7 +42,7 @@ export interface BranchRecord {
   id: number;
   depth: number;
   origin:
-    | { kind: 'start'; direction: 'increase' | 'decrease' }
+    | { kind: 'start'; direction: 'increase' | 'decrease'; at?: 'bogdanov-takens' }
     | { kind: 'branch-point'; branch: number; value: number; direction?: 'increase' | 'decrease' | 'both' }
     /** Curve runs: a curve that follows the new critical mode from a mode change of curve `branch`. */
     | { kind: 'mode-change'; branch: number; value: number };
@@ -63,6 +63,8 @@ export interface BranchRecord {
    * point of each, whether it is stable (null: not certified) and its unstable-eigenvalue count.
    */
   stability?: { from: number; to: number; stable: boolean | null; unstable: number }[];
+  /** Hopf curves: stretches of equal criticality (the sign of the first Lyapunov coefficient), in order. */
+  criticality?: { from: number; to: number; criticality: string }[];
 }
 
 /** A special point as written to points.json (keys in our lowercase words). */
@@ -139,7 +141,8 @@ export function eigenvalueColumns(count: number): string[] {
 export function columnPlan(problem: Problem, parameter: string, eigenvalues: number, curve?: CurveColumns): ColumnPlan {
   const monitors = problem.monitors.map((m) => m.name);
   const extras = problem.extraUnknowns.map((e) => e.name).filter((n) => !monitors.includes(n));
-  const stability = eigenvalues > 0;
+  // (curve runs write no stability columns: a Hopf curve's eigenvalues serve its double-Hopf test)
+  const stability = eigenvalues > 0 && !curve;
   const columns = [
     'point',
     'arclength',

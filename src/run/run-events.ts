@@ -8,7 +8,7 @@
 import type { ContinuationPoint, EngineEvent } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
 import { type CurveEvent, curveOnlyStopText } from '../continuation/curves/types.js';
-import { curveBranchRecord, curveSpecialRecord, curveStartWords } from './curve-run.js';
+import { addCriticality, curveBranchRecord, curveSpecialRecord, curveStartWords } from './curve-run.js';
 import type { Params } from '../problem/problem.js';
 import type { PreparedCase } from './case.js';
 import { type BranchRecord, type ColumnPlan, type RunLedger, RunDirectory, hasStability, pointRow, specialRecord } from './run-directory.js';
@@ -99,6 +99,7 @@ export class EventWriter {
           b.points++;
           if (b.first === undefined) b.first = p.parameter;
           b.last = p.parameter;
+          addCriticality(b, p.parameter, (p as { tests?: Record<string, number> }).tests);
           // (a branch's first point at a branch point is singular there: its eigenvalue count says nothing)
           if (p.stability && !(p.index === 0 && b.origin.kind === 'branch-point')) {
             const st = (b.stability ??= []);

@@ -21,7 +21,7 @@ import { basename, dirname, join, relative, resolve } from 'node:path';
 import type { SpecialRecord } from './run-directory.js';
 import { parseJsonNumber, readNpy } from './writers.js';
 
-export const pointKinds = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing'] as const;
+export const pointKinds = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing', 'zero-hopf', 'bautin', 'double-hopf'] as const;
 export type PointKind = (typeof pointKinds)[number];
 
 /** The N-th special point of a kind (index from 1). */
@@ -31,7 +31,7 @@ export interface PointSpec {
 }
 
 export const pointSpecAccepted =
-  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
+  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing, zero-hopf, bautin, double-hopf), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
 
 /** Parse `fold`, `fold:2`, `branch-point:1`...; returns null when the text is not one of these. */
 export function parsePointSpec(text: string): PointSpec | null {

@@ -6,7 +6,7 @@
 import { existsSync, readdirSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { stopReasonText } from '../continuation/types.js';
-import { curveOnlyStopText } from '../continuation/curves/types.js';
+import { curveName, curveOnlyStopText } from '../continuation/curves/types.js';
 import type { PreparedCase } from './case.js';
 import type { BranchRecord, SpecialRecord } from './run-directory.js';
 import type { RunResult } from './run-case.js';
@@ -76,6 +76,16 @@ function specialText(s: SpecialRecord, prepared: PreparedCase): string {
       words.push(...hopfCriticalityWords(s));
       return `Hopf point at ${at} (${[...words, ...details].join(', ')})`;
     }
+    case 'zero-hopf':
+    case 'bautin':
+    case 'double-hopf':
+    case 'bogdanov-takens': {
+      const name = { 'zero-hopf': 'zero-Hopf point', bautin: 'Bautin point', 'double-hopf': 'double-Hopf point', 'bogdanov-takens': 'Bogdanov–Takens point' }[s.kind];
+      const words: string[] = [];
+      if (typeof s.frequency === 'number') words.push(s.kind === 'bogdanov-takens' ? 'frequency 0' : `frequency ${formatValue(s.frequency, monitorDigits)}`);
+      if (s.kind !== 'bautin' && s.kind !== 'bogdanov-takens') words.push(...hopfCriticalityWords(s));
+      return `${name} at ${at}${[...words, ...details].length ? ` (${[...words, ...details].join(', ')})` : ''}`;
+    }
     case 'mode-change':
     case 'mode-crossing': {
       const words = Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? [`mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}`] : [];
@@ -112,6 +122,9 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
     case 'mode-change':
       // the special point before says which modes and which curve goes on
       return 'at the mode change';
+    case 'bogdanov-takens':
+      // the special point before says where
+      return 'at the Bogdanov–Takens point, where ω = 0 and the Hopf curve meets the fold curve';
     default: {
       const text = curveOnlyStopText(reason) ?? stopReasonText[reason as keyof typeof stopReasonText] ?? reason;
       return b.message && b.message !== text ? `${text} (${b.message})` : text;
@@ -123,8 +136,9 @@ function originText(b: BranchRecord, prepared: PreparedCase): string {
   const p = prepared.settings.parameter;
   const mode = b.mode ? `, mode ${b.mode.join(', ')}` : '';
   if (b.follow !== undefined) {
-    const what = `${b.follow} curve${mode}`;
+    const what = `${curveName(b.follow)}${mode}`;
     if (b.origin.kind === 'mode-change') return `${what}, from the mode change at ${p} = ${formatValue(b.origin.value, parameterDigits)} on curve ${b.origin.branch}`;
+    if (b.origin.kind === 'start' && b.origin.at === 'bogdanov-takens') return `${what}, from the Bogdanov–Takens point, ω growing from 0`;
     return `${what}, ${p} ${b.origin.kind === 'start' && b.origin.direction === 'decrease' ? 'decreasing' : 'increasing'} from the first point`;
   }
   if (b.origin.kind === 'start') return `from the start, ${p} ${b.origin.direction === 'increase' ? 'increasing' : 'decreasing'}`;
@@ -146,6 +160,7 @@ export function branchLines(result: RunResult, prepared: PreparedCase): string[]
     parts.push(`ended: ${endText(b, end, prepared)}`);
     lines.push(`${b.follow !== undefined ? 'Curve' : 'Branch'} ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
     if (b.stability?.length) lines.push(`  stability: ${stabilityText(b.stability, prepared.settings.parameter)}`);
+    if (b.criticality?.length) lines.push(`  criticality: ${criticalityText(b.criticality, prepared.settings.parameter)}`);
   }
   return lines;
 }
@@ -159,6 +174,16 @@ function stabilityText(stretches: NonNullable<BranchRecord['stability']>, parame
   });
   if (stretches.length > 6) shown.push(`${stretches.length - 6} more changes (see the CSV)`);
   return shown.join('; ');
+}
+
+/** Stretches of equal criticality on a Hopf curve, e.g. "supercritical for k 0.0625 → 0.0352; subcritical for k 0.0352 → 0.02". */
+function criticalityText(stretches: NonNullable<BranchRecord['criticality']>, parameter: string): string {
+  const shown = stretches.slice(0, 6).map((s) => {
+    const range = s.from === s.to ? `at ${parameter} = ${formatValue(s.from, monitorDigits)}` : `for ${parameter} ${formatValue(s.from, monitorDigits)} → ${formatValue(s.to, monitorDigits)}`;
+    return `${s.criticality} ${range}`;
+  });
+  if (stretches.length > 6) shown.push(`${stretches.length - 6} more changes (see the CSV)`);
+  return `${shown.join('; ')} (the sign of the first Lyapunov coefficient)`;
 }
 
 function seconds(s: number): string {
@@ -176,7 +201,7 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const out: string[] = [];
   out.push(`Case ${prepared.case.name}: ${d.summary}`);
   const curve = prepared.curve?.settings;
-  const what = curve ? `the ${curve.follow.replace(/-/g, ' ')} followed in ${curve.parameter} over [${curve.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}], ${curve.free} free` : `continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`;
+  const what = curve ? `the ${curve.follow === 'hopf' ? 'Hopf points' : curve.follow.replace(/-/g, ' ')} followed in ${curve.parameter} over [${curve.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}], ${curve.free} free` : `continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`;
   out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; ${what}`);
   out.push(...branchLines(result, prepared));
   const status =

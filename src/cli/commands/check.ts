@@ -5,6 +5,7 @@ import type { UnknownLocation } from '../../problem/problem.js';
 import { type PreparedCase, prepareCaseObject, readCaseFile } from '../../run/case.js';
 import { prepareSettleCaseObject } from '../../run/settle-case.js';
 import { checkCurveCase } from '../../continuation/curves/check.js';
+import { curveName } from '../../continuation/curves/types.js';
 import { InputError } from '../../run/errors.js';
 import { formatValue } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
@@ -60,10 +61,15 @@ function reportLines(r: JacobianCheckReport, parameter: string): string[] {
 /** The curve-system line of a curve case (the check itself: src/continuation/curves/check.ts). */
 function checkCurveSystem(prepared: PreparedCase): { kind: string; passed: boolean; line: string; 'jacobian-error'?: number; 'solve-error'?: number } {
   const settings = prepared.curve!.settings;
-  const kind = `${settings.follow} curve`;
+  const kind = curveName(settings.follow);
   const r = checkCurveCase(prepared.problem, prepared.params, settings, prepared.start?.u);
   if ('error' in r) return { kind, passed: false, line: `${kind} system: not checked — ${r.error}` };
-  const what = settings.follow === 'fold' ? 'F = 0 and the bordered null-vector condition' : 'the uniform state and the bordered null-vector condition';
+  const what =
+    settings.follow === 'fold'
+      ? 'F = 0 and the bordered null-vector condition'
+      : settings.follow === 'hopf'
+        ? 'F = 0 and the complex bordered condition for a pair ±iω, ω an unknown'
+        : 'the uniform state and the bordered null-vector condition';
   return {
     kind,
     passed: r.passed,

@@ -44,7 +44,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
       if (opts.point !== undefined) {
         point = parsePointSpec(opts.point);
         if (!point) throw new InputError(`--point '${opts.point}' is not accepted (accepted: ${pointSpecAccepted})`);
-        if (point.kind === 'end') throw new InputError(`--point '${opts.point}': the end of a branch is where it was stopped, not a property of the problem (accepted: fold, branch-point or hopf, with :N; for curve runs also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing)`);
+        if (point.kind === 'end') throw new InputError(`--point '${opts.point}': the end of a branch is where it was stopped, not a property of the problem (accepted: fold, branch-point or hopf, with :N; for curve runs also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing, zero-hopf, bautin, double-hopf)`);
       }
       const branch = opts.branch !== undefined ? positiveInteger(opts.branch, '--branch') : undefined;
       const jobs = opts.jobs !== undefined ? positiveInteger(opts.jobs, '--jobs') : undefined;

@@ -351,7 +351,7 @@ export class CurveContinuation {
     const tests = sys.tests(true);
     const mode = sys.mode?.();
     sys.adopt();
-    const info: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: { kind: 'start' }, direction: dir > 0 ? 'increase' : 'decrease', ...(mode ? { mode } : {}) };
+    const info: CurveInfo = { id: this.state.nextId++, depth: 0, follow: st.follow, origin: along ? { kind: 'start', at: 'bogdanov-takens' } : { kind: 'start' }, direction: dir > 0 ? 'increase' : 'decrease', ...(mode ? { mode } : {}) };
     if (st.direction === 'both' && !along) {
       // the other way from the same first point, once this curve has ended
       const back = tangent.map((t) => -t);
@@ -737,7 +737,7 @@ export class CurveContinuation {
       this.pointEvent(b, at.s, 0, b.mode),
       ...before.map((l): CurveEvent => ({ type: 'special', point: l.special })),
       { type: 'special', point: at.special },
-      ...this.end(b, kind, `reached a ${kind.replace(/-/g, ' ')} point at ${st.parameter} = ${fmt(at.y[sys.parameterIndex])}, ${st.free} = ${fmt(at.y[sys.freeIndex])}`),
+      ...this.end(b, kind, `${st.parameter} = ${fmt(at.y[sys.parameterIndex])}, ${st.free} = ${fmt(at.y[sys.freeIndex])}`),
     ];
   }
 

@@ -15,6 +15,11 @@ import type { ContinuationPoint, MonitorStop, NewtonSettings, SpecialPointBase, 
 export type CurveKind = 'fold' | 'branch-point' | 'hopf';
 export const curveKinds: readonly CurveKind[] = ['fold', 'branch-point', 'hopf'];
 
+/** `fold curve`, `branch-point curve`, `Hopf curve` (words for summaries and legends). */
+export function curveName(kind: string): string {
+  return kind === 'hopf' ? 'Hopf curve' : `${kind} curve`;
+}
+
 /** Special points found on curves, in plain words (the trade's names where it has them). */
 export type CurveSpecialKind =
   /** fold curves: the quadratic normal-form coefficient ⟨w, F_uu(v, v)⟩ vanishes */
@@ -107,7 +112,8 @@ export interface CurveInfo {
   depth: number;
   follow: CurveKind;
   origin:
-    | { kind: 'start' }
+    /** `at`: a Hopf curve leaving a Bogdanov–Takens point (ω = 0), one way only. */
+    | { kind: 'start'; at?: 'bogdanov-takens' }
     /** Born where the critical mode of curve `branch` changed, at `value` of the parameter. */
     | { kind: 'mode-change'; branch: number; value: number };
   /** Which way the parameter moves at the curve's start. */
