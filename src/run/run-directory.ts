@@ -24,7 +24,7 @@ import type { ContinuationPoint, SpecialPoint, StopReason } from '../continuatio
 import type { CurveStopReason } from '../continuation/curves/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
-import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
+import { type CsvCell, CsvWriter, csvLine, writeFileAtomic, writeJsonAtomic, writeNpy } from './writers.js';
 
 export const runFormat = 'branchline run';
 export const runFormatVersion = 1;
@@ -32,7 +32,7 @@ export const runFormatVersion = 1;
 export type RunStatus = 'running' | 'finished' | 'stopped' | 'failed';
 
 /** Entries of a run directory that belong to us (removed by `force`). */
-const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots', 'monitors.csv', 'monitors.svg', 'snapshots'];
+const ownEntries = ['run.json', 'points.json', 'points.csv', 'branches', 'solutions', 'diagram.svg', 'plots', 'monitors.csv', 'monitors.svg', 'snapshots'];
 const ownEntryPattern = /^(checkpoint.*|\..*\.tmp)$/;
 
 // ---------------------------------------------------------------------------------------------
@@ -258,6 +258,25 @@ export function specialRecord(problem: Problem, parameter: string, s: SpecialPoi
   return rec;
 }
 
+/**
+ * points.csv: the special points as a table for other tools — kind, branch, the parameter (and
+ * on curves the free parameter), located, the Hopf details (frequency, period, first Lyapunov
+ * coefficient, criticality; empty elsewhere), the monitors, the solution file. Rewritten with
+ * points.json.
+ */
+export function pointsCsv(parameter: string, specials: readonly SpecialRecord[]): string {
+  const free = specials.map((s) => s['free-parameter']).find((f): f is string => typeof f === 'string');
+  const monitors: string[] = [];
+  for (const s of specials) for (const m of Object.keys(s.monitors ?? {})) if (!monitors.includes(m)) monitors.push(m);
+  const hopf = ['frequency', 'period', 'first-lyapunov-coefficient', 'criticality'];
+  let out = csvLine(['kind', 'branch', parameter, ...(free ? [free] : []), 'located', ...hopf, ...monitors, 'solution']);
+  const cell = (v: unknown): CsvCell => (typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean' ? v : undefined);
+  for (const s of specials) {
+    out += csvLine([s.kind, s.branch, s.value, ...(free ? [cell(s.free)] : []), cell(s.located), ...hopf.map((k) => cell(s[k])), ...monitors.map((m) => s.monitors?.[m]), s.solution]);
+  }
+  return out;
+}
+
 // ---------------------------------------------------------------------------------------------
 // The directory
 
@@ -391,6 +410,7 @@ export class RunDirectory {
 
   writePoints(parameter: string, specials: readonly SpecialRecord[]): void {
     writeJsonAtomic(join(this.path, 'points.json'), { parameter, points: specials });
+    writeFileAtomic(join(this.path, 'points.csv'), pointsCsv(parameter, specials));
   }
 
   /** A path inside the run directory, relative to `from` (for messages). */

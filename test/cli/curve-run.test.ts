@@ -106,21 +106,21 @@ describe('curve runs: files', () => {
   });
 
   it('new --follow prints curve starters that check accepts; models without one are told which exist', async () => {
-    for (const [model, kind] of [['bratu', 'fold'], ['brusselator', 'branch-point'], ['beam-foundation', 'fold'], ['beam-foundation', 'branch-point']]) {
+    for (const [model, kind] of [['bratu', 'fold'], ['brusselator', 'branch-point'], ['beam-foundation', 'fold'], ['beam-foundation', 'branch-point'], ['brusselator', 'hopf'], ['gray-scott', 'hopf']]) {
       const r = await cli('new', model, '--follow', kind);
       expect(r.code, r.err).toBe(0);
       expect(r.out).toContain(`follow: ${kind}`);
       const file = write(`starter-${model}-${kind}.yaml`, r.out.replace(/intervals: \[100\]/, 'intervals: [20]'));
       const c = await cli('check', file, '--json');
       expect(c.code, `${model} ${kind}: ${c.err}`).toBe(0);
-      expect(JSON.parse(c.out).curve.kind).toBe(`${kind} curve`);
+      expect(JSON.parse(c.out).curve.kind).toBe(kind === 'hopf' ? 'Hopf curve' : `${kind} curve`);
     }
     const none = await cli('new', 'allen-cahn', '--follow', 'fold');
     expect(none.code).toBe(2);
     expect(none.err).toMatch(/no curve starter for model 'allen-cahn' \(offered: bratu --follow fold, brusselator --follow branch-point/);
-    const bad = await cli('new', 'bratu', '--follow', 'hopf');
+    const bad = await cli('new', 'bratu', '--follow', 'cusp');
     expect(bad.code).toBe(2);
-    expect(bad.err).toMatch(/--follow: 'hopf' is not accepted \(accepted: fold, branch-point\)/);
+    expect(bad.err).toMatch(/--follow: 'cusp' is not accepted \(accepted: fold, branch-point, hopf\)/);
   });
 
   it('refine --point cusp and --point bogdanov-takens: the points of uniform states are the same on every grid', async () => {
@@ -159,11 +159,11 @@ continuation:
       ['free missing', cusp.replace('  free: p1\n', ''), /continuation\.free: is missing: the parameter that adjusts to stay on the fold \(accepted: one of p1, p2 other than p2\)/],
       ['free is the parameter', cusp.replace('free: p1', 'free: p2'), /continuation\.free: 'p2' is the continuation parameter itself/],
       ['free unknown', cusp.replace('free: p1', 'free: q'), /continuation\.free: 'q' is not a parameter of this model \(accepted: p1\)/],
-      ['follow misspelt', cusp.replace('follow: fold', 'follow: folds'), /continuation\.follow: 'folds' is not accepted \(accepted: fold, branch-point\)/],
+      ['follow misspelt', cusp.replace('follow: fold', 'follow: folds'), /continuation\.follow: 'folds' is not accepted \(accepted: fold, branch-point, hopf\)/],
       ['method with a curve', cusp.replace('  follow: fold\n', '  follow: fold\n  method: natural\n'), /continuation\.method: does not apply to a curve run \(follow: fold\); remove it/],
-      ['free without follow', cusp.replace('  follow: fold\n', '').replace('direction: both', 'direction: increase'), /continuation\.free: goes with a curve run \(accepted: add follow: fold, branch-point, or remove free\)/],
+      ['free without follow', cusp.replace('  follow: fold\n', '').replace('direction: both', 'direction: increase'), /continuation\.free: goes with a curve run \(accepted: add follow: fold, branch-point, hopf, or remove free\)/],
       ['both without follow', cusp.replace('  follow: fold\n', '').replace('  free: p1\n', ''), /continuation\.direction: 'both' goes with curve runs/],
-      ['eigenvalues on a curve', cusp + 'stability: {eigenvalues: 3}\n', /stability\.eigenvalues: 3: curve runs compute no eigenvalues/],
+      ['eigenvalues on a curve', cusp + 'stability: {eigenvalues: 3}\n', /stability\.eigenvalues: 3: fold curves compute no eigenvalues/],
       ['free bounds reversed', cusp.replace('  free: p1\n', '  free: p1\n  free-bounds: [1, -1]\n'), /continuation\.free-bounds: \[1, -1\] is reversed/],
       ['start outside free bounds', cusp.replace('  free: p1\n', '  free: p1\n  free-bounds: [0, 1]\n'), /parameters\.p1: the start value -0\.5 lies outside continuation\.free-bounds \[0, 1\]/],
     ];
