@@ -249,7 +249,7 @@ describe('the output folder', () => {
     await expect(runCase(prepared, { outDir: out, engine: fakeEngine() })).rejects.toThrow(/is not empty \(it holds an earlier run\)/);
     const again = await runCase(prepared, { outDir: out, engine: fakeEngine({ ...defaultScript, points2: 0 }), force: true });
     expect(again.status).toBe('finished');
-    expect(readdirSync(out).sort()).toEqual(['branches', 'diagram.svg', 'notes.txt', 'plots', 'points.json', 'run.json', 'solutions']);
+    expect(readdirSync(out).sort()).toEqual(['branches', 'diagram.svg', 'notes.txt', 'plots', 'points.csv', 'points.json', 'run.json', 'solutions']);
     expect(readdirSync(join(out, 'branches'))).toEqual(['1.csv']);
     expect(readdirSync(join(out, 'solutions')).sort()).toEqual(['branch-1-end-1.npy', 'branch-1-fold-1.npy']);
   });
