@@ -18,7 +18,8 @@
  *                   diagram.svg, plots/), to be inspected like any other run
  *
  * Grids run one after another in this process, or in `jobs` worker processes side by side
- * (./worker.ts; needs the compiled program). No command-line code here: the `refine` command
+ * (./worker.ts; needs the compiled program), or through an executor that sends them elsewhere
+ * (src/run/executor.ts; Slurm: src/slurm/): the same grid runs, the same analysis of their folders. No command-line code here: the `refine` command
  * (src/cli/commands/refine.ts) parses its options and prints `formatStudySummary`.
  */
 import { type ChildProcess, fork } from 'node:child_process';
@@ -29,6 +30,7 @@ import { formatValue, refinementSvg } from '../plot/index.js';
 import { valueToError } from '../plot/refinement.js';
 import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.js';
 import { InputError } from '../run/errors.js';
+import type { RunExecutor, RunPiece } from '../run/executor.js';
 import { formatValue as plainValue } from '../run/summary.js';
 import { drawRunPlots } from '../run/plots.js';
 import { runCase } from '../run/run-case.js';
@@ -65,6 +67,13 @@ export interface StudyOptions {
   log?: (level: 'info' | 'warning', message: string) => void;
   /** The compiled worker script (default ./worker.js beside this module). */
   workerScript?: string;
+  /**
+   * Who runs the grids instead of this process and its workers (e.g. Slurm, src/slurm/); the
+   * grid runs are the same. An executor that only hands them over makes the study `submitted`.
+   */
+  executor?: RunExecutor;
+  /** The folder already holds this study's grid runs (collecting a study whose grids ran elsewhere): keep it as it is. */
+  keepFolder?: boolean;
 }
 
 export interface GridRun {
@@ -85,7 +94,8 @@ export interface GridRun {
 }
 
 export interface StudyResult {
-  status: 'finished' | 'stopped' | 'failed';
+  /** `submitted`: the grids were handed to a scheduler and not waited for (nothing analysed yet). */
+  status: 'finished' | 'stopped' | 'failed' | 'submitted';
   directory: string;
   caseName: string;
   parameter: string;
@@ -335,7 +345,27 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
     const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}) });
     tasks.push({ grid: options.grids[i], intervals: intervals[i], directory: `grid-${gridLabel(intervals[i])}`, doc, label, baseDir: prepared.baseDir, prepared: p });
   }
-  prepareFolder(studyDir, options.force);
+  const executor = options.executor;
+  const pieces: RunPiece[] = tasks.map((t) => ({
+    name: t.directory,
+    outDir: join(studyDir, t.directory),
+    doc: t.doc,
+    label: t.label,
+    baseDir: t.baseDir,
+    ...(prepared.file !== undefined ? { file: prepared.file } : {}),
+    prepared: t.prepared,
+  }));
+  if (!options.keepFolder) {
+    executor?.check?.(pieces);
+    prepareFolder(studyDir, options.force);
+  }
+  if (executor) {
+    const outcomes = await executor.execute(pieces, { ...(options.signal ? { signal: options.signal } : {}), log });
+    if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, branch, parameter, expected, point: options.point ?? { kind: 'fold', index: 1 }, tasks });
+    const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
+    const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
+    return finishStudy(prepared, { studyDir, branch, parameter, expected, point: options.point, outcomes: done, stopped: false });
+  }
 
   const script = jobs > 1 ? (options.workerScript ?? defaultWorkerScript()) : undefined;
   if (jobs > 1 && !script) log('warning', 'parallel jobs need the compiled program (npm run build); the grids run one after another in this process');
@@ -363,6 +393,47 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
 
   const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t), options.signal?.aborted));
   return finishStudy(prepared, { studyDir, branch, branchGiven: options.branch !== undefined, parameter, expected, point: options.point, outcomes, stopped: options.signal?.aborted ?? false });
+}
+
+/** A study whose grids were handed to a scheduler: refine.json says so until they are collected. */
+function submittedStudy(
+  prepared: PreparedCase,
+  s: { studyDir: string; branch: number; parameter: string; expected: number | null; point: PointSpec; tasks: readonly GridTask[] },
+): StudyResult {
+  const pointText = `${pointWords(s.point)} on branch ${s.branch}`;
+  const json: Record<string, unknown> = {
+    format: studyFormat,
+    'format-version': studyFormatVersion,
+    software: { ...softwareVersion(), node: process.version },
+    status: 'submitted',
+    'case-file': prepared.file ?? null,
+    case: prepared.case.name,
+    model: prepared.problem.describe().summary,
+    point: pointText,
+    'point-kind': s.point.kind,
+    'point-number': s.point.index,
+    branch: s.branch,
+    parameter: s.parameter,
+    'expected-order': s.expected,
+    values: [],
+    runs: s.tasks.map((t) => ({ grid: t.grid, intervals: t.intervals, directory: t.directory, status: 'submitted' })),
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+  };
+  writeJsonAtomic(join(s.studyDir, 'refine.json'), json);
+  return {
+    status: 'submitted',
+    directory: s.studyDir,
+    caseName: prepared.case.name,
+    parameter: s.parameter,
+    point: s.point,
+    branch: s.branch,
+    pointText,
+    runs: [],
+    json,
+    warnings: [],
+    ...(prepared.caution ? { caution: prepared.caution } : {}),
+    files: ['refine.json'],
+  };
 }
 
 /** Pick the point, analyse, write refine.csv / refine.json / refine.svg. */

@@ -6,8 +6,9 @@
  * finished, a checkpoint written and run.json marked `stopped`. The batch decides about leaving
  * at once (it kills its workers); a worker never exits half-way on a signal of its own.
  */
+import { dirname } from 'node:path';
 import { InputError } from './errors.js';
-import { prepareCase } from './case.js';
+import { prepareCase, prepareCaseObject } from './case.js';
 import { runSession, type WorkerMessage, type WorkerStart } from './batch.js';
 import type { ProgressView } from './progress.js';
 
@@ -35,7 +36,9 @@ const view: ProgressView = {
 
 async function work(m: WorkerStart): Promise<number> {
   try {
-    const prepared = await prepareCase(m.file, { label: m.label });
+    const prepared = m.doc
+      ? await prepareCaseObject(m.doc, { label: m.label, file: m.file, baseDir: m.baseDir ?? dirname(m.file) })
+      : await prepareCase(m.file, { label: m.label });
     const result = await runSession(prepared, { outDir: m.outDir, force: m.force, signal: controller.signal, view, name: prepared.case.name });
     send({ type: 'result', result });
     return result.status === 'finished' ? 0 : 1;

@@ -32,6 +32,8 @@ export interface RunTarget {
   label: string;
   prepared: PreparedCase;
   outDir: string;
+  /** The case document to run, when it is not the case file as it is (a value of a sweep). */
+  doc?: Record<string, unknown>;
 }
 
 export type OutcomeStatus = 'finished' | 'failed' | 'stopped' | 'not-started';
@@ -91,10 +93,14 @@ function isRunDirectory(dir: string): boolean {
  * Check every case file and output folder. Returns the targets, or the problems (one line each,
  * naming the file and field) when any case cannot run — then nothing may run.
  */
-export async function prepareTargets(files: readonly string[], options: { out?: string; force?: boolean; jobs?: number } = {}): Promise<{ targets: RunTarget[]; problems: string[] }> {
+export async function prepareTargets(
+  files: readonly string[],
+  options: { out?: string; force?: boolean; jobs?: number; parent?: boolean; cluster?: boolean } = {},
+): Promise<{ targets: RunTarget[]; problems: string[] }> {
   const targets: RunTarget[] = [];
   const problems: string[] = [];
-  const several = files.length > 1;
+  // `parent`: --out is a parent folder even for one case (runs sent to a cluster)
+  const several = files.length > 1 || options.parent === true;
   for (const file of files) {
     let prepared: PreparedCase;
     try {
@@ -117,7 +123,8 @@ export async function prepareTargets(files: readonly string[], options: { out?: 
     }
     targets.push({ label: file, prepared, outDir });
   }
-  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1));
+  // runs sent to a cluster: the nodes' memory is the scheduler's to judge (sbatch --test-only)
+  if (problems.length === 0) problems.push(...resourceProblems(targets, options.jobs ?? 1, options.cluster !== true));
   return { targets, problems };
 }
 
@@ -152,11 +159,11 @@ export function runNeeds(prepared: PreparedCase): { memory: number; disk: number
 }
 
 /** Requests that cannot fit this machine, refused before anything runs (with the estimates). */
-function resourceProblems(targets: readonly RunTarget[], jobs: number): string[] {
+export function resourceProblems(targets: readonly RunTarget[], jobs: number, memoryHere = true): string[] {
   const problems: string[] = [];
   const machine = totalmem();
   const needs = targets.map((t) => ({ t, ...runNeeds(t.prepared) }));
-  for (const x of needs) {
+  for (const x of memoryHere ? needs : []) {
     if (x.memory > 0.8 * machine) {
       problems.push(`${x.t.label}: grid.intervals: the run would need about ${bytesText(x.memory)} of memory (sparse LU factors${x.t.prepared.case.stability.eigenvalues > 0 ? ' for the continuation and the eigenvalues' : ''}), more than this machine has (${bytesText(machine)}); use fewer intervals`);
     }
@@ -429,7 +436,14 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
         done();
       });
       o.view.start(name, t.prepared.settings.parameter, t.prepared.settings.maxPoints);
-      const start: WorkerStart = { type: 'run', file: t.prepared.file ?? resolve(t.label), label: t.label, outDir: t.outDir, force: o.force === true };
+      const start: WorkerStart = {
+        type: 'run',
+        file: t.prepared.file ?? resolve(t.label),
+        label: t.label,
+        outDir: t.outDir,
+        force: o.force === true,
+        ...(t.doc ? { doc: t.doc, baseDir: t.prepared.baseDir } : {}),
+      };
       child.send(start);
     });
 
@@ -479,6 +493,9 @@ export interface WorkerStart {
   label: string;
   outDir: string;
   force: boolean;
+  /** The case document to run instead of the file as it is (a value of a sweep), with its base folder. */
+  doc?: Record<string, unknown>;
+  baseDir?: string;
 }
 
 export type WorkerMessage =

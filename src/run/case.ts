@@ -25,6 +25,7 @@
  *   plot: {monitor: max}                 # the diagram's vertical axis (default: max, or max:<first field>)
  *   start: {solution: saved.npy}         # start from a saved node array instead of the initial guess,
  *   start: {run: runs/a, point: fold:1, branch: 1}   # or from a special point of an earlier run
+ *   cluster: {setup: ["module load nodejs/20"]}      # lines run before the run in a Slurm job (--slurm)
  *
  * A start from a run point takes that point's parameter values too (the earlier run's start values
  * with its continuation parameter at the point's value): for built-in and code models, values
@@ -123,6 +124,8 @@ export interface ResolvedCase {
   start?: ResolvedStart;
   /** The `initial:` key, resolved (absolute file path, noise seed filled in). */
   initial?: ResolvedInitial;
+  /** For runs sent to a cluster (--slurm): lines the job script runs before the run. */
+  cluster?: { setup: string[] };
 }
 
 export type ResolvedStart = { solution: string } | { run: string; point: string; branch: number };
@@ -275,7 +278,9 @@ const continuationSchema = section({
   search: section({ step: stepSchema.optional(), 'max-points': integerIn(1, maxPointsLimit).optional() }).optional(),
 });
 
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time'] as const;
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster'] as const;
+
+const setupLineText = accepted('a list of shell lines run before the run in a cluster job, e.g. ["module load nodejs/20"]');
 
 const caseSchema = z.looseObject(
   {
@@ -303,6 +308,9 @@ const caseSchema = z.looseObject(
       run: z.string(accepted('a run folder')).min(1, accepted('a run folder')).optional(),
       point: z.string(accepted(pointSpecAccepted)).optional(),
       branch: integerIn(1, 1_000_000).optional(),
+    }).optional(),
+    cluster: section({
+      setup: z.array(z.string(setupLineText).regex(/^[^\r\n]*\S[^\r\n]*$/, setupLineText), setupLineText).optional(),
     }).optional(),
   },
   accepted('a case: a map with keys name, model, grid, parameters, continuation, output'),
@@ -734,6 +742,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     plot: { monitor: plotMonitor },
     ...(startFrom ? { start: startFrom.resolved } : {}),
     ...(parts.initial ? { initial: parts.initial } : {}),
+    ...(input.cluster?.setup?.length ? { cluster: { setup: input.cluster.setup.map((l) => l.trim()) } } : {}),
   };
 
   return {
@@ -915,6 +924,7 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
     ...(c.plot ? { plot: { monitor: c.plot.monitor } } : {}),
     ...(c.start ? { start: { ...c.start } } : {}),
     ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
+    ...(c.cluster ? { cluster: { setup: c.cluster.setup.slice() } } : {}),
   };
 }
 

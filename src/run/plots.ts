@@ -122,11 +122,28 @@ function runTitle(run: Record<string, unknown>): { name: string; summary: string
   return { name: str(c.name, 'run'), summary: str(problem.summary), grid };
 }
 
+/** What a run's diagram shows, read from its files (also used for diagrams of several runs). */
+export interface RunDiagramData {
+  run: Record<string, unknown>;
+  specials: SpecialRecord[];
+  parameter: string;
+  /** The monitor on the vertical axis, and the problem's fields (for words). */
+  monitor: string;
+  fields: string[];
+  /** Monitor descriptions from run.json (older runs: none). */
+  descriptions: Record<string, string>;
+  branches: DiagramBranch[];
+  /** Special points on the drawn branches (ends as bare markers). */
+  shown: DiagramSpecialPoint[];
+  caution?: string;
+  warnings: string[];
+}
+
 /**
- * Draw diagram.svg and plots/*.svg of the run in `dir`. Throws InputError when `dir` holds no
- * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
+ * Read the branches and special points of the run in `dir` for a diagram. Throws InputError when
+ * `dir` holds no run or the monitor is unknown; a branch file that cannot be read is a warning.
  */
-export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
+export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramData {
   let run: Record<string, unknown>;
   let specials: SpecialRecord[];
   try {
@@ -137,8 +154,6 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     throw new InputError(`cannot draw: ${(e as Error).message}`);
   }
   const warnings: string[] = [];
-  const notes: string[] = [];
-  const written: string[] = [];
   const parameter = str(run['continuation-parameter'], 'parameter');
   const problem = (run.problem ?? {}) as Record<string, unknown>;
   const fields = (Array.isArray(problem.fields) ? problem.fields : []) as string[];
@@ -146,10 +161,9 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   const extras = (Array.isArray(problem['extra-unknowns']) ? problem['extra-unknowns'] : []) as string[];
   const columns = (Array.isArray(run.columns) ? run.columns : []) as string[];
   const caution = typeof run.caution === 'string' ? run.caution : undefined;
-  const title = runTitle(run);
   const monitors = monitorColumns(columns, parameter, extras);
   const caseDoc = (run.case ?? {}) as { plot?: { monitor?: unknown } };
-  const monitor = options.monitor ?? str(caseDoc.plot?.monitor) ?? '';
+  const monitor = monitorAsked ?? str(caseDoc.plot?.monitor) ?? '';
   const chosen = monitor !== '' ? monitor : defaultPlotMonitor(monitors, fields);
   if (!monitors.includes(chosen)) {
     throw new InputError(`monitor '${chosen}' is not a column of this run (accepted: ${monitors.join(', ') || 'none'})`);
@@ -207,6 +221,19 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
     const modes = s.kind === 'mode-change' && Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? { label: `mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}` } : {};
     shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : modes) });
   }
+  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings };
+}
+
+/**
+ * Draw diagram.svg and plots/*.svg of the run in `dir`. Throws InputError when `dir` holds no
+ * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
+ */
+export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
+  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings } = readRunDiagram(dir, options.monitor);
+  const notes: string[] = [];
+  const written: string[] = [];
+  const problem = (run.problem ?? {}) as Record<string, unknown>;
+  const title = runTitle(run);
   nameCoincidentBranches(branches);
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;

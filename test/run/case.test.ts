@@ -163,7 +163,7 @@ describe('bad case files give one line naming the file, the field, the value and
     ['unknown parameter', good.replace('{lambda: 0.5}', '{lambda: 0.5, mu: 2}'), /: parameters\.mu: unknown parameter for model 'bratu' \(accepted: lambda\)/],
     ['a parameter of another variant', good.replace('{lambda: 0.5}', '{lambda: 0.5, biot: 2}'), /: parameters\.biot: unknown parameter .*\(accepted: lambda\); 'biot' belongs to another variant/],
     ['unknown continuation parameter', good.replace('parameter: lambda', 'parameter: lam'), /: continuation\.parameter: 'lam' is not a parameter of model 'bratu' \(accepted: lambda\)/],
-    ['unknown top-level key', good + 'colour: red\n', /: colour: unknown key \(accepted: name, model, grid, parameters, continuation, output, stability, checkpoint, plot, start, initial, time; for model 'bratu' also boundary\)/],
+    ['unknown top-level key', good + 'colour: red\n', /: colour: unknown key \(accepted: name, model, grid, parameters, continuation, output, stability, checkpoint, plot, start, initial, time, cluster; for model 'bratu' also boundary\)/],
     ['unknown nested key', good + '  stepsize: 0.1\n', /: continuation: unknown key 'stepsize' \(accepted: parameter, bounds, direction, method, step,/],
     ['wrong model option value', good + 'boundary: sticky\n', /: boundary: 'sticky' is not accepted \(accepted: dirichlet, robin\)/],
     ['unknown monitor in stop-when', good + '  stop-when: [{monitor: maximum, above: 3}]\n', /: continuation\.stop-when\[0\]\.monitor: 'maximum' is not a monitor of this problem \(accepted: max, min, l2-norm, centre\)/],

@@ -12,5 +12,7 @@ import { registerNew } from './new.js';
 import { registerRefine } from './refine.js';
 import { registerPlot } from './plot.js';
 import { registerSettle } from './settle.js';
+import { registerCollect } from './collect.js';
+import { registerTask } from './task.js';
 
-export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerSettle, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot];
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerSettle, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot, registerCollect, registerTask];

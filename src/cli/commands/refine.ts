@@ -1,10 +1,12 @@
 import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { resolve } from 'node:path';
-import { prepareCase } from '../../run/case.js';
+import { caseDocument, prepareCase } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
 import { parsePointSpec, pointSpecAccepted } from '../../run/start.js';
 import { formatStudySummary, runStudy } from '../../refine/study.js';
+import { SlurmExecutor } from '../../slurm/job.js';
+import { type ClusterOptions, addClusterOptions, clusterSettings, submittedLines } from './cluster.js';
 
 function wholeNumbers(text: string, what: string): number[] {
   const parts = text.split(',').map((s) => s.trim());
@@ -22,7 +24,7 @@ function positiveInteger(text: string, what: string): number {
 
 /** `branchline refine CASE --grids 32,64,128`: a grid-refinement study of a special point. */
 export function registerRefine(program: Command, { io, setExit }: CommandContext): void {
-  program
+  const command = program
     .command('refine')
     .description('run a case on a sequence of grids and show that a special point is grid-converged: values, observed order, Richardson-extrapolated value with an error estimate (refine.csv, refine.json, refine.svg)')
     .argument('<case>', 'case file (YAML or JSON)')
@@ -33,8 +35,10 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
     .option('--expected-order <p>', 'formal order of the discretisation, checked against the observed one (default 2; none for code models)')
     .option('--out <dir>', 'study folder (default runs/<case name>-refine)')
     .option('--force', 'replace an earlier study in a non-empty output folder')
-    .option('--quiet', 'no progress lines on stderr')
-    .action(async (file: string, opts: { grids: string; point?: string; branch?: string; jobs?: string; expectedOrder?: string; out?: string; force?: boolean; quiet?: boolean }) => {
+    .option('--quiet', 'no progress lines on stderr');
+  addClusterOptions(command)
+    .addHelpText('after', '\nSlurm (--slurm): the grids go to Slurm as one job array; the study folder (--out) holds the grid runs and the job\'s files (slurm/); `branchline collect DIR` waits for a job submitted with --no-wait and analyses it.')
+    .action(async (file: string, opts: ClusterOptions & { grids: string; point?: string; branch?: string; jobs?: string; expectedOrder?: string; out?: string; force?: boolean; quiet?: boolean }) => {
       const grids = wholeNumbers(opts.grids, '--grids');
       let point;
       if (opts.point !== undefined) {
@@ -53,6 +57,28 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
         }
       }
       const prepared = await prepareCase(file);
+      const settings = clusterSettings(opts, [prepared]);
+      if (settings && jobs !== undefined) throw new InputError('--jobs runs grids side by side on this machine; with --slurm each grid is its own task (leave --jobs out)');
+      const outDir = opts.out !== undefined ? resolve(opts.out) : resolve('runs', `${prepared.case.name}-refine`);
+      const executor = settings
+        ? new SlurmExecutor({
+            collection: outDir,
+            kind: 'refine',
+            context: {
+              case: caseDocument(prepared.case),
+              label: prepared.label,
+              baseDir: prepared.baseDir,
+              ...(prepared.file !== undefined ? { file: prepared.file } : {}),
+              grids,
+              ...(point ? { point } : {}),
+              ...(branch !== undefined ? { branch } : {}),
+              ...(expectedOrder !== undefined ? { 'expected-order': expectedOrder } : {}),
+            },
+            settings,
+            wait: opts.wait !== false,
+            force: opts.force === true,
+          })
+        : undefined;
       const controller = new AbortController();
       let interrupts = 0;
       const onSignal = (signal: NodeJS.Signals): void => {
@@ -61,7 +87,8 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
           io.err(`branchline: second ${signal}: leaving at once\n`);
           process.exit(130);
         }
-        io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`);
+        if (executor) io.err(`branchline: ${signal}: no longer waiting; the job goes on in Slurm (collect it later with: branchline collect ${outDir})\n`);
+        else io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`);
         controller.abort();
       };
       process.on('SIGINT', onSignal);
@@ -69,7 +96,8 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
       try {
         const result = await runStudy(prepared, {
           grids,
-          outDir: opts.out !== undefined ? resolve(opts.out) : resolve('runs', `${prepared.case.name}-refine`),
+          outDir,
+          ...(executor ? { executor } : {}),
           ...(point ? { point } : {}),
           ...(branch !== undefined ? { branch } : {}),
           ...(jobs !== undefined ? { jobs } : {}),
@@ -80,8 +108,13 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
             if (level === 'warning' || !opts.quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
           },
         });
-        io.out(formatStudySummary(result));
-        setExit(result.status === 'finished' ? 0 : 1);
+        if (result.status === 'submitted') {
+          submittedLines(io, executor?.submission, outDir);
+          setExit(0);
+        } else {
+          io.out(formatStudySummary(result));
+          setExit(result.status === 'finished' ? 0 : 1);
+        }
       } finally {
         process.off('SIGINT', onSignal);
         process.off('SIGTERM', onSignal);

@@ -6,6 +6,9 @@ import { InputError } from '../../run/errors.js';
 import { type ProgressView, progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
+import { parseSweep } from '../../run/sweep.js';
+import { addClusterOptions, clusterSettings } from './cluster.js';
+import { type SeveralOptions, runCasesOnSlurm, runSweep } from './several.js';
 
 /** Most worker processes `--jobs` accepts. */
 const maxJobs = 64;
@@ -29,14 +32,16 @@ export function stopOnSignals(io: Io, view: () => Pick<ProgressView, 'log' | 'cl
     view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`);
     controller.abort();
   };
-  process.on('SIGINT', onSignal);
-  process.on('SIGTERM', onSignal);
-  return {
-    signal: controller.signal,
-    release: () => {
-      process.off('SIGINT', onSignal);
-      process.off('SIGTERM', onSignal);
-    },
+  return { signal: controller.signal, release: onStopSignals(onSignal) };
+}
+
+/** Call `handler` on SIGINT and SIGTERM until the returned function is called. */
+export function onStopSignals(handler: (signal: NodeJS.Signals) => void): () => void {
+  process.on('SIGINT', handler);
+  process.on('SIGTERM', handler);
+  return () => {
+    process.off('SIGINT', handler);
+    process.off('SIGTERM', handler);
   };
 }
 
@@ -63,7 +68,7 @@ export function parseJobs(text: string | undefined): number {
 
 /** `branchline run CASE...`: trace cases and write their run directories. */
 export function registerRun(program: Command, { io, setExit }: CommandContext): void {
-  program
+  const command = program
     .command('run')
     .description('trace the steady states of case files and write a run directory per case (run.json, points.json, branches/*.csv, solutions/*.npy)')
     .argument('<case...>', 'case files (YAML or JSON); all are checked before any run starts')
@@ -72,6 +77,8 @@ export function registerRun(program: Command, { io, setExit }: CommandContext): 
     .option('--jobs <n>', 'run up to n cases at a time, each in its own process (default 1: one after another)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
+    .option('--sweep <name=values>', 'run the case once per value of one parameter, e.g. biot=0.5,1,2: a run folder per value under --out (default runs/<case>-<name>-sweep), with sweep.csv, sweep.json and sweep.svg');
+  addClusterOptions(command)
     .addHelpText(
       'after',
       `
@@ -82,11 +89,19 @@ that was stopped or killed, losing at most the points since its last checkpoint.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped,
 and cases not yet started are skipped; press again to leave at once (exit code 130; resume
 continues from the last checkpoint).
+Slurm (--slurm): the cases (or the sweep's values) go to Slurm as one job array; --out DIR is
+then always a parent folder (DIR/<case name>, and the job's files in DIR/slurm). The command
+waits and shows progress (or returns at once with --no-wait); \`branchline collect DIR\` waits
+again, reports each task's end, and with --resubmit sends the unfinished tasks again.
 Exit codes: 0 every run finished; 1 a run failed or was stopped; 2 bad input (a case file, an
 option or an output folder), found before any run starts.`,
     )
-    .action(async (files: string[], opts: { out?: string; force?: boolean; jobs?: string; quiet?: boolean; json?: boolean }) => {
+    .action(async (files: string[], opts: SeveralOptions & { sweep?: string }) => {
       const jobs = parseJobs(opts.jobs);
+      if (opts.sweep !== undefined) return runSweep(files, parseSweep(opts.sweep), opts, jobs, { io, setExit });
+      if (opts.slurm) return runCasesOnSlurm(files, opts, { io, setExit });
+      // options that belong to Slurm runs are refused here
+      clusterSettings(opts, []);
       // every case is checked (and its problem built) before any output folder is touched
       const { targets, problems } = await prepareTargets(files, { ...(opts.out !== undefined ? { out: opts.out } : {}), force: opts.force === true, jobs });
       if (problems.length) {
