@@ -137,6 +137,8 @@ export interface RunDiagramData {
   shown: DiagramSpecialPoint[];
   caution?: string;
   warnings: string[];
+  /** Curve runs: the free parameter, on the vertical axis instead of the monitor. */
+  free?: string;
 }
 
 /**
@@ -221,7 +223,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
     const modes = s.kind === 'mode-change' && Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? { label: `mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}` } : {};
     shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : modes) });
   }
-  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings };
+  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings, ...(free ? { free } : {}) };
 }
 
 /**
@@ -229,7 +231,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
  * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
  */
 export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
-  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings } = readRunDiagram(dir, options.monitor);
+  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings, free } = readRunDiagram(dir, options.monitor);
   const notes: string[] = [];
   const written: string[] = [];
   const problem = (run.problem ?? {}) as Record<string, unknown>;
