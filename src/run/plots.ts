@@ -142,7 +142,7 @@ export interface RunDiagramData {
   shown: DiagramSpecialPoint[];
   caution?: string;
   warnings: string[];
-  /** Curve runs: the free parameter (the diagram's vertical axis). */
+  /** Curve runs: the free parameter, on the vertical axis instead of the monitor. */
   free?: string;
 }
 
@@ -175,6 +175,7 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
   if (!monitors.includes(chosen)) {
     throw new InputError(`monitor '${chosen}' is not a column of this run (accepted: ${monitors.join(', ') || 'none'})`);
   }
+
   // --- the diagram (curve runs: the curves in the plane of the two parameters)
   const free = typeof run['free-parameter'] === 'string' ? run['free-parameter'] : undefined;
   const across = free ?? chosen;

@@ -96,7 +96,7 @@ describe('curve runs: files', () => {
   it('check covers the augmented systems (fold and branch-point curves)', async () => {
     const a = await cli('check', write('cusp-check.yaml', cusp));
     expect(a.code, a.out + a.err).toBe(0);
-    expect(a.out).toMatch(/fold curve system \(F = 0 and the bordered null-vector condition, in p2 and p1\): agrees — linearisation against differences [\d.]+e-\d+, bordered solve [\d.]+e-\d+ \(relative\)/);
+    expect(a.out).toMatch(/fold curve system \(F = 0 and the bordered null-vector condition, in p2 and p1\): agrees — linearisation against differences [\d.]+e-\d+, bordered solve [\d.]+e-\d+ \(relative\)\nThe Jacobian and the parameter derivatives agree with finite differences\.\n$/);
     const b = await cli('check', write('turing-check.yaml', turing), '--json');
     expect(b.code).toBe(0);
     const doc = JSON.parse(b.out);

@@ -144,8 +144,11 @@ its contract); 2 the case file is bad.`,
             .join(', ')} and the initial state (slightly perturbed), tolerance ${formatValue(tolerance, 3)}`,
           ...reportLines(report, parameter),
           ...(curve ? [curve.line] : []),
-          agree
-            ? `The Jacobian and the parameter derivatives${curve ? ` and the ${curve.kind} system` : ''} agree with finite differences.`
+          ...(curve && !curve.passed && derivativesAgree(report)
+            ? [`The ${curve.kind} system disagrees with finite differences although the model's derivatives agree: its second derivatives (F_uu, F_up) are the suspects, or the start state is too close to a second singularity.`]
+            : []),
+          derivativesAgree(report)
+            ? 'The Jacobian and the parameter derivatives agree with finite differences.'
             : 'The derivatives disagree with finite differences: fix the entries named above (a wrong Jacobian slows Newton down or stops it, and misplaces folds and branch points).',
         ];
         io.out(lines.join('\n') + '\n');
