@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,assembly,steps,branch,memory,settle,curves   a subset
+ *   npm run bench -- --only lu,assembly,steps,branch,memory,settle,curves,hopf-curves   a subset
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
@@ -102,6 +102,15 @@ if (want('curves')) {
   console.log('A fold-curve step against a one-parameter step on the same grid (no eigenvalues; target ratio at most 3)');
   console.log(curveTable([r]) + '\n');
   results.curves = r;
+}
+
+if (want('hopf-curves')) {
+  // 2(m+1)² unknowns: 20,402 at m = 100
+  const m = quick ? 30 : 100;
+  const r = inChild<CurveBenchRow>('hopf-curves', String(m), quick ? '3' : '5', String(repeats));
+  console.log('A Hopf-curve step against a one-parameter step with eigenvalues on the same grid (target ratio at most 4)');
+  console.log(curveTable([r]) + '\n');
+  results['hopf-curves'] = r;
 }
 
 if (want('settle')) {

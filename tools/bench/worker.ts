@@ -4,10 +4,11 @@
  *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
  *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
  *   node dist/tools/bench/worker.js curves <m> <steps> <repeats>
+ *   node dist/tools/bench/worker.js hopf-curves <m> <steps> <repeats>
  *   node dist/tools/bench/worker.js settle <m>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, grayScott2d } from './continuation.js';
-import { benchCurveSteps } from './curves.js';
+import { benchCurveSteps, benchHopfCurveSteps } from './curves.js';
 import { benchSettle } from './settle.js';
 
 const [kind, ...rest] = process.argv.slice(2);
@@ -21,6 +22,9 @@ if (kind === 'steps') {
 } else if (kind === 'curves') {
   const [m, steps, repeats] = rest;
   console.log(JSON.stringify(benchCurveSteps(Number(m), Number(steps), Number(repeats))));
+} else if (kind === 'hopf-curves') {
+  const [m, steps, repeats] = rest;
+  console.log(JSON.stringify(benchHopfCurveSteps(Number(m), Number(steps), Number(repeats))));
 } else if (kind === 'settle') {
   console.log(JSON.stringify(benchSettle(Number(rest[0]))));
 } else {
