@@ -222,8 +222,9 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
     const m = free ? num(s.free) : s.monitors?.[chosen];
     const value = num(s.value);
     if (typeof m !== 'number' || !Number.isFinite(m) || !Number.isFinite(value)) continue;
-    // a curve that ends at a mode change goes on as another curve: its end is the mode change
-    if (s.kind === 'end' && s.reason === 'mode-change') continue;
+    // a curve that ends at a mode change goes on as another curve: its end is the mode change;
+    // a Hopf curve that ends at a Bogdanov–Takens point: its end is that point's marker
+    if (s.kind === 'end' && (s.reason === 'mode-change' || s.reason === 'bogdanov-takens')) continue;
     // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
     const modes = s.kind === 'mode-change' && Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? { label: `mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}` } : {};
     shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : modes) });
