@@ -20,6 +20,10 @@ export type { CurveState, CurveOptions, CurveSummary, PendingCurve, CurveBranchS
 export * from './continuation/curves/types.js';
 export type { AugmentedSystem, TestFunction, TestValue, SystemCounters } from './continuation/curves/augmented.js';
 export { checkAugmentedSystem, checkCurveCase } from './continuation/curves/check.js';
+export { hopfCriticality } from './continuation/hopf/criticality.js';
+export type { HopfCriticality } from './continuation/hopf/criticality.js';
+export { FirstLyapunovCoefficient, criticalityOf } from './continuation/hopf/lyapunov.js';
+export type { HopfCriticalityWord, LyapunovResult } from './continuation/hopf/lyapunov.js';
 export * from './linalg/sparse.js';
 export { SparseLU, ComplexSparseLU, SparseLUError, defaultRefactorPolicy } from './linalg/lu.js';
 export type { LUOptions, Ordering, RefactorPolicy, FactorStats } from './linalg/lu.js';

@@ -55,3 +55,18 @@ test('the README time-integration example ends at a stable one-signed Allen–Ca
   // only the one-signed states ±u₁ are stable: the centre value is clear of zero
   expect(Math.abs(centre)).toBeGreaterThan(0.9);
 });
+
+test('the README Hopf example: l₁ of the Brusselator uniform Hopf point is negative (supercritical), from the package exports', async () => {
+  const { hopfCriticality } = await import('../src/index.js');
+  const problem = models.brusselator.factory({ grid: { intervals: [20] }, boundary: 'neumann' });
+  const params = resolveParameters(problem, { a: 1, b: 2, Du: 1, Dv: 1 });
+  // the uniform state (a, b/a) on the Hopf line b = 1 + a², ω = a (Prigogine & Lefever 1968)
+  const { shape } = problem.toNodeArray(problem.initialGuess(params), params);
+  const nodes = new Float64Array(shape.reduce((a, b) => a * b, 1));
+  nodes.fill(1, 0, nodes.length / 2).fill(2, nodes.length / 2);
+  const u = problem.fromNodeArray(shape, nodes, params);
+  const r = hopfCriticality(problem, u, params, 1);
+  expect(r.criticality).toBe('supercritical');
+  expect(r.lyapunov).toBeLessThan(0);
+  expect(Math.abs(r.eigenvalue!.im - 1)).toBeLessThan(1e-12);
+});
