@@ -215,6 +215,7 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const shown = where.startsWith('..') ? result.directory : where;
   const nBranches = result.ledger.branches.length;
   const files = ['run.json', 'points.json'];
+  if (existsSync(join(result.directory, 'points.csv'))) files.push('points.csv');
   if (nBranches) files.push(nBranches === 1 ? `branches/${result.ledger.branches[0].id}.csv` : `branches/ (${nBranches} files)`);
   if (result.ledger.solutions) files.push(`solutions/ (${result.ledger.solutions} .npy file${result.ledger.solutions === 1 ? '' : 's'})`);
   // the pictures drawn at the end of the run (src/run/plots.ts)

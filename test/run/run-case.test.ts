@@ -88,7 +88,7 @@ describe('a run on the scripted engine', () => {
         'branch point at lambda = 2 (pitchfork, supercritical, followed as branch 2, max = 0.7), ended: reached lambda = 2.9',
     );
     expect(lines).toContain('Branch 2 (from the branch point at lambda = 2 on branch 1, lambda increasing): 4 points, no fold or branch point, ended: reached the point limit (200)');
-    expect(text).toMatch(new RegExp(`Files in ${out.slice(tmp.length + 1)}: run.json, points.json, branches/ \\(2 files\\), solutions/ \\(4 .npy files\\)`));
+    expect(text).toMatch(new RegExp(`Files in ${out.slice(tmp.length + 1)}: run.json, points.json, points.csv, branches/ \\(2 files\\), solutions/ \\(4 .npy files\\)`));
     expect(lines[lines.length - 1]).toMatch(/^Caution: Model results for ignition/);
   });
 
