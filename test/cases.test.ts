@@ -14,6 +14,7 @@ import { prepareSettleCaseObject } from '../src/run/settle-case.js';
 import { settleCase } from '../src/run/settle.js';
 import { parseXml, findAll } from './plot/xml-check.js';
 import { readCsv, readNpy } from '../src/run/writers.js';
+import { ignitionLimit } from './continuation/curves/helpers.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-cases-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -154,6 +155,78 @@ describe('the bundled case files', () => {
     expect(Object.values(models)).toEqual(
       expect.arrayContaining(['bratu 1D stability', 'bratu 2D stability', 'brusselator 2D stability', 'allen-cahn 1D stability', 'elastica 1D stability', 'beam-foundation 1D stability', 'reaction-diffusion 1D stability', 'gray-scott 2D stability time']),
     );
+  });
+});
+
+describe('smoke runs of the bundled curve cases', () => {
+  it('slab-ignition-limit (on 100 intervals here): the ignition limit against the Biot number, from Semenov’s limit to the cold-wall fold', async () => {
+    const r = await run('slab-ignition-limit', [100]);
+    expect(r.result.status).toBe('finished');
+    const ends = r.points.filter((p) => p.kind === 'end');
+    expect(ends.map((p) => p.value).sort((a, b) => a - b)).toEqual([0.01, 100]);
+    for (const e of ends) expect(Math.abs(e.free / ignitionLimit(e.value) - 1)).toBeLessThan(2e-4); // the closed form (slab.test.ts)
+    // Semenov 1928 (from memory): λ* → 2·Bi/e for a nearly isothermal slab
+    const low = ends.find((p) => p.value === 0.01)!;
+    expect(Math.abs(low.free / ((2 * 0.01) / Math.E) - 1)).toBeLessThan(0.01);
+    const root = checkDiagram(r.out, ['end']);
+    expect(findAll(root, 'g', { 'data-role': 'caution' })).toHaveLength(1);
+  });
+
+  it('rail-imperfection (on 100 intervals here): the limit load falls below the perfect rail’s buckling load like imperfection^(2/3)', async () => {
+    const r = await run('rail-imperfection', [100]);
+    expect(r.result.status).toBe('finished');
+    const mu = discreteEigenvalue(1, 1 / 100);
+    const Pc = mu + 100 / mu; // Timoshenko & Gere, with the grid's μ
+    const rows = r.result.ledger.branches.flatMap((b) => readCsv(join(r.out, b.file)).rows);
+    const small = rows.filter((row) => row[2] <= 1e-3).map((row) => [Math.log(row[2]), Math.log(Pc - row[3])]);
+    for (const row of rows) expect(row[3]).toBeLessThan(Pc);
+    const n = small.length;
+    expect(n).toBeGreaterThan(10);
+    const mx = small.reduce((a, p) => a + p[0], 0) / n;
+    const my = small.reduce((a, p) => a + p[1], 0) / n;
+    const slope = small.reduce((a, p) => a + (p[0] - mx) * (p[1] - my), 0) / small.reduce((a, p) => a + (p[0] - mx) ** 2, 0);
+    // Koiter 1945: the two-thirds power law (up to higher-order terms at imperfection 1e-3)
+    expect(Math.abs(slope - 2 / 3)).toBeLessThan(0.03);
+  });
+
+  it('turing-lines: the critical mode changes where the lines of neighbouring modes cross', async () => {
+    const r = await run('turing-lines');
+    expect(r.result.status).toBe('finished');
+    const changes = r.points.filter((p) => p.kind === 'mode-change');
+    expect(changes.length).toBeGreaterThanOrEqual(3);
+    const h = 20 / 100;
+    const q2 = (k: number) => (4 / h ** 2) * Math.sin((k * Math.PI * h) / 40) ** 2; // the grid's no-flux Laplacian eigenvalues
+    for (const c of changes) {
+      const [m1, m2] = [c.mode[0], c['new-mode'][0]].sort((a: number, b: number) => a - b);
+      expect(m2).toBe(m1 + 1);
+      // b_n(a) = b_m(a) where a² = Du Dv q_n² q_m² (the Turing lines of Prigogine & Lefever 1968 crossing)
+      expect(Math.abs(c.value - Math.sqrt(8 * q2(m1) * q2(m2)))).toBeLessThan(1e-9);
+    }
+    checkDiagram(r.out, ['mode-change']);
+  });
+
+  it('gel-oscillations (on 10 intervals here): the oscillation boundary, subcritical above the Bautin point and supercritical below, ending at the Bogdanov–Takens point', async () => {
+    const r = await run('gel-oscillations', [10]);
+    expect(r.result.status).toBe('finished');
+    const rows = r.result.ledger.branches.flatMap((b) => readCsv(join(r.out, b.file)).rows);
+    expect(rows.length).toBeGreaterThan(40);
+    // Gray & Scott 1984: the uniform state's Hopf curve (F + k)² = F√k with ω² = (F + k)(k − F)
+    for (const row of rows) {
+      expect(Math.abs((row[2] + row[3]) ** 2 - row[3] * Math.sqrt(row[2]))).toBeLessThan(1e-9);
+      expect(Math.abs(row[12] ** 2 - (row[2] + row[3]) * (row[2] - row[3]))).toBeLessThan(1e-9);
+    }
+    // Gray & Scott 1984: the Hopf curve meets the fold curve at k = F = 1/16
+    const bt = r.points.find((p) => p.kind === 'bogdanov-takens')!;
+    expect(Math.abs(bt.value - 1 / 16)).toBeLessThan(1e-9);
+    expect(Math.abs(bt.free - 1 / 16)).toBeLessThan(1e-9);
+    const bautin = r.points.find((p) => p.kind === 'bautin')!;
+    // the header's claim: l₁ > 0 (subcritical) above the Bautin point, l₁ < 0 (supercritical) below (l₁ is not defined where ω = 0)
+    for (const row of rows) {
+      if (Math.abs(row[2] - bautin.value) > 1e-4 && row[12] > 0) expect(Math.sign(row[14])).toBe(row[2] > bautin.value ? 1 : -1);
+    }
+    const root = checkDiagram(r.out, ['bogdanov-takens', 'bautin', 'end']);
+    // the curve that ends at the Bogdanov–Takens point has no end marker over it
+    expect(findAll(root, 'g', { 'data-role': 'special-point', 'data-kind': 'end' })).toHaveLength(1);
   });
 });
 

@@ -13,7 +13,8 @@ import { type CountAccount, accountFirstStep, accountStep, changeText } from './
 import { locateFold } from './fold.js';
 import { correct, correctWork, type NewtonResult, type NewtonWork } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
-import { StabilityAnalyser, crossingPair, locateHopf } from './stability.js';
+import { StabilityAnalyser, crossingPair, locateCountChange, locateHopf } from './stability.js';
+import { hopfPointCriticality } from './hopf/criticality.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
 import type { BackendDecision } from '../linalg/lu.js';
 import { difference } from '../linalg/vector.js';
@@ -813,6 +814,7 @@ export class Continuation {
         frequency: loc.frequency,
         period: (2 * Math.PI) / loc.frequency,
         crossing: pair.b.re > pair.a.re ? 'destabilising' : 'stabilising',
+        ...hopfPointCriticality(this.problem, loc.x.subarray(0, n), this.sys.params(loc.x[n]), loc.frequency),
       };
       events.push({ type: 'special', point: hopf });
       if (!loc.converged) events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: Hopf point ${where} not located to tolerance (${loc.message})` });

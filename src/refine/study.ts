@@ -322,7 +322,7 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
       writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
     }
     return { prepared, plan, tasks };
-  }, options);
+  }, { ...options, branchGiven: options.branch !== undefined });
 }
 
 /** The grids to run afresh, as pieces for an executor (src/run/executor.ts). */
@@ -385,7 +385,7 @@ async function inStudyFolder(
   lockOptions: { purpose: string; label: string; takeOverForeign?: boolean },
   logGiven: StudyOptions['log'],
   open: () => { prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] } | Promise<{ prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] }>,
-  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'>,
+  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'> & { branchGiven?: boolean },
 ): Promise<StudyResult> {
   const log = logGiven ?? (() => {});
   const made = makeFolder(studyDir, 'study folder');
@@ -420,7 +420,7 @@ async function inStudyFolder(
       if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, point: plan.point ?? { kind: 'fold', index: 1 }, tasks });
       const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
       const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
-      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false });
+      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false, ...(options.branchGiven !== undefined ? { branchGiven: options.branchGiven } : {}) });
     }
     const studyOptions: StudyOptions = { grids: plan.grids, outDir: studyDir, ...options, jobs: plan.jobs, log };
     const thrown = await runGrids(tasks, studyDir, studyOptions);
@@ -432,6 +432,7 @@ async function inStudyFolder(
       ...point,
       outcomes,
       stopped: options.signal?.aborted ?? false,
+      ...(options.branchGiven !== undefined ? { branchGiven: options.branchGiven } : {}),
     });
   } finally {
     unregister();
@@ -523,6 +524,8 @@ function finishStudy(
   s: {
     studyDir: string;
     plan: StudyPlan;
+    /** Whether --branch was given (curve runs: otherwise the curve holding the point); undefined: keep the plan's branch. */
+    branchGiven?: boolean;
     parameter: string;
     point?: PointSpec;
     outcomes: (GridRun & { specials: SpecialRecord[] })[];
@@ -531,8 +534,19 @@ function finishStudy(
 ): StudyResult {
   const warnings: string[] = [];
   const { parameter, outcomes } = s;
-  const branch = s.plan.branch;
+  let branch = s.plan.branch;
   const expected = s.plan.expectedOrder;
+  // curve runs without --branch: the curve on which the point first appears (curves are numbered
+  // alike on every grid), rather than always curve 1
+  if (s.branchGiven === false && prepared.curve && s.point) {
+    for (const o of outcomes) {
+      const rec = o.specials.filter((r) => r.kind === s.point!.kind).sort((a, b) => a.branch - b.branch)[0];
+      if (rec) {
+        branch = rec.branch;
+        break;
+      }
+    }
+  }
   // the default point: the first fold; when no grid has one, say what there is
   let spec = s.point;
   let failure: string | undefined;
@@ -565,7 +579,8 @@ function finishStudy(
     try {
       analysis = analyseRefinement(
         found.map((r) => ({ h: r.h!, value: r.value!, intervals: r.intervals, ...(r.unknowns !== undefined ? { unknowns: r.unknowns } : {}) })),
-        { ...(expected !== null ? { expectedOrder: expected, assumedOrder: expected } : {}) },
+        // curve points are located to about 1e-10 (their values may sit at zero: a cusp at the origin)
+        { ...(expected !== null ? { expectedOrder: expected, assumedOrder: expected } : {}), ...(prepared.curve ? { locationTolerance: 1e-10 } : {}) },
       );
     } catch (e) {
       failure = `the analysis failed: ${(e as Error).message}`;

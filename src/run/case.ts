@@ -61,6 +61,8 @@ import { type ContinuationSettings, defaultSettings } from '../continuation/type
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
+import { type ResolvedFollow, curveSettingsOf, curveStartAt, followDocument, resolveFollow } from './curve-case.js';
+import { type CurveSettings, curveKinds } from '../continuation/curves/types.js';
 import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
 import { FileReadError, caseFileLimit, codeModelLimit, notRegularFile, readTextFile, sizeText } from './read-file.js';
 import {
@@ -116,6 +118,8 @@ export interface ResolvedContinuation {
   locate: { folds: boolean; branchPoints: boolean };
   maxTurnDegrees: number;
   sparseLu: 'auto' | 'klu' | 'superlu';
+  /** A curve run: what it follows and the free parameter (./curve-case.ts). */
+  follow?: ResolvedFollow;
 }
 
 export interface ResolvedCase {
@@ -162,6 +166,11 @@ export interface PreparedCase {
   caution?: string;
   /** Start state (grid unknowns and extra unknowns) from `start:`, with where it came from in words. */
   start?: { u: Float64Array; from: string };
+  /**
+   * A curve run (`continuation.follow`): the curve engine's settings, and whether the start state
+   * is the special point itself (a run point of the followed kind: no search).
+   */
+  curve?: { settings: CurveSettings; atPoint: boolean; frequency?: number };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -272,7 +281,7 @@ const turnText = accepted('a number of degrees above 0 and at most 90');
 const continuationSchema = section({
   parameter: z.string(accepted('the name of a parameter of the model')),
   bounds: z.tuple([finite, finite], accepted('two finite numbers [low, high]')),
-  direction: word(['increase', 'decrease']).optional(),
+  direction: word(['increase', 'decrease', 'both']).optional(),
   method: word(['arclength', 'natural']).optional(),
   step: stepSchema.optional(),
   'max-points': integerIn(1, maxPointsLimit).optional(),
@@ -287,6 +296,12 @@ const continuationSchema = section({
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
   'sparse-lu': word(['auto', 'klu', 'superlu']).optional(),
+  // curve runs (./curve-case.ts)
+  follow: word(curveKinds).optional(),
+  free: z.string(accepted('the name of a parameter of the model')).optional(),
+  'free-bounds': z.tuple([finite, finite], accepted('two finite numbers [low, high]')).optional(),
+  'free-direction': word(['increase', 'decrease']).optional(),
+  search: section({ step: stepSchema.optional(), 'max-points': integerIn(1, maxPointsLimit).optional() }).optional(),
 });
 
 const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster', 'search'] as const;
@@ -770,7 +785,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     fail('continuation.bounds', `${showValue(c.bounds)} reaches outside the accepted range of ${parameter}, [${pspec.min ?? '-inf'}, ${pspec.max ?? 'inf'}]`);
   }
   const start = params[parameter];
-  const direction = (c.direction ?? defaultSettings.direction) as 'increase' | 'decrease';
+  // `both` (curve runs: one curve each way from the first point) is checked with the curve keys
+  const direction = (c.direction === 'both' ? 'increase' : (c.direction ?? defaultSettings.direction)) as 'increase' | 'decrease';
   if (start < lo || start > hi) {
     fail(
       `parameters.${parameter}`,
@@ -816,6 +832,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     maxTurnDegrees: c['max-turn-degrees'] ?? defaultSettings.maxTurnDegrees,
     sparseLu: (c['sparse-lu'] ?? 'auto') as 'auto' | 'klu' | 'superlu',
   };
+  const follow = resolveFollow(c, problem, params, parameter, input.stability?.eigenvalues, fail);
+  if (follow) continuation.follow = follow;
 
   // 9. output, stability, checkpoint
   const solutions = (input.output?.solutions ?? 'special') as SolutionChoice;
@@ -866,6 +884,7 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     settings: toSettings(continuation, resolved.stability.eigenvalues),
     ...(parts.caution ? { caution: parts.caution } : {}),
     ...(parts.start ? { start: parts.start } : {}),
+    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), ...curveStartAt(follow.kind, startFrom?.point?.record) } } : {}),
   };
 }
 
@@ -1054,13 +1073,14 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
       parameter: k.parameter,
       bounds: k.bounds,
       direction: k.direction,
-      method: k.method,
+      // (curve runs have no method, branch switching or locate keys)
+      ...(k.follow ? followDocument(k.follow) : { method: k.method }),
       step: k.step,
       'max-points': k.maxPoints,
       'stop-when': k.stopWhen,
-      'branch-switching': k.branchSwitching,
+      ...(k.follow ? {} : { 'branch-switching': k.branchSwitching }),
       newton: { 'residual-tolerance': k.newton.residualTolerance, 'step-tolerance': k.newton.stepTolerance, 'max-iterations': k.newton.maxIterations },
-      locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
+      ...(k.follow ? {} : { locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints } }),
       'max-turn-degrees': k.maxTurnDegrees,
       'sparse-lu': k.sparseLu,
     },

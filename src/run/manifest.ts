@@ -5,7 +5,7 @@
  *
  * Entries are paths relative to the run folder, in our naming scheme only:
  *
- *   run.json, points.json, diagram.svg, checkpoint.bin, checkpoint.previous.bin
+ *   run.json, points.json, points.csv, diagram.svg, checkpoint.bin, checkpoint.previous.bin
  *   branches/<id>.csv
  *   solutions/<name>.npy                 a special point's (or a point's) state
  *   solutions/branch-<id>-point-*.npy    every point's state of one branch (output.solutions: all;
@@ -27,7 +27,7 @@ export const checkpointFile = 'checkpoint.bin';
 export const previousCheckpointFile = 'checkpoint.previous.bin';
 
 /** Files every run has (or may have) under fixed names. */
-export const fixedRunFiles = ['run.json', 'points.json', 'diagram.svg', checkpointFile, previousCheckpointFile] as const;
+export const fixedRunFiles = ['run.json', 'points.json', 'points.csv', 'diagram.svg', checkpointFile, previousCheckpointFile] as const;
 
 /** Files a time integration (`settle`) has under fixed names, besides run.json and the checkpoints. */
 const fixedSettleFiles = ['monitors.csv', 'monitors.svg', 'solutions/final.npy', 'plots/initial.svg', 'plots/final.svg', 'snapshots/time-*.npy'];

@@ -31,6 +31,8 @@ import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
 import { WorkInterrupted } from '../linalg/lu.js';
 import type { ContinuationSettings, EngineEvent } from '../continuation/types.js';
+import type { CurveEvent } from '../continuation/curves/types.js';
+import { curveColumns, curveEngine } from './curve-run.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { type PreparedCase, caseDocument } from './case.js';
@@ -50,7 +52,8 @@ export type { CheckpointContext, CheckpointWritten, ProgressInfo };
 
 /** What runCase needs from the continuation engine (src/continuation/engine.ts). */
 export interface EngineLike {
-  events(): Generator<EngineEvent, unknown>;
+  /** Branch events (the one-parameter engine) or curve events (the curve engine: curve runs). */
+  events(): Generator<EngineEvent | CurveEvent, unknown>;
   snapshot(): unknown;
   /** When present: whether a snapshot taken now resumes cleanly. */
   readonly canSnapshot?: boolean;
@@ -223,7 +226,7 @@ function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun
 
 /** Step 1 of a new run: the output folder emptied of an earlier run (with `force`; the user's files stay). */
 function prepareRunFolder(prepared: PreparedCase, outDir: string, folder: { force: boolean; alongside: boolean }, log: RunLog): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const dir = RunDirectory.create(outDir, folder);
   if (dir.kept.length) log('info', keptMessage(dir.kept, 'run'));
   return { outDir, dir, ledger: emptyLedger(), plan };
@@ -238,14 +241,14 @@ export function runManifest(outDir: string): Manifest {
 
 /** Step 1 of a run started over (it ended before its first checkpoint): the run's own files removed. */
 function restartRunFolder(prepared: PreparedCase, outDir: string): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const dir = RunDirectory.restart(outDir, runManifest(outDir));
   return { outDir, dir, ledger: emptyLedger(), plan };
 }
 
 /** Step 1 of a resumed run: the folder cut back to what the checkpoint's ledger records. */
 function resumeRunFolder(prepared: PreparedCase, outDir: string, resume: ResumeState): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const ledger = structuredClone(resume.ledger);
   const manifest = runManifest(outDir);
   const dir = RunDirectory.reopen(outDir, ledger, () => plan.columns, manifest);
@@ -316,7 +319,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
       }
     : undefined;
   try {
-    engine = (options.engine ?? defaultEngine)(problem, params, settings, {
+    engine = (options.engine ?? (prepared.curve ? curveEngine(prepared) : defaultEngine))(problem, params, settings, {
       ...((options.start ?? prepared.start) ? { start: options.start ?? prepared.start!.u } : {}),
       ...(options.resume ? { state: options.resume.engineState } : {}),
       ...(interrupt ? { interrupt } : {}),
@@ -330,7 +333,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
           stopped = true;
           break;
         }
-        let r: IteratorResult<EngineEvent, unknown>;
+        let r: IteratorResult<EngineEvent | CurveEvent, unknown>;
         try {
           r = events.next();
         } catch (e) {
@@ -382,7 +385,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
       if (!first) {
         record.status = 'failed';
         record.failure = 'the engine produced no branch';
-      } else if (first.stopReason !== undefined && failureReasons.includes(first.stopReason)) {
+      } else if (first.stopReason !== undefined && (failureReasons as readonly string[]).includes(first.stopReason)) {
         record.status = 'failed';
         record.failure = `branch ${first.id} ended: ${first.message || first.stopText}`;
       } else {

@@ -22,7 +22,7 @@ import { basename, dirname, isAbsolute, join, relative, resolve } from 'node:pat
 import type { SpecialRecord } from './run-directory.js';
 import { parseJsonNumber, readNpy } from './writers.js';
 
-export const pointKinds = ['fold', 'branch-point', 'hopf', 'end'] as const;
+export const pointKinds = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing', 'zero-hopf', 'bautin', 'double-hopf'] as const;
 export type PointKind = (typeof pointKinds)[number];
 
 /** The N-th special point of a kind (index from 1). */
@@ -32,7 +32,7 @@ export interface PointSpec {
 }
 
 export const pointSpecAccepted =
-  'fold, branch-point, hopf or end, optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
+  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing, zero-hopf, bautin, double-hopf), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
 
 /** Parse `fold`, `fold:2`, `branch-point:1`...; returns null when the text is not one of these. */
 export function parsePointSpec(text: string): PointSpec | null {
@@ -47,7 +47,7 @@ export function parsePointSpec(text: string): PointSpec | null {
 
 /** `fold 1`, `branch point 2`, `Hopf point 1`, `end 1` (plain words). */
 export function pointWords(spec: PointSpec): string {
-  const word = spec.kind === 'branch-point' ? 'branch point' : spec.kind === 'hopf' ? 'Hopf point' : spec.kind;
+  const word = spec.kind === 'branch-point' ? 'branch point' : spec.kind === 'hopf' ? 'Hopf point' : spec.kind.replace(/-/g, ' ');
   return `${word} ${spec.index}`;
 }
 
@@ -144,6 +144,14 @@ export function runPointParameters(files: RunFiles, record: SpecialRecord): Reco
     }
   }
   out[record.parameter] = record.value;
+  // a point on a curve: the free parameter's value there too
+  if (typeof record['free-parameter'] === 'string') {
+    try {
+      out[record['free-parameter']] = parseJsonNumber(record.free);
+    } catch {
+      /* left to the run's start value */
+    }
+  }
   return out;
 }
 

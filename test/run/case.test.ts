@@ -163,7 +163,7 @@ describe('bad case files give one line naming the file, the field, the value and
     ['bounds with three numbers', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, 4, 5]'))), /: continuation\.bounds: .*accepted: two finite numbers/],
     ['a parameter value as text', variant((l) => l.map((s) => s.replace('lambda: 0.5}', "lambda: 'half'}"))), /: parameters\.lambda: 'half' is not accepted \(accepted: a finite number\)/],
     ['a non-finite number', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, .inf]'))), /: continuation\.bounds\[1\]: inf is not accepted \(accepted: a finite number\)/],
-    ['direction misspelt', good + '  direction: upward\n', /: continuation\.direction: 'upward' is not accepted \(accepted: increase, decrease\)/],
+    ['direction misspelt', good + '  direction: upward\n', /: continuation\.direction: 'upward' is not accepted \(accepted: increase, decrease, both\)/],
     ['unknown sparse LU', good + '  sparse-lu: umfpack\n', /: continuation\.sparse-lu: 'umfpack' is not accepted \(accepted: auto, klu, superlu\)/],
     ['missing continuation', good.replace(/continuation:[\s\S]*$/, ''), /: continuation: is missing \(accepted: a map with keys parameter, bounds, direction/],
     ['missing model', good.replace('model: bratu\n', ''), /: model: is missing \(accepted: a model id \(bratu, .*reaction-diffusion\) or a path/],

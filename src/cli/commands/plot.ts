@@ -45,7 +45,8 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
       const r = drawRunPlots(abs, options);
       for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
       for (const n of r.notes) io.err(`branchline: ${n}\n`);
-      io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (diagram: ${r.monitor} against the continuation parameter): ${summarise(r.files)}\n`);
+      const diagram = r.plane ? `the curves in the plane of ${r.plane[0]} and ${r.plane[1]}` : `${r.monitor} against the continuation parameter`;
+      io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (diagram: ${diagram}): ${summarise(r.files)}\n`);
       setExit(r.warnings.length ? 1 : 0);
     });
 }
