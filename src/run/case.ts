@@ -423,9 +423,14 @@ export function duplicateJsonKey(text: string): { key: string; path: (string | n
  */
 function refuseOddKeys(raw: unknown, label: string): void {
   const stack: { v: unknown; path: (string | number)[] }[] = [{ v: raw, path: [] }];
+  // YAML anchors and aliases share one object between places (and can make a cycle): each object
+  // is looked at once, or a few nested aliases would mean exponentially many visits
+  const seen = new Set<object>();
   while (stack.length) {
     const { v, path } = stack.pop()!;
     if (v === null || typeof v !== 'object' || ArrayBuffer.isView(v) || v instanceof Date) continue;
+    if (seen.has(v)) continue;
+    seen.add(v);
     if (Array.isArray(v)) {
       v.forEach((x, i) => stack.push({ v: x, path: [...path, i] }));
       continue;

@@ -373,6 +373,19 @@ describe('fuzzed cases never escape as anything but a one-line CaseError', () =>
       { numRuns: 500 },
     );
   });
+
+  it('YAML aliases that make a cycle (a map or a list inside itself) are refused in one line, not walked forever', async () => {
+    // found by the hostile-case fuzz: the check for prototype keys walked a self-referencing map
+    // without end (YAML 1.2 lets an alias name an enclosing node)
+    for (const [name, text] of [
+      ['map', 'name: cyc\nmodel: bratu\ngrid: &g {intervals: [16], more: *g}\ncontinuation: {parameter: lambda, bounds: [0, 1]}\n'],
+      ['list', 'name: cyc\nmodel: bratu\ngrid: {intervals: [16]}\nx: &a [1, *a]\ncontinuation: {parameter: lambda, bounds: [0, 1]}\n'],
+    ] as const) {
+      const file = join(tmp, `cycle-${name}.yaml`);
+      writeFileSync(file, text);
+      await expect(prepareCase(file)).rejects.toThrow(/^[^\n]*: (grid: unknown key 'more'|x: unknown key)[^\n]*$/);
+    }
+  });
 });
 
 describe('fuzzed hostile cases: prototype keys, control characters, absurd numbers, deeply nested and huge expressions', () => {
