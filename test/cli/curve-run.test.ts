@@ -73,7 +73,7 @@ describe('curve runs: files', () => {
     expect(r.out).toMatch(/Curve 1 \(fold curve, p2 increasing from the first point\): \d+ points, no codimension-two point, ended: reached p2 = 2/);
     expect(r.out).toMatch(/Curve 2 \(fold curve, p2 decreasing from the first point\): \d+ points, cusp at p2 = [-\d.e]+, p1 = [-\d.e]+/);
     const csv = readCsv(join(out, 'branches', '2.csv'));
-    expect(csv.columns).toEqual(['point', 'arclength', 'p2', 'p1', 'max', 'min', 'l2-norm', 'newton-iterations', 'step-length', 'cusp-coefficient', 'bogdanov-takens', 'determinant-sign']);
+    expect(csv.columns).toEqual(['point', 'arclength', 'p2', 'p1', 'max', 'min', 'l2-norm', 'newton-iterations', 'residual', 'step-length', 'cusp-coefficient', 'bogdanov-takens', 'determinant-sign']);
     // every row on 27 p1² = 4 p2³
     for (const row of csv.rows) expect(Math.abs(27 * row[3] ** 2 - 4 * row[2] ** 3)).toBeLessThan(1e-8);
     const points = json(join(out, 'points.json')).points as Record<string, any>[];

@@ -72,11 +72,11 @@ stability: {eigenvalues: 4}
     expect(r.out).toMatch(/Curve 2 \(Hopf curve, k decreasing from the first point\): \d+ points, Bautin point at k = 0\.035156\d*, F = 0\.011718\d* \(frequency 0\.0331\d*/);
     expect(r.out).toMatch(/criticality: subcritical for k 0\.05 → 0\.0356\d*; supercritical for k 0\.034\d* → 0\.02 \(the sign of the first Lyapunov coefficient\)/);
     const csv = readCsv(join(out, 'branches', '2.csv'));
-    expect(csv.columns).toEqual(['point', 'arclength', 'k', 'F', 'max:u', 'min:u', 'l2-norm:u', 'max:v', 'min:v', 'l2-norm:v', 'newton-iterations', 'step-length', 'frequency', 'jacobian-determinant-sign', 'first-lyapunov-coefficient', 'next-pair-real-part']);
+    expect(csv.columns).toEqual(['point', 'arclength', 'k', 'F', 'max:u', 'min:u', 'l2-norm:u', 'max:v', 'min:v', 'l2-norm:v', 'newton-iterations', 'residual', 'step-length', 'frequency', 'jacobian-determinant-sign', 'first-lyapunov-coefficient', 'next-pair-real-part']);
     // Gray & Scott 1984: every row on (F + k)² = F√k with ω² = (F + k)(k − F)
     for (const row of csv.rows) {
       expect(Math.abs((row[3] + row[2]) ** 2 - row[3] * Math.sqrt(row[2]))).toBeLessThan(1e-9);
-      expect(Math.abs(row[12] ** 2 - (row[3] + row[2]) * (row[2] - row[3]))).toBeLessThan(1e-9);
+      expect(Math.abs(row[13] ** 2 - (row[3] + row[2]) * (row[2] - row[3]))).toBeLessThan(1e-9);
     }
     const points = json(join(out, 'points.json')).points as Record<string, any>[];
     const bautin = points.find((p) => p.kind === 'bautin')!;
