@@ -59,13 +59,9 @@ export function uniformSubspace(problem: Problem, u: Float64Array, p: Params): U
   const n = problem.size;
   const w = problem.weights;
   const indicators = fieldIndicators(problem, u, p);
-  const jac = new Float64Array(problem.pattern().colPtr[n]);
-  problem.jacobian(u, p, jac);
-  const pat = problem.pattern();
-  const je = new Float64Array(n);
-  const free: UniformField[] = [];
-  const held: string[] = [];
-  const fixed = u.slice();
+  // the state made exactly uniform (each field at its weighted average) before J is looked at:
+  // at a state uniform only to rounding J e_f leaves the span of the indicators by as much
+  const level = u.slice();
   for (const { name, indicator } of indicators) {
     let lo = Infinity;
     let hi = -Infinity;
@@ -85,6 +81,18 @@ export function uniformSubspace(problem: Problem, u: Float64Array, p: Params): U
     if (hi - lo > 1e-6 * Math.max(1, Math.abs(lo), Math.abs(hi))) {
       throw new Error(`the state is not uniform: field ${name} varies from ${lo} to ${hi} (a branch-point curve follows a uniform state)`);
     }
+    const mean = weightedDot(w, indicator, u) / weightedDot(w, indicator, indicator);
+    for (let i = 0; i < n; i++) if (indicator[i] === 1) level[i] = mean;
+  }
+  const jac = new Float64Array(problem.pattern().colPtr[n]);
+  problem.jacobian(level, p, jac);
+  const pat = problem.pattern();
+  const je = new Float64Array(n);
+  const free: UniformField[] = [];
+  const held: string[] = [];
+  const fixed = level.slice();
+  for (const { name, indicator } of indicators) {
+    if (!indicator.some((x) => x === 1)) continue;
     // J e_f in the span of the indicators?
     je.fill(0);
     for (let j = 0; j < n; j++) {
