@@ -24,7 +24,7 @@ import type { AugmentedSystem, SystemCounters, TestValue } from './augmented.js'
 import { BranchPointSystem } from './branch-point-system.js';
 import { FoldSystem } from './fold-system.js';
 import { HopfSystem } from './hopf-system.js';
-import { type CurveWork, correctCurve, curveWork, wdot, wnorm } from './newton.js';
+import { type CurveWork, correctCurve, curveWork, residualPasses, wdot, wnorm } from './newton.js';
 import { CurveError, searchFirstPoint } from './search.js';
 import { uniformSubspace } from './uniform.js';
 import {
@@ -625,8 +625,8 @@ export class CurveContinuation {
     const nt = this.settings.newton;
     const strict = { ...this.newton(true), residualTolerance: Math.max(1e-3 * nt.residualTolerance, 1e-14), stepTolerance: Math.max(1e-3 * nt.stepTolerance, 1e-14) };
     const r = correctCurve(this.sys!, y, t, ref, strict, this.work!);
-    const floor = Math.max(nt.residualTolerance, this.sys!.residualFloor?.() ?? 0);
-    if (!r.converged && (r.failure === 'stalled' || r.failure === 'max-iterations') && r.residual <= floor) return { ...r, converged: true };
+    // stopped at the rounding floor: y (the last evaluated iterate) passes the ordinary tests
+    if (!r.converged && (r.failure === 'stalled' || r.failure === 'max-iterations') && residualPasses(this.sys!, nt.residualTolerance)) return { ...r, converged: true };
     return r;
   }
 
