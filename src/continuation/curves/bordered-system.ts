@@ -24,7 +24,7 @@ export abstract class BorderedCurveSystem {
   readonly weights: Float64Array;
   readonly parameterIndex: number;
   readonly freeIndex: number;
-  /** 1 / max(1, row max of |J|) per equation row of F, and the scale of g (frozen per curve). */
+  /** 1 / max(1, row max of |J|) per equation row of F (the corrector's progress measure), and the scale of g (frozen per curve). */
   rowScale: Float64Array;
   gScale = 1;
   /** Jacobian values at the last assembled state. */

@@ -68,7 +68,7 @@ export class HopfSystem implements AugmentedSystem {
   readonly frequencyIndex: number;
   readonly testFunctions = hopfTestFunctions;
   readonly border: ComplexNullBorder;
-  /** 1 / max(1, row max of |J|) per row of F, and the scales of Re g and h (frozen per curve). */
+  /** 1 / max(1, row max of |J|) per row of F (the corrector's progress measure), and the scales of Re g and h (frozen per curve). */
   rowScale: Float64Array;
   gScale = 1;
   hScale = 1;
