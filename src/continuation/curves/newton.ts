@@ -11,12 +11,13 @@
  *   update:    the update that led to y is at most stol·(1 + ‖y‖_w), or the residual tests pass
  *              with a ten-thousandth of their tolerance (near singular points the update stalls
  *              at rounding level). Updates are always applied, so the predictor is never
- *              accepted as it is; the one exception is a start point whose residuals pass where
- *              no update can be computed (the bordering row tangent to the curve: a Hopf curve
+ *              accepted as it is. Two exceptions: a start point whose residuals pass where no
+ *              update can be computed (the bordering row tangent to the curve: a Hopf curve
  *              leaving a Bogdanov–Takens point with the parameter fixed), and an iterate that
  *              passed the residual tests and whose update did not lower the (scaled) residual
- *              (near singular points such an update is rounding amplified along a near-null
- *              vector): it is restored exactly, as in the one-parameter corrector.
+ *              or could not be evaluated (near singular points such an update is rounding
+ *              amplified along a near-null vector): it is restored exactly, as in the
+ *              one-parameter corrector.
  * The residual returned is the true ‖F‖_w of the returned y's state. The scaled residual that
  * `evaluate` returns measures progress only (contraction, stalls, divergence). Failures carry a
  * reason in words.
@@ -67,7 +68,7 @@ export function wnorm(sys: AugmentedSystem, a: ArrayLike<number>): number {
 /**
  * Whether the last evaluated point passes the residual tests at tolerance rtol: the true
  * residual of its state against its bound, the extra equations against rtol (or their rounding
- * level). `scale` multiplies both tolerances' relative parts (not the rounding parts).
+ * level). `scale` multiplies both tolerances (F's relative part only, not its rounding part).
  */
 export function residualPasses(sys: AugmentedSystem, rtol: number, scale = 1): boolean {
   const extraTol = Math.max(rtol, sys.residualFloor?.() ?? 0);
@@ -110,6 +111,7 @@ export function correctCurve(
       res = sys.evaluate(y, g);
     } catch (e) {
       if (e instanceof SparseLUError) {
+        if (kept) return restore(it - 1);
         return { converged: false, iterations: it, residual: NaN, failure: e.kind === 'non-finite' ? 'non-finite' : 'singular', message: `the bordered matrix ${e.kind === 'singular' ? 'is singular' : 'has non-finite entries'} here` };
       }
       throw e;
