@@ -27,6 +27,7 @@
  * Float64Arrays (`saveState` / `restoreState`).
  */
 import type { Params } from '../../problem/problem.js';
+import type { StateResidual } from './state-residual.js';
 import type { CurveKind, CurveSpecialKind } from './types.js';
 
 export interface TestFunction {
@@ -81,11 +82,17 @@ export interface AugmentedSystem {
   setScale(y: Float64Array): void;
 
   /**
-   * G(y) into `out` (length size − 1); returns the scaled residual norm used for convergence
-   * (not finite when G is not). Throws SparseLUError when a bordered matrix is singular.
+   * G(y) into `out` (length size − 1); returns a scaled residual norm (rows of F by frozen row
+   * scales, the extra equations by theirs) that measures the corrector's progress — not its
+   * convergence, which `stateResidual` and `extraResidual` decide (not finite when G is not).
+   * Throws SparseLUError when a bordered matrix is singular.
    */
   evaluate(y: Float64Array, out: Float64Array): number;
-  /** The rounding level of the last evaluated residual in the measure `evaluate` returns (0 when negligible). */
+  /** The true residual ‖F‖_w of the last evaluated point's state and its bound (./state-residual.ts). */
+  readonly stateResidual: StateResidual;
+  /** The scaled norm of the extra equations (g, h) at the last evaluated point. */
+  extraResidual(): number;
+  /** The rounding level of the last evaluated extra equations in the measure `extraResidual` returns (0 when negligible). */
   residualFloor?(): number;
   /**
    * Solve a linearisation bordered by `row` (weighted already): the one at the last evaluated

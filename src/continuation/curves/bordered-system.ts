@@ -1,7 +1,8 @@
 /**
  * What the curve systems built on the bordered null-vector matrix (./null-border.ts) share: the
- * layout of the unknowns (a state part, then `parameter` and `free`), the frozen residual
- * scaling (rows of F by the Jacobian's row maxima, g by the size of its parameter derivatives),
+ * layout of the unknowns (a state part, then `parameter` and `free`), the true residual of the
+ * state (./state-residual.ts, for convergence), the frozen residual scaling (rows of F by the
+ * Jacobian's row maxima, for the corrector's progress; g by the size of its parameter derivatives),
  * the borders as saved state, and the plumbing to the border's factorisation. The fold system
  * (./fold-system.ts) and the branch-point system (./branch-point-system.ts) extend it; a Hopf
  * system in J − iωM would hold a complex border of its own.
@@ -11,6 +12,7 @@ import type { Params, Problem } from '../../problem/problem.js';
 import type { SystemCounters } from './augmented.js';
 import { NullVectorBorder } from './null-border.js';
 import { frozenRowScale } from './scale.js';
+import { StateResidual } from './state-residual.js';
 import type { CurveKind } from './types.js';
 
 export abstract class BorderedCurveSystem {
@@ -22,11 +24,14 @@ export abstract class BorderedCurveSystem {
   readonly weights: Float64Array;
   readonly parameterIndex: number;
   readonly freeIndex: number;
-  /** 1 / max(1, row max of |J|) per equation row of F, and the scale of g (frozen per curve). */
+  /** 1 / max(1, row max of |J|) per equation row of F (the corrector's progress measure), and the scale of g (frozen per curve). */
   rowScale: Float64Array;
   gScale = 1;
   /** Jacobian values at the last assembled state. */
   protected readonly jac: Float64Array;
+  readonly stateResidual: StateResidual;
+  /** |g| / gScale at the last evaluated point. */
+  protected extra = NaN;
 
   /** `stateWeights`: the inner-product weights of the system's state part (its length sets the layout). */
   constructor(
@@ -53,6 +58,11 @@ export abstract class BorderedCurveSystem {
     this.border = new NullVectorBorder(problem, luOptions);
     this.rowScale = new Float64Array(this.n).fill(1);
     this.jac = new Float64Array(problem.pattern().colPtr[this.n]);
+    this.stateResidual = new StateResidual(problem);
+  }
+
+  extraResidual(): number {
+    return this.extra;
   }
 
   /** Jacobian values at the state of y into `jac`. */
@@ -90,7 +100,7 @@ export abstract class BorderedCurveSystem {
     this.border.counters.assemblies++;
   }
 
-  /** The rounding level of the last evaluated residual, in its scaled measure (that of g: F's is far below). */
+  /** The rounding level of the last evaluated g, in its scaled measure. */
   residualFloor(): number {
     return this.border.gRoundingLevel() / this.gScale;
   }

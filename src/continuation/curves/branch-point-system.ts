@@ -113,8 +113,10 @@ export class BranchPointSystem extends BorderedCurveSystem implements AugmentedS
     this.modeCache = null;
     fieldAverages(this.space, this.problem.weights, this.f, out);
     out[this.nu] = this.border.g;
+    this.stateResidual.record(this.u, p, this.f);
     const fn = scaledNorm(this.f, this.rowScale, this.problem.weights);
     const gn = this.border.g / this.gScale;
+    this.extra = Math.abs(gn);
     return Math.sqrt(fn * fn + gn * gn);
   }
 
@@ -204,8 +206,10 @@ export class BranchPointSystem extends BorderedCurveSystem implements AugmentedS
     this.y.set(y);
     this.assemble(this.y);
     const t0 = performance.now();
-    this.problem.residual(this.u, this.params(this.y), this.f);
+    const p = this.params(this.y);
+    this.problem.residual(this.u, p, this.f);
     this.border.counters.seconds.residual += (performance.now() - t0) / 1000;
+    this.stateResidual.record(this.u, p, this.f);
     this.border.switchToSecondNullVector(this.jac);
     this.lin = null;
     this.modeCache = null;

@@ -17,14 +17,14 @@
  * point corrected onto the curve; borders stay fixed within a step, so the functions are smooth
  * there. Only then are the borders refreshed from the new point's null vectors.
  */
-import type { Params, Problem } from '../../problem/problem.js';
+import { type Params, type Problem, weightedNorm } from '../../problem/problem.js';
 import { difference } from '../../linalg/vector.js';
 import type { LUOptions } from '../../linalg/lu.js';
 import type { AugmentedSystem, SystemCounters, TestValue } from './augmented.js';
 import { BranchPointSystem } from './branch-point-system.js';
 import { FoldSystem } from './fold-system.js';
 import { HopfSystem } from './hopf-system.js';
-import { type CurveWork, correctCurve, curveWork, wdot, wnorm } from './newton.js';
+import { type CurveWork, correctCurve, curveWork, residualPasses, wdot, wnorm } from './newton.js';
 import { CurveError, searchFirstPoint } from './search.js';
 import { uniformSubspace } from './uniform.js';
 import {
@@ -271,6 +271,17 @@ export class CurveContinuation {
     return out;
   }
 
+  /**
+   * The true ‖F(u, p)‖_w of a state written out (the corrector's residual where it has one; else,
+   * e.g. at the origin of a curve born at a mode change, evaluated here).
+   */
+  private trueResidual(u: Float64Array, p: Params, known: number): number {
+    if (Number.isFinite(known)) return known;
+    const f = new Float64Array(this.problem.size);
+    this.problem.residual(u, p, f);
+    return weightedNorm(this.problem.weights, f);
+  }
+
   private pointEvent(b: CurveBranchState, step: number, iterations: number, mode?: number[]): CurveEvent {
     const sys = this.sys!;
     const u = sys.state(b.y);
@@ -285,7 +296,7 @@ export class CurveContinuation {
       monitors: this.monitors(u, p),
       step,
       newtonIterations: iterations,
-      residual: b.residual,
+      residual: this.trueResidual(u, p, b.residual),
       tangentParameter: b.tangent[sys.parameterIndex],
       determinantSign: this.determinantSign(b.tests),
       tests: this.testRecord(b.tests),
@@ -427,7 +438,7 @@ export class CurveContinuation {
       arclength: b.arclength,
       u,
       monitors: this.monitors(u, p),
-      residual: b.residual,
+      residual: this.trueResidual(u, p, b.residual),
       reason,
     };
     this.state.ended.push({ id: b.info.id, reason, points: b.index + 1, message: text });
@@ -531,7 +542,7 @@ export class CurveContinuation {
         arclength: b.arclength + loc.s,
         u,
         monitors: this.monitors(u, p),
-        residual: loc.residual,
+        residual: this.trueResidual(u, p, loc.residual),
         located: loc.located,
         tests: this.testRecord(loc.tests),
         ...(mode ? { mode } : {}),
@@ -625,8 +636,8 @@ export class CurveContinuation {
     const nt = this.settings.newton;
     const strict = { ...this.newton(true), residualTolerance: Math.max(1e-3 * nt.residualTolerance, 1e-14), stepTolerance: Math.max(1e-3 * nt.stepTolerance, 1e-14) };
     const r = correctCurve(this.sys!, y, t, ref, strict, this.work!);
-    const floor = Math.max(nt.residualTolerance, this.sys!.residualFloor?.() ?? 0);
-    if (!r.converged && (r.failure === 'stalled' || r.failure === 'max-iterations') && r.residual <= floor) return { ...r, converged: true };
+    // stopped at the rounding floor: y (the last evaluated iterate) passes the ordinary tests
+    if (!r.converged && (r.failure === 'stalled' || r.failure === 'max-iterations') && residualPasses(this.sys!, nt.residualTolerance)) return { ...r, converged: true };
     return r;
   }
 

@@ -112,8 +112,10 @@ export class FoldSystem extends BorderedCurveSystem implements AugmentedSystem {
     this.border.update(this.jac);
     out.set(this.f);
     out[n] = this.border.g;
+    this.stateResidual.record(u, p, this.f);
     const fn = scaledNorm(this.f, this.rowScale, this.problem.weights);
     const gn = this.border.g / this.gScale;
+    this.extra = Math.abs(gn);
     return Math.sqrt(fn * fn + gn * gn);
   }
 

@@ -46,6 +46,7 @@ import { ComplexNullBorder } from '../hopf/complex-border.js';
 import { FirstLyapunovCoefficient } from '../hopf/lyapunov.js';
 import type { AugmentedSystem, SystemCounters, TestFunction, TestValue } from './augmented.js';
 import { frozenRowScale, scaledNorm } from './scale.js';
+import { StateResidual } from './state-residual.js';
 
 export const hopfTestFunctions: readonly TestFunction[] = [
   { name: 'frequency', kind: 'bogdanov-takens', type: 'value', ends: true, description: 'the frequency ω of the critical pair ±iω; zero at a Bogdanov–Takens point, where the Hopf curve ends on a fold curve' },
@@ -67,10 +68,13 @@ export class HopfSystem implements AugmentedSystem {
   readonly frequencyIndex: number;
   readonly testFunctions = hopfTestFunctions;
   readonly border: ComplexNullBorder;
-  /** 1 / max(1, row max of |J|) per row of F, and the scales of Re g and h (frozen per curve). */
+  /** 1 / max(1, row max of |J|) per row of F (the corrector's progress measure), and the scales of Re g and h (frozen per curve). */
   rowScale: Float64Array;
   gScale = 1;
   hScale = 1;
+  readonly stateResidual: StateResidual;
+  /** ‖(Re g / gScale, h / hScale)‖ at the last evaluated point. */
+  private extra = NaN;
   private readonly lyapunov: FirstLyapunovCoefficient;
   private readonly tracker: EigenTracker | undefined;
   private readonly derivatives: DerivativeEvaluator;
@@ -143,6 +147,7 @@ export class HopfSystem implements AugmentedSystem {
     this.f = new Float64Array(n);
     this.y = new Float64Array(n + 3);
     this.rowScale = new Float64Array(n).fill(1);
+    this.stateResidual = new StateResidual(problem);
     this.fPar = new Float64Array(n);
     this.fFree = new Float64Array(n);
     this.gU = new Float64Array(n);
@@ -251,10 +256,16 @@ export class HopfSystem implements AugmentedSystem {
     out.set(this.f);
     out[n] = g;
     out[n + 1] = h;
+    this.stateResidual.record(u, p, this.f);
     const fn = scaledNorm(this.f, this.rowScale, this.problem.weights);
     const gn = g / this.gScale;
     const hn = h / this.hScale;
+    this.extra = Math.hypot(gn, hn);
     return Math.sqrt(fn * fn + gn * gn + hn * hn);
+  }
+
+  extraResidual(): number {
+    return this.extra;
   }
 
   exact(): void {

@@ -1,8 +1,9 @@
 /**
- * Residual scaling of curve systems, the same measure as the one-parameter engine's
- * (ContinuationSystem.setRowScale): each equation row of F is divided by max(1, its largest
+ * Residual scaling of curve systems: each equation row of F is divided by max(1, its largest
  * Jacobian entry), frozen at a curve's first point, and the scaled residual is measured in the
- * weighted (discrete L2) norm, so a tolerance means the same on every grid.
+ * weighted (discrete L2) norm. It measures the corrector's progress (contraction, stalls) only:
+ * row scaling can make a wrong state look converged (rows of fourth-order operators have
+ * max |J| ≈ 6·EI/h⁴), so convergence is decided on the true residual (./state-residual.ts).
  */
 import type { Problem } from '../../problem/problem.js';
 
