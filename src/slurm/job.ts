@@ -357,6 +357,19 @@ export class SlurmExecutor implements RunExecutor {
  * starts again when it had none. Tasks still queued are left alone. Returns the submission, or
  * undefined when there is nothing to resubmit.
  */
+/**
+ * What a resubmission would hand to the shell and to sbatch from the job record itself (not from
+ * this command line): the setup lines (unless `setupReplaced`; the cases' own `cluster.setup`
+ * lines always stay) and the extra sbatch options (unless `optionsReplaced`). A job folder travels
+ * like a run folder, so these are data until the user agrees to run them.
+ */
+export function storedCommands(job: JobRecord, setupReplaced: boolean, optionsReplaced: boolean): { setup: string[]; schedulerOptions: string[] } {
+  const last = job.submissions[job.submissions.length - 1]?.settings ?? { schedulerOptions: [], setup: [] };
+  const setup = setupReplaced ? [] : [...(last.setup ?? [])];
+  for (const t of job.tasks) for (const l of (t.doc as { cluster?: { setup?: string[] } }).cluster?.setup ?? []) if (!setup.includes(l)) setup.push(l);
+  return { setup, schedulerOptions: optionsReplaced ? [] : [...(last.schedulerOptions ?? [])] };
+}
+
 export function resubmit(collection: string, settings: Partial<SlurmSettings>, log?: (level: 'info' | 'warning', m: string) => void): Submission | undefined {
   const job = readJob(collection);
   recordFinalStates(collection, job);

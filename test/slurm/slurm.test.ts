@@ -338,6 +338,21 @@ stability: {eigenvalues: 3}
     expect(again.err).toMatch(/the job's cases use the code model '.*evil\.mjs'.*pass --load-code-model/);
     expect(readJob(both).submissions).toHaveLength(1);
     expect(existsSync(marker)).toBe(false);
+
+    // the job record's setup lines and sbatch options are shell commands and scheduler input: a
+    // resubmission runs them only with --run-setup (a forged record runs nothing by itself)
+    const setupForged = join(tmp, 'sine-forged-setup');
+    expect(cli(['run', caseFile, '--out', setupForged, '--slurm', '--no-wait', '--scheduler-option=--hold', '--quiet']).code).toBe(0);
+    sh('scancel', [jobOf(setupForged)]);
+    await until('the job with forged setup lines to leave the queue', () => sh('squeue', ['-h', '-j', jobOf(setupForged)]).trim() === '');
+    const record = readJob(setupForged);
+    record.submissions[0].settings.setup = [`touch ${marker}`];
+    writeFileSync(join(jobFolder(setupForged), 'job.json'), JSON.stringify(record));
+    const refusedSetup = cli(['collect', setupForged, '--resubmit', '--no-wait', '--load-code-model']);
+    expect(refusedSetup.code).toBe(2);
+    expect(refusedSetup.err).toMatch(/resubmitting would run what the job folder stores \(setup line 'touch .*', sbatch option '--hold'\), and a folder never runs commands by itself; pass --run-setup/);
+    expect(readJob(setupForged).submissions).toHaveLength(1);
+    expect(existsSync(marker)).toBe(false);
   }, 600_000);
 
   it('a resumed task holds its folder’s lock: a writer on another node is left alone until the scheduler says its job has ended', async () => {

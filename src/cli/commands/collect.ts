@@ -8,7 +8,7 @@ import type { ExecuteOptions, PieceOutcome, RunExecutor, RunPiece } from '../../
 import { progressView } from '../../run/progress.js';
 import type { SweepSpec } from '../../run/sweep.js';
 import type { PointSpec } from '../../run/start.js';
-import { jobCaseCode, jobCodeModels, jobPieces, readJob, refreshStates, resubmit, waitForJob } from '../../slurm/job.js';
+import { jobCaseCode, jobCodeModels, jobPieces, readJob, refreshStates, resubmit, storedCommands, waitForJob } from '../../slurm/job.js';
 import { type ClusterOptions, addClusterOptions, clusterSettings } from './cluster.js';
 import { onTerminal } from './run.js';
 import { reportRuns, reportSweep, stopWaitingOnSignals } from './several.js';
@@ -35,6 +35,7 @@ export function registerCollect(program: Command, ctx: CommandContext): void {
     .option('--resubmit', 'first resubmit the tasks that failed, were cancelled or hit their time limit (not runs that failed numerically); each resumes from its checkpoint')
     .option('--no-wait', 'do not wait: report the tasks as they are now')
     .option('--load-code-model', "load the code model the job's cases name (its path is printed first; a folder alone never loads code)")
+    .option('--run-setup', "with --resubmit: run the setup lines and pass the sbatch options stored in the job folder (they are printed first; a folder alone never runs commands)")
     .option('--quiet', 'no progress lines on stderr, only warnings')
     .option('--json', 'machine-readable summary on stdout (runs and sweeps)');
   addClusterOptions(command, false)
@@ -45,7 +46,7 @@ The scheduler options (--partition, --time-limit, --memory, --account, --schedul
 --stop-margin) apply to a resubmission and replace those of the last submission.
 Exit codes: 0 every task finished; 1 a task failed, stopped or is still queued; 2 bad input.`,
     )
-    .action(async (dirGiven: string, opts: ClusterOptions & { resubmit?: boolean; wait?: boolean; loadCodeModel?: boolean; quiet?: boolean; json?: boolean }) => {
+    .action(async (dirGiven: string, opts: ClusterOptions & { resubmit?: boolean; wait?: boolean; loadCodeModel?: boolean; runSetup?: boolean; quiet?: boolean; json?: boolean }) => {
       const dir = resolve(dirGiven);
       const job = readJob(dir);
       // a job folder is data: its code models (which its tasks and this command would load) load only when asked for
@@ -64,6 +65,14 @@ Exit codes: 0 every task finished; 1 a task failed, stopped or is still queued; 
         if (level === 'warning' || !opts.quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
       };
       if (opts.resubmit) {
+        // the job record's setup lines are shell commands and its sbatch options reach the
+        // scheduler: like a code model, they run only when the user says so
+        const stored = storedCommands(job, opts.setup !== undefined, opts.schedulerOption !== undefined);
+        const lines = [...stored.setup.map((l) => `setup line ${showValue(l)}`), ...stored.schedulerOptions.map((o) => `sbatch option ${showValue(o)}`)];
+        if (lines.length > 0 && opts.runSetup !== true) {
+          throw new InputError(`${dirGiven}: resubmitting would run what the job folder stores (${lines.join(', ')}), and a folder never runs commands by itself; pass --run-setup to run them, or give your own with --setup and --scheduler-option`);
+        }
+        for (const l of lines) io.err(`branchline: resubmitting with the job folder's ${l} (--run-setup)\n`);
         // only what was given replaces the last submission's settings
         const given = {
           ...(opts.partition !== undefined ? { partition: overrides!.partition } : {}),
