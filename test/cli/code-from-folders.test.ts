@@ -86,7 +86,8 @@ describe('a forged run folder never runs code', () => {
     const c = join(tmp, 'forged-c');
     cpSync(done, c, { recursive: true });
     const pts = json(join(c, 'points.json'));
-    pts.points[0].solution = '../../../etc/passwd';
+    // (the end point that `start: {point: end}` takes; a fold may come before it in the list)
+    pts.points.find((p: { kind: string }) => p.kind === 'end').solution = '../../../etc/passwd';
     writeFileSync(join(c, 'points.json'), JSON.stringify(pts));
 
     const [resumeA, resumeB, plotB, startB, withCase, startC] = spawnMany(tmp, [
