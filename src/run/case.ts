@@ -1055,6 +1055,11 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
   };
 }
 
+/** The starting state's keys of a case document, `initial:` then `start:` (settle and find-states cases). */
+export function startingStateDocument(c: { initial?: ResolvedInitial; start?: object }): Record<string, unknown> {
+  return { ...(c.initial ? { initial: initialDocument(c.initial) } : {}), ...(c.start ? { start: { ...c.start } } : {}) };
+}
+
 /** The keys every resolved case writes first: name, model, the model's own keys, grid, parameters. */
 export function caseDocumentHead(c: Pick<ResolvedCase, 'name' | 'model' | 'modelOptions' | 'grid' | 'modelKind' | 'parameterDeclarations' | 'parameters'>): Record<string, unknown> {
   return {

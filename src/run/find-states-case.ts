@@ -25,7 +25,7 @@ import { z } from 'zod';
 import { InitialStateError, initialStateBuilder, modelEntry } from '../../discretisations/index.js';
 import { defaultSearchSettings, type Guess, type SearchSettings } from '../deflation/search.js';
 import type { Params, Problem } from '../problem/problem.js';
-import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, caseDocumentHead, prepareCaseParts, readCaseFile, showValue } from './case.js';
+import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, caseDocumentHead, startingStateDocument, prepareCaseParts, readCaseFile, showValue } from './case.js';
 import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
 import { readSolutionFile } from './start.js';
 
@@ -226,8 +226,7 @@ export function findCaseDocument(c: ResolvedFindCase): Record<string, unknown> {
   const s = c.search;
   return {
     ...caseDocumentHead(c),
-    ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
-    ...(c.start ? { start: { ...c.start } } : {}),
+    ...startingStateDocument(c),
     search: {
       ...(s.guesses ? { guesses: s.guesses.map(initialDocument) } : {}),
       'max-states': s.maxStates,

@@ -26,7 +26,6 @@
  * from the recorded special points, and solution files written after the checkpoint (and
  * temporary files a killed process left) are removed; the run then goes on as if never stopped.
  */
-import { readdirSync, rmSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
 import { WorkInterrupted } from '../linalg/lu.js';
@@ -45,7 +44,7 @@ import { drawPlotsAfterRun } from './plots.js';
 import { EventWriter, type RunLog, failureReasons } from './run-events.js';
 import { type CheckpointContext, type CheckpointWritten, type ProgressInfo, type SyncState, syncEvery } from './run-hooks.js';
 import { RunRecord, isoNow } from './run-record.js';
-import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger, readRunRecord } from './run-directory.js';
+import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger, readRunRecord, removeStaleFiles } from './run-directory.js';
 
 export { failureReasons, syncEvery };
 export type { CheckpointContext, CheckpointWritten, ProgressInfo };
@@ -441,23 +440,6 @@ function removeUnrecorded(dir: string, ledger: RunLedger, manifest: Manifest): v
   const keep = new Set<string>();
   for (const s of ledger.specials) if (typeof s.solution === 'string') keep.add(s.solution);
   for (const b of ledger.branches) for (let i = 0; i < b.points; i++) keep.add(`solutions/branch-${b.id}-point-${i}.npy`);
-  const temporary = /^\..*\.tmp$/;
-  for (const [folder, rel] of [
-    [dir, ''],
-    [join(dir, 'solutions'), 'solutions/'],
-    [join(dir, 'branches'), 'branches/'],
-  ] as const) {
-    let entries: string[];
-    try {
-      entries = readdirSync(folder);
-    } catch {
-      continue;
-    }
-    for (const e of entries) {
-      // only the run's own files: a user's file in the folder is never touched
-      if (!manifest.covers(rel + e)) continue;
-      const stale = temporary.test(e) || (rel === 'solutions/' && e.endsWith('.npy') && !keep.has(rel + e));
-      if (stale) rmSync(join(folder, e), { force: true });
-    }
-  }
+  // only the run's own files: a user's file in the folder is never touched
+  removeStaleFiles(dir, ['solutions', 'branches'], (rel, e) => manifest.covers(rel + e) && (/^\..*\.tmp$/.test(e) || (rel === 'solutions/' && e.endsWith('.npy') && !keep.has(rel + e))));
 }

@@ -492,3 +492,21 @@ export class RunDirectory {
     this.closed = true;
   }
 }
+
+/**
+ * Before a resume: remove the files of `dir` and of its `subfolders` that `stale(rel, name)` calls
+ * stale (`rel` is '' or 'sub/'); missing folders are skipped. The callers decide what is stale
+ * (files the checkpoint does not list, temporary files) and what is never touched.
+ */
+export function removeStaleFiles(dir: string, subfolders: readonly string[], stale: (rel: string, name: string) => boolean): void {
+  for (const rel of ['', ...subfolders.map((f) => `${f}/`)]) {
+    const folder = rel ? join(dir, rel) : dir;
+    let entries: string[];
+    try {
+      entries = readdirSync(folder);
+    } catch {
+      continue;
+    }
+    for (const e of entries) if (stale(rel, e)) rmSync(join(folder, e), { force: true });
+  }
+}

@@ -20,7 +20,7 @@
  * for bit; a stop request is honoured between steps and checkpoints the last sync point. No
  * command-line concerns here (no process.exit, no stdout).
  */
-import { mkdirSync, readdirSync, rmSync } from 'node:fs';
+import { mkdirSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { TimeIntegration, type IntegratorState } from '../dynamics/integrator.js';
 import { type SteadyStability, stabilityWords } from '../dynamics/stability.js';
@@ -31,7 +31,7 @@ import { makeFolder, removeIfEmpty } from './folders.js';
 import { onLeaveAtOnce } from './leave.js';
 import { FolderLock } from './lock.js';
 import { keptMessage } from './manifest.js';
-import { RunDirectory, type RunStatus, emptyLedger, extraValues } from './run-directory.js';
+import { RunDirectory, type RunStatus, emptyLedger, extraValues, removeStaleFiles } from './run-directory.js';
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
@@ -391,22 +391,11 @@ async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptio
 /** Before a resume: snapshot files the checkpoint does not list, the final state and temporary files go. */
 function removeUnrecorded(dir: string, ledger: SettleLedger): void {
   const keep = new Set(ledger.snapshots.map((s) => s.file));
-  for (const [folder, rel] of [
-    [dir, ''],
-    [join(dir, 'snapshots'), 'snapshots/'],
-    [join(dir, 'solutions'), 'solutions/'],
-  ] as const) {
-    let entries: string[];
-    try {
-      entries = readdirSync(folder);
-    } catch {
-      continue;
-    }
-    for (const e of entries) {
-      const stale = /^\..*\.tmp$/.test(e) || (rel === 'snapshots/' && e.endsWith('.npy') && !keep.has(rel + e)) || (rel === 'solutions/' && e === 'final.npy');
-      if (stale) rmSync(join(folder, e), { force: true });
-    }
-  }
+  removeStaleFiles(
+    dir,
+    ['snapshots', 'solutions'],
+    (rel, e) => /^\..*\.tmp$/.test(e) || (rel === 'snapshots/' && e.endsWith('.npy') && !keep.has(rel + e)) || (rel === 'solutions/' && e === 'final.npy'),
+  );
 }
 
 /**
