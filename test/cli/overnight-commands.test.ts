@@ -192,8 +192,30 @@ describe('resume refuses what it cannot continue (exit 2, one line)', () => {
 
 describe('check', () => {
   const bundled = readdirSync(resolve('cases')).filter((f) => /\.(ya?ml|json)$/.test(f));
+  // a copy of cases/ beside its own runs/: a case that starts from an earlier run
+  // (`start: {run: ../runs/NAME}`) is checked after the bundled case NAME has written that run
+  const tree = join(tmp, 'bundled');
+  const produced = new Set<string>();
+  async function prerequisites(f: string): Promise<void> {
+    const text = readFileSync(join(tree, 'cases', f), 'utf8');
+    const start = /^start:\s*\{\s*run:\s*([^,}\s]+)/m.exec(text)?.[1];
+    if (!start || produced.has(start)) return;
+    const name = basename(start);
+    const source = bundled.find((c) => new RegExp(`^name:\\s*${name}\\s*$`, 'm').test(readFileSync(join(tree, 'cases', c), 'utf8')));
+    if (!source) throw new Error(`${f} starts from ${start}, which no bundled case writes`);
+    await prerequisites(source);
+    const command = /^time:/m.test(readFileSync(join(tree, 'cases', source), 'utf8')) ? 'settle' : 'run';
+    const r = await cli(command, join(tree, 'cases', source), '--out', resolve(join(tree, 'cases'), start), '--quiet');
+    expect(r.code, r.err).toBe(0);
+    produced.add(start);
+  }
+  beforeAll(() => {
+    mkdirSync(join(tree, 'cases'), { recursive: true });
+    for (const f of bundled) writeFileSync(join(tree, 'cases', f), readFileSync(resolve('cases', f)));
+  });
   it.each(bundled)('reports agreement on the bundled case %s', async (f) => {
-    const r = await cli('check', resolve('cases', f));
+    await prerequisites(f);
+    const r = await cli('check', join(tree, 'cases', f));
     expect(r.code, r.out + r.err).toBe(0);
     expect(r.out).toMatch(/^Jacobian: agrees — largest relative error/m);
     expect(r.out).toMatch(/The Jacobian and the parameter derivatives agree with finite differences\.\n$/);

@@ -179,21 +179,22 @@ stability: {eigenvalues: 3}
 
   it('a sweep whose tasks are cancelled and signalled mid-run is resubmitted from the checkpoints to the same files as here', async () => {
     const caseFile = join(tmp, 'pile.yaml');
-    // an invented damp pile cooled through its faces: long enough (about a hundred points on a
-    // 40 × 40 grid, with eigenvalues) to be caught mid-run; checkpoints every 5 points
+    // an invented damp pile cooled through its faces: long enough (400 to 600 points on a 64 × 64
+    // grid, with eigenvalues: about ten seconds per task on an idle machine, against progress
+    // written every two seconds) to be caught mid-run; checkpoints every 5 points
     writeFileSync(
       caseFile,
       `name: pile
 model: bratu
 boundary: robin
-grid: {intervals: [40, 40]}
+grid: {intervals: [64, 64]}
 parameters: {lambda: 0.2, biot: 2}
 continuation:
   parameter: lambda
   bounds: [0, 10]
-  step: {initial: 0.1, min: 1.0e-8, max: 0.1}
-  max-points: 400
-  stop-when: [{monitor: max, above: 3}]
+  step: {initial: 0.01, min: 1.0e-8, max: 0.01}
+  max-points: 2000
+  stop-when: [{monitor: max, above: 4}]
 stability: {eigenvalues: 2}
 checkpoint: {every-points: 5}
 `,
