@@ -9,12 +9,12 @@
  *                  folds, branch points and Hopf points, and the located values of the first fold,
  *                  branch point and Hopf point on branch 1
  *   sweep.svg      one diagram with every value's branches, a colour per curve, named by the value
+ *   <parameter>-<value>/   the run folder of each value (a complete run)
  *
  * A sweep of a curve run (`continuation.follow`) counts the curves and their special points
  * instead (sweep.csv: run, status, points, curves and a count per kind of curve point; sweep.json
  * also gives each point's free-parameter value), and sweep.svg draws every value's curves in the
  * plane of the two parameters.
- *   <parameter>-<value>/   the run folder of each value (a complete run)
  *
  * The runs are independent: they run here (one after another or in worker processes) or on a
  * cluster (an executor); the summary is made from their folders alone, so it is the same
