@@ -23,7 +23,7 @@
  * (src/cli/commands/refine.ts) parses its options and prints `formatStudySummary`.
  */
 import { type ChildProcess, fork } from 'node:child_process';
-import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { formatValue, refinementSvg } from '../plot/index.js';
@@ -33,16 +33,22 @@ import { InputError } from '../run/errors.js';
 import type { RunExecutor, RunPiece } from '../run/executor.js';
 import { formatValue as plainValue } from '../run/summary.js';
 import { drawRunPlots } from '../run/plots.js';
-import { runCase } from '../run/run-case.js';
-import type { SpecialRecord } from '../run/run-directory.js';
+import { caseFromRunFolder } from '../run/batch.js';
+import { makeFolder, removeIfEmpty } from '../run/folders.js';
+import { onLeaveAtOnce } from '../run/leave.js';
+import { FolderLock, holderText, lockHolder } from '../run/lock.js';
+import { keptMessage } from '../run/manifest.js';
+import { type SpecialRecord, readRunRecord } from '../run/run-directory.js';
 import { type PointSpec, availablePoints, findSpecial, pointSpecText, pointWords, readPointsJson } from '../run/start.js';
 import { softwareVersion } from '../run/version.js';
 import { csvLine, parseJsonNumber, writeFileAtomic, writeJsonAtomic } from '../run/writers.js';
+import { type GridJob, runGridJob } from './grid-run.js';
 import { REFINEMENT_COLUMNS, refinementJson, refinementRows } from './output.js';
 import { type RefinementResult, analyseRefinement } from './richardson.js';
 
-export const studyFormat = 'branchline refinement';
-export const studyFormatVersion = 1;
+import { type StudyPlan, planJson, prepareStudyFolder, readStudyJson, readStudyPlan, studyFormat, studyFormatVersion, writeStartJson } from './study-folder.js';
+
+export { studyFormat, studyFormatVersion };
 
 /** Formal order of the finite differences of the built-in and expression models. */
 export const secondOrder = 2;
@@ -146,69 +152,16 @@ export function gridLabel(intervals: readonly number[]): string {
 }
 
 // ---------------------------------------------------------------------------------------------
-// The study folder
-
-function isOurStudy(dir: string): boolean {
-  try {
-    const doc = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as { format?: unknown };
-    return doc.format === studyFormat;
-  } catch {
-    return false;
-  }
-}
-
-function isOurRun(dir: string): boolean {
-  try {
-    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as { format?: unknown };
-    return doc.format === 'branchline run';
-  } catch {
-    return false;
-  }
-}
-
-/**
- * Prepare the study folder: empty or new; with `force`, an earlier study is replaced (its
- * refine.* files and grid-* run folders removed, anything else left alone).
- */
-function prepareFolder(dir: string, force: boolean | undefined): void {
-  if (existsSync(dir)) {
-    if (!statSync(dir).isDirectory()) throw new InputError(`output folder ${dir} exists and is a file, not a folder`);
-    const entries = readdirSync(dir);
-    if (entries.length > 0) {
-      if (!force) {
-        throw new InputError(
-          `output folder ${dir} is not empty (${isOurStudy(dir) ? 'it holds an earlier refinement study' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier study`,
-        );
-      }
-      if (!isOurStudy(dir)) {
-        throw new InputError(`output folder ${dir} is not empty and holds no earlier refinement study; --force replaces only an earlier study, choose another folder with --out`);
-      }
-      for (const e of entries) {
-        const path = join(dir, e);
-        if (/^refine\.(csv|json|svg)$/.test(e) || /^\..*\.tmp$/.test(e)) rmSync(path, { force: true });
-        else if (/^grid-[\dx]+$/.test(e) && statSync(path).isDirectory() && (isOurRun(path) || readdirSync(path).length === 0)) rmSync(path, { recursive: true, force: true });
-      }
-    }
-  }
-  try {
-    mkdirSync(dir, { recursive: true });
-  } catch (e) {
-    throw new InputError(`output folder ${dir} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
-  }
-}
-
-// ---------------------------------------------------------------------------------------------
 // Running the grids
 
 interface GridTask {
   grid: number;
   intervals: number[];
   directory: string;
-  /** The case document for this grid (resolved keys, absolute paths). */
-  doc: Record<string, unknown>;
-  label: string;
-  baseDir: string;
-  prepared: PreparedCase;
+  /** A fresh run of the grid's case, the resumption of its stopped run, or nothing (it finished). */
+  job: GridJob | undefined;
+  /** The grid's case, when it runs afresh here. */
+  prepared?: PreparedCase;
 }
 
 /** What a finished (or failed) grid run left in its folder. */
@@ -244,12 +197,12 @@ function readOutcome(task: GridTask, studyDir: string, thrown?: string, stopped 
   };
 }
 
-async function runHere(task: GridTask, studyDir: string, options: StudyOptions): Promise<string | undefined> {
+async function runHere(task: GridTask, job: GridJob, options: StudyOptions): Promise<string | undefined> {
   const log = options.log ?? (() => {});
   try {
-    await runCase(task.prepared, {
-      outDir: join(studyDir, task.directory),
+    await runGridJob(job, {
       ...(options.signal ? { signal: options.signal } : {}),
+      ...(task.prepared ? { prepared: task.prepared } : {}),
       log: (level, message) => {
         if (level === 'warning') log('warning', `grid ${task.grid}: ${message}`);
       },
@@ -266,7 +219,7 @@ export function defaultWorkerScript(): string | undefined {
   return existsSync(file) ? file : undefined;
 }
 
-function runInWorker(task: GridTask, studyDir: string, script: string, options: StudyOptions, children: Set<ChildProcess>): Promise<string | undefined> {
+function runInWorker(task: GridTask, job: GridJob, script: string, options: StudyOptions, children: Set<ChildProcess>): Promise<string | undefined> {
   const log = options.log ?? (() => {});
   return new Promise((done) => {
     let settled = false;
@@ -294,7 +247,7 @@ function runInWorker(task: GridTask, studyDir: string, script: string, options: 
       if (code === 0 || (signal !== null && options.signal?.aborted)) finish(undefined);
       else finish(`the worker process ended with ${signal ?? `exit code ${code}`}${stderr.trim() ? `: ${stderr.trim().split('\n').pop()}` : ''}`);
     });
-    child.send({ doc: task.doc, label: task.label, baseDir: task.baseDir, outDir: join(studyDir, task.directory) });
+    child.send(job);
   });
 }
 
@@ -316,9 +269,11 @@ async function pool<T>(items: readonly T[], jobs: number, work: (item: T) => Pro
 /**
  * Run the study. Bad input (grids, folder, a case that does not fit every grid) throws
  * InputError before anything is written; numerical trouble on a grid is reported in the result.
+ * refine.json exists from the start (study-folder.ts), every grid run writes checkpoints, and the
+ * folder's lock is held throughout: a study stopped or killed at any moment goes on with
+ * `resumeStudy`.
  */
 export async function runStudy(prepared: PreparedCase, options: StudyOptions): Promise<StudyResult> {
-  const log = options.log ?? (() => {});
   const studyDir = resolve(options.outDir);
   const branch = options.branch ?? 1;
   if (!Number.isInteger(branch) || branch < 1) throw new InputError(`branch ${branch} is not accepted (accepted: a branch number from 1)`);
@@ -329,7 +284,6 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
       `${prepared.label}: start: a saved start state fits only the grid it was computed on; remove the start key for a refinement study (every grid starts from the model's initial guess)`,
     );
   }
-  const parameter = prepared.settings.parameter;
   const expected = options.expectedOrder !== undefined ? options.expectedOrder : prepared.case.modelKind === 'code' ? null : secondOrder;
   if (expected !== null && !(Number.isFinite(expected) && expected > 0)) throw new InputError(`expected order ${expected} is not accepted (accepted: a positive number)`);
   const intervals = scaledGrids(prepared.case.grid.intervals, options.grids);
@@ -337,36 +291,153 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
   // every grid's case is checked (and its problem built) before anything is written
   const base = caseDocument(prepared.case);
   delete (base as { output?: { directory?: string } }).output?.directory;
+  const plan: StudyPlan = {
+    case: base,
+    caseFile: prepared.file ?? null,
+    baseFolder: prepared.baseDir,
+    grids: options.grids.slice(),
+    point: options.point ?? null,
+    branch,
+    // curve runs without --branch: the curve holding the point is chosen once the grids have run
+    ...(prepared.curve && options.branch === undefined ? { branchGiven: false } : {}),
+    expectedOrder: expected,
+    jobs,
+    runs: intervals.map((iv, i) => ({ grid: options.grids[i], intervals: iv, directory: `grid-${gridLabel(iv)}` })),
+  };
   const tasks: GridTask[] = [];
-  for (let i = 0; i < intervals.length; i++) {
-    const doc = structuredClone(base) as Record<string, unknown> & { grid: { intervals: number[]; length: number[] } };
-    doc.grid = { intervals: intervals[i], length: prepared.case.grid.length.slice() };
-    const label = `${prepared.label} (grid ${gridLabel(intervals[i])})`;
-    const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}) });
-    tasks.push({ grid: options.grids[i], intervals: intervals[i], directory: `grid-${gridLabel(intervals[i])}`, doc, label, baseDir: prepared.baseDir, prepared: p });
+  for (const r of plan.runs) {
+    const job = freshJob(plan, r, studyDir, prepared.label);
+    const p = await prepareCaseObject(job.doc, { label: job.label, baseDir: job.baseDir, ...(job.file ? { file: job.file } : {}) });
+    tasks.push({ ...r, job, prepared: p });
   }
-  const executor = options.executor;
-  const pieces: RunPiece[] = tasks.map((t) => ({
-    name: t.directory,
-    outDir: join(studyDir, t.directory),
-    doc: t.doc,
-    label: t.label,
-    baseDir: t.baseDir,
-    ...(prepared.file !== undefined ? { file: prepared.file } : {}),
-    prepared: t.prepared,
-  }));
-  if (!options.keepFolder) {
-    executor?.check?.(pieces);
-    prepareFolder(studyDir, options.force);
-  }
-  if (executor) {
-    const outcomes = await executor.execute(pieces, { ...(options.signal ? { signal: options.signal } : {}), log });
-    if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, branch, parameter, expected, point: options.point ?? { kind: 'fold', index: 1 }, tasks });
-    const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
-    const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
-    return finishStudy(prepared, { studyDir, branch, parameter, expected, point: options.point, outcomes: done, stopped: false });
-  }
+  return inStudyFolder(studyDir, { purpose: options.force ? 'refine --force' : 'refine', label: studyDir }, options.log, () => {
+    // collecting a study whose grids ran elsewhere: the folder already holds them, as it is
+    if (!options.keepFolder) {
+      options.executor?.check?.(piecesOf(tasks));
+      const kept = prepareStudyFolder(studyDir, options.force === true);
+      if (kept.length) (options.log ?? (() => {}))('info', keptMessage(kept, 'study'));
+      writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
+    }
+    return { prepared, plan, tasks };
+  }, options);
+}
 
+/** The grids to run afresh, as pieces for an executor (src/run/executor.ts). */
+function piecesOf(tasks: readonly GridTask[]): RunPiece[] {
+  return tasks.flatMap((t) =>
+    t.job?.kind === 'run' && t.prepared
+      ? [{ name: t.directory, outDir: t.job.outDir, doc: t.job.doc, label: t.job.label, baseDir: t.job.baseDir, ...(t.job.file !== undefined ? { file: t.job.file } : {}), prepared: t.prepared }]
+      : [],
+  );
+}
+
+/**
+ * Resume the study in `dirGiven` (stopped, or killed at any moment): grids that finished are
+ * kept, grids whose runs were stopped or killed resume from their checkpoints (or start over
+ * when they had none), grids never started run now; then the analysis is redone.
+ */
+export async function resumeStudy(dirGiven: string, options: Omit<StudyOptions, 'grids' | 'outDir' | 'point' | 'branch' | 'expectedOrder'>): Promise<StudyResult> {
+  const studyDir = resolve(dirGiven);
+  return inStudyFolder(studyDir, { purpose: 'resume', label: dirGiven, takeOverForeign: options.force === true }, options.log, async () => {
+    const { plan, doc } = readStudyPlan(studyDir, dirGiven);
+    if (doc.status === 'finished') throw new InputError(`${dirGiven}: the refinement study finished; there is nothing to resume`);
+    const label = `${join(dirGiven, 'refine.json')} (case ${plan.caseFile ?? 'unknown'})`;
+    const prepared = await caseFromRunFolder(plan.case, plan.caseFile, plan.baseFolder, label);
+    // a worker of a killed study may still be stopping: no grid may be written by another process
+    for (const r of plan.runs) {
+      const holder = lockHolder(join(studyDir, r.directory));
+      if (holder) throw new InputError(`${join(dirGiven, r.directory)}: is being written by ${holderText(holder.writer, holder.liveness)}; wait for it to end, then resume the study`);
+    }
+    const tasks: GridTask[] = [];
+    for (const r of plan.runs) {
+      const dir = join(studyDir, r.directory);
+      const run = readRunRecord(dir);
+      if (run?.status === 'finished') tasks.push({ ...r, job: undefined });
+      else if (run) tasks.push({ ...r, job: { kind: 'resume', outDir: dir } });
+      else {
+        // a grid never started: its case comes from refine.json, read as any case stored in a folder
+        const job = freshJob(plan, r, studyDir, label);
+        tasks.push({ ...r, job, prepared: await caseFromRunFolder(job.doc, plan.caseFile, plan.baseFolder, job.label) });
+      }
+    }
+    return { prepared, plan, tasks };
+  }, options);
+}
+
+/** A grid's fresh run: the study's case on the grid's intervals, into the grid's folder. */
+function freshJob(plan: StudyPlan, r: StudyPlan['runs'][number], studyDir: string, label: string): Extract<GridJob, { kind: 'run' }> {
+  const doc = structuredClone(plan.case) as Record<string, unknown> & { grid: { intervals: number[]; length: number[] } };
+  doc.grid = { intervals: r.intervals, length: (plan.case.grid as { length: number[] }).length.slice() };
+  return { kind: 'run', doc, label: `${label} (grid ${gridLabel(r.intervals)})`, baseDir: plan.baseFolder, ...(plan.caseFile ? { file: plan.caseFile } : {}), outDir: join(studyDir, r.directory) };
+}
+
+/**
+ * The study's folder, checked and locked; `open` prepares it (InputError: refused, nothing run);
+ * then the grids run and the analysis is written. A second Ctrl-C leaves refine.json `stopped`.
+ */
+async function inStudyFolder(
+  studyDir: string,
+  lockOptions: { purpose: string; label: string; takeOverForeign?: boolean },
+  logGiven: StudyOptions['log'],
+  open: () => { prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] } | Promise<{ prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] }>,
+  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'>,
+): Promise<StudyResult> {
+  const log = logGiven ?? (() => {});
+  const made = makeFolder(studyDir, 'study folder');
+  let lock: FolderLock;
+  try {
+    lock = FolderLock.acquire(studyDir, lockOptions);
+  } catch (e) {
+    if (made) removeIfEmpty(studyDir, made);
+    throw e;
+  }
+  const unregister = onLeaveAtOnce((reason) => {
+    const doc = readStudyJson(studyDir);
+    if (doc?.status === 'running') writeJsonAtomic(join(studyDir, 'refine.json'), { ...doc, status: 'stopped', note: reason });
+    lock.release();
+  });
+  try {
+    let opened;
+    try {
+      opened = await open();
+    } catch (e) {
+      if (made) {
+        lock.release();
+        removeIfEmpty(studyDir, made);
+      }
+      throw e;
+    }
+    const { prepared, plan, tasks } = opened;
+    const point = plan.point ? { point: plan.point } : {};
+    if (options.executor) {
+      // the grids run elsewhere (a scheduler): the same runs, the same analysis of their folders
+      const outcomes = await options.executor.execute(piecesOf(tasks), { ...(options.signal ? { signal: options.signal } : {}), log });
+      if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, point: plan.point ?? { kind: 'fold', index: 1 }, tasks });
+      const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
+      const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
+      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false });
+    }
+    const studyOptions: StudyOptions = { grids: plan.grids, outDir: studyDir, ...options, jobs: plan.jobs, log };
+    const thrown = await runGrids(tasks, studyDir, studyOptions);
+    const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t), options.signal?.aborted));
+    return finishStudy(prepared, {
+      studyDir,
+      plan,
+      parameter: prepared.settings.parameter,
+      ...point,
+      outcomes,
+      stopped: options.signal?.aborted ?? false,
+    });
+  } finally {
+    unregister();
+    lock.release();
+  }
+}
+
+/** Run the grids that need it (at most `jobs` at a time); what each run threw, by task. */
+async function runGrids(tasks: readonly GridTask[], studyDir: string, options: StudyOptions): Promise<Map<GridTask, string | undefined>> {
+  const log = options.log ?? (() => {});
+  const jobs = options.jobs ?? 1;
   const script = jobs > 1 ? (options.workerScript ?? defaultWorkerScript()) : undefined;
   if (jobs > 1 && !script) log('warning', 'parallel jobs need the compiled program (npm run build); the grids run one after another in this process');
   const children = new Set<ChildProcess>();
@@ -376,31 +447,35 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
   options.signal?.addEventListener('abort', onAbort);
   const thrown = new Map<GridTask, string | undefined>();
   try {
-    await pool(tasks, script ? jobs : 1, async (task) => {
-      if (options.signal?.aborted) {
-        thrown.set(task, 'not run: the study was stopped');
-        return;
-      }
-      log('info', `grid ${gridLabel(task.intervals)}: running (${task.prepared.problem.size} unknowns)`);
-      const err = script ? await runInWorker(task, studyDir, script, options, children) : await runHere(task, studyDir, options);
-      thrown.set(task, err);
-      const o = readOutcome(task, studyDir, err, options.signal?.aborted);
-      log(o.status === 'finished' ? 'info' : 'warning', `grid ${gridLabel(task.intervals)}: ${o.status}${o.failure ? ` (${o.failure})` : ''}${o.seconds !== undefined ? ` in ${o.seconds.toFixed(1)} s` : ''}`);
-    });
+    await pool(
+      tasks.filter((t) => t.job),
+      script ? jobs : 1,
+      async (task) => {
+        if (options.signal?.aborted) {
+          thrown.set(task, 'not run: the study was stopped');
+          return;
+        }
+        const job = task.job!;
+        log('info', `grid ${gridLabel(task.intervals)}: ${job.kind === 'resume' ? 'resuming' : 'running'}${task.prepared ? ` (${task.prepared.problem.size} unknowns)` : ''}`);
+        const err = script ? await runInWorker(task, job, script, options, children) : await runHere(task, job, options);
+        thrown.set(task, err);
+        const o = readOutcome(task, studyDir, err, options.signal?.aborted);
+        log(o.status === 'finished' ? 'info' : 'warning', `grid ${gridLabel(task.intervals)}: ${o.status}${o.failure ? ` (${o.failure})` : ''}${o.seconds !== undefined ? ` in ${o.seconds.toFixed(1)} s` : ''}`);
+      },
+    );
   } finally {
     options.signal?.removeEventListener('abort', onAbort);
   }
-
-  const outcomes = tasks.map((t) => readOutcome(t, studyDir, thrown.get(t), options.signal?.aborted));
-  return finishStudy(prepared, { studyDir, branch, branchGiven: options.branch !== undefined, parameter, expected, point: options.point, outcomes, stopped: options.signal?.aborted ?? false });
+  return thrown;
 }
 
 /** A study whose grids were handed to a scheduler: refine.json says so until they are collected. */
 function submittedStudy(
   prepared: PreparedCase,
-  s: { studyDir: string; branch: number; parameter: string; expected: number | null; point: PointSpec; tasks: readonly GridTask[] },
+  s: { studyDir: string; plan: StudyPlan; parameter: string; point: PointSpec; tasks: readonly GridTask[] },
 ): StudyResult {
-  const pointText = `${pointWords(s.point)} on branch ${s.branch}`;
+  const branch = s.plan.branch;
+  const pointText = `${pointWords(s.point)} on branch ${branch}`;
   const json: Record<string, unknown> = {
     format: studyFormat,
     'format-version': studyFormatVersion,
@@ -412,9 +487,10 @@ function submittedStudy(
     point: pointText,
     'point-kind': s.point.kind,
     'point-number': s.point.index,
-    branch: s.branch,
+    branch,
     parameter: s.parameter,
-    'expected-order': s.expected,
+    'expected-order': s.plan.expectedOrder,
+    plan: planJson(s.plan),
     values: [],
     runs: s.tasks.map((t) => ({ grid: t.grid, intervals: t.intervals, directory: t.directory, status: 'submitted' })),
     ...(prepared.caution ? { caution: prepared.caution } : {}),
@@ -426,7 +502,7 @@ function submittedStudy(
     caseName: prepared.case.name,
     parameter: s.parameter,
     point: s.point,
-    branch: s.branch,
+    branch,
     pointText,
     runs: [],
     json,
@@ -441,11 +517,8 @@ function finishStudy(
   prepared: PreparedCase,
   s: {
     studyDir: string;
-    branch: number;
-    /** Whether --branch was given (curve runs: otherwise the curve holding the point). */
-    branchGiven?: boolean;
+    plan: StudyPlan;
     parameter: string;
-    expected: number | null;
     point?: PointSpec;
     outcomes: (GridRun & { specials: SpecialRecord[] })[];
     stopped: boolean;
@@ -453,10 +526,11 @@ function finishStudy(
 ): StudyResult {
   const warnings: string[] = [];
   const { parameter, outcomes } = s;
-  let branch = s.branch;
+  let branch = s.plan.branch;
+  const expected = s.plan.expectedOrder;
   // curve runs without --branch: the curve on which the point first appears (curves are numbered
   // alike on every grid), rather than always curve 1
-  if (s.branchGiven === false && prepared.curve && s.point) {
+  if (s.plan.branchGiven === false && prepared.curve && s.point) {
     for (const o of outcomes) {
       const rec = o.specials.filter((r) => r.kind === s.point!.kind).sort((a, b) => a.branch - b.branch)[0];
       if (rec) {
@@ -498,7 +572,7 @@ function finishStudy(
       analysis = analyseRefinement(
         found.map((r) => ({ h: r.h!, value: r.value!, intervals: r.intervals, ...(r.unknowns !== undefined ? { unknowns: r.unknowns } : {}) })),
         // curve points are located to about 1e-10 (their values may sit at zero: a cusp at the origin)
-        { ...(s.expected !== null ? { expectedOrder: s.expected, assumedOrder: s.expected } : {}), ...(prepared.curve ? { locationTolerance: 1e-10 } : {}) },
+        { ...(expected !== null ? { expectedOrder: expected, assumedOrder: expected } : {}), ...(prepared.curve ? { locationTolerance: 1e-10 } : {}) },
       );
     } catch (e) {
       failure = `the analysis failed: ${(e as Error).message}`;
@@ -537,7 +611,8 @@ function finishStudy(
     'point-number': spec.index,
     branch,
     parameter,
-    'expected-order': s.expected,
+    'expected-order': expected,
+    plan: planJson(s.plan),
     values: analysisJson?.values.map((v) => ({ ...v, grid: byH.get(v.h)?.grid ?? v.grid })) ?? [],
     order: analysisJson?.order ?? null,
     'order-source': analysisJson?.['order-source'] ?? 'none',

@@ -10,7 +10,7 @@ import { dirname } from 'node:path';
 import { InputError } from './errors.js';
 import { prepareCase, prepareCaseObject } from './case.js';
 import { runSession, type WorkerMessage, type WorkerStart } from './batch.js';
-import type { ProgressView } from './progress.js';
+import { type ProgressView, logView } from './progress.js';
 
 const send = (m: WorkerMessage): void => {
   if (process.connected) process.send!(m);
@@ -22,17 +22,10 @@ process.on('SIGINT', stop);
 process.on('SIGTERM', stop);
 process.on('disconnect', stop);
 
-const view: ProgressView = {
-  start() {},
-  update(_name, info) {
-    send({ type: 'progress', info });
-  },
-  log(_name, level, message) {
-    send({ type: 'log', level, message });
-  },
-  end() {},
-  close() {},
-};
+const view: ProgressView = logView(
+  (level, message) => send({ type: 'log', level, message }),
+  (info) => send({ type: 'progress', info }),
+);
 
 async function work(m: WorkerStart): Promise<number> {
   try {

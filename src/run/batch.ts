@@ -13,17 +13,19 @@
  * No argument parsing and no process.exit here: the `run` and `resume` commands call these.
  */
 import { type ChildProcess, fork } from 'node:child_process';
-import { existsSync, readFileSync, readdirSync, statSync, statfsSync } from 'node:fs';
-import { hostname, totalmem } from 'node:os';
+import { existsSync, statSync, statfsSync } from 'node:fs';
+import { totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
 import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
-import { CheckpointError, Checkpointer, type CheckpointDocument, readCheckpoint } from './checkpoint.js';
+import { CheckpointError, Checkpointer, type CheckpointDocument, checkpointFile, previousCheckpointFile, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
+import { folderWriteProblem } from './folders.js';
+import { FolderLock, holderText, lockHolder } from './lock.js';
 import type { ProgressView } from './progress.js';
 import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
-import { runFormat } from './run-directory.js';
+import { columnPlan, newRunProblem, readRunRecord } from './run-directory.js';
 import { writeJsonAtomic } from './writers.js';
 
 /** A case ready to run: checked, its problem built, its output folder decided. */
@@ -53,40 +55,17 @@ export interface CaseOutcome {
 // ---------------------------------------------------------------------------------------------
 // Checking before anything runs
 
-/** Why `path` cannot take a new run (undefined when it can); the policy of RunDirectory.create, read-only. */
+/**
+ * Why `path` cannot take a new run (undefined when it can), read-only: a folder that cannot be
+ * written (read-only, no permission, a dangling link), a live writer holding it, or the policy of
+ * RunDirectory.create on non-empty folders.
+ */
 export function outputFolderProblem(path: string, force: boolean): string | undefined {
-  if (!existsSync(path)) return undefined;
-  if (!statSync(path).isDirectory()) return `output folder ${path} exists and is a file, not a folder`;
-  const entries = readdirSync(path);
-  if (entries.length === 0) return undefined;
-  const ours = isRunDirectory(path);
-  if (!force) return `output folder ${path} is not empty (${ours ? 'it holds an earlier run' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier run`;
-  if (!ours) return `output folder ${path} is not empty and holds no earlier branchline run; --force replaces only an earlier run, choose another folder with --out`;
-  const writer = liveWriter(path);
-  if (writer !== undefined) return `output folder ${path} holds a run that is still going (process ${writer} on this machine); stop it first, or choose another folder with --out`;
-  return undefined;
-}
-
-/** The pid of a live process on this machine that run.json names as the run's writer, if any. */
-function liveWriter(dir: string): number | undefined {
-  const run = readRunJson(dir);
-  if (run?.status !== 'running') return undefined;
-  const proc = run.process as { pid?: unknown; host?: unknown } | undefined;
-  const pid = typeof proc?.pid === 'number' ? proc.pid : undefined;
-  return pid !== undefined && proc?.host === hostname() && pid !== process.pid && processAlive(pid) ? pid : undefined;
-}
-
-function readRunJson(dir: string): Record<string, unknown> | undefined {
-  try {
-    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
-    return doc && doc.format === runFormat ? doc : undefined;
-  } catch {
-    return undefined;
-  }
-}
-
-function isRunDirectory(dir: string): boolean {
-  return readRunJson(dir) !== undefined;
+  const write = folderWriteProblem(path);
+  if (write) return write;
+  const holder = lockHolder(path);
+  if (holder) return `output folder ${path} is being written by ${holderText(holder.writer, holder.liveness)}; wait for it to end or stop it, or choose another folder with --out`;
+  return newRunProblem(path, force);
 }
 
 /**
@@ -140,7 +119,7 @@ function bytesText(b: number): string {
  * and with stability the eigen solver's as well) and disk for one branch of `max-points`
  * points (CSV rows, solution files with output.solutions: all, two checkpoints).
  */
-export function runNeeds(prepared: PreparedCase): { memory: number; disk: number; points: number } {
+export function runNeeds(prepared: PreparedCase): { memory: number; disk: number; points: number; row: number } {
   const d = prepared.problem.describe();
   const n = prepared.problem.size;
   const fields = Math.max(1, d.fields.length);
@@ -151,11 +130,12 @@ export function runNeeds(prepared: PreparedCase): { memory: number; disk: number
   const memory = factor * (eigen > 0 ? 2 : 1) + vectors * 8 * (n + 1);
   const points = prepared.settings.maxPoints;
   const nodes = d.axes.reduce((a, ax) => a * ax.nodes, 1) * fields;
-  const columns = 8 + prepared.problem.monitors.length + (eigen > 0 ? 4 : 0);
-  const row = columns * 24;
+  // every column of a row (eigenvalue columns included), each at most 24 characters and a comma
+  const columns = columnPlan(prepared.problem, prepared.settings.parameter, eigen).columns.length;
+  const row = columns * 25;
   const solutions = prepared.case.output.solutions === 'all' ? nodes * 8 + 128 : 0;
   const checkpoint = 2 * 8 * (n + 1) * (16 + 2 * eigen);
-  return { memory, disk: points * (row + solutions) + checkpoint, points };
+  return { memory, disk: points * (row + solutions) + checkpoint, points, row };
 }
 
 /** Requests that cannot fit this machine, refused before anything runs (with the estimates). */
@@ -206,12 +186,15 @@ export function resourceProblems(targets: readonly RunTarget[], jobs: number, me
 // One run in this process
 
 export interface ResumePlan {
-  checkpoint: CheckpointDocument;
+  /** The checkpoint to continue from; absent when the run ended before its first one (`restart`). */
+  checkpoint?: CheckpointDocument;
   /** The checkpoint file used, and newer ones that could not be (damaged). */
-  file: string;
+  file?: string;
   skipped: string[];
   /** run.json's status before resuming. */
   previousStatus: string;
+  /** No checkpoint was ever written: the run starts over from its recorded case (its first start and earlier resumes). */
+  restart?: { started: string; resumes: string[] };
 }
 
 export interface SessionOptions {
@@ -222,6 +205,10 @@ export interface SessionOptions {
   /** Name shown in progress and log lines. */
   name: string;
   resume?: ResumePlan;
+  /** The folder's lock when the caller holds it (resume); otherwise runCase takes it. */
+  lock?: FolderLock;
+  /** The folder belongs to the caller (a study's grid folder): see RunCaseOptions.alongside. */
+  alongside?: boolean;
 }
 
 /** Run (or resume) one case here, with checkpoints and progress. */
@@ -237,6 +224,9 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       log: (level, message) => o.view.log(o.name, level, message),
       progress: (p: ProgressInfo) => o.view.update(o.name, p),
       checkpoint: checkpointer.hook,
+      ...(o.lock ? { lock: o.lock } : {}),
+      ...(o.alongside ? { alongside: true } : {}),
+      ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
       ...(c
         ? {
             resume: {
@@ -245,7 +235,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
               started: c.run.started,
               previousSeconds: c.run.seconds,
               resumes: c.run.resumes,
-              checkpoint: { file: o.resume!.file, sequence: c.sequence, written: c.written, points: c.ledger.points },
+              checkpoint: { file: o.resume!.file ?? checkpointFile, sequence: c.sequence, written: c.written, points: c.ledger.points },
             },
           }
         : {}),
@@ -271,34 +261,52 @@ export function outcomeOf(target: { prepared: PreparedCase; outDir: string }, re
 // ---------------------------------------------------------------------------------------------
 // Resuming
 
-function processAlive(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch (e) {
-    return (e as NodeJS.ErrnoException).code === 'EPERM';
-  }
+export interface ResumeLockOptions {
+  /** Take over a lock of another host (`resume --force`). */
+  force?: boolean;
+  /** The folder's lock, when the caller holds it already (it stays held on a refusal). */
+  lock?: FolderLock;
 }
 
 /**
- * The checks every resume starts with: the folder holds a run of ours that did not finish, no
- * live process is writing it (unless `force`), and a usable checkpoint exists. InputError otherwise.
+ * The checks every resume starts with (runs and time integrations): the folder holds a run of
+ * ours, can be written, and its lock is taken (no other process writes it: a live writer makes
+ * this refuse; one on another host is taken over only with `force`) — unless the caller took it
+ * already (`lock`, e.g. a Slurm task, which judges other hosts' writers by their Slurm job);
+ * then, under the lock, the run must not have finished. InputError (one line) otherwise, with the
+ * lock released (a lock taken here; the caller's stays the caller's). The caller releases `lock`
+ * when the resumed run has ended.
  */
-export function resumableCheckpoint(dirGiven: string, options: { force?: boolean } = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint> } {
+export function lockForResume(dirGiven: string, options: ResumeLockOptions = {}): { dir: string; run: Record<string, unknown>; status: string; lock: FolderLock } {
   const dir = resolve(dirGiven);
   if (!existsSync(dir)) throw new InputError(`${dirGiven}: no such folder`);
   if (!statSync(dir).isDirectory()) throw new InputError(`${dirGiven}: is a file, not a run folder`);
-  const run = readRunJson(dir);
-  if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
-  const status = String(run.status);
-  if (status === 'finished') throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
-  const pid = liveWriter(dir);
-  if (pid !== undefined && !options.force) {
-    throw new InputError(`${dirGiven}: the run is still going (process ${pid} on this machine); stop it first (Ctrl-C or kill ${pid}), or pass --force if that process is not branchline`);
+  if (!readRunRecord(dir)) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
+  const problem = folderWriteProblem(dir, 'run folder');
+  if (problem) throw new InputError(problem);
+  // from here on no other process can start writing the folder: what is read below stays true
+  if (options.lock && resolve(options.lock.dir) !== dir) throw new Error(`lockForResume: the lock given is ${options.lock.dir}'s, not ${dir}'s`);
+  const lock = options.lock ?? FolderLock.acquire(dir, { purpose: 'resume', takeOverForeign: options.force === true, label: dirGiven });
+  const run = readRunRecord(dir);
+  const status = String(run?.status);
+  if (!run || status === 'finished') {
+    if (!options.lock) lock.release();
+    if (!run) throw new InputError(`${dirGiven}: holds no branchline run (no readable run.json of ours)`);
+    throw new InputError(`${dirGiven}: the run finished${typeof run.ended === 'string' ? ` at ${run.ended}` : ''}; there is nothing to resume`);
   }
+  return { dir, run, status, lock };
+}
+
+/**
+ * lockForResume, and a usable checkpoint (InputError when there is none, the lock released): what
+ * a time integration resumes from.
+ */
+export function resumableCheckpoint(dirGiven: string, options: ResumeLockOptions = {}): { dir: string; run: Record<string, unknown>; status: string; found: ReturnType<typeof readCheckpoint>; lock: FolderLock } {
+  const taken = lockForResume(dirGiven, options);
   try {
-    return { dir, run, status, found: readCheckpoint(dir) };
+    return { ...taken, found: readCheckpoint(taken.dir) };
   } catch (e) {
+    if (!options.lock) taken.lock.release();
     if (e instanceof CheckpointError) throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
     throw e;
   }
@@ -318,19 +326,51 @@ export function checkRecordedLengths(dirGiven: string, dir: string, csvLengths: 
 }
 
 /**
- * Everything `resume DIR` needs, checked: the run directory is ours and not finished, no live
- * process is writing it (unless `force`), a usable checkpoint exists, and its case builds a
- * problem that matches the saved state. InputError (one line) otherwise.
+ * The case stored in a run folder (a checkpoint's or run.json's), prepared as the case file it
+ * came from would be: paths relative to that file's folder, or to the run folder when unknown.
  */
-export async function prepareResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
-  const { dir, status, found } = resumableCheckpoint(dirGiven, options);
+export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: string | null, dir: string, label: string): Promise<PreparedCase> {
+  return prepareCaseObject(doc, { label, ...(caseFile ? { file: caseFile } : {}), baseDir: caseFile ? dirname(caseFile) : dir });
+}
+
+/**
+ * Everything `resume DIR` needs, checked (lockForResume, then): a usable checkpoint whose case
+ * builds a problem that matches the saved state, and branch files that still hold every row it
+ * counts — or, for a run killed before its first checkpoint, its recorded case to start over
+ * from. InputError (one line) otherwise, with the lock released. The caller releases `lock`.
+ */
+export async function prepareResume(dirGiven: string, options: ResumeLockOptions = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
+  const { dir, run, status, lock } = lockForResume(dirGiven, options);
+  try {
+    return { ...(await checkResumable(dir, dirGiven, run, status)), lock };
+  } catch (e) {
+    if (!options.lock) lock.release();
+    throw e;
+  }
+}
+
+async function checkResumable(dir: string, dirGiven: string, run: Record<string, unknown>, status: string): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  let found;
+  try {
+    found = readCheckpoint(dir);
+  } catch (e) {
+    if (!(e instanceof CheckpointError)) throw e;
+    // killed before its first checkpoint: nothing resumable was computed; start over from the
+    // case run.json records (unless run.json says a checkpoint was written: then it went missing)
+    const none = !existsSync(join(dir, checkpointFile)) && !existsSync(join(dir, previousCheckpointFile));
+    if (none && run.checkpoint === undefined && run.case && typeof run.case === 'object') {
+      const caseFile = typeof run['case-file'] === 'string' ? run['case-file'] : null;
+      const prepared = await caseFromRunFolder(run.case as Record<string, unknown>, caseFile, dir, `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})`);
+      const started = typeof run.started === 'string' ? run.started : new Date().toISOString();
+      const resumes = Array.isArray(run.resumed) ? run.resumed.filter((t): t is string => typeof t === 'string') : [];
+      return { prepared, outDir: dir, plan: { skipped: [], previousStatus: status, restart: { started, resumes } } };
+    }
+    if (none) throw new InputError(`${dirGiven}: cannot resume: run.json records a checkpoint, but neither ${checkpointFile} nor ${previousCheckpointFile} is there (removed?)`);
+    throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
+  }
   const c = found.document;
   const caseFile = c.run.caseFile;
-  const prepared = await prepareCaseObject(c.case, {
-    label: `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`,
-    ...(caseFile ? { file: caseFile } : {}),
-    baseDir: caseFile ? dirname(caseFile) : dir,
-  });
+  const prepared = await caseFromRunFolder(c.case, caseFile, dir, `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`);
   // the saved state must belong to this problem (a code model may have changed since)
   const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;
   const x = engine?.current?.x;
@@ -355,10 +395,24 @@ export interface BatchOptions {
 }
 
 const workers = new Set<ChildProcess>();
+/** Set when the call leaves at once: the reason recorded in the runs of the workers it ends. */
+let leavingAtOnce: string | undefined;
 
-/** End every worker at once (a second Ctrl-C): their runs resume from their last checkpoints. */
-export function killWorkers(): void {
+/** Whether worker processes are running. */
+export function hasWorkers(): boolean {
+  return workers.size > 0;
+}
+
+/**
+ * End every worker at once (a second Ctrl-C): their runs resume from their last checkpoints.
+ * Resolves when they are gone and their run.json files say `stopped` with `reason` (at most a
+ * few seconds).
+ */
+export async function killWorkers(reason: string): Promise<void> {
+  leavingAtOnce = reason;
+  const gone = [...workers].map((w) => new Promise<void>((done) => (w.exitCode !== null || w.signalCode !== null ? done() : w.once('exit', () => setImmediate(done)))));
   for (const w of workers) w.kill('SIGKILL');
+  await Promise.race([Promise.all(gone), new Promise((r) => setTimeout(r, 3000).unref())]);
 }
 
 /** Run the targets one after another here (jobs 1 or a single case), or in worker processes. */
@@ -467,10 +521,22 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
  * (`failed`, with the reason). The run's checkpoint stays, so `resume` can continue it.
  */
 function markAbandoned(dir: string, reason: string): void {
-  const run = readRunJson(dir);
-  if (!run || run.status !== 'running') return;
-  const { process: _gone, ...rest } = run;
-  writeJsonAtomic(join(dir, 'run.json'), { ...rest, status: 'failed', failure: reason, ended: new Date().toISOString() });
+  // under the folder's lock (the dead worker's is stale): a resume that already took the folder over is left alone
+  let lock: FolderLock;
+  try {
+    lock = FolderLock.acquire(dir, { purpose: 'recording a worker that ended' });
+  } catch {
+    return;
+  }
+  try {
+    const run = readRunRecord(dir);
+    if (!run || run.status !== 'running') return;
+    const { process: _gone, ...rest } = run;
+    const doc = leavingAtOnce ? { ...rest, status: 'stopped', note: leavingAtOnce } : { ...rest, status: 'failed', failure: reason };
+    writeJsonAtomic(join(dir, 'run.json'), { ...doc, ended: new Date().toISOString() });
+  } finally {
+    lock.release();
+  }
 }
 
 /** The compiled worker entry (dist/ when running from the TypeScript sources, e.g. in tests). */

@@ -40,10 +40,10 @@ import { existsSync, readFileSync, renameSync, unlinkSync } from 'node:fs';
 import { join } from 'node:path';
 import type { RunLedger } from './run-directory.js';
 import type { CheckpointContext } from './run-hooks.js';
+import { checkpointFile, previousCheckpointFile } from './manifest.js';
 import { fsyncDirectory, writeTemporary } from './writers.js';
 
-export const checkpointFile = 'checkpoint.bin';
-export const previousCheckpointFile = 'checkpoint.previous.bin';
+export { checkpointFile, previousCheckpointFile };
 export const checkpointFormat = 'branchline checkpoint';
 export const checkpointVersion = 1;
 

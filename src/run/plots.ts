@@ -29,6 +29,7 @@ import {
 } from '../plot/index.js';
 import { defaultPlotMonitor } from './case.js';
 import { InputError } from './errors.js';
+import { isRunPlotName } from './manifest.js';
 import type { SpecialRecord } from './run-directory.js';
 import { readPointsJson, readRunJson } from './start.js';
 import { parseJsonNumber, readCsv, readNpy, writeFileAtomic } from './writers.js';
@@ -293,7 +294,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
   // plots of special points this run no longer has (an earlier run replaced with --force)
   if (existsSync(plotsDir)) {
     for (const f of readdirSync(plotsDir)) {
-      if (/^branch-\d+-.*\.svg$/.test(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
+      if (isRunPlotName(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
     }
   }
   return { files: written, warnings, notes, monitor: chosen, ...(free ? { plane: [parameter, free] as [string, string] } : {}) };

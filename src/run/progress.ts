@@ -27,6 +27,17 @@ export interface ProgressView {
   close(): void;
 }
 
+/** A view that draws nothing and passes log lines (and progress, if asked) on: worker processes, a study's grids. */
+export function logView(log: (level: 'info' | 'warning', message: string) => void, update: (p: ProgressInfo) => void = () => {}): ProgressView {
+  return {
+    start() {},
+    update: (_name, p) => update(p),
+    log: (_name, level, message) => log(level, message),
+    end() {},
+    close() {},
+  };
+}
+
 export interface ProgressOptions {
   /** Draw bars (stderr is a terminal). */
   tty: boolean;

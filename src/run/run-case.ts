@@ -36,11 +36,15 @@ import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { type PreparedCase, caseDocument } from './case.js';
 import { removeCheckpoints } from './checkpoint.js';
+import { makeFolder, removeIfEmpty } from './folders.js';
+import { onLeaveAtOnce } from './leave.js';
+import { FolderLock } from './lock.js';
+import { type Manifest, keptMessage, readManifest, schemeManifest } from './manifest.js';
 import { drawPlotsAfterRun } from './plots.js';
 import { EventWriter, type RunLog, failureReasons } from './run-events.js';
 import { type CheckpointContext, type CheckpointWritten, type ProgressInfo, type SyncState, syncEvery } from './run-hooks.js';
 import { RunRecord, isoNow } from './run-record.js';
-import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger } from './run-directory.js';
+import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger, readRunRecord } from './run-directory.js';
 
 export { failureReasons, syncEvery };
 export type { CheckpointContext, CheckpointWritten, ProgressInfo };
@@ -75,6 +79,8 @@ export interface RunCaseOptions {
   outDir?: string;
   /** Replace an earlier run in a non-empty output folder (see RunDirectory.create). */
   force?: boolean;
+  /** The folder belongs to the caller (a study's grid folder): files of the user in it, without a run, stay. */
+  alongside?: boolean;
   /** Stop request (SIGINT/SIGTERM): the current event is finished, files written, status `stopped`. */
   signal?: AbortSignal;
   /** Log lines (the CLI sends them to stderr). */
@@ -92,6 +98,16 @@ export interface RunCaseOptions {
   start?: Float64Array;
   /** Continue an interrupted run (the resume command): reopen `outDir` with this state. */
   resume?: ResumeState;
+  /**
+   * Start an interrupted run over in its own folder (the resume command, when the run ended before
+   * its first checkpoint): the run's files are removed (the user's stay), the times carried on.
+   */
+  restart?: { started: string; resumes: string[] };
+  /**
+   * The folder's lock, when the caller took it (the resume command takes it before it reads the
+   * run's state); otherwise runCase takes it before touching the folder and releases it at the end.
+   */
+  lock?: FolderLock;
 }
 
 /** The state a resumed run continues from (a checkpoint's contents). */
@@ -138,30 +154,86 @@ interface OpenRun {
 export async function runCase(prepared: PreparedCase, options: RunCaseOptions = {}): Promise<RunResult> {
   const t0 = Date.now();
   const outDir = options.outDir !== undefined ? resolve(options.outDir) : outputDirectory(prepared);
-  // 1. the only step that may refuse (bad output folder) happens before anything is written
-  const run = options.resume ? resumeRunFolder(prepared, outDir, options.resume) : prepareRunFolder(prepared, outDir, options.force === true);
-  // 2. run.json says `running` from here on
-  const resume = options.resume;
-  const record = new RunRecord(prepared, run.plan, run.ledger, {
-    t0,
-    started: resume?.started ?? isoNow(),
-    resumes: [...(resume?.resumes ?? []), ...(resume ? [isoNow()] : [])],
-    previousSeconds: resume?.previousSeconds ?? 0,
-  });
-  record.lastCheckpoint = resume?.checkpoint;
-  record.write(run.dir);
-  // a resumed run's points.json may hold points found after the checkpoint: rewrite it
-  run.dir.writePoints(prepared.settings.parameter, run.ledger.specials);
-  // 3. the continuation
-  await driveEngine(prepared, run, record, options);
-  // 4. the end
-  return finishRun(prepared, run, record, options.log ?? (() => {}));
+  const log = options.log ?? (() => {});
+  // 1. the only step that may refuse (bad output folder, a writer already there) happens before
+  //    anything is written; the folder's lock is held from here to the end
+  const { run, lock } = takeFolder(outDir, options, () =>
+    options.resume
+      ? resumeRunFolder(prepared, outDir, options.resume)
+      : options.restart
+        ? restartRunFolder(prepared, outDir)
+        : prepareRunFolder(prepared, outDir, { force: options.force === true, alongside: options.alongside === true }, log),
+  );
+  let unregister: (() => void) | undefined;
+  try {
+    // 2. run.json says `running` from here on, and lists each file before it is created
+    const resume = options.resume ?? options.restart;
+    const record = new RunRecord(prepared, run.plan, run.ledger, run.dir.manifest, {
+      t0,
+      started: resume?.started ?? isoNow(),
+      resumes: [...(resume?.resumes ?? []), ...(resume ? [isoNow()] : [])],
+      previousSeconds: options.resume?.previousSeconds ?? 0,
+    });
+    record.lastCheckpoint = options.resume?.checkpoint;
+    run.dir.onManifestChange(() => record.write(run.dir));
+    record.write(run.dir);
+    // leaving at once (a second Ctrl-C): run.json says `stopped` (resume goes on from the last checkpoint)
+    unregister = onLeaveAtOnce((reason) => {
+      record.status = 'stopped';
+      record.note = reason;
+      record.write(run.dir);
+      // the process is on its way out: the folder's lock goes, whoever took it (a caller's too)
+      (lock ?? options.lock)?.release();
+    });
+    // a resumed run's points.json may hold points found after the checkpoint: rewrite it
+    run.dir.writePoints(prepared.settings.parameter, run.ledger.specials);
+    // 3. the continuation
+    await driveEngine(prepared, run, record, options);
+    // 4. the end
+    return finishRun(prepared, run, record, log);
+  } finally {
+    unregister?.();
+    lock?.release();
+  }
 }
 
-/** Step 1 of a new run: the output folder, created or (with `force`) emptied of an earlier run. */
-function prepareRunFolder(prepared: PreparedCase, outDir: string, force: boolean): OpenRun {
+/**
+ * Take the folder for writing: create it if need be, take its lock (unless the caller holds it),
+ * then `open` it. On a refusal the lock is released and a folder made here removed again.
+ */
+function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun): { run: OpenRun; lock: FolderLock | undefined } {
+  const continuing = options.resume !== undefined || options.restart !== undefined;
+  const made = continuing || options.lock ? undefined : makeFolder(outDir);
+  let lock: FolderLock | undefined;
+  try {
+    lock = options.lock ? undefined : FolderLock.acquire(outDir, { purpose: continuing ? 'resume' : options.force ? 'run --force' : 'run' });
+    return { run: open(), lock };
+  } catch (e) {
+    lock?.release();
+    if (made) removeIfEmpty(outDir, made);
+    throw e;
+  }
+}
+
+/** Step 1 of a new run: the output folder emptied of an earlier run (with `force`; the user's files stay). */
+function prepareRunFolder(prepared: PreparedCase, outDir: string, folder: { force: boolean; alongside: boolean }, log: RunLog): OpenRun {
   const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
-  const dir = RunDirectory.create(outDir, { force });
+  const dir = RunDirectory.create(outDir, folder);
+  if (dir.kept.length) log('info', keptMessage(dir.kept, 'run'));
+  return { outDir, dir, ledger: emptyLedger(), plan };
+}
+
+/** The files a run in `outDir` wrote so far (run.json `files`; runs without one: every name of the scheme). */
+export function runManifest(outDir: string): Manifest {
+  const run = readRunRecord(outDir);
+  const m = run ? readManifest(run) : undefined;
+  return m === undefined || typeof m === 'string' ? schemeManifest(outDir) : m;
+}
+
+/** Step 1 of a run started over (it ended before its first checkpoint): the run's own files removed. */
+function restartRunFolder(prepared: PreparedCase, outDir: string): OpenRun {
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
+  const dir = RunDirectory.restart(outDir, runManifest(outDir));
   return { outDir, dir, ledger: emptyLedger(), plan };
 }
 
@@ -169,8 +241,9 @@ function prepareRunFolder(prepared: PreparedCase, outDir: string, force: boolean
 function resumeRunFolder(prepared: PreparedCase, outDir: string, resume: ResumeState): OpenRun {
   const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const ledger = structuredClone(resume.ledger);
-  const dir = RunDirectory.reopen(outDir, ledger, () => plan.columns);
-  removeUnrecorded(outDir, ledger, prepared.case.output.solutions);
+  const manifest = runManifest(outDir);
+  const dir = RunDirectory.reopen(outDir, ledger, () => plan.columns, manifest);
+  removeUnrecorded(outDir, ledger, manifest);
   return { outDir, dir, ledger, plan };
 }
 
@@ -305,10 +378,15 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
 /** Step 4: close the files, write the final points.json and run.json, clean up, draw the plots. */
 function finishRun(prepared: PreparedCase, run: OpenRun, record: RunRecord, log: RunLog): RunResult {
   const { dir, ledger, outDir } = run;
-  dir.close();
-  dir.writePoints(prepared.settings.parameter, ledger.specials);
   const final = record.document();
-  dir.writeRunJson(final);
+  try {
+    dir.close();
+    dir.writePoints(prepared.settings.parameter, ledger.specials);
+    dir.writeRunJson(final);
+  } catch (e) {
+    // a full disk may refuse even these small files: the run's checkpoint still resumes it
+    log('warning', `the final run.json could not be written: ${e instanceof Error ? e.message : String(e)}`);
+  }
   const status = record.status as Exclude<RunStatus, 'running'>;
   // a finished run has nothing left to resume
   if (status === 'finished') removeCheckpoints(outDir);
@@ -328,12 +406,10 @@ function finishRun(prepared: PreparedCase, run: OpenRun, record: RunRecord, log:
  * (written after it; the resumed run writes them again) and temporary files of atomic writes a
  * killed process left behind.
  */
-function removeUnrecorded(dir: string, ledger: RunLedger, solutions: string): void {
+function removeUnrecorded(dir: string, ledger: RunLedger, manifest: Manifest): void {
   const keep = new Set<string>();
   for (const s of ledger.specials) if (typeof s.solution === 'string') keep.add(s.solution);
-  if (solutions === 'all') {
-    for (const b of ledger.branches) for (let i = 0; i < b.points; i++) keep.add(`solutions/branch-${b.id}-point-${i}.npy`);
-  }
+  for (const b of ledger.branches) for (let i = 0; i < b.points; i++) keep.add(`solutions/branch-${b.id}-point-${i}.npy`);
   const temporary = /^\..*\.tmp$/;
   for (const [folder, rel] of [
     [dir, ''],
@@ -347,6 +423,8 @@ function removeUnrecorded(dir: string, ledger: RunLedger, solutions: string): vo
       continue;
     }
     for (const e of entries) {
+      // only the run's own files: a user's file in the folder is never touched
+      if (!manifest.covers(rel + e)) continue;
       const stale = temporary.test(e) || (rel === 'solutions/' && e.endsWith('.npy') && !keep.has(rel + e));
       if (stale) rmSync(join(folder, e), { force: true });
     }

@@ -13,10 +13,12 @@
  * `csvLengths()` gives the byte lengths a checkpoint records so that `RunDirectory.reopen`
  * can truncate back to them (no row lost or doubled on resume).
  *
- * An existing folder is used only when it is empty. A non-empty folder is refused unless
- * `force` is set AND it holds an earlier branchline run (a run.json of ours); then only our own
- * entries (run.json, points.json, branches/, solutions/, checkpoint files) are removed and any
- * other files the user put there are left alone. We never empty an arbitrary folder.
+ * Every file a run writes is listed in run.json's `files` before it is created (manifest.ts).
+ * An existing folder is used only when it is empty (its lock file aside). A non-empty folder is
+ * refused unless `force` is set AND it holds an earlier branchline run with a usable manifest;
+ * then exactly the files that run listed are removed, and every other file the user put there
+ * (notes, figures, their own CSVs, also inside branches/ or plots/) is left alone and named. We
+ * never empty an arbitrary folder. The caller holds the folder's lock (lock.ts) throughout.
  */
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
@@ -24,16 +26,14 @@ import type { ContinuationPoint, SpecialPoint, StopReason } from '../continuatio
 import type { CurveStopReason } from '../continuation/curves/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
+import { isLockFile } from './lock.js';
+import { Manifest, keptText, readManifest, removeRunFiles } from './manifest.js';
 import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
 
 export const runFormat = 'branchline run';
 export const runFormatVersion = 1;
 
 export type RunStatus = 'running' | 'finished' | 'stopped' | 'failed';
-
-/** Entries of a run directory that belong to us (removed by `force`). */
-const ownEntries = ['run.json', 'points.json', 'branches', 'solutions', 'diagram.svg', 'plots', 'monitors.csv', 'monitors.svg', 'snapshots'];
-const ownEntryPattern = /^(checkpoint.*|\..*\.tmp)$/;
 
 // ---------------------------------------------------------------------------------------------
 // Records kept while the run goes (plain objects: a checkpoint can store them)
@@ -255,47 +255,78 @@ export function specialRecord(problem: Problem, parameter: string, s: SpecialPoi
 // ---------------------------------------------------------------------------------------------
 // The directory
 
-function isOurRun(dir: string): boolean {
-  const file = join(dir, 'run.json');
-  if (!existsSync(file)) return false;
+/** run.json of `dir` when it is a branchline run's, else undefined. */
+export function readRunRecord(dir: string): Record<string, unknown> | undefined {
   try {
-    const doc = JSON.parse(readFileSync(file, 'utf8')) as { format?: unknown };
-    return doc.format === runFormat;
+    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
+    return doc && typeof doc === 'object' && doc.format === runFormat ? doc : undefined;
   } catch {
-    return false;
+    return undefined;
   }
 }
 
+/** The entries of a folder that are not the files of its lock. */
+export function folderEntries(path: string): string[] {
+  return readdirSync(path).filter((e) => !isLockFile(e));
+}
+
+/**
+ * Why `path` cannot take a new run (undefined when it can): the policy of RunDirectory.create,
+ * read-only (the up-front checks of a batch use it too).
+ */
+export function newRunProblem(path: string, force: boolean): string | undefined {
+  if (!existsSync(path)) return undefined;
+  if (!statSync(path).isDirectory()) return `output folder ${path} exists and is a file, not a folder`;
+  const entries = folderEntries(path);
+  if (entries.length === 0) return undefined;
+  const run = readRunRecord(path);
+  if (!force) return `output folder ${path} is not empty (${run ? 'it holds an earlier run' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier run`;
+  if (!run) return `output folder ${path} is not empty and holds no earlier branchline run; --force replaces only an earlier run, choose another folder with --out`;
+  const manifest = readManifest(run);
+  if (typeof manifest === 'string') {
+    return `output folder ${path} holds a run.json, but ${manifest}; --force removes only the files a run lists as its own: choose another folder with --out, or empty this one yourself`;
+  }
+  return undefined;
+}
+
+/**
+ * Left in place when an earlier run's files are removed: the lock, and run.json (the new run
+ * replaces it atomically at once, so that a folder never lacks one while it holds run files).
+ */
+const keptForNow = (rel: string): boolean => isLockFile(rel) || rel === 'run.json';
+
 export class RunDirectory {
   readonly path: string;
+  /** The files of the run (run.json `files`). */
+  readonly manifest: Manifest;
+  /** Files of the user that `create` with force left in place (relative paths). */
+  kept: string[] = [];
   private readonly writers = new Map<number, CsvWriter>();
   private closed = false;
+  private persist: (() => void) | undefined;
 
-  private constructor(path: string) {
+  private constructor(path: string, manifest: Manifest) {
     this.path = path;
+    this.manifest = manifest;
   }
 
   /**
-   * Prepare `path` for a new run (see the header for the policy on existing folders).
-   * Throws InputError (bad input, nothing changed) when the folder cannot be used.
+   * Prepare the folder `path` (its lock held by the caller) for a new run; see the header for the
+   * policy on non-empty folders. `alongside`: the folder belongs to the caller (a study's grid
+   * folder) and may hold the user's files, which stay, as long as it holds no run. `folders`: the
+   * sub-folders to make (default branches/). Throws InputError (bad input, nothing changed) when
+   * the folder cannot be used.
    */
-  static create(path: string, options: { force?: boolean; folders?: readonly string[] } = {}): RunDirectory {
-    if (existsSync(path)) {
-      if (!statSync(path).isDirectory()) throw new InputError(`output folder ${path} exists and is a file, not a folder`);
-      const entries = readdirSync(path);
-      if (entries.length > 0) {
-        if (!options.force) {
-          throw new InputError(
-            `output folder ${path} is not empty (${isOurRun(path) ? 'it holds an earlier run' : `it holds ${entries.length} entries`}); choose another with --out, or pass --force to replace an earlier run`,
-          );
-        }
-        if (!isOurRun(path)) {
-          throw new InputError(`output folder ${path} is not empty and holds no earlier branchline run; --force replaces only an earlier run, choose another folder with --out`);
-        }
-        for (const e of entries) {
-          if (ownEntries.includes(e) || ownEntryPattern.test(e)) rmSync(join(path, e), { recursive: true, force: true });
-        }
-      }
+  static create(path: string, options: { force?: boolean; alongside?: boolean; folders?: readonly string[] } = {}): RunDirectory {
+    let kept: string[] = [];
+    const entries = existsSync(path) && statSync(path).isDirectory() ? folderEntries(path) : [];
+    if (options.alongside && entries.length > 0 && !readRunRecord(path)) {
+      // a folder the caller owns (a study's grid folder) that holds no run: the user's files there stay
+      kept = entries;
+    } else {
+      const problem = newRunProblem(path, options.force === true);
+      if (problem) throw new InputError(problem);
+      if (entries.length > 0) kept = removeRunFiles(path, readManifest(readRunRecord(path)!) as Manifest, keptForNow);
     }
     try {
       mkdirSync(path, { recursive: true });
@@ -303,21 +334,38 @@ export class RunDirectory {
     } catch (e) {
       throw new InputError(`output folder ${path} cannot be created (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
     }
-    return new RunDirectory(path);
+    const dir = new RunDirectory(path, new Manifest());
+    dir.kept = kept;
+    return dir;
+  }
+
+  /**
+   * Start the run in `path` over (it ended before its first checkpoint): remove the files of
+   * `manifest` (the user's stay) and begin a new manifest. The caller holds the lock.
+   */
+  static restart(path: string, manifest: Manifest): RunDirectory {
+    if (!readRunRecord(path)) throw new InputError(`${path} holds no branchline run (run.json missing or not ours)`);
+    const kept = removeRunFiles(path, manifest, keptForNow);
+    mkdirSync(join(path, 'branches'), { recursive: true });
+    const dir = new RunDirectory(path, new Manifest());
+    dir.kept = kept;
+    return dir;
   }
 
   /**
    * Reopen a run directory to continue a run: every branch CSV the ledger knows is truncated to
-   * its recorded length; CSVs the ledger does not know (rows written after the checkpoint for a
-   * branch that had not started then) are removed.
+   * its recorded length; CSVs of the run that the ledger does not know (rows written after the
+   * checkpoint for a branch that had not started then) are removed. `manifest`: the files the run
+   * wrote so far (run.json `files`).
    */
-  static reopen(path: string, ledger: RunLedger, columnsOf: (branch: number) => string[]): RunDirectory {
-    if (!isOurRun(path)) throw new InputError(`${path} holds no branchline run (run.json missing or not ours)`);
-    const dir = new RunDirectory(path);
+  static reopen(path: string, ledger: RunLedger, columnsOf: (branch: number) => string[], manifest: Manifest): RunDirectory {
+    if (!readRunRecord(path)) throw new InputError(`${path} holds no branchline run (run.json missing or not ours)`);
+    const dir = new RunDirectory(path, manifest);
     mkdirSync(join(path, 'branches'), { recursive: true });
     const known = new Set(Object.keys(ledger.csvLengths));
     for (const f of readdirSync(join(path, 'branches'))) {
-      if (f.endsWith('.csv') && !known.has(`branches/${f}`)) rmSync(join(path, 'branches', f));
+      const rel = `branches/${f}`;
+      if (manifest.covers(rel) && !known.has(rel)) rmSync(join(path, rel), { force: true });
     }
     for (const b of ledger.branches) {
       const len = ledger.csvLengths[b.file];
@@ -335,9 +383,22 @@ export class RunDirectory {
     return `branches/${id}.csv`;
   }
 
+  /** Called (to rewrite run.json) whenever the manifest gains a file, before the file is created. */
+  onManifestChange(persist: () => void): void {
+    this.persist = persist;
+  }
+
+  /** Record that the run is about to write `rel` (see the header); run.json first when it is new. */
+  claim(rel: string): void {
+    if (this.manifest.covers(rel)) return;
+    this.manifest.add(rel);
+    this.persist?.();
+  }
+
   openBranch(id: number, columns: readonly string[], ledger: RunLedger): void {
     if (this.writers.has(id)) throw new Error(`branch ${id} is already open`);
     const file = RunDirectory.branchFile(id);
+    this.claim(file);
     const w = CsvWriter.create(join(this.path, file), columns);
     this.writers.set(id, w);
     ledger.csvLengths[file] = w.byteLength;
@@ -374,6 +435,7 @@ export class RunDirectory {
   writeSolution(name: string, problem: Problem, u: Float64Array, p: Params): string {
     mkdirSync(join(this.path, 'solutions'), { recursive: true });
     const rel = `solutions/${name}.npy`;
+    this.claim(rel);
     const { shape, data } = problem.toNodeArray(u, p);
     writeNpy(join(this.path, rel), shape, data);
     return rel;

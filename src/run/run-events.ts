@@ -75,6 +75,8 @@ export class EventWriter {
           if (d === 'increase' || d === 'decrease' || d === 'both') origin.direction = d;
         }
         ledger.branches.push({ id: info.id, depth: info.depth, origin, file: RunDirectory.branchFile(info.id), points: 0 });
+        // every point's state of the branch will be written: the family goes to the manifest now
+        if (solutionsMode === 'all') dir.claim(`solutions/branch-${info.id}-point-*.npy`);
         dir.openBranch(info.id, plan.columns, ledger);
         log('info', `branch ${info.id} started ${origin.kind === 'start' ? 'from the start point' : `at the branch point ${parameter} = ${origin.value} on branch ${origin.branch}`}`);
         this.branchChanged();

@@ -6,29 +6,31 @@
  * `status` is `running` from the first write until the run ends, then `finished`, `stopped` or
  * `failed` (with `failure`); while it is `running`, `process` names the writer.
  */
-import { hostname } from 'node:os';
 import type { Problem } from '../problem/problem.js';
 import type { PreparedCase } from './case.js';
 import { caseDocument } from './case.js';
+import { selfIdentity } from './lock.js';
+import type { Manifest } from './manifest.js';
 import type { CheckpointWritten } from './run-hooks.js';
 import { type ColumnPlan, type RunDirectory, type RunLedger, type RunStatus, runFormat, runFormatVersion } from './run-directory.js';
 import { softwareVersion } from './version.js';
 import { curveSpecialKinds } from '../continuation/curves/types.js';
 
 /** The head of every run.json (runs and integrations): format, software, status, times, writer, checkpoint. */
-export function runHeader(h: { status: RunStatus; failure?: string; caseFile: string | null; started: string; resumes: readonly string[]; checkpoint?: object }): Record<string, unknown> {
+export function runHeader(h: { status: RunStatus; failure?: string; note?: string; caseFile: string | null; started: string; resumes: readonly string[]; checkpoint?: object }): Record<string, unknown> {
   return {
     format: runFormat,
     'format-version': runFormatVersion,
     software: { ...softwareVersion(), node: process.version },
     status: h.status,
     ...(h.failure !== undefined ? { failure: h.failure } : {}),
+    ...(h.note !== undefined ? { note: h.note } : {}),
     'case-file': h.caseFile,
     started: h.started,
     ended: h.status === 'running' ? null : isoNow(),
     ...(h.resumes.length ? { resumed: [...h.resumes] } : {}),
-    // who writes this run while it goes (resume refuses to start a second writer)
-    ...(h.status === 'running' ? { process: { pid: process.pid, host: hostname() } } : {}),
+    // who writes this run while it goes (the folder's lock, writer.lock, holds the same identity)
+    ...(h.status === 'running' ? { process: { ...selfIdentity() } } : {}),
     ...(h.checkpoint && h.status !== 'finished' ? { checkpoint: { ...h.checkpoint } } : {}),
   };
 }
@@ -62,11 +64,14 @@ export class RunRecord {
   continuationSeconds = 0;
   /** When run.json was last written (ms). */
   lastWritten = 0;
+  /** A remark on how the run ended (e.g. left at once), recorded as `note`. */
+  note: string | undefined;
 
   constructor(
     private readonly prepared: PreparedCase,
     private readonly plan: ColumnPlan,
     private readonly ledger: RunLedger,
+    private readonly manifest: Manifest,
     readonly times: {
       /** Date.now() when this session began. */
       t0: number;
@@ -90,7 +95,7 @@ export class RunRecord {
     const { problem, params, settings } = prepared;
     const { started, resumes, previousSeconds } = this.times;
     return {
-      ...runHeader({ status, ...(failure !== undefined ? { failure } : {}), caseFile: prepared.file ?? null, started, resumes, ...(this.lastCheckpoint ? { checkpoint: this.lastCheckpoint } : {}) }),
+      ...runHeader({ status, ...(failure !== undefined ? { failure } : {}), ...(this.note !== undefined ? { note: this.note } : {}), caseFile: prepared.file ?? null, started, resumes, ...(this.lastCheckpoint ? { checkpoint: this.lastCheckpoint } : {}) }),
       problem: problemDocument(problem),
       'start-parameters': { ...params },
       'continuation-parameter': settings.parameter,
@@ -126,6 +131,8 @@ export class RunRecord {
       ...(ledger.warnings.length ? { warnings: ledger.warnings } : {}),
       ...(prepared.caution ? { caution: prepared.caution } : {}),
       case: caseDocument(prepared.case),
+      // every file the run wrote (or is about to write): what --force and resume may remove
+      files: this.manifest.list(),
     };
   }
 

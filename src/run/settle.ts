@@ -25,8 +25,12 @@ import { join, resolve } from 'node:path';
 import { TimeIntegration, type IntegratorState } from '../dynamics/integrator.js';
 import { type SteadyStability, stabilityWords } from '../dynamics/stability.js';
 import { type DynamicsCounters, type Outcome, outcomeText } from '../dynamics/types.js';
-import { type CheckpointDocument, checkpointFile, checkpointFormat, checkpointVersion, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
+import { type CheckpointDocument, checkpointFile, checkpointFormat, checkpointVersion, previousCheckpointFile, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
+import { makeFolder, removeIfEmpty } from './folders.js';
+import { onLeaveAtOnce } from './leave.js';
+import { FolderLock } from './lock.js';
+import { keptMessage } from './manifest.js';
 import { RunDirectory, type RunStatus, emptyLedger, extraValues } from './run-directory.js';
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
@@ -71,6 +75,8 @@ export interface SettleOptions {
   log?: (level: 'info' | 'warning', message: string) => void;
   progress?: (p: SettleProgress) => void;
   resume?: SettleResume;
+  /** The folder's lock, when the caller took it (resume); otherwise settleCase takes it. */
+  lock?: FolderLock;
 }
 
 export interface SettleResult {
@@ -100,8 +106,32 @@ export function settleColumns(prepared: PreparedSettleCase): { columns: string[]
   return { columns: ['step', 'time', 'time-step', ...monitors, ...extras, 'residual', 'newton-iterations', 'factorised'], monitors, extras };
 }
 
-/** Integrate a prepared settle case to its end (or a stop request); never throws for numerical trouble. */
+/**
+ * Integrate a prepared settle case to its end (or a stop request); never throws for numerical
+ * trouble. The folder's lock (lock.ts) is held throughout, taken here unless the caller holds it.
+ */
 export async function settleCase(prepared: PreparedSettleCase, options: SettleOptions = {}): Promise<SettleResult> {
+  if (options.lock) return settleInFolder(prepared, options);
+  const outDir = options.outDir !== undefined ? resolve(options.outDir) : settleDirectory(prepared);
+  const made = options.resume ? undefined : makeFolder(outDir);
+  let lock: FolderLock;
+  try {
+    lock = FolderLock.acquire(outDir, { purpose: options.resume ? 'resume' : options.force ? 'settle --force' : 'settle' });
+  } catch (e) {
+    if (made) removeIfEmpty(outDir, made);
+    throw e;
+  }
+  try {
+    return await settleInFolder(prepared, { ...options, outDir, lock });
+  } finally {
+    lock.release();
+  }
+}
+
+/** The files a time integration writes (run.json `files`, see manifest.ts). */
+export const settleFiles = ['run.json', monitorsFile, 'monitors.svg', 'snapshots/time-*.npy', 'solutions/final.npy', 'plots/initial.svg', 'plots/final.svg', checkpointFile, previousCheckpointFile];
+
+async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptions): Promise<SettleResult> {
   const t0 = Date.now();
   const { problem, params, time } = prepared;
   const log = options.log ?? (() => {});
@@ -109,7 +139,10 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
   const resume = options.resume;
   const saved = resume ? (resume.checkpoint.engine as { integrator: IntegratorState; settle: SettleLedger }) : undefined;
   // a new run: the folder policy of runs (empty, or --force over an earlier run of ours)
-  if (!resume) RunDirectory.create(outDir, { force: options.force, folders: ['snapshots'] });
+  if (!resume) {
+    const created = RunDirectory.create(outDir, { force: options.force, folders: ['snapshots'] });
+    if (created.kept.length) log('info', keptMessage(created.kept, 'run'));
+  }
   const plan = settleColumns(prepared);
   const ledger: SettleLedger = saved ? structuredClone(saved.settle) : { snapshots: [], warnings: [], csvBytes: 0 };
   if (resume) removeUnrecorded(outDir, ledger);
@@ -123,6 +156,7 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
   let lastCheckpoint = resume ? { file: resume.file, sequence, written: resume.checkpoint.written, steps: resume.checkpoint.ledger.points } : undefined;
   let status: RunStatus = 'running';
   let failure: string | undefined;
+  let note: string | undefined;
   let outcome: Outcome | undefined;
   let final: Record<string, unknown> | undefined;
   let stability: SteadyStability | undefined;
@@ -132,7 +166,7 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
   const noise = prepared.case.initial?.noise;
 
   const record = (): Record<string, unknown> => ({
-    ...runHeader({ status, ...(failure !== undefined ? { failure } : {}), caseFile: prepared.file ?? null, started, resumes, ...(lastCheckpoint ? { checkpoint: lastCheckpoint } : {}) }),
+    ...runHeader({ status, ...(failure !== undefined ? { failure } : {}), ...(note !== undefined ? { note } : {}), caseFile: prepared.file ?? null, started, resumes, ...(lastCheckpoint ? { checkpoint: lastCheckpoint } : {}) }),
     kind: 'settle',
     problem: problemDocument(problem),
     'start-parameters': { ...params },
@@ -165,9 +199,18 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
     ...(ledger.warnings.length ? { warnings: ledger.warnings } : {}),
     ...(prepared.caution ? { caution: prepared.caution } : {}),
     case: caseDoc,
+    // every file the integration writes: what --force and resume may remove
+    files: settleFiles,
   });
   const writeRecord = (): void => writeJsonAtomic(join(outDir, 'run.json'), record());
   writeRecord();
+  // leaving at once (a second Ctrl-C): run.json says `stopped` (resume goes on from the last checkpoint)
+  const unregisterLeave = onLeaveAtOnce((reason) => {
+    status = 'stopped';
+    note = reason;
+    writeRecord();
+    options.lock?.release();
+  });
 
   const writeState = (rel: string, u: Float64Array): void => {
     mkdirSync(join(outDir, rel.split('/')[0]), { recursive: true });
@@ -322,6 +365,7 @@ export async function settleCase(prepared: PreparedSettleCase, options: SettleOp
   } finally {
     integration?.dispose();
   }
+  unregisterLeave();
   csv.close();
   const doc = record();
   writeJsonAtomic(join(outDir, 'run.json'), doc);
@@ -368,8 +412,17 @@ function removeUnrecorded(dir: string, ledger: SettleLedger): void {
  * Everything `resume DIR` needs for a settle run, checked (InputError otherwise): the generic
  * checks of a resume, the case, and that the saved state fits the case's problem.
  */
-export async function prepareSettleResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume }> {
-  const { dir, status, found } = resumableCheckpoint(dirGiven, options);
+export async function prepareSettleResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume; lock: FolderLock }> {
+  const { dir, status, found, lock } = resumableCheckpoint(dirGiven, options);
+  try {
+    return { ...(await checkSettleResumable(dirGiven, dir, status, found)), lock };
+  } catch (e) {
+    lock.release();
+    throw e;
+  }
+}
+
+async function checkSettleResumable(dirGiven: string, dir: string, status: string, found: ReturnType<typeof resumableCheckpoint>['found']): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume }> {
   const c = found.document;
   const caseFile = c.run.caseFile;
   const prepared = await prepareSettleCaseObject(c.case, {

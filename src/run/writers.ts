@@ -9,7 +9,7 @@
  * in CSV (what NumPy, pandas and most spreadsheet importers read). JSON has no non-finite
  * numbers: there they become the strings "nan", "inf", "-inf" rather than a lossy `null`.
  */
-import { closeSync, existsSync, fstatSync, fsyncSync, mkdirSync, openSync, readFileSync, renameSync, statSync, truncateSync, unlinkSync, writeSync } from 'node:fs';
+import { closeSync, existsSync, fstatSync, fsyncSync, ftruncateSync, mkdirSync, openSync, readFileSync, renameSync, statSync, truncateSync, unlinkSync, writeSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
 
 // ---------------------------------------------------------------------------------------------
@@ -125,7 +125,7 @@ export function writeTemporary(path: string, data: string | Uint8Array): string 
     } catch {
       /* already gone */
     }
-    throw e;
+    throw (e as NodeJS.ErrnoException).code ? new WriteError(path, e) : e;
   }
   closeSync(fd);
   return tmp;
@@ -194,8 +194,15 @@ export class CsvWriter {
   static create(path: string, columns: readonly string[], options: CsvWriterOptions = {}): CsvWriter {
     const fd = openSync(path, 'wx');
     const w = new CsvWriter(path, columns, fd, 0, options);
-    w.writeText(csvLine(columns));
-    fsyncSync(fd);
+    try {
+      w.writeText(csvLine(columns));
+      fsyncSync(fd);
+    } catch (e) {
+      // not even the header: no file rather than an empty one
+      closeSync(fd);
+      unlinkSync(path);
+      throw e;
+    }
     return w;
   }
 
@@ -253,8 +260,47 @@ export class CsvWriter {
     if (this.fd === undefined) throw new Error(`${this.path}: the CSV writer is closed`);
     const b = Buffer.from(text, 'utf8');
     let off = 0;
-    while (off < b.length) off += writeSync(this.fd, b, off, b.length - off);
+    try {
+      while (off < b.length) off += writeSync(this.fd, b, off, b.length - off);
+    } catch (e) {
+      // a write that fails half-way (a full disk, a file-size limit) leaves part of a row: cut the
+      // file back to its last complete row at once, so that no reader ever sees a half row
+      let cut = '; the file ends at its last complete row';
+      try {
+        ftruncateSync(this.fd, this.bytes);
+      } catch {
+        cut = `; it could not be cut back to its last complete row (${this.bytes} bytes)`;
+      }
+      throw new WriteError(this.path, e, cut);
+    }
     this.bytes += b.length;
+  }
+}
+
+/** Why a write failed, in words (errno codes of a full disk, a quota, a file-size limit). */
+export function writeFailureText(e: unknown): string {
+  const code = (e as NodeJS.ErrnoException).code;
+  switch (code) {
+    case 'EFBIG':
+      return 'EFBIG: the file grew past the file-size limit of this process (ulimit -f)';
+    case 'ENOSPC':
+      return 'ENOSPC: the disk is full';
+    case 'EDQUOT':
+      return 'EDQUOT: the disk quota is used up';
+    case 'EIO':
+      return 'EIO: input/output error of the device';
+    default:
+      return code ?? (e as Error).message;
+  }
+}
+
+/** A write that failed, naming the file and the cause. */
+export class WriteError extends Error {
+  override name = 'WriteError';
+  readonly code: string | undefined;
+  constructor(path: string, cause: unknown, remark = '') {
+    super(`writing ${path} failed: ${writeFailureText(cause)}${remark}`);
+    this.code = (cause as NodeJS.ErrnoException).code;
   }
 }
 

@@ -196,3 +196,30 @@ export function accountedTasks(job: string): TaskState[] {
   }
   return out;
 }
+
+/** Slurm's states of a job that has ended (its processes are gone or being killed for good). */
+const endedStates = new Set(['COMPLETED', 'CANCELLED', 'FAILED', 'TIMEOUT', 'NODE_FAIL', 'PREEMPTED', 'BOOT_FAIL', 'DEADLINE', 'OUT_OF_MEMORY', 'REVOKED']);
+
+/**
+ * Whether the job with this id (a plain job id: an array task's own $SLURM_JOB_ID) has ended, as
+ * `squeue` says: true when the controller no longer knows it or reports it in a final state;
+ * false while it is pending, running, completing, suspended or requeued, and when squeue cannot
+ * tell (the caller then treats the job as alive).
+ */
+export function jobEnded(job: string): boolean {
+  if (!/^\d+$/.test(job)) return false;
+  let r: Output;
+  try {
+    r = call('squeue', ['-h', '-t', 'all', '-j', job, '-o', '%A|%T']);
+  } catch {
+    return false;
+  }
+  if (r.code !== 0) return /invalid job id/i.test(r.stderr);
+  // `-j` with an array's own id lists all of its tasks: keep the line of this job id
+  const states = r.stdout
+    .split('\n')
+    .map((l) => l.trim().split('|'))
+    .filter(([id, state]) => id === job && state)
+    .map(([, state]) => state);
+  return states.every((s) => endedStates.has(s.replace(/\+$/, '')));
+}

@@ -89,6 +89,8 @@ export interface TaskResult {
   host: string;
   /** Why the run was asked to stop, when it was: `time-limit` (Slurm's warning signal) or `terminated`. */
   stop?: 'time-limit' | 'terminated';
+  /** The task left its run folder alone: another writer held the folder's lock (`error` names it). */
+  held?: boolean;
   result?: RunResult;
   /** An error before or outside the run (a case that no longer builds, a folder that cannot be used). */
   error?: string;
@@ -530,6 +532,10 @@ function judgeTask(collection: string, job: JobRecord, task: JobTask): TaskOutco
   const checkpointed = existsSync(join(dir, 'checkpoint.bin')) || existsSync(join(dir, 'checkpoint.previous.bin'));
   const resume = checkpointed ? 'its checkpoint is kept' : 'no checkpoint yet: it starts again';
   const withResult = result ? { result } : {};
+  // another writer held the run folder: nothing was touched; the task can run once that writer is gone
+  if (fresh?.held) {
+    return { ...base, ...withResult, status: 'failed', reason: `the task left its run folder alone: ${fresh.error ?? 'another process writes it'}; ${resume}${where}`, resubmit: true };
+  }
   // the run ended by itself with a failure (numerical, or a case that no longer builds)
   if (fresh && !fresh.stop && (fresh.error !== undefined || result?.status === 'failed')) {
     return { ...base, ...withResult, status: 'failed', reason: `the run failed: ${fresh.error ?? result?.failure ?? run.failure ?? 'no reason recorded'}${where}`, resubmit: false };

@@ -2,6 +2,11 @@
  * One task of a job array, on a compute node (`branchline task FOLDER`, started by the job
  * script): the run of task $SLURM_ARRAY_TASK_ID, in its own run folder.
  *
+ *  - The task holds the run folder's lock (src/run/lock.ts) from before it reads the folder until
+ *    its last file is written: a live writer on this node makes it refuse, and so does a writer on
+ *    another node unless that writer ran in a Slurm job that the scheduler says has ended (an
+ *    earlier task of this run, killed with its node, by the time limit, by scancel, ...): such a
+ *    lock is stale and taken over. A user's `resume` on the login node is never taken over.
  *  - A run folder holding a stopped, failed or killed run with a usable checkpoint is resumed
  *    from it (a resubmission continues where the task was); a folder holding a finished run is
  *    left as it is; otherwise the run starts (replacing only an earlier attempt of our own that
@@ -14,14 +19,19 @@
  *
  * Exit code 0 when the run finished, 1 otherwise (the outcome is in the files either way).
  */
-import { existsSync, readFileSync, readdirSync } from 'node:fs';
+import { existsSync, readFileSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { resolve } from 'node:path';
 import { prepareResume, runSession } from '../run/batch.js';
 import { prepareCaseObject } from '../run/case.js';
+import { InputError } from '../run/errors.js';
+import { makeFolder, removeIfEmpty } from '../run/folders.js';
+import { FolderLock, LockedError, type WriterIdentity, holderText } from '../run/lock.js';
+import { folderEntries } from '../run/run-directory.js';
 import { type ProgressView, progressView } from '../run/progress.js';
 import type { ProgressInfo } from '../run/run-case.js';
 import { writeJsonAtomic } from '../run/writers.js';
+import { jobEnded } from './commands.js';
 import { type TaskResult, progressFile, readJob, writeTaskResult } from './job.js';
 
 export interface TaskOptions {
@@ -44,6 +54,37 @@ function hasRun(dir: string): boolean {
 
 function checkpointed(dir: string): boolean {
   return existsSync(resolve(dir, 'checkpoint.bin')) || existsSync(resolve(dir, 'checkpoint.previous.bin'));
+}
+
+/**
+ * Whether the writer of a lock on another node is gone: it ran in a Slurm job that has ended, or in
+ * this very job (requeued: Slurm runs one instance of a job at a time). Writers outside Slurm (a
+ * user's resume on the login node) cannot be judged from here: never.
+ */
+export function slurmWriterGone(w: WriterIdentity): boolean {
+  const job = w['slurm-job'];
+  if (job === undefined) return false;
+  return job === process.env.SLURM_JOB_ID || jobEnded(job);
+}
+
+/** Another writer holds the task's run folder (the task touched nothing). */
+class FolderHeldError extends InputError {
+  override name = 'FolderHeldError';
+}
+
+/**
+ * Take the run folder's lock (making the folder if need be; a folder made here is removed again on
+ * a refusal). A refusal is a FolderHeldError naming the writer.
+ */
+function lockRunFolder(outDir: string, purpose: string): FolderLock {
+  const made = makeFolder(outDir);
+  try {
+    return FolderLock.acquire(outDir, { purpose, takeOverForeign: slurmWriterGone, label: outDir });
+  } catch (e) {
+    if (made) removeIfEmpty(outDir, made);
+    if (e instanceof LockedError) throw new FolderHeldError(`${outDir}: is being written by ${holderText(e.writer, e.liveness)}; the task leaves the folder alone (resubmit it once that writer has ended)`);
+    throw e;
+  }
 }
 
 export async function runTask(o: TaskOptions): Promise<number> {
@@ -84,7 +125,10 @@ export async function runTask(o: TaskOptions): Promise<number> {
     },
   };
 
+  let lock: FolderLock | undefined;
   try {
+    // the folder's lock first: what is read below stays true until the task ends
+    lock = lockRunFolder(outDir, `slurm task ${jobId}_${index}`);
     const run = hasRun(outDir) ? (JSON.parse(readFileSync(resolve(outDir, 'run.json'), 'utf8')) as { status?: string }) : undefined;
     if (run?.status === 'finished') {
       o.write('the run has already finished; nothing to do\n');
@@ -92,17 +136,16 @@ export async function runTask(o: TaskOptions): Promise<number> {
     }
     let result;
     if (run && checkpointed(outDir)) {
-      // the task was here before: continue from its checkpoint (no live writer can hold the folder:
-      // the scheduler ended the earlier task before this one started)
-      const { prepared, plan } = await prepareResume(outDir, { force: true });
+      // the task was here before: continue from its checkpoint, under the lock taken above
+      const { prepared, plan } = await prepareResume(outDir, { lock });
       for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
-      view.log(undefined, 'info', `resuming from ${plan.file} (${plan.checkpoint.ledger.points} points; the run was ${plan.previousStatus})`);
-      result = await runSession(prepared, { outDir, signal: o.signal, view, name: task.name, resume: plan });
+      view.log(undefined, 'info', `resuming from ${plan.file} (${plan.checkpoint?.ledger.points ?? 0} points; the run was ${plan.previousStatus})`);
+      result = await runSession(prepared, { outDir, signal: o.signal, view, name: task.name, resume: plan, lock });
     } else {
       const prepared = await prepareCaseObject(task.doc, { label: task.label, baseDir: task.baseDir, ...(task.file !== undefined ? { file: task.file } : {}) });
       // an earlier attempt that left no checkpoint is replaced (only a run of ours: see RunDirectory.create)
-      const earlier = existsSync(outDir) && readdirSync(outDir).length > 0;
-      result = await runSession(prepared, { outDir, force: earlier, signal: o.signal, view, name: task.name });
+      const earlier = folderEntries(outDir).length > 0;
+      result = await runSession(prepared, { outDir, force: earlier, signal: o.signal, view, name: task.name, lock });
     }
     if (last) saveProgress(last);
     const stop = result.status === 'stopped' ? o.stopCause() : undefined;
@@ -112,10 +155,11 @@ export async function runTask(o: TaskOptions): Promise<number> {
   } catch (e) {
     const message = e instanceof Error ? e.message.split('\n')[0] : String(e);
     const stop = o.signal.aborted ? o.stopCause() : undefined;
-    writeTaskResult(collection, { ...base, ...(stop ? { stop } : {}), error: message });
+    writeTaskResult(collection, { ...base, ...(stop ? { stop } : {}), ...(e instanceof FolderHeldError ? { held: true } : {}), error: message });
     o.write(`branchline: ${message}\n`);
     return 1;
   } finally {
+    lock?.release();
     view.close();
   }
 }

@@ -9,32 +9,20 @@
  * The kill instants are drawn at random (printed with any failure): the run is killed when its
  * branch files have reached a random fraction of their final size, after a random extra delay.
  */
-import { type ChildProcess, spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import type { ChildProcess } from 'node:child_process';
+import { existsSync, mkdtempSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join, resolve } from 'node:path';
+import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { ensureBuilt } from './built.js';
-import { readCsv, readNpy } from '../../src/run/writers.js';
+import { type Ended, json, sleep, start, switchingCase } from './processes.js';
+import { expectSameFiles as expectReference } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-kill-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
-const bin = resolve('bin/branchline.js');
 
-const caseText = `name: kill-me
-model: allen-cahn
-grid: {intervals: [64]}
-parameters: {lambda: 1}
-continuation:
-  parameter: lambda
-  bounds: [0, 45]
-  step: {initial: 0.5, min: 1.0e-8, max: 1}
-  max-points: 80
-  branch-switching: {depth: 1}
-stability: {eigenvalues: 2}
-checkpoint: {every-points: 3, every-seconds: 0.05}
-`;
+const caseText = switchingCase('kill-me', '{every-points: 3, every-seconds: 0.05}');
 const caseFile = join(tmp, 'kill-me.yaml');
 const reference = join(tmp, 'reference');
 
@@ -52,25 +40,6 @@ function csvBytes(dir: string): number {
   return total;
 }
 
-interface Ended {
-  code: number | null;
-  signal: NodeJS.Signals | null;
-  out: string;
-  err: string;
-}
-
-function start(args: string[]): { child: ChildProcess; ended: Promise<Ended> } {
-  const child = spawn(process.execPath, [bin, ...args], { stdio: ['ignore', 'pipe', 'pipe'] });
-  let out = '';
-  let err = '';
-  child.stdout!.on('data', (d: Buffer) => (out += d.toString()));
-  child.stderr!.on('data', (d: Buffer) => (err += d.toString()));
-  const ended = new Promise<Ended>((done) => child.on('exit', (code, signal) => done({ code, signal, out, err })));
-  return { child, ended };
-}
-
-const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
-
 /** Send `signal` once the run's branch files reach `bytes` (plus `extraMs`); false when the run ended first. */
 async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: string, bytes: number, extraMs: number, signal: NodeJS.Signals): Promise<boolean> {
   let done = false;
@@ -81,47 +50,8 @@ async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: 
   return p.child.kill(signal);
 }
 
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 
-/** Every number of the branch files, points.json and the special solutions within 1e-10 of the reference's. */
-function expectSameFiles(dir: string, what: string): void {
-  const files = readdirSync(join(reference, 'branches')).sort();
-  expect(readdirSync(join(dir, 'branches')).sort(), what).toEqual(files);
-  let worst = 0;
-  const compare = (a: number, b: number, where: string): void => {
-    if (Object.is(a, b)) return;
-    const d = Math.abs(a - b) / Math.max(1, Math.abs(b));
-    if (!(d <= 1e-10)) expect.fail(`${what}: ${where}: ${a} differs from the uninterrupted run's ${b}`);
-    worst = Math.max(worst, d);
-  };
-  for (const f of files) {
-    const a = readCsv(join(dir, 'branches', f));
-    const b = readCsv(join(reference, 'branches', f));
-    expect(a.columns, `${what}: ${f}`).toEqual(b.columns);
-    expect(a.rows.length, `${what}: rows of ${f}`).toBe(b.rows.length);
-    a.rows.forEach((row, i) => row.forEach((v, j) => compare(v, b.rows[i][j], `${f} row ${i + 1} ${b.columns[j]}`)));
-  }
-  const pa = json(join(dir, 'points.json')).points as Record<string, any>[];
-  const pb = json(join(reference, 'points.json')).points as Record<string, any>[];
-  expect(pa.map((p) => [p.kind, p.branch, p.solution]), `${what}: special points`).toEqual(pb.map((p) => [p.kind, p.branch, p.solution]));
-  pa.forEach((p, i) => {
-    compare(p.value, pb[i].value, `points.json ${p.kind} on branch ${p.branch}`);
-    for (const [m, v] of Object.entries(pb[i].monitors as Record<string, number>)) compare(p.monitors[m], v, `points.json ${p.kind} ${m}`);
-    if (p.solution) {
-      const na = readNpy(join(dir, p.solution));
-      const nb = readNpy(join(reference, p.solution));
-      expect(na.shape).toEqual(nb.shape);
-      na.data.forEach((v, k) => compare(v, nb.data[k], `${p.solution}[${k}]`));
-    }
-  });
-  expect(readdirSync(join(dir, 'solutions')).sort(), `${what}: solution files`).toEqual(readdirSync(join(reference, 'solutions')).sort());
-  const run = json(join(dir, 'run.json'));
-  expect(run.status, what).toBe('finished');
-  expect(run.counts, what).toEqual(json(join(reference, 'run.json')).counts);
-  // a finished run keeps no checkpoint (nothing is left to resume)
-  expect(existsSync(join(dir, 'checkpoint.bin')), what).toBe(false);
-  expect(worst).toBeLessThanOrEqual(1e-10);
-}
+const expectSameFiles = (dir: string, what: string): void => expectReference(dir, reference, what);
 
 let totalBytes = 0;
 

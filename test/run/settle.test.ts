@@ -148,10 +148,12 @@ describe('stopping and resuming a time integration', () => {
     const stopped = await settleCase(prepared, { outDir: parts, signal: controller.signal, progress: (p) => p.step === 70 && controller.abort() });
     expect(stopped.status).toBe('stopped');
     expect(json(join(parts, 'run.json')).status).toBe('stopped');
-    const { prepared: again, outDir, resume } = await prepareSettleResume(parts);
+    // resuming takes the folder's lock first; the caller hands it on and releases it
+    const { prepared: again, outDir, resume, lock } = await prepareSettleResume(parts);
     // the checkpoint is the last sync point before the stop
     expect(resume.checkpoint.ledger.points).toBe(50);
-    const done = await settleCase(again, { outDir, resume });
+    const done = await settleCase(again, { outDir, resume, lock });
+    lock.release();
     expect(done.status).toBe('finished');
     expect(readFileSync(join(parts, 'monitors.csv'), 'utf8')).toBe(readFileSync(join(whole, 'monitors.csv'), 'utf8'));
     expect(readFileSync(join(parts, 'solutions/final.npy'))).toEqual(readFileSync(join(whole, 'solutions/final.npy')));

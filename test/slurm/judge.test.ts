@@ -20,7 +20,7 @@ interface Setup {
   state?: Omit<TaskState, 'job' | 'task'>;
   run?: { status: string; failure?: string };
   checkpoint?: boolean;
-  result?: { stop?: 'time-limit' | 'terminated'; status?: 'finished' | 'failed' | 'stopped'; failure?: string; error?: string };
+  result?: { stop?: 'time-limit' | 'terminated'; status?: 'finished' | 'failed' | 'stopped'; failure?: string; error?: string; held?: boolean };
   log?: string;
 }
 
@@ -46,13 +46,14 @@ function judge(s: Setup) {
   };
   writeFileSync(join(slurm, 'job.json'), JSON.stringify(job));
   if (s.result) {
-    const { stop, error, ...r } = s.result;
+    const { stop, error, held, ...r } = s.result;
     writeTaskResult(collection, {
       job: '7',
       task: 0,
       host: 'node1',
       ...(stop ? { stop } : {}),
       ...(error !== undefined ? { error } : {}),
+      ...(held ? { held } : {}),
       ...(r.status ? { result: { status: r.status, directory: run, record: {}, ledger: { branches: [], specials: [], points: 0, solutions: 0, warnings: [], csvLengths: {} }, seconds: 1, ...(r.failure ? { failure: r.failure } : {}) } } : {}),
     });
   }
@@ -107,6 +108,16 @@ describe('the end of a task, in words', () => {
     expect(o.status).toBe('failed');
     expect(o.reason).toBe('the run failed: branch 1 ended: Newton failed (Slurm: FAILED, NonZeroExitCode, exit code 1:0)');
     expect(o.resubmit).toBe(false);
+  });
+
+  it('a task that found its run folder held by another writer touched nothing and is resubmitted', () => {
+    const error = '/c/case-a: is being written by process 812 (resume, since 2026-01-01T00:00:00.000Z) on host login1, which cannot be checked from here; the task leaves the folder alone (resubmit it once that writer has ended)';
+    const o = judge({ state: { state: 'FAILED', reason: 'NonZeroExitCode', exitCode: '1:0' }, run: { status: 'stopped' }, checkpoint: true, result: { error, held: true } });
+    expect(o.status).toBe('failed');
+    expect(o.reason).toBe(`the task left its run folder alone: ${error}; its checkpoint is kept (Slurm: FAILED, NonZeroExitCode, exit code 1:0)`);
+    expect(o.resubmit).toBe(true);
+    // the same error without `held` is a run that cannot start (not resubmitted)
+    expect(judge({ state: { state: 'FAILED', reason: 'NonZeroExitCode', exitCode: '1:0' }, run: { status: 'stopped' }, checkpoint: true, result: { error } }).resubmit).toBe(false);
   });
 
   it('a task that died before its run started shows the end of its log', () => {

@@ -10,6 +10,11 @@
  *  - a sweep whose tasks are cancelled mid-run (scancel) and signalled as Slurm does before a
  *    time limit (SIGUSR2) is reported with the scheduler's words, resubmitted, and ends with the
  *    same files as the sweep run here;
+ *  - a task holds its run folder's lock while it writes (the lock names its Slurm job) and
+ *    releases it when it stops; resubmitted, it leaves alone a folder held by a writer on another
+ *    node (one in a Slurm job still running, or one outside Slurm), touching nothing and saying
+ *    who holds it, and takes the lock over once the scheduler says that writer's job has ended,
+ *    resuming to the same files as a run here;
  *  - a task's memory estimate is what sbatch receives as --mem (scontrol shows it), and --memory
  *    replaces it;
  *  - a bad partition is refused with one line, before anything is written.
@@ -19,10 +24,11 @@
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { hostname, tmpdir } from 'node:os';
 import { join, relative, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { prepareCase } from '../../src/run/case.js';
+import { lockFile } from '../../src/run/lock.js';
 import { parseRecord } from '../../src/slurm/commands.js';
 import { readJob, readTaskResult, taskMemoryMiB } from '../../src/slurm/job.js';
 import { slurm } from './cluster.js';
@@ -88,6 +94,37 @@ function expectSameRun(here: string, there: string): void {
 function jobOf(collection: string, submission = -1): string {
   const job = readJob(collection);
   return job.submissions.at(submission)!.job;
+}
+
+/**
+ * An invented damp pile cooled through its faces: long enough (400 to 600 points on a 64 × 64
+ * grid, with eigenvalues: about ten seconds per task on an idle machine, against progress written
+ * every two seconds) to be caught mid-run; checkpoints every 5 points.
+ */
+function pileCase(name: string): string {
+  return `name: ${name}
+model: bratu
+boundary: robin
+grid: {intervals: [64, 64]}
+parameters: {lambda: 0.2, biot: 2}
+continuation:
+  parameter: lambda
+  bounds: [0, 10]
+  step: {initial: 0.01, min: 1.0e-8, max: 0.01}
+  max-points: 2000
+  stop-when: [{monitor: max, above: 4}]
+stability: {eigenvalues: 2}
+checkpoint: {every-points: 5}
+`;
+}
+
+/** Points a task has computed, as its progress file says (0 before the first write). */
+function progressOf(collection: string, task: number): number {
+  try {
+    return (JSON.parse(readFileSync(join(collection, 'slurm', 'progress', `${task}.json`), 'utf8')) as { points: number }).points;
+  } catch {
+    return 0;
+  }
 }
 
 describe.skipIf(!slurm.ready)(`runs sent to Slurm (${slurm.title})`, () => {
@@ -179,38 +216,13 @@ stability: {eigenvalues: 3}
 
   it('a sweep whose tasks are cancelled and signalled mid-run is resubmitted from the checkpoints to the same files as here', async () => {
     const caseFile = join(tmp, 'pile.yaml');
-    // an invented damp pile cooled through its faces: long enough (400 to 600 points on a 64 × 64
-    // grid, with eigenvalues: about ten seconds per task on an idle machine, against progress
-    // written every two seconds) to be caught mid-run; checkpoints every 5 points
-    writeFileSync(
-      caseFile,
-      `name: pile
-model: bratu
-boundary: robin
-grid: {intervals: [64, 64]}
-parameters: {lambda: 0.2, biot: 2}
-continuation:
-  parameter: lambda
-  bounds: [0, 10]
-  step: {initial: 0.01, min: 1.0e-8, max: 0.01}
-  max-points: 2000
-  stop-when: [{monitor: max, above: 4}]
-stability: {eigenvalues: 2}
-checkpoint: {every-points: 5}
-`,
-    );
+    writeFileSync(caseFile, pileCase('pile'));
     const there = join(tmp, 'sweep-slurm');
     const r = cli(['run', caseFile, '--sweep', 'biot=1,4', '--out', there, '--slurm', '--no-wait', '--time-limit', '30']);
     expect(r.code, r.err).toBe(0);
     expect(r.out).toMatch(/Collect the results with: branchline collect /);
     const job = jobOf(there);
-    const progress = (t: number): number => {
-      try {
-        return (JSON.parse(readFileSync(join(there, 'slurm', 'progress', `${t}.json`), 'utf8')) as { points: number }).points;
-      } catch {
-        return 0;
-      }
-    };
+    const progress = (t: number): number => progressOf(there, t);
     // task 0: the signal Slurm sends before the time limit (--signal=B:USR2@...), sent now
     await until('task 0 to compute its first points', () => progress(0) >= 3);
     sh('scancel', ['--signal=USR2', '--batch', `${job}_0`]);
@@ -250,5 +262,59 @@ checkpoint: {every-points: 5}
       expectSameRun(join(here, v), join(there, v));
       expect((JSON.parse(readFileSync(join(there, v, 'run.json'), 'utf8')) as { resumed?: string[] }).resumed).toHaveLength(1);
     }
+  }, 900_000);
+  it('a resumed task holds its folder’s lock: a writer on another node is left alone until the scheduler says its job has ended', async () => {
+    const caseFile = join(tmp, 'held.yaml');
+    writeFileSync(caseFile, pileCase('held'));
+    const there = join(tmp, 'held-slurm');
+    const dir = join(there, 'held');
+    const r = cli(['run', caseFile, '--out', there, '--slurm', '--no-wait', '--time-limit', '30']);
+    expect(r.code, r.err).toBe(0);
+    const job = jobOf(there);
+    await until('the task to compute its first points', () => progressOf(there, 0) >= 3);
+    // while it writes, the task holds the folder's lock, naming its Slurm job (an array task's own id)
+    const lock = JSON.parse(readFileSync(join(dir, lockFile), 'utf8')) as Record<string, unknown>;
+    expect(lock).toMatchObject({ host: hostname(), purpose: `slurm task ${job}_0` });
+    expect(lock['slurm-job']).toMatch(/^\d+$/);
+    sh('scancel', ['--signal=USR2', '--batch', `${job}_0`]);
+    await until('the job to leave the queue', () => sh('squeue', ['-h', '-j', job]).trim() === '');
+    expect(JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8'))).toMatchObject({ status: 'stopped' });
+    expect(existsSync(join(dir, lockFile)), 'the stopped task released its lock').toBe(false);
+
+    const contents = (): Map<string, string> => new Map(files(dir).map((f) => [f, readFileSync(join(dir, f)).toString('base64')]));
+    const before = contents();
+    // a writer on another node, in a Slurm job that still runs (a job that only sleeps)
+    const sleeper = sh('sbatch', ['--parsable', '--time=10', '--mem=20', '--output=/dev/null', '--wrap', 'sleep 600']).trim().split(';')[0];
+    try {
+      await until('the sleeping job to run', () => sh('squeue', ['-h', '-j', sleeper, '-o', '%T']).trim() === 'RUNNING');
+      const foreign = (extra: Record<string, string>): void =>
+        writeFileSync(join(dir, lockFile), JSON.stringify({ pid: 4242, host: 'node-elsewhere.example', boot: 'b', 'process-start': '1', purpose: 'resume', since: '2026-01-01T00:00:00.000Z', ...extra }) + '\n');
+      // … and one outside Slurm (a user's resume on the login node): neither can be judged from here
+      for (const [holder, words] of [[{ 'slurm-job': sleeper }, ` in Slurm job ${sleeper}`], [{}, '']] as const) {
+        foreign(holder);
+        const placed = contents();
+        const refused = cli(['collect', there, '--resubmit']);
+        expect(refused.code, refused.err).toBe(1);
+        expect(refused.out + refused.err).toMatch(new RegExp(`the task left its run folder alone: .*held: is being written by process 4242 \\(resume, since 2026-01-01T00:00:00\\.000Z\\) on host node-elsewhere\\.example${words}, which cannot be checked from here; the task leaves the folder alone`));
+        expect(readTaskResult(there, 0)).toMatchObject({ held: true });
+        // nothing touched: every file, and the other writer's lock, as they were
+        expect(contents()).toEqual(placed);
+        placed.delete(lockFile);
+        expect(placed).toEqual(before);
+      }
+      // the writer's job ends (here: cancelled): its lock is stale, and the task takes it over
+      foreign({ 'slurm-job': sleeper });
+    } finally {
+      sh('scancel', [sleeper]);
+    }
+    await until('the sleeping job to leave the queue', () => sh('squeue', ['-h', '-j', sleeper]).trim() === '');
+    const resumed = cli(['collect', there, '--resubmit']);
+    expect(resumed.code, resumed.out + resumed.err).toBe(0);
+    expect(readFileSync(join(there, 'slurm', 'logs', `${jobOf(there)}_0.txt`), 'utf8')).toMatch(/resuming from checkpoint/);
+    expect(existsSync(join(dir, lockFile)), 'the finished task released its lock').toBe(false);
+    const here = join(tmp, 'held-here');
+    const local = cli(['run', caseFile, '--out', here, '--quiet']);
+    expect(local.code, local.err).toBe(0);
+    expectSameRun(here, dir);
   }, 900_000);
 });

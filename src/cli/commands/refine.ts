@@ -1,5 +1,7 @@
 import type { Command } from 'commander';
-import type { CommandContext } from '../io.js';
+import type { CommandContext, Io } from '../io.js';
+import { leaveAtOnce } from '../../run/leave.js';
+import { twoStageSignals } from './run.js';
 import { resolve } from 'node:path';
 import { caseDocument, prepareCase } from '../../run/case.js';
 import { InputError } from '../../run/errors.js';
@@ -22,6 +24,29 @@ function positiveInteger(text: string, what: string): number {
   return Number(text);
 }
 
+/** Log lines of a study on stderr (warnings only with `quiet`). */
+export function studyLog(io: Io, quiet: boolean): (level: 'info' | 'warning', message: string) => void {
+  return (level, message) => {
+    if (level === 'warning' || !quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
+  };
+}
+
+/**
+ * SIGINT/SIGTERM during a study: the first finishes the current steps and writes the files (or,
+ * `onFirst`, whatever else the first signal does: stop waiting for a scheduler); a second leaves
+ * at once, with refine.json and the runs marked `stopped` (resume goes on).
+ */
+export function studySignals(io: Io, onFirst = 'finishing the current steps and writing the files (again to leave at once)'): { signal: AbortSignal; release: () => void } {
+  return twoStageSignals(
+    (signal) => io.err(`branchline: ${signal}: ${onFirst}\n`),
+    (signal) => {
+      io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` goes on from the checkpoints\n`);
+      leaveAtOnce(`left at once on a second ${signal}; resume goes on from the checkpoints`);
+      process.exit(130);
+    },
+  );
+}
+
 /** `branchline refine CASE --grids 32,64,128`: a grid-refinement study of a special point. */
 export function registerRefine(program: Command, { io, setExit }: CommandContext): void {
   const command = program
@@ -34,7 +59,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
     .option('--jobs <n>', 'grids run side by side in this many processes (default 1)')
     .option('--expected-order <p>', 'formal order of the discretisation, checked against the observed one (default 2; none for code models)')
     .option('--out <dir>', 'study folder (default runs/<case name>-refine)')
-    .option('--force', 'replace an earlier study in a non-empty output folder')
+    .option('--force', "replace an earlier study (finished, stopped or half-written) in a non-empty output folder: only the study's own files are removed")
     .option('--quiet', 'no progress lines on stderr');
   addClusterOptions(command)
     .addHelpText('after', '\nSlurm (--slurm): the grids go to Slurm as one job array; the study folder (--out) holds the grid runs and the job\'s files (slurm/); `branchline collect DIR` waits for a job submitted with --no-wait and analyses it.')
@@ -79,20 +104,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
             force: opts.force === true,
           })
         : undefined;
-      const controller = new AbortController();
-      let interrupts = 0;
-      const onSignal = (signal: NodeJS.Signals): void => {
-        interrupts++;
-        if (interrupts > 1) {
-          io.err(`branchline: second ${signal}: leaving at once\n`);
-          process.exit(130);
-        }
-        if (executor) io.err(`branchline: ${signal}: no longer waiting; the job goes on in Slurm (collect it later with: branchline collect ${outDir})\n`);
-        else io.err(`branchline: ${signal}: finishing the current steps and writing the files (again to leave at once)\n`);
-        controller.abort();
-      };
-      process.on('SIGINT', onSignal);
-      process.on('SIGTERM', onSignal);
+      const stop = studySignals(io, executor ? `no longer waiting; the job goes on in Slurm (collect it later with: branchline collect ${outDir})` : undefined);
       try {
         const result = await runStudy(prepared, {
           grids,
@@ -103,10 +115,8 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
           ...(jobs !== undefined ? { jobs } : {}),
           ...(expectedOrder !== undefined ? { expectedOrder } : {}),
           ...(opts.force ? { force: true } : {}),
-          signal: controller.signal,
-          log: (level, message) => {
-            if (level === 'warning' || !opts.quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
-          },
+          signal: stop.signal,
+          log: studyLog(io, opts.quiet === true),
         });
         if (result.status === 'submitted') {
           submittedLines(io, executor?.submission, outDir);
@@ -116,8 +126,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
           setExit(result.status === 'finished' ? 0 : 1);
         }
       } finally {
-        process.off('SIGINT', onSignal);
-        process.off('SIGTERM', onSignal);
+        stop.release();
       }
     });
 }

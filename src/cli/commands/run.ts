@@ -1,8 +1,9 @@
 import { relative } from 'node:path';
 import type { Command } from 'commander';
 import { type CommandContext, type Io, processIo } from '../io.js';
-import { type CaseOutcome, batchLines, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
+import { type CaseOutcome, batchLines, hasWorkers, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
+import { leaveAtOnce } from '../../run/leave.js';
 import { type ProgressView, progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
@@ -14,22 +15,17 @@ import { type SeveralOptions, runCasesOnSlurm, runSweep } from './several.js';
 const maxJobs = 64;
 
 /**
- * SIGINT/SIGTERM while runs go: the first stops them cleanly (the current step is finished, a
- * checkpoint written, run.json marked stopped); a second leaves at once (every run can still be
- * resumed from its last checkpoint). Returns the stop signal and a function that removes the handlers.
+ * SIGINT/SIGTERM handlers in two stages: the first signal calls `first` and aborts the returned
+ * signal (the work stops cleanly); any later one calls `second` (leave at once). Returns the stop
+ * signal and a function that removes the handlers.
  */
-export function stopOnSignals(io: Io, view: () => Pick<ProgressView, 'log' | 'close'> | undefined): { signal: AbortSignal; release: () => void } {
+export function twoStageSignals(first: (s: NodeJS.Signals) => void, second: (s: NodeJS.Signals, count: number) => void): { signal: AbortSignal; release: () => void } {
   const controller = new AbortController();
   let count = 0;
   const onSignal = (signal: NodeJS.Signals): void => {
     count++;
-    if (count > 1) {
-      view()?.close();
-      io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
-      killWorkers();
-      process.exit(130);
-    }
-    view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`);
+    if (count > 1) return second(signal, count);
+    first(signal);
     controller.abort();
   };
   return { signal: controller.signal, release: onStopSignals(onSignal) };
@@ -43,6 +39,32 @@ export function onStopSignals(handler: (signal: NodeJS.Signals) => void): () => 
     process.off('SIGINT', handler);
     process.off('SIGTERM', handler);
   };
+}
+
+/**
+ * SIGINT/SIGTERM while runs go: the first stops them cleanly (the current step is finished, a
+ * checkpoint written, run.json marked stopped); a second leaves at once (every run is marked
+ * stopped and can be resumed from its last checkpoint; worker processes are ended first).
+ */
+export function stopOnSignals(io: Io, view: () => Pick<ProgressView, 'log' | 'close'> | undefined): { signal: AbortSignal; release: () => void } {
+  return twoStageSignals(
+    (signal) => view()?.log(undefined, 'warning', `${signal}: finishing the current step, writing a checkpoint and stopping (${signal} again to leave at once)`),
+    (signal, count) => {
+      if (count > 2) process.exit(130);
+      view()?.close();
+      io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
+      // every run this call writes says `stopped` in its run.json and releases its folder's lock
+      const reason = `left at once on a second ${signal}; resume goes on from the last checkpoint`;
+      if (!hasWorkers()) {
+        leaveAtOnce(reason);
+        process.exit(130);
+      }
+      void killWorkers(reason).finally(() => {
+        leaveAtOnce(reason);
+        process.exit(130);
+      });
+    },
+  );
 }
 
 /** Whether progress bars go to a terminal (only for the real process streams). */
@@ -73,7 +95,7 @@ export function registerRun(program: Command, { io, setExit }: CommandContext): 
     .description('trace the steady states of case files and write a run directory per case (run.json, points.json, branches/*.csv, solutions/*.npy)')
     .argument('<case...>', 'case files (YAML or JSON); all are checked before any run starts')
     .option('--out <dir>', "output folder (default: the case's output.directory, else runs/<case name>); with several cases, a parent folder holding one folder per case name")
-    .option('--force', 'replace an earlier run in a non-empty output folder (only a folder holding a branchline run)')
+    .option('--force', "replace an earlier run in a non-empty output folder: only the files that run wrote (run.json lists them) are removed, yours stay")
     .option('--jobs <n>', 'run up to n cases at a time, each in its own process (default 1: one after another)')
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
@@ -89,6 +111,7 @@ that was stopped or killed, losing at most the points since its last checkpoint.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped,
 and cases not yet started are skipped; press again to leave at once (exit code 130; resume
 continues from the last checkpoint).
+One writer per folder: a folder another live process writes (its writer.lock) is refused.
 Slurm (--slurm): the cases (or the sweep's values) go to Slurm as one job array; --out DIR is
 then always a parent folder (DIR/<case name>, and the job's files in DIR/slurm). The command
 waits and shows progress (or returns at once with --no-wait); \`branchline collect DIR\` waits

@@ -11,6 +11,7 @@ import { settleView } from '../../run/settle-progress.js';
 import { type SettleResult, prepareSettleResume, settleCase, settleDirectory } from '../../run/settle.js';
 import { formatSettleSummary, settleJson } from '../../run/settle-summary.js';
 import { toJson } from '../../run/writers.js';
+import type { FolderLock } from '../../run/lock.js';
 import { onTerminal, stopOnSignals } from './run.js';
 
 /**
@@ -46,7 +47,12 @@ function report(result: SettleResult, prepared: PreparedSettleCase, json: boolea
 }
 
 /** Run (or resume) one integration here with progress and signals. */
-export async function settleSession(prepared: PreparedSettleCase, outDir: string, opts: { force?: boolean; quiet?: boolean; json?: boolean; resume?: Awaited<ReturnType<typeof prepareSettleResume>>['resume'] }, context: CommandContext): Promise<void> {
+export async function settleSession(
+  prepared: PreparedSettleCase,
+  outDir: string,
+  opts: { force?: boolean; quiet?: boolean; json?: boolean; resume?: Awaited<ReturnType<typeof prepareSettleResume>>['resume']; lock?: FolderLock },
+  context: CommandContext,
+): Promise<void> {
   const { io } = context;
   const view = settleView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err });
   const stop = stopOnSignals(io, () => view);
@@ -59,6 +65,7 @@ export async function settleSession(prepared: PreparedSettleCase, outDir: string
       log: (level, message) => view.log(undefined, level, message),
       progress: (p) => view.progress(p),
       ...(opts.resume ? { resume: opts.resume } : {}),
+      ...(opts.lock ? { lock: opts.lock } : {}),
     });
   } catch (e) {
     // the files disagree with the checkpoint (a file cut short or replaced by hand)
@@ -73,12 +80,16 @@ export async function settleSession(prepared: PreparedSettleCase, outDir: string
 
 /** `branchline resume DIR` for a time integration (called by the resume command). */
 export async function resumeSettle(dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }, context: CommandContext): Promise<void> {
-  const { prepared, outDir, resume } = await prepareSettleResume(dirGiven, { force: opts.force === true });
-  if (!opts.quiet) {
-    for (const s of resume.skipped) context.io.err(`branchline: warning: ${s}; using ${resume.file}\n`);
-    context.io.err(`branchline: resuming the integration ${prepared.case.name} (was ${resume.previousStatus}) from ${resume.file} written ${resume.checkpoint.written}: ${resume.checkpoint.ledger.points} steps\n`);
+  const { prepared, outDir, resume, lock } = await prepareSettleResume(dirGiven, { force: opts.force === true });
+  try {
+    if (!opts.quiet) {
+      for (const s of resume.skipped) context.io.err(`branchline: warning: ${s}; using ${resume.file}\n`);
+      context.io.err(`branchline: resuming the integration ${prepared.case.name} (was ${resume.previousStatus}) from ${resume.file} written ${resume.checkpoint.written}: ${resume.checkpoint.ledger.points} steps\n`);
+    }
+    await settleSession(prepared, outDir, { quiet: opts.quiet === true, json: opts.json === true, resume, lock }, context);
+  } finally {
+    lock.release();
   }
-  await settleSession(prepared, outDir, { quiet: opts.quiet === true, json: opts.json === true, resume }, context);
 }
 
 /** `branchline settle CASE`: integrate in time until the state settles. */
@@ -88,7 +99,7 @@ export function registerSettle(program: Command, context: CommandContext): void 
     .description('integrate a case in time from its initial state until it settles into a steady state (or is seen to oscillate, drift or blow up); writes a run folder')
     .argument('<case>', 'a case file (YAML or JSON) with a time: section (time: {end: T, ...})')
     .option('--out <dir>', "output folder (default: the case's output.directory, else runs/<case name>)")
-    .option('--force', 'replace an earlier run in a non-empty output folder (only a folder holding a branchline run)')
+    .option('--force', "replace an earlier run in a non-empty output folder: only the files that run wrote (run.json lists them) are removed, yours stay")
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
     .addHelpText(
