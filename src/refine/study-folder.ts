@@ -36,8 +36,6 @@ export interface StudyPlan {
   /** The special point asked for (null: the first fold). */
   point: PointSpec | null;
   branch: number;
-  /** false: a curve run's study without --branch (the curve holding the point is analysed). */
-  branchGiven?: boolean;
   expectedOrder: number | null;
   jobs: number;
   /** Each grid's intervals per axis and its folder (relative to the study folder). */
@@ -52,7 +50,6 @@ export function planJson(p: StudyPlan): Record<string, unknown> {
     grids: p.grids,
     point: p.point ? pointSpecText(p.point) : null,
     branch: p.branch,
-    ...(p.branchGiven === false ? { 'branch-given': false } : {}),
     'expected-order': p.expectedOrder,
     jobs: p.jobs,
   };
@@ -103,7 +100,6 @@ export function readStudyPlan(dir: string, label: string): { plan: StudyPlan; do
       grids: grids as number[],
       point: point ?? null,
       branch: Number.isInteger(p!.branch) ? (p!.branch as number) : 1,
-      ...(p!['branch-given'] === false ? { branchGiven: false } : {}),
       expectedOrder: typeof expected === 'number' ? expected : null,
       jobs: Number.isInteger(p!.jobs) && (p!.jobs as number) > 0 ? (p!.jobs as number) : 1,
       runs: plannedRuns,
