@@ -15,6 +15,8 @@ import { settleCase } from '../src/run/settle.js';
 import { parseXml, findAll } from './plot/xml-check.js';
 import { readCsv, readNpy } from '../src/run/writers.js';
 import { ignitionLimit } from './continuation/curves/helpers.js';
+import { denseJacobian } from './discretisations/helpers.js';
+import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-cases-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -63,6 +65,33 @@ function checkDiagram(out: string, kinds: string[]) {
   for (const b of run.branches) expect(findAll(root, 'path', { 'data-branch': String(b.id) }).length).toBeGreaterThan(0);
   for (const k of kinds) expect(findAll(root, 'g', { 'data-role': 'special-point', 'data-kind': k }).length).toBeGreaterThan(0);
   return root;
+}
+
+/**
+ * Every solution a curve run of the bundled case `name` (on `intervals`) saved, read back and
+ * re-evaluated at the point's two parameter values with the case's problem built afresh: the
+ * model's residual at round-off, and the dense Jacobian singular (on a fold or branch-point
+ * curve) — its eigenvalue nearest zero (ml-matrix) tiny against the Jacobian's scale.
+ */
+async function recheckCurveSolutions(name: string, intervals: number[] | undefined, r: Awaited<ReturnType<typeof run>>): Promise<number> {
+  const { file, doc } = bundled(name);
+  if (intervals) doc.grid = { ...doc.grid, intervals };
+  const { problem, params } = await prepareCaseObject(doc, { label: file, file, baseDir: folder });
+  const saved = r.points.filter((p) => p.solution);
+  for (const p of saved) {
+    const at = { ...params, [p.parameter]: p.value, [p['free-parameter']]: p.free };
+    const { shape, data } = readNpy(join(r.out, p.solution));
+    const u = problem.fromNodeArray(shape, data, at);
+    const f = new Float64Array(u.length);
+    problem.residual(u, at, f);
+    const J = denseJacobian(problem, u, at);
+    const scale = Math.max(...J.map((row) => Math.max(...row.map(Math.abs))));
+    expect(Math.max(...f.map(Math.abs)) / scale, p.solution).toBeLessThan(1e-10);
+    const e = new EigenvalueDecomposition(new Matrix(J));
+    const nearest = Math.min(...e.realEigenvalues.map((re, i) => Math.hypot(re, e.imaginaryEigenvalues[i])));
+    expect(nearest / scale, p.solution).toBeLessThan(1e-9);
+  }
+  return saved.length;
 }
 
 const discreteEigenvalue = (n: number, h: number) => (4 / h ** 2) * Math.sin((n * Math.PI * h) / 2) ** 2; // LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory
@@ -170,6 +199,7 @@ describe('smoke runs of the bundled curve cases', () => {
     expect(Math.abs(low.free / ((2 * 0.01) / Math.E) - 1)).toBeLessThan(0.01);
     const root = checkDiagram(r.out, ['end']);
     expect(findAll(root, 'g', { 'data-role': 'caution' })).toHaveLength(1);
+    expect(await recheckCurveSolutions('slab-ignition-limit', [100], r)).toBeGreaterThanOrEqual(2);
   });
 
   it('rail-imperfection (on 100 intervals here): the limit load falls below the perfect rail’s buckling load like imperfection^(2/3)', async () => {
@@ -187,6 +217,7 @@ describe('smoke runs of the bundled curve cases', () => {
     const slope = small.reduce((a, p) => a + (p[0] - mx) * (p[1] - my), 0) / small.reduce((a, p) => a + (p[0] - mx) ** 2, 0);
     // Koiter 1945: the two-thirds power law (up to higher-order terms at imperfection 1e-3)
     expect(Math.abs(slope - 2 / 3)).toBeLessThan(0.03);
+    expect(await recheckCurveSolutions('rail-imperfection', [100], r)).toBeGreaterThanOrEqual(2);
   });
 
   it('turing-lines: the critical mode changes where the lines of neighbouring modes cross', async () => {
@@ -203,6 +234,8 @@ describe('smoke runs of the bundled curve cases', () => {
       expect(Math.abs(c.value - Math.sqrt(8 * q2(m1) * q2(m2)))).toBeLessThan(1e-9);
     }
     checkDiagram(r.out, ['mode-change']);
+    // the saved states (the uniform state at the mode changes and ends) are singular steady states
+    expect(await recheckCurveSolutions('turing-lines', undefined, r)).toBeGreaterThanOrEqual(changes.length);
   });
 
   it('gel-oscillations (on 10 intervals here): the oscillation boundary, subcritical above the Bautin point and supercritical below, ending at the Bogdanov–Takens point', async () => {

@@ -176,6 +176,63 @@ continuation:
   });
 });
 
+// the slab's fold in lambda at biot = 1 (a one-parameter run), then its fold curve in (biot, lambda)
+const slabBranch = `name: slab
+model: bratu
+boundary: robin
+grid: {intervals: [20]}
+parameters: {lambda: 0.1, biot: 1}
+continuation:
+  parameter: lambda
+  bounds: [0, 5]
+  step: {initial: 0.1, max: 0.2}
+  max-points: 40
+`;
+const slabCurve = (name: string, first: string) => `name: ${name}
+model: bratu
+boundary: robin
+grid: {intervals: [20]}
+${first}
+continuation:
+  follow: fold
+  parameter: biot
+  bounds: [0.5, 2]
+  direction: both
+  free: lambda
+  step: {initial: 0.05, max: 0.2}
+`;
+
+describe('curve runs: from the fold of an earlier run, and several at a time', () => {
+  it('start: {run, point: fold} begins the curve at that fold; it matches the curve found by searching, both run with --jobs 2', async () => {
+    ensureBuilt();
+    const branch = join(tmp, 'slab-branch');
+    const r0 = await cli('run', write('slab-branch.yaml', slabBranch), '--out', branch, '--quiet');
+    expect(r0.code, r0.err).toBe(0);
+    const fold = (json(join(branch, 'points.json')).points as Record<string, any>[]).find((p) => p.kind === 'fold')!;
+    expect(fold).toBeDefined();
+    const from = write('slab-from-fold.yaml', slabCurve('slab-from-fold', `start: {run: ${branch}, point: fold}`));
+    const searched = write('slab-searched.yaml', slabCurve('slab-searched', 'parameters: {lambda: 0.1, biot: 1}'));
+    const parent = join(tmp, 'slab-curves');
+    const r = await cli('run', from, searched, '--out', parent, '--jobs', '2', '--quiet');
+    expect(r.code, r.err).toBe(0);
+    expect(r.out).toMatch(/2 cases: 2 finished/);
+    const a = json(join(parent, 'slab-from-fold', 'run.json'));
+    expect(a.case.start).toMatchObject({ point: 'fold:1', branch: 1 });
+    expect(a['start-parameters']).toMatchObject({ biot: 1 });
+    // the first point is the earlier run's fold: converged there at once, no search
+    const first = readCsv(join(parent, 'slab-from-fold', 'branches', '1.csv'));
+    expect(first.rows[0].slice(2, 4)).toEqual([1, fold.value]);
+    // both ways from it to the bounds, and on the same curve as the run that searched for the fold
+    for (const f of ['1.csv', '2.csv']) {
+      const x = readCsv(join(parent, 'slab-from-fold', 'branches', f)).rows;
+      const y = readCsv(join(parent, 'slab-searched', 'branches', f)).rows;
+      expect(x[x.length - 1][2]).toBe(y[y.length - 1][2]);
+      expect([0.5, 2]).toContain(x[x.length - 1][2]);
+      expect(Math.abs(x[x.length - 1][3] - y[y.length - 1][3])).toBeLessThan(1e-9);
+    }
+  });
+});
+
 function csvBytes(dir: string): number {
   const b = join(dir, 'branches');
   if (!existsSync(b)) return 0;
