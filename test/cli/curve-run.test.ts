@@ -219,9 +219,11 @@ describe('curve runs: from the fold of an earlier run, and several at a time', (
     const a = json(join(parent, 'slab-from-fold', 'run.json'));
     expect(a.case.start).toMatchObject({ point: 'fold:1', branch: 1 });
     expect(a['start-parameters']).toMatchObject({ biot: 1 });
-    // the first point is the earlier run's fold: converged there at once, no search
+    // the first point is the earlier run's fold (no search; the curve's own Newton test may polish
+    // it in the last digits)
     const first = readCsv(join(parent, 'slab-from-fold', 'branches', '1.csv'));
-    expect(first.rows[0].slice(2, 4)).toEqual([1, fold.value]);
+    expect(first.rows[0][2]).toBe(1);
+    expect(Math.abs(first.rows[0][3] - fold.value)).toBeLessThan(1e-12 * Math.abs(fold.value));
     // both ways from it to the bounds, and on the same curve as the run that searched for the fold
     for (const f of ['1.csv', '2.csv']) {
       const x = readCsv(join(parent, 'slab-from-fold', 'branches', f)).rows;
