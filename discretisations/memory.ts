@@ -14,11 +14,30 @@
  * 4-byte index), and a factor of 1.5 covers pivoting growth and workspace (common practice).
  * Measured against the project's sparse LU (nested-dissection ordering) on Laplacian-type grids
  * — 2D 64² to 256², 3D 16³ to 40³, two-field 2D 128² — the entry estimate was 1.1 to 2 times the
- * actual L+U count: it errs on the safe side.
+ * actual L+U count: it errs on the safe side (3D Bratu, Dirichlet: 2.0 at 16³ intervals, 1.8 at
+ * 20³, 1.7 at 26³ and 32³, 1.6 at 40³).
+ *
+ * The same recursion counts the work of one factorisation: eliminating a separator of s nodes
+ * with b boundary nodes in its front costs about (2/3)((s + b)³ − b³) operations, which gives
+ * the known ~n^(3/2) for 2D and ~n² for 3D grids (George 1973; Lipton, Rose & Tarjan 1979 for
+ * 3D, from memory). 3D grids are limited by this work long before their memory: 52³ intervals
+ * need 2.5 GiB (under the limit) but 2.2e11 operations, over four minutes per factorisation.
  */
 
 /** Default ceiling for the factor memory: the solver runs in 32-bit WebAssembly (4 GiB address space). */
 export const defaultFactorMemoryLimit = 3 * 1024 ** 3;
+
+/**
+ * Default ceiling for the work of one factorisation, in floating-point operations. The solver's
+ * left-looking kernel (no dense blocks) was measured at 0.85–0.93 Gflop/s on 3D Bratu grids of
+ * 32³ and 40³ intervals (this model's counts against the factorisation's CPU time on the
+ * project's reference machine): 1e11 is about two minutes per factorisation, and a point needs
+ * several (Newton iterations, the tangent, the eigenvalues).
+ */
+export const defaultFactorWorkLimit = 1e11;
+
+/** The solver's measured speed on large grids (floating-point operations per second, see above). */
+export const measuredFactorRate = 0.9e9;
 
 export interface FactorMemoryEstimate {
   readonly unknowns: number;
@@ -26,12 +45,23 @@ export interface FactorMemoryEstimate {
   readonly factorEntries: number;
   /** Estimated bytes for the factorisation (entries × 12 bytes × 1.5). */
   readonly bytes: number;
+  /** Estimated floating-point operations of one factorisation. */
+  readonly flops: number;
 }
 
-/** Lower-triangle fill of nested dissection on a box with dims d and b boundary nodes. */
-function boxFill(d: number[], b: number, memo: Map<string, number>): number {
+/**
+ * Floating-point operations of eliminating a separator of s nodes whose front also holds b
+ * boundary nodes: each pivot updates the remaining (front − 1)² entries (2 operations each),
+ * Σ 2(s − k + b)² ≈ (2/3)((s + b)³ − b³).
+ */
+function frontWork(s: number, b: number): number {
+  return (2 / 3) * ((s + b) ** 3 - b ** 3);
+}
+
+/** Lower-triangle fill and elimination work of nested dissection on a box with dims d and b boundary nodes. */
+function boxFill(d: number[], b: number, memo: Map<string, { fill: number; work: number }>): { fill: number; work: number } {
   const n = d.reduce((a, x) => a * x, 1);
-  if (n === 0) return 0;
+  if (n === 0) return { fill: 0, work: 0 };
   let surface = 0;
   if (d.length === 1) surface = 2;
   else if (d.length === 2) surface = 2 * (d[0] + d[1]);
@@ -40,9 +70,9 @@ function boxFill(d: number[], b: number, memo: Map<string, number>): number {
   const key = `${d.join(',')}|${Math.round(bb)}`;
   const hit = memo.get(key);
   if (hit !== undefined) return hit;
-  let result: number;
+  let result: { fill: number; work: number };
   if (n <= 8) {
-    result = (n * (n + 1)) / 2 + n * bb;
+    result = { fill: (n * (n + 1)) / 2 + n * bb, work: frontWork(n, bb) };
   } else {
     let a = 0;
     for (let k = 1; k < d.length; k++) if (d[k] > d[a]) a = k;
@@ -54,7 +84,9 @@ function boxFill(d: number[], b: number, memo: Map<string, number>): number {
     const dr = d.slice();
     dr[a] = right;
     const childB = bb / 2 + s;
-    result = (s * (s + 1)) / 2 + s * bb + boxFill(dl, childB, memo) + boxFill(dr, childB, memo);
+    const l = boxFill(dl, childB, memo);
+    const r = boxFill(dr, childB, memo);
+    result = { fill: (s * (s + 1)) / 2 + s * bb + l.fill + r.fill, work: frontWork(s, bb) + l.work + r.work };
   }
   memo.set(key, result);
   return result;
@@ -68,16 +100,43 @@ export function estimateFactorMemory(nodesPerAxis: readonly number[], unknownsPe
   const d = nodesPerAxis.map((x) => Math.max(1, Math.round(x)));
   const nodes = d.reduce((a, x) => a * x, 1);
   const m = unknownsPerNode;
-  const lower = boxFill(d, 0, new Map()) * m * m;
+  const box = boxFill(d, 0, new Map());
+  const lower = box.fill * m * m;
   const n = nodes * m + extraUnknowns;
   const entries = 2 * lower - nodes * m + 2 * extraUnknowns * n;
-  return { unknowns: n, factorEntries: entries, bytes: entries * 12 * 1.5 };
+  // m×m blocks: m³ times the scalar work; each extra dense row and column is updated once per entry of L
+  const flops = box.work * m ** 3 + 2 * extraUnknowns * lower;
+  return { unknowns: n, factorEntries: entries, bytes: entries * 12 * 1.5, flops };
 }
 
 function formatBytes(b: number): string {
   if (b >= 1024 ** 3) return `${(b / 1024 ** 3).toFixed(1)} GiB`;
   if (b >= 1024 ** 2) return `${(b / 1024 ** 2).toFixed(0)} MiB`;
   return `${Math.ceil(b / 1024)} KiB`;
+}
+
+/** `2.2e11`. */
+function flopText(f: number): string {
+  return f.toExponential(1).replace('e+', 'e');
+}
+
+/** `4 minutes`, `50 s`. */
+function durationText(seconds: number): string {
+  return seconds >= 90 ? `${Math.round(seconds / 60)} minutes` : `${Math.max(1, Math.round(seconds))} s`;
+}
+
+/**
+ * Throw a one-line Error when one factorisation would need more than `limitFlops` operations (see
+ * defaultFactorWorkLimit): such a run makes no visible progress for many minutes per point.
+ */
+export function assertFactorWork(estimate: FactorMemoryEstimate, what: string, limitFlops = defaultFactorWorkLimit): void {
+  if (estimate.flops > limitFlops) {
+    throw new Error(
+      `${what}: one sparse LU factorisation would need about ${flopText(estimate.flops)} floating-point operations ` +
+        `(${estimate.unknowns} unknowns), about ${durationText(estimate.flops / measuredFactorRate)} at the solver's measured ${measuredFactorRate / 1e9} Gflop/s, ` +
+        `and every point needs several; over the ${flopText(limitFlops)} limit; use fewer intervals (3D work grows like n²)`,
+    );
+  }
 }
 
 /**

@@ -14,6 +14,9 @@ import { prepareSettleCaseObject } from '../src/run/settle-case.js';
 import { settleCase } from '../src/run/settle.js';
 import { parseXml, findAll } from './plot/xml-check.js';
 import { readCsv, readNpy } from '../src/run/writers.js';
+import { ignitionLimit } from './continuation/curves/helpers.js';
+import { denseJacobian } from './discretisations/helpers.js';
+import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-cases-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -62,6 +65,33 @@ function checkDiagram(out: string, kinds: string[]) {
   for (const b of run.branches) expect(findAll(root, 'path', { 'data-branch': String(b.id) }).length).toBeGreaterThan(0);
   for (const k of kinds) expect(findAll(root, 'g', { 'data-role': 'special-point', 'data-kind': k }).length).toBeGreaterThan(0);
   return root;
+}
+
+/**
+ * Every solution a curve run of the bundled case `name` (on `intervals`) saved, read back and
+ * re-evaluated at the point's two parameter values with the case's problem built afresh: the
+ * model's residual at round-off, and the dense Jacobian singular (on a fold or branch-point
+ * curve) — its eigenvalue nearest zero (ml-matrix) tiny against the Jacobian's scale.
+ */
+async function recheckCurveSolutions(name: string, intervals: number[] | undefined, r: Awaited<ReturnType<typeof run>>): Promise<number> {
+  const { file, doc } = bundled(name);
+  if (intervals) doc.grid = { ...doc.grid, intervals };
+  const { problem, params } = await prepareCaseObject(doc, { label: file, file, baseDir: folder });
+  const saved = r.points.filter((p) => p.solution);
+  for (const p of saved) {
+    const at = { ...params, [p.parameter]: p.value, [p['free-parameter']]: p.free };
+    const { shape, data } = readNpy(join(r.out, p.solution));
+    const u = problem.fromNodeArray(shape, data, at);
+    const f = new Float64Array(u.length);
+    problem.residual(u, at, f);
+    const J = denseJacobian(problem, u, at);
+    const scale = Math.max(...J.map((row) => Math.max(...row.map(Math.abs))));
+    expect(Math.max(...f.map(Math.abs)) / scale, p.solution).toBeLessThan(1e-10);
+    const e = new EigenvalueDecomposition(new Matrix(J));
+    const nearest = Math.min(...e.realEigenvalues.map((re, i) => Math.hypot(re, e.imaginaryEigenvalues[i])));
+    expect(nearest / scale, p.solution).toBeLessThan(1e-9);
+  }
+  return saved.length;
 }
 
 const discreteEigenvalue = (n: number, h: number) => (4 / h ** 2) * Math.sin((n * Math.PI * h) / 2) ** 2; // LeVeque, Finite Difference Methods for ODEs and PDEs, SIAM 2007, §2.10, from memory
@@ -154,6 +184,86 @@ describe('the bundled case files', () => {
     expect(Object.values(models)).toEqual(
       expect.arrayContaining(['bratu 1D stability', 'bratu 2D stability', 'brusselator 2D stability', 'allen-cahn 1D stability', 'elastica 1D stability', 'beam-foundation 1D stability', 'reaction-diffusion 1D stability', 'gray-scott 2D stability time']),
     );
+  });
+});
+
+describe('smoke runs of the bundled curve cases', () => {
+  it('slab-ignition-limit (on 100 intervals here): the ignition limit against the Biot number, from Semenov’s limit to the cold-wall fold', async () => {
+    const r = await run('slab-ignition-limit', [100]);
+    expect(r.result.status).toBe('finished');
+    const ends = r.points.filter((p) => p.kind === 'end');
+    expect(ends.map((p) => p.value).sort((a, b) => a - b)).toEqual([0.01, 100]);
+    for (const e of ends) expect(Math.abs(e.free / ignitionLimit(e.value) - 1)).toBeLessThan(2e-4); // the closed form (slab.test.ts)
+    // Semenov 1928 (from memory): λ* → 2·Bi/e for a nearly isothermal slab
+    const low = ends.find((p) => p.value === 0.01)!;
+    expect(Math.abs(low.free / ((2 * 0.01) / Math.E) - 1)).toBeLessThan(0.01);
+    const root = checkDiagram(r.out, ['end']);
+    expect(findAll(root, 'g', { 'data-role': 'caution' })).toHaveLength(1);
+    expect(await recheckCurveSolutions('slab-ignition-limit', [100], r)).toBeGreaterThanOrEqual(2);
+  });
+
+  it('rail-imperfection (on 100 intervals here): the limit load falls below the perfect rail’s buckling load like imperfection^(2/3)', async () => {
+    const r = await run('rail-imperfection', [100]);
+    expect(r.result.status).toBe('finished');
+    const mu = discreteEigenvalue(1, 1 / 100);
+    const Pc = mu + 100 / mu; // Timoshenko & Gere, with the grid's μ
+    const rows = r.result.ledger.branches.flatMap((b) => readCsv(join(r.out, b.file)).rows);
+    const small = rows.filter((row) => row[2] <= 1e-3).map((row) => [Math.log(row[2]), Math.log(Pc - row[3])]);
+    for (const row of rows) expect(row[3]).toBeLessThan(Pc);
+    const n = small.length;
+    expect(n).toBeGreaterThan(10);
+    const mx = small.reduce((a, p) => a + p[0], 0) / n;
+    const my = small.reduce((a, p) => a + p[1], 0) / n;
+    const slope = small.reduce((a, p) => a + (p[0] - mx) * (p[1] - my), 0) / small.reduce((a, p) => a + (p[0] - mx) ** 2, 0);
+    // Koiter 1945: the two-thirds power law (up to higher-order terms at imperfection 1e-3)
+    expect(Math.abs(slope - 2 / 3)).toBeLessThan(0.03);
+    expect(await recheckCurveSolutions('rail-imperfection', [100], r)).toBeGreaterThanOrEqual(2);
+  });
+
+  it('turing-lines: the critical mode changes where the lines of neighbouring modes cross', async () => {
+    const r = await run('turing-lines');
+    expect(r.result.status).toBe('finished');
+    const changes = r.points.filter((p) => p.kind === 'mode-change');
+    expect(changes.length).toBeGreaterThanOrEqual(3);
+    const h = 20 / 100;
+    const q2 = (k: number) => (4 / h ** 2) * Math.sin((k * Math.PI * h) / 40) ** 2; // the grid's no-flux Laplacian eigenvalues
+    for (const c of changes) {
+      const [m1, m2] = [c.mode[0], c['new-mode'][0]].sort((a: number, b: number) => a - b);
+      expect(m2).toBe(m1 + 1);
+      // b_n(a) = b_m(a) where a² = Du Dv q_n² q_m² (the Turing lines of Prigogine & Lefever 1968 crossing)
+      expect(Math.abs(c.value - Math.sqrt(8 * q2(m1) * q2(m2)))).toBeLessThan(1e-9);
+    }
+    checkDiagram(r.out, ['mode-change']);
+    // the saved states (the uniform state at the mode changes and ends) are singular steady states
+    expect(await recheckCurveSolutions('turing-lines', undefined, r)).toBeGreaterThanOrEqual(changes.length);
+  });
+
+  it('gel-oscillations (on 10 intervals here): the oscillation boundary, subcritical above the Bautin point and supercritical below, ending at the Bogdanov–Takens point', async () => {
+    const r = await run('gel-oscillations', [10]);
+    expect(r.result.status).toBe('finished');
+    const rows = r.result.ledger.branches.flatMap((b) => readCsv(join(r.out, b.file)).rows);
+    const columns = readCsv(join(r.out, r.result.ledger.branches[0].file)).columns;
+    const [frequency, lyapunov] = ['frequency', 'first-lyapunov-coefficient'].map((c) => columns.indexOf(c));
+    expect(frequency).toBeGreaterThan(0);
+    expect(lyapunov).toBeGreaterThan(0);
+    expect(rows.length).toBeGreaterThan(40);
+    // Gray & Scott 1984: the uniform state's Hopf curve (F + k)² = F√k with ω² = (F + k)(k − F)
+    for (const row of rows) {
+      expect(Math.abs((row[2] + row[3]) ** 2 - row[3] * Math.sqrt(row[2]))).toBeLessThan(1e-9);
+      expect(Math.abs(row[frequency] ** 2 - (row[2] + row[3]) * (row[2] - row[3]))).toBeLessThan(1e-9);
+    }
+    // Gray & Scott 1984: the Hopf curve meets the fold curve at k = F = 1/16
+    const bt = r.points.find((p) => p.kind === 'bogdanov-takens')!;
+    expect(Math.abs(bt.value - 1 / 16)).toBeLessThan(1e-9);
+    expect(Math.abs(bt.free - 1 / 16)).toBeLessThan(1e-9);
+    const bautin = r.points.find((p) => p.kind === 'bautin')!;
+    // the header's claim: l₁ > 0 (subcritical) above the Bautin point, l₁ < 0 (supercritical) below (l₁ is not defined where ω = 0)
+    for (const row of rows) {
+      if (Math.abs(row[2] - bautin.value) > 1e-4 && row[frequency] > 0) expect(Math.sign(row[lyapunov])).toBe(row[2] > bautin.value ? 1 : -1);
+    }
+    const root = checkDiagram(r.out, ['bogdanov-takens', 'bautin', 'end']);
+    // the curve that ends at the Bogdanov–Takens point has no end marker over it
+    expect(findAll(root, 'g', { 'data-role': 'special-point', 'data-kind': 'end' })).toHaveLength(1);
   });
 });
 

@@ -17,6 +17,13 @@
  *      u^-2 -> 1/(u*u)), repeated sub-expressions computed once (common sub-expression
  *      elimination across all outputs of one generated function), then `new Function`.
  *
+ * Size limits (EXPRESSION_LIMITS, stated in `branchline models`): an expression's text, its
+ * nesting (brackets, function calls, powers and signs; a sum or a product of many terms counts as
+ * one level) and its node count are checked on the text and the parse tree before anything is
+ * differentiated; each derivative's size is bounded before mathjs builds it and checked after.
+ * Sums and products of more than LONG_CHAIN terms are regrouped pairwise (balanced), so that
+ * their derivatives stay shallow; shorter ones keep their left-to-right order.
+ *
  * No user text ever reaches the generated source: symbols become our own local names (s0, s1,
  * ...) read from a flat input array, and numbers are printed from their parsed values. The
  * generated functions allocate nothing per call.
@@ -39,6 +46,25 @@ function math(): typeof MathJs {
 }
 const parse = (text: string) => math().parse(text);
 const derivative = (...args: Parameters<typeof MathJs.derivative>) => math().derivative(...args);
+
+// ---------------------------------------------------------------------------------------------
+// Limits
+
+/** Bounds on one expression and on each of its derivatives (refused beyond, naming the limit). */
+export const EXPRESSION_LIMITS = {
+  /** Levels of brackets, function calls, powers and signs (a long sum or product is one level). */
+  nesting: 64,
+  /** Nodes (numbers, symbols, operators, calls) per expression and per derivative. */
+  nodes: 10_000,
+  /** Characters of expression text. */
+  characters: 100_000,
+} as const;
+
+/** The limits in words, for `branchline models` and messages. */
+export const expressionLimitsText = `at most ${EXPRESSION_LIMITS.nesting} levels of nesting and ${EXPRESSION_LIMITS.nodes.toLocaleString('en')} nodes per expression and per derivative`;
+
+/** Sums and products of more terms than this are grouped pairwise (see the header). */
+const LONG_CHAIN = 32;
 
 // ---------------------------------------------------------------------------------------------
 // Vocabulary
@@ -102,8 +128,9 @@ export class ExpressionError extends Error {
   }
 }
 
+/** The expression text quoted for a message: at most 60 characters of it. */
 function quote(text: string): string {
-  return JSON.stringify(text);
+  return JSON.stringify(text.length > 60 ? `${text.slice(0, 57)}...` : text);
 }
 
 /**
@@ -158,13 +185,26 @@ export function parseChecked(text: unknown, label: string, symbols: readonly str
     throw new ExpressionError(`${label}: expected an expression (text or number), found ${text === null ? 'null' : typeof text}`);
   }
   if (text.trim() === '') throw new ExpressionError(`${label}: the expression is empty`);
+  const tooLarge = (what: string, limit: string): never => {
+    throw new ExpressionError(`${label}: ${what} in ${quote(text as string)} (limit: ${limit})`);
+  };
+  const { nesting, nodes, characters } = EXPRESSION_LIMITS;
+  const levels = `${nesting} levels of nesting`;
+  if (text.length > characters) tooLarge(`the text is ${text.length.toLocaleString('en')} characters long`, `${characters.toLocaleString('en')} characters`);
+  if (bracketDepth(text) > nesting) tooLarge(`brackets nest more than ${nesting} deep`, levels);
   let root: MjNode;
   try {
     root = parse(text) as unknown as MjNode;
   } catch (err) {
+    // the parser recurses per level: a chain of thousands of signs or powers runs out of stack
+    if (err instanceof RangeError) return tooLarge(`the expression nests more than ${nesting} deep`, levels);
     const msg = err instanceof Error ? err.message : String(err);
-    throw new ExpressionError(`${label}: syntax error in ${quote(text)}: ${msg}`);
+    throw new ExpressionError(`${label}: syntax error in ${quote(text)}: ${oneLine(msg)}`);
   }
+  const size = measure(root);
+  if (size.nodes > nodes) tooLarge(`the expression has ${size.nodes.toLocaleString('en')} nodes`, `${nodes.toLocaleString('en')} nodes per expression`);
+  if (size.nesting > nesting) tooLarge(`the expression nests ${size.nesting} deep`, levels);
+  root = balanceChains(root);
   const allowed = new Set(symbols);
   const acceptedSymbols = (): string => {
     const parts = [symbols.length ? symbols.join(', ') : '(none)', 'constants pi, e'];
@@ -236,6 +276,110 @@ export function parseChecked(text: unknown, label: string, symbols: readonly str
   };
   visit(root);
   return root;
+}
+
+/** Deepest nesting of brackets ( [ { in the text (stops counting past the limit). */
+function bracketDepth(text: string): number {
+  let depth = 0;
+  let deepest = 0;
+  for (let i = 0; i < text.length && deepest <= EXPRESSION_LIMITS.nesting; i++) {
+    const c = text.charCodeAt(i);
+    if (c === 40 || c === 91 || c === 123) deepest = Math.max(deepest, ++depth);
+    else if (c === 41 || c === 93 || c === 125) depth--;
+  }
+  return deepest;
+}
+
+/** Collapse the lines of a parser message into one. */
+function oneLine(text: string): string {
+  return text.replace(/\s*[\r\n]+\s*/g, ' ').trim();
+}
+
+const CHAIN_CLASS: Readonly<Record<string, number>> = { add: 1, subtract: 1, multiply: 2, divide: 2 };
+
+/** The chain class of a binary + - (1) or * / (2) node; 0 for anything else. */
+function chainClass(n: MjNode): number {
+  return n.type === 'OperatorNode' && (n.args ?? []).length === 2 ? (CHAIN_CLASS[n.fn as string] ?? 0) : 0;
+}
+
+/** Children of a node of any kind (for function calls only the arguments, not the name). */
+function childrenOf(n: MjNode): MjNode[] {
+  if (n.type === 'OperatorNode' || n.type === 'FunctionNode') return [...(n.args ?? [])];
+  if (n.type === 'ParenthesisNode') return [n.content as MjNode];
+  const out: MjNode[] = [];
+  (n as unknown as { forEach(f: (c: MjNode) => void): void }).forEach((c) => out.push(c));
+  return out;
+}
+
+/**
+ * Node count (brackets not counted) and nesting of a parse tree, without recursion (a sum of
+ * thousands of terms is a chain thousands deep). Nesting: one level per function call, power,
+ * sign and bracketed sub-expression; a chain of + and - (or of * and /) is one level.
+ */
+function measure(root: MjNode): { nodes: number; nesting: number } {
+  const level = new Map<MjNode, number>();
+  let nodes = 0;
+  const stack: { n: MjNode; kids: MjNode[]; i: number }[] = [{ n: root, kids: childrenOf(root), i: 0 }];
+  while (stack.length > 0) {
+    const top = stack[stack.length - 1];
+    if (top.i < top.kids.length) {
+      const k = top.kids[top.i++];
+      stack.push({ n: k, kids: childrenOf(k), i: 0 });
+      continue;
+    }
+    stack.pop();
+    const n = top.n;
+    let l = 0;
+    if (n.type === 'ParenthesisNode') l = level.get(top.kids[0]) ?? 0;
+    else {
+      nodes++;
+      const cls = chainClass(n);
+      for (const k of top.kids) l = Math.max(l, cls !== 0 && chainClass(k) === cls ? (level.get(k) ?? 0) : 1 + (level.get(k) ?? 0));
+    }
+    level.set(n, l);
+  }
+  return { nodes, nesting: level.get(root) ?? 0 };
+}
+
+/**
+ * Regroup every chain of more than LONG_CHAIN terms of + and - (or of * and /) pairwise:
+ * a - b + c - d ... becomes (a - b) + (c - d) ..., with the operators adjusted so the value is
+ * the same. Chains are walked with a loop (they can be thousands deep); the recursion only goes
+ * down the nesting levels, which measure() has bounded.
+ */
+function balanceChains(n: MjNode): MjNode {
+  const M = math();
+  const cls = chainClass(n);
+  if (cls === 0) {
+    if (n.type === 'OperatorNode') return new M.OperatorNode(n.op as never, n.fn as never, (n.args ?? []).map((a) => balanceChains(a) as never)) as unknown as MjNode;
+    if (n.type === 'FunctionNode') return new M.FunctionNode(n.fn as never, (n.args ?? []).map((a) => balanceChains(a) as never)) as unknown as MjNode;
+    if (n.type === 'ParenthesisNode') return new M.ParenthesisNode(balanceChains(n.content as MjNode) as never) as unknown as MjNode;
+    return n;
+  }
+  // the chain's terms, first to last, each with its sign (+1: + or *, -1: - or /)
+  const terms: { sign: number; x: MjNode }[] = [];
+  let at: MjNode = n;
+  while (chainClass(at) === cls) {
+    const [a, b] = at.args as readonly MjNode[];
+    terms.push({ sign: at.fn === 'subtract' || at.fn === 'divide' ? -1 : 1, x: b });
+    at = a;
+  }
+  terms.push({ sign: 1, x: at });
+  terms.reverse();
+  const items = terms.map((t) => ({ sign: t.sign, x: balanceChains(t.x) }));
+  const [plus, minus] = cls === 1 ? [['+', 'add'], ['-', 'subtract']] : [['*', 'multiply'], ['/', 'divide']];
+  const join = (a: MjNode, sign: number, b: MjNode): MjNode => {
+    const [op, fn] = sign > 0 ? plus : minus;
+    return new M.OperatorNode(op as never, fn as never, [a as never, b as never]) as unknown as MjNode;
+  };
+  if (items.length <= LONG_CHAIN) return items.slice(1).reduce((acc, t) => join(acc, t.sign, t.x), items[0].x);
+  // terms lo..hi, relative to the sign of term lo
+  const build = (lo: number, hi: number): MjNode => {
+    if (lo === hi) return items[lo].x;
+    const mid = lo + ((hi - lo + 1) >> 1);
+    return join(build(lo, mid - 1), items[mid].sign * items[lo].sign, build(mid, hi));
+  };
+  return build(0, items.length - 1);
 }
 
 /** Symbol names used in a checked tree (constants excluded). */
@@ -607,7 +751,17 @@ export function evaluateExpr(e: Expr, a: ArrayLike<number>): number {
 // ---------------------------------------------------------------------------------------------
 // Differentiation
 
-function differentiate(root: MjNode, variable: string, label: string, text: string, slots: ReadonlyMap<string, number>): Expr {
+/**
+ * d root / d variable as a tidied internal tree. `outer`: for a second derivative, the variable
+ * `root` is already a derivative with respect to (messages only).
+ */
+function differentiate(root: MjNode, variable: string, label: string, text: string, slots: ReadonlyMap<string, number>, outer?: string): Expr {
+  const tooLarge = (): never => {
+    const what = outer === undefined ? `the derivative of ${quote(text)} with respect to '${variable}'` : `the second derivative of ${quote(text)} with respect to '${outer}' and '${variable}'`;
+    throw new ExpressionError(`${label}: ${what} is too large (limit: ${EXPRESSION_LIMITS.nodes.toLocaleString('en')} nodes per derivative)`);
+  };
+  // bounded before mathjs builds it (a derivative can grow with the square of the size) ...
+  if (derivativeBound(root, variable) > 10 * EXPRESSION_LIMITS.nodes) tooLarge();
   let d: MjNode;
   try {
     d = derivative(root as never, variable, { simplify: false }) as unknown as MjNode;
@@ -615,7 +769,56 @@ function differentiate(root: MjNode, variable: string, label: string, text: stri
     const msg = err instanceof Error ? err.message : String(err);
     throw new ExpressionError(`${label}: cannot differentiate ${quote(text)} with respect to '${variable}': ${msg}`);
   }
-  return tidy(toExpr(d, slots));
+  // ... and checked once tidied
+  const e = tidy(toExpr(d, slots));
+  if (exprSize(e) > EXPRESSION_LIMITS.nodes) tooLarge();
+  return e;
+}
+
+/**
+ * An upper bound on the node count of mathjs's derivative of `n` (simplify off): a sub-tree free
+ * of the variable differentiates to one node; otherwise every rule (product, quotient, general
+ * power, chain rule of each accepted function) copies the node's operands at most three times
+ * and adds at most a dozen nodes besides the operands' own derivatives.
+ */
+function derivativeBound(n: MjNode, variable: string): number {
+  const visit = (x: MjNode): { size: number; uses: boolean; bound: number } => {
+    if (x.type === 'SymbolNode') return { size: 1, uses: x.name === variable, bound: 1 };
+    const kids = childrenOf(x).map(visit);
+    const size = 1 + kids.reduce((a, k) => a + k.size, 0);
+    const uses = kids.some((k) => k.uses);
+    if (!uses) return { size, uses, bound: 1 };
+    const bounds = kids.reduce((a, k) => a + k.bound, 0);
+    const fn = x.type === 'OperatorNode' ? (x.fn as string) : x.type;
+    switch (fn) {
+      case 'ParenthesisNode': // (a)' = (a')
+      case 'add': // (a ± b)' = a' ± b'
+      case 'subtract':
+      case 'unaryMinus':
+      case 'unaryPlus':
+        return { size, uses, bound: 1 + bounds };
+      case 'multiply': // a'·b + a·b', or c·a' with c constant
+        return { size, uses, bound: 3 + size + bounds };
+      default: // quotient, powers and the chain rule of every function: the operands at most three times
+        return { size, uses, bound: 12 + 3 * size + bounds };
+    }
+  };
+  return visit(n).bound;
+}
+
+/** Nodes of an internal tree. */
+function exprSize(e: Expr): number {
+  switch (e.k) {
+    case 'num':
+    case 'sym':
+      return 1;
+    case 'neg':
+      return 1 + exprSize(e.a);
+    case 'fn':
+      return 1 + e.args.reduce((a, x) => a + exprSize(x), 0);
+    default:
+      return 1 + exprSize(e.a) + exprSize(e.b);
+  }
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -716,8 +919,8 @@ function slotMap(fields: readonly string[], parameters: readonly string[]): Map<
   return m;
 }
 
-/** Print an internal tree as mathjs text (fully parenthesised), symbols named by `names[slot]`. */
-function printMath(e: Expr, names: readonly string[]): string {
+/** Print an internal tree as mathjs text (fully parenthesised), symbols named by `names[slot]` (mathTree builds the tree this parses to). */
+export function printMath(e: Expr, names: readonly string[]): string {
   switch (e.k) {
     case 'num':
       return e.v < 0 || Object.is(e.v, -0) ? `(-${String(-e.v)})` : String(e.v);
@@ -732,6 +935,35 @@ function printMath(e: Expr, names: readonly string[]): string {
       return `(${printMath(e.a, names)} ${op} ${printMath(e.b, names)})`;
     }
   }
+}
+
+/**
+ * The mathjs tree that parsing printMath(e, names) gives, built directly: the same nodes
+ * (every operation and every negative number in brackets), so the derivatives taken from it are
+ * the same, without printing and parsing again (the parser recurses per bracket, and a long sum
+ * printed fully bracketed would run out of stack).
+ */
+export function mathTree(e: Expr, names: readonly string[]): MjNode {
+  const M = math();
+  const node = (x: unknown): MjNode => x as MjNode;
+  const negative = (a: MjNode): MjNode => node(new M.ParenthesisNode(new M.OperatorNode('-', 'unaryMinus', [a as never]) as never));
+  const build = (x: Expr): MjNode => {
+    switch (x.k) {
+      case 'num':
+        return x.v < 0 || Object.is(x.v, -0) ? negative(node(new M.ConstantNode(-x.v))) : node(new M.ConstantNode(x.v));
+      case 'sym':
+        return node(new M.SymbolNode(names[x.slot]));
+      case 'neg':
+        return negative(build(x.a));
+      case 'fn':
+        return node(new M.FunctionNode(new M.SymbolNode(x.name), x.args.map((a) => build(a) as never)));
+      default: {
+        const [op, fn] = { add: ['+', 'add'], sub: ['-', 'subtract'], mul: ['*', 'multiply'], div: ['/', 'divide'], pow: ['^', 'pow'] }[x.k];
+        return node(new M.ParenthesisNode(new M.OperatorNode(op as never, fn as never, [build(x.a) as never, build(x.b) as never]) as never));
+      }
+    }
+  };
+  return build(e);
 }
 
 /** Slots an internal tree reads. */
@@ -828,7 +1060,7 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
   const mixedTerms: Expr[][][] = parameters.map(() => fields.map(() => []));
   let usesCoordinates = false;
 
-  fields.forEach((f, i) => {
+  fields.forEach((f, i) => withinStack(label(f), () => {
     if (!Object.hasOwn(reaction, f) || reaction[f] === undefined) {
       throw new ExpressionError(`${label(f)}: missing (give an expression for every field; write 0 for none)`);
     }
@@ -849,15 +1081,15 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
       // second order: differentiate the tidied first derivative again
       const dUses = slotsUsed(d);
       if (![...dUses].some((s) => s < nf + np)) return;
-      const dRoot = parse(printMath(d, names)) as unknown as MjNode;
+      const dRoot = mathTree(d, names);
       fields.forEach((h, c) => {
         if (!dUses.has(c)) return;
-        const dd = differentiate(dRoot, h, label(f), text, slots);
+        const dd = differentiate(dRoot, h, label(f), text, slots, g);
         if (!isNum(dd, 0)) secondTerms.push(product(dd, product(sSlot(j), tSlot(c))));
       });
       parameters.forEach((p, k) => {
         if (!dUses.has(nf + k)) return;
-        const dd = differentiate(dRoot, p, label(f), text, slots);
+        const dd = differentiate(dRoot, p, label(f), text, slots, g);
         if (!isNum(dd, 0)) mixedTerms[k][i].push(product(dd, sSlot(j)));
       });
     });
@@ -870,7 +1102,7 @@ export function compileReaction(spec: ReactionSystemSpec): CompiledReaction {
         paramFields[k].push(i);
       }
     });
-  });
+  }));
 
   const jacTrees = couplings.map((c) => c.e);
   const mixed = mixedTerms.map((perField) => perField.map(sumOf));
@@ -919,6 +1151,25 @@ export interface CompiledScalar {
 
 /** Parse, check, differentiate and compile one scalar expression. */
 export function compileScalar(raw: unknown, label: string, symbols: readonly string[]): CompiledScalar {
+  return withinStack(label, () => compileScalarChecked(raw, label, symbols));
+}
+
+/**
+ * Run `f`, turning a stack overflow into a one-line refusal: the limits keep expressions far
+ * from it, this is the safety net should a recursion (ours or mathjs's) still run deep.
+ */
+function withinStack<T>(label: string, f: () => T): T {
+  try {
+    return f();
+  } catch (err) {
+    if (err instanceof RangeError && /call stack/i.test(err.message)) {
+      throw new ExpressionError(`${label}: the expression is too deeply nested to compile (limits: ${expressionLimitsText})`);
+    }
+    throw err;
+  }
+}
+
+function compileScalarChecked(raw: unknown, label: string, symbols: readonly string[]): CompiledScalar {
   const root = parseChecked(raw, label, symbols);
   const text = typeof raw === 'number' ? String(raw) : (raw as string);
   const slots = new Map<string, number>(symbols.map((s, i) => [s, i]));

@@ -30,7 +30,7 @@ import { isReservedColumnName, reservedColumnNames } from '../../src/problem/nam
 import { type BoundaryCondition, type FieldBoundaries, sideNames } from '../grid.js';
 import { createReactionDiffusion, type DiffusionSpec, type ReactionDiffusionProblem } from '../reaction-diffusion.js';
 import { type OptionSpec, checkOptions, flag, gridOption } from '../models/options.js';
-import { COORDINATES, ExpressionError, checkName, compileReaction, compileScalar, type CompiledScalar } from './compile.js';
+import { COORDINATES, ExpressionError, checkName, compileReaction, compileScalar, type CompiledScalar, expressionLimitsText } from './compile.js';
 import { reactionTerms } from './terms.js';
 
 const MODEL = 'reaction-diffusion';
@@ -39,7 +39,7 @@ export const reactionDiffusionOptions: readonly OptionSpec[] = [
   gridOption,
   { name: 'fields', description: 'list of field names, e.g. [u, v]' },
   { name: 'parameters', description: 'parameter names with default values, e.g. {F: 0.04, k: 0.06}, or {name: {default, description, min, max}}' },
-  { name: 'reaction', description: 'reaction term per field: an expression in the fields, the parameters and x, y, z' },
+  { name: 'reaction', description: `reaction term per field: an expression in the fields, the parameters and x, y, z (every expression: ${expressionLimitsText})` },
   { name: 'diffusion', description: 'diffusion coefficient per field: a number, a parameter name or an expression in the parameters' },
   {
     name: 'boundary',
@@ -64,7 +64,7 @@ function isPlainObject(v: unknown): v is Record<string, unknown> {
 }
 
 function describeValue(v: unknown): string {
-  if (typeof v === 'string') return `'${v}'`;
+  if (typeof v === 'string') return v.length > 60 ? `'${v.slice(0, 57)}...'` : `'${v}'`;
   if (Array.isArray(v)) return 'a list';
   if (v === null) return 'null';
   if (typeof v === 'object') return 'an object';
@@ -160,7 +160,7 @@ function readCondition(raw: unknown, where: string): BoundaryCondition {
     if (raw === 'dirichlet') return { kind: 'dirichlet', value: 0 };
     if (raw === 'periodic') return { kind: 'periodic' };
     if (raw === 'robin') fail(`${where}: a robin condition needs a coefficient: {kind: robin, coefficient, value}`);
-    fail(`${where}: unknown boundary kind '${raw}' (accepted: ${BOUNDARY_KINDS.join(', ')})`);
+    fail(`${where}: unknown boundary kind ${describeValue(raw)} (accepted: ${BOUNDARY_KINDS.join(', ')})`);
   }
   if (!isPlainObject(raw)) fail(`${where}: expected a kind word or {kind, ...}, got ${describeValue(raw)}`);
   const kind = raw.kind;

@@ -4,7 +4,7 @@
  * Results go to stdout; log lines and errors go to stderr, one line each, never a stack trace.
  */
 import { Command, CommanderError } from 'commander';
-import { InputError } from '../run/errors.js';
+import { InputError, printable } from '../run/errors.js';
 import { softwareVersion } from '../run/version.js';
 import { commands } from './commands/index.js';
 import { type Io, processIo } from './io.js';
@@ -24,8 +24,10 @@ function buildProgram(io: Io, setExit: (code: number) => void): Command {
 }
 
 /** Run the CLI (argv as in process.argv: node, script, arguments...); returns the exit code. */
-export async function main(argv: string[], io: Io = processIo): Promise<number> {
+export async function main(argv: string[], given: Io = processIo): Promise<number> {
   let code = 0;
+  // every line the command prints shows control characters as escapes (processIo does it itself)
+  const io: Io = given === processIo ? given : { out: (s) => given.out(printable(s)), err: (s) => given.err(printable(s)) };
   const program = buildProgram(io, (c) => (code = c));
   try {
     await program.parseAsync(argv);

@@ -23,6 +23,7 @@ import { centralDifferenceStep, derivativeEvaluator } from '../problem/derivativ
 import { type ContinuationSystem, allFinite } from './system.js';
 import { correct, correctWork } from './newton.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
+import { rethrowInterrupt } from '../linalg/lu.js';
 import type { NewtonSettings, PointStability } from './types.js';
 
 export interface TrialPoint {
@@ -125,7 +126,8 @@ function trial(sys: ContinuationSystem, xa: Float64Array, ta: Float64Array, s: n
   sys.setTangentRow(ta);
   try {
     sys.factor(true);
-  } catch {
+  } catch (e) {
+    rethrowInterrupt(e);
     return { s, x, sign: 0, logAbs: -Infinity };
   }
   const d = sys.determinant();
@@ -266,7 +268,8 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
   sys.setTangentRow(ta);
   try {
     sys.factor(true);
-  } catch {
+  } catch (e) {
+    rethrowInterrupt(e);
     // exactly singular: nudge along the old branch and try again
     const nudged = xStar.slice();
     for (let i = 0; i <= n; i++) nudged[i] += 1e-9 * ta[i];
@@ -274,7 +277,8 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
     sys.setTangentRow(ta);
     try {
       sys.factor(true);
-    } catch {
+    } catch (e) {
+      rethrowInterrupt(e);
       return { error: 'the bordered matrix is exactly singular at the branch point' };
     }
   }

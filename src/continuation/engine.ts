@@ -13,7 +13,8 @@ import { type CountAccount, accountFirstStep, accountStep, changeText } from './
 import { locateFold } from './fold.js';
 import { correct, correctWork, type NewtonResult, type NewtonWork } from './newton.js';
 import { ContinuationSystem, allFinite } from './system.js';
-import { StabilityAnalyser, crossingPair, locateHopf } from './stability.js';
+import { StabilityAnalyser, crossingPair, locateCountChange, locateHopf } from './stability.js';
+import { hopfPointCriticality } from './hopf/criticality.js';
 import type { EigenWarmStart } from '../linalg/eigen.js';
 import type { BackendDecision } from '../linalg/lu.js';
 import { difference } from '../linalg/vector.js';
@@ -30,6 +31,7 @@ import type {
   StopReason,
 } from './types.js';
 import { stopReasonText } from './types.js';
+import { rethrowInterrupt } from '../linalg/lu.js';
 
 /** A branch waiting to be followed (queued at a branch point). */
 export interface PendingBranch {
@@ -116,6 +118,12 @@ export interface ContinuationOptions {
   start?: Float64Array;
   /** Resume from a snapshot. */
   state?: EngineState;
+  /**
+   * Checked before every factorisation (the continuation's and the eigen solver's): throws
+   * WorkInterrupted to abandon the step in progress (a stop request during long numerical
+   * work). The engine is then unusable: resume from a snapshot taken between steps.
+   */
+  interrupt?: () => void;
 }
 
 function cloneState(s: EngineState): EngineState {
@@ -140,7 +148,8 @@ export class Continuation {
     readonly settings: ContinuationSettings,
     private readonly options: ContinuationOptions = {},
   ) {
-    this.sys = new ContinuationSystem(problem, params, settings.parameter, settings.sparseLu ? { backend: settings.sparseLu } : {});
+    const lu = { ...(settings.sparseLu ? { backend: settings.sparseLu } : {}), ...(options.interrupt ? { beforeFactor: options.interrupt } : {}) };
+    this.sys = new ContinuationSystem(problem, params, settings.parameter, lu);
     this.n = problem.size;
     this.work = correctWork(this.n);
     [this.lo, this.hi] = settings.bounds;
@@ -281,6 +290,7 @@ export class Continuation {
     try {
       this.sys.factor(true);
     } catch (e) {
+      rethrowInterrupt(e);
       throw new ContinuationError(
         `the Jacobian is singular at the start point (${this.settings.parameter} = ${lambda0}): start away from folds and branch points (${(e as Error).message})`,
       );
@@ -476,6 +486,7 @@ export class Continuation {
           const cos = this.sys.dot(tangent, b.tangent);
           if (cos < cosMax && ds > st.step.min) rejection = `the tangent turned by ${((Math.acos(Math.min(1, cos)) * 180) / Math.PI).toFixed(1)}°`;
         } catch (e) {
+          rethrowInterrupt(e);
           rejection = (e as Error).message;
         }
       }
@@ -807,6 +818,7 @@ export class Continuation {
         frequency: loc.frequency,
         period: (2 * Math.PI) / loc.frequency,
         crossing: pair.b.re > pair.a.re ? 'destabilising' : 'stabilising',
+        ...hopfPointCriticality(this.problem, loc.x.subarray(0, n), this.sys.params(loc.x[n]), loc.frequency),
       };
       events.push({ type: 'special', point: hopf });
       if (!loc.converged) events.push({ type: 'log', level: 'warning', message: `branch ${b.info.id}: Hopf point ${where} not located to tolerance (${loc.message})` });

@@ -16,6 +16,7 @@
 import { matTVec } from '../linalg/sparse.js';
 import { derivativeEvaluator, directionalJacobian } from '../problem/derivatives.js';
 import { type ContinuationSystem, allFinite } from './system.js';
+import { rethrowInterrupt } from '../linalg/lu.js';
 
 export interface FoldLocation {
   converged: boolean;
@@ -80,7 +81,8 @@ export function locateFold(
     sys.setRow(c, 0);
     try {
       sys.factor(true);
-    } catch {
+    } catch (e) {
+      rethrowInterrupt(e);
       return { converged: false, x, iterations: it, residual, message: 'the fold-location border matrix is singular' };
     }
     rhs.fill(0);
@@ -106,7 +108,8 @@ export function locateFold(
     sys.setRow(gu, gl);
     try {
       sys.factor(true);
-    } catch {
+    } catch (e) {
+      rethrowInterrupt(e);
       return { converged: false, x, iterations: it, residual, message: 'the fold Newton matrix is singular (not a simple fold?)' };
     }
     for (let i = 0; i < n; i++) rhs[i] = -sys.f[i];

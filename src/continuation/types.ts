@@ -203,6 +203,14 @@ export interface HopfPoint extends SpecialPointBase {
   period: number;
   /** Whether the pair moves into the right half-plane (`destabilising`) along the branch direction. */
   crossing: 'destabilising' | 'stabilising';
+  /**
+   * The first Lyapunov coefficient l₁ (critical eigenvector normalised to ⟨q, q⟩ = 1 in the
+   * weighted inner product; NaN when undetermined) and what its sign says (./hopf/lyapunov.ts).
+   */
+  lyapunov?: number;
+  criticality?: 'supercritical' | 'subcritical' | 'undetermined';
+  /** Why the criticality is undetermined, in words. */
+  criticalityNote?: string;
 }
 
 export interface EndPoint extends SpecialPointBase {

@@ -63,10 +63,29 @@ export interface LUOptions {
    */
   pivotTolerance?: number;
   /**
+   * Called before every numeric factorisation (factor, refactor, update): the place where a long
+   * computation can be abandoned between factorisations — it throws (WorkInterrupted) to stop.
+   * A factorisation itself runs to its end (it is one call into the solver).
+   */
+  beforeFactor?: () => void;
+  /**
    * Which sparse LU: 'klu', 'superlu', or 'auto' (default) — chosen from the pattern by
    * `decideBackend` (problems below 2,000 unknowns always get KLU).
    */
   backend?: Backend | 'auto';
+}
+
+/**
+ * Thrown by a `beforeFactor` hook to abandon the work in progress (a stop request). Code that
+ * catches solver errors to try something else must let this one through (`rethrowInterrupt`).
+ */
+export class WorkInterrupted extends Error {
+  override name = 'WorkInterrupted';
+}
+
+/** Rethrow `e` when it is a WorkInterrupted (for catch blocks that recover from solver errors). */
+export function rethrowInterrupt(e: unknown): void {
+  if (e instanceof WorkInterrupted) throw e;
 }
 
 /** What the fill-reducing ordering predicts for the factor (a Cholesky factor of P(A + Aᵀ)Pᵀ). */
@@ -412,6 +431,7 @@ class LUBase {
   private freshGrowth = 0;
   private freshRcond = 0;
   private counts = { factor: 0, refactor: 0, solve: 0 };
+  private readonly beforeFactor: (() => void) | undefined;
   /**
    * SuperLU only: a column no maximum matching covers (-1: none). SuperLU 3.0's pivot search
    * indexes past a column with no candidate rows, so a structurally singular pattern is reported
@@ -420,6 +440,7 @@ class LUBase {
   private readonly deficientColumn: number;
 
   protected constructor(pattern: CscPattern, complex: boolean, options: LUOptions) {
+    this.beforeFactor = options.beforeFactor;
     if (pattern.rows !== pattern.cols) {
       throw new SparseLUError('invalid', `the matrix must be square, got ${pattern.rows}x${pattern.cols}`);
     }
@@ -483,6 +504,7 @@ class LUBase {
   /** Fresh factorisation with new pivots. Throws SparseLUError when singular or non-finite. */
   factor(values: Float64Array): void {
     this.checkAlive();
+    this.beforeFactor?.();
     this.writeValues(values);
     const status = this.deficientColumn >= 0 ? STATUS_STRUCTURAL : this.native.factor(this.handle);
     this.counts.factor++;
@@ -502,6 +524,7 @@ class LUBase {
       this.factor(values);
       return;
     }
+    this.beforeFactor?.();
     this.writeValues(values);
     const status = this.native.refactor(this.handle);
     this.counts.refactor++;
@@ -520,6 +543,7 @@ class LUBase {
       this.factor(values);
       return 'factor';
     }
+    this.beforeFactor?.();
     this.writeValues(values);
     const status = this.native.refactor(this.handle);
     this.counts.refactor++;

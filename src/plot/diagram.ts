@@ -3,7 +3,7 @@
  * colour; stable parts solid, unstable dashed, stability not computed dotted; special points
  * marked by shape and named in plain words.
  */
-import { bottomMarginFor, drawAxes, formatValue, leftMarginFor, linearAxis, withRange, type Rect } from './axes.js';
+import { bottomMarginFor, drawAxes, formatValue, leftMarginFor, linearAxis, logAxis, withRange, type Rect } from './axes.js';
 import { footer, header, SIDE } from './figure.js';
 import { placeLabels, type Box, type LabelRequest, type Segment } from './labels.js';
 import { el, escapeXml, num, svgDocument, text, textWidth } from './svg.js';
@@ -18,15 +18,23 @@ import {
   type StabilityClass,
 } from './theme.js';
 
-export type SpecialPointKind = 'fold' | 'branch-point' | 'hopf' | 'end';
-export const SPECIAL_POINT_KINDS: readonly SpecialPointKind[] = ['fold', 'branch-point', 'hopf', 'end'];
+export type SpecialPointKind = 'fold' | 'branch-point' | 'hopf' | 'end' | 'cusp' | 'bogdanov-takens' | 'fold-branch-point' | 'mode-change' | 'mode-crossing' | 'zero-hopf' | 'bautin' | 'double-hopf';
+export const SPECIAL_POINT_KINDS: readonly SpecialPointKind[] = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing', 'zero-hopf', 'bautin', 'double-hopf'];
 
-/** Plain words for each kind of special point, as shown on plots. */
+/** Plain words for each kind of special point, as shown on plots (from `cusp` on: points on curves). */
 export const SPECIAL_POINT_WORDS: Readonly<Record<SpecialPointKind, string>> = {
   fold: 'fold',
   'branch-point': 'branch point',
   hopf: 'Hopf',
   end: 'end',
+  cusp: 'cusp',
+  'bogdanov-takens': 'Bogdanov–Takens',
+  'fold-branch-point': 'fold meets branch point',
+  'mode-change': 'mode change',
+  'mode-crossing': 'modes cross',
+  'zero-hopf': 'zero-Hopf',
+  bautin: 'Bautin',
+  'double-hopf': 'double Hopf',
 };
 
 export interface DiagramPoint {
@@ -67,6 +75,14 @@ export interface DiagramInput {
   readonly plotHeight?: number;
   /** Show the parameter value under each special-point label (default true). */
   readonly labelValues?: boolean;
+  /**
+   * Curves of special points in a parameter plane (curve runs): the legend lists `curves` and no
+   * stability (the lines are drawn solid), and the description says what the axes are.
+   */
+  readonly curves?: boolean;
+  /** Logarithmic axes (every value must be positive). */
+  readonly logParameter?: boolean;
+  readonly logMonitor?: boolean;
 }
 
 export interface StabilitySegment {
@@ -194,6 +210,70 @@ export function markerShape(kind: SpecialPointKind, x: number, y: number, colour
         stroke: colour,
         'stroke-width': 1.8,
       });
+    case 'cusp': {
+      // a hollow downward wedge
+      const h = r * 1.3;
+      return el('path', {
+        d: `M${num(x - h * 0.95)} ${num(y - h * 0.62)}H${num(x + h * 0.95)}L${num(x)} ${num(y + h)}Z`,
+        fill: PAPER,
+        stroke: INK,
+        'stroke-width': 1.8,
+        'stroke-linejoin': 'round',
+      });
+    }
+    case 'bogdanov-takens': {
+      // a filled five-pointed star
+      const pts: string[] = [];
+      for (let k = 0; k < 10; k++) {
+        const a = -Math.PI / 2 + (k * Math.PI) / 5;
+        const rr = k % 2 === 0 ? r * 1.45 : r * 0.62;
+        pts.push(`${num(x + rr * Math.cos(a))} ${num(y + rr * Math.sin(a))}`);
+      }
+      return el('path', { d: `M${pts.join('L')}Z`, fill: INK, stroke: PAPER, 'stroke-width': 1.2, 'stroke-linejoin': 'round' });
+    }
+    case 'fold-branch-point': {
+      const d = r * 1.25;
+      return (
+        el('path', {
+          d: `M${num(x)} ${num(y - d)}L${num(x + d)} ${num(y)}L${num(x)} ${num(y + d)}L${num(x - d)} ${num(y)}Z`,
+          fill: PAPER,
+          stroke: INK,
+          'stroke-width': 1.8,
+          'stroke-linejoin': 'round',
+        }) + el('circle', { cx: x, cy: y, r: 1.8, fill: INK })
+      );
+    }
+    case 'mode-change':
+      return el('circle', { cx: x, cy: y, r: r * 0.95, fill: INK, stroke: PAPER, 'stroke-width': 1.5 });
+    case 'mode-crossing':
+      return (
+        el('circle', { cx: x, cy: y, r, fill: PAPER, stroke: INK, 'stroke-width': 1.6 }) +
+        el('path', { d: `M${num(x - r * 0.6)} ${num(y - r * 0.6)}L${num(x + r * 0.6)} ${num(y + r * 0.6)}M${num(x + r * 0.6)} ${num(y - r * 0.6)}L${num(x - r * 0.6)} ${num(y + r * 0.6)}`, stroke: INK, 'stroke-width': 1.4 })
+      );
+    case 'zero-hopf':
+    case 'bautin': {
+      // the Hopf triangle hollow (Bautin), with a centre dot where a real eigenvalue also crosses (zero-Hopf)
+      const h = r * 1.3;
+      const tri = el('path', {
+        d: `M${num(x)} ${num(y - h)}L${num(x + h * 0.95)} ${num(y + h * 0.62)}H${num(x - h * 0.95)}Z`,
+        fill: PAPER,
+        stroke: INK,
+        'stroke-width': 1.8,
+        'stroke-linejoin': 'round',
+      });
+      return kind === 'zero-hopf' ? tri + el('circle', { cx: x, cy: y + h * 0.12, r: 1.8, fill: INK }) : tri;
+    }
+    case 'double-hopf': {
+      // two Hopf triangles tip to tip: a filled hourglass
+      const h = r * 1.2;
+      return el('path', {
+        d: `M${num(x)} ${num(y)}L${num(x - h * 0.85)} ${num(y - h)}H${num(x + h * 0.85)}ZM${num(x)} ${num(y)}L${num(x + h * 0.85)} ${num(y + h)}H${num(x - h * 0.85)}Z`,
+        fill: INK,
+        stroke: PAPER,
+        'stroke-width': 1.2,
+        'stroke-linejoin': 'round',
+      });
+    }
   }
 }
 
@@ -294,9 +374,9 @@ export function diagramSvg(input: DiagramInput): string {
   // stability changes at special points: of the branch itself, or where it was born (a branch
   // point recorded on its parent branch)
   const segmentsByBranch = input.branches.map((b) => splitByStability(b.points, specials));
-  const classesPresent = (['stable', 'unstable', 'unknown'] as StabilityClass[]).filter((c) =>
-    segmentsByBranch.some((segs) => segs.some((s) => s.stability === c)),
-  );
+  const classesPresent = input.curves
+    ? []
+    : (['stable', 'unstable', 'unknown'] as StabilityClass[]).filter((c) => segmentsByBranch.some((segs) => segs.some((s) => s.stability === c)));
   const kindsPresent = SPECIAL_POINT_KINDS.filter((k) => specials.some((s) => s.kind === k));
   const legendTexts = [
     ...branchNames,
@@ -307,8 +387,8 @@ export function diagramSvg(input: DiagramInput): string {
   const legendWidth = Math.max(120, Math.min(220, 34 + Math.max(...legendTexts.map((t) => textWidth(t, TYPE.legend)))));
 
   const head = header(width, input.title, input.subtitle);
-  const xAxis0 = linearAxis(xmin, xmax, [0, 1], input.parameterName);
-  const yAxis0 = linearAxis(ymin, ymax, [1, 0], input.monitorName);
+  const xAxis0 = input.logParameter && xmin > 0 ? logAxis(xmin, xmax, [0, 1], input.parameterName) : linearAxis(xmin, xmax, [0, 1], input.parameterName);
+  const yAxis0 = input.logMonitor && ymin > 0 ? logAxis(ymin, ymax, [1, 0], input.monitorName) : linearAxis(ymin, ymax, [1, 0], input.monitorName);
   const left = SIDE + leftMarginFor(yAxis0.labels, true) - 8;
   const plot: Rect = {
     x: left,
@@ -457,7 +537,7 @@ export function diagramSvg(input: DiagramInput): string {
     leg.push(el('g', extra, swatch + text(lx + 30, ly + 4, label, { 'font-size': TYPE.legend, fill: INK })));
     ly += 19;
   };
-  section('branches');
+  section(input.curves ? 'curves' : 'branches');
   input.branches.forEach((b, i) => {
     entry(
       el('path', { d: `M${num(lx)} ${num(ly)}h22`, ...strokeAttrs('stable', seriesColour(i)) }),
@@ -489,10 +569,11 @@ export function diagramSvg(input: DiagramInput): string {
   body.push(foot.markup);
   const height = Math.ceil(contentBottom + foot.height + 8);
 
-  const desc =
-    `Bifurcation diagram: ${input.parameterName} against ${input.monitorName}; ` +
-    `${input.branches.length} branch(es), ${visible.length} special point(s). ` +
-    'Solid: stable; dashed: unstable; dotted: stability not computed.';
+  const desc = input.curves
+    ? `Curves of special points in the plane of ${input.parameterName} and ${input.monitorName}; ${input.branches.length} curve(s), ${visible.length} special point(s).`
+    : `Bifurcation diagram: ${input.parameterName} against ${input.monitorName}; ` +
+      `${input.branches.length} branch(es), ${visible.length} special point(s). ` +
+      'Solid: stable; dashed: unstable; dotted: stability not computed.';
   return svgDocument({
     width,
     height,

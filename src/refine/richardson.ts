@@ -58,6 +58,12 @@ export interface RefinementOptions {
    * agree to round-off (default 1e-13).
    */
   readonly roundoffTolerance?: number;
+  /**
+   * Differences below this (absolute, times max(1, |value|)) also count as zero: the accuracy
+   * the values were located to (a cusp at the origin has values of size 1e-12 on every grid,
+   * whose differences mean nothing). Default 0.
+   */
+  readonly locationTolerance?: number;
   /** Override the safety factor (default 1.25 with an observed order, 3 with an assumed one). */
   readonly safetyFactor?: number;
 }
@@ -256,7 +262,7 @@ export function analyseRefinement(
   };
 
   const scale = Math.max(...sorted.map((s) => Math.abs(s.value)));
-  const zeroLevel = (options.roundoffTolerance ?? DEFAULT_ROUNDOFF) * scale;
+  const zeroLevel = Math.max((options.roundoffTolerance ?? DEFAULT_ROUNDOFF) * scale, (options.locationTolerance ?? 0) * Math.max(1, scale));
   const isZero = (d: number): boolean => Math.abs(d) <= zeroLevel;
 
   const h = sorted.map((s) => s.h);

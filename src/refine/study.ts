@@ -28,12 +28,14 @@ import { join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { formatValue, refinementSvg } from '../plot/index.js';
 import { valueToError } from '../plot/refinement.js';
-import { type PreparedCase, caseDocument, prepareCaseObject } from '../run/case.js';
+import { type PreparedCase, caseDocument, ownCodeModel, prepareCaseObject } from '../run/case.js';
 import { InputError } from '../run/errors.js';
 import type { RunExecutor, RunPiece } from '../run/executor.js';
 import { formatValue as plainValue } from '../run/summary.js';
 import { drawRunPlots } from '../run/plots.js';
 import { caseFromRunFolder } from '../run/batch.js';
+import { jsonFileLimit, readTextFile } from '../run/read-file.js';
+import type { CodeModelChoice } from '../run/resume-code.js';
 import { makeFolder, removeIfEmpty } from '../run/folders.js';
 import { onLeaveAtOnce } from '../run/leave.js';
 import { FolderLock, holderText, lockHolder } from '../run/lock.js';
@@ -78,6 +80,8 @@ export interface StudyOptions {
    * grid runs are the same. An executor that only hands them over makes the study `submitted`.
    */
   executor?: RunExecutor;
+  /** Resuming a study: which code model its stored case may load (src/run/resume-code.ts; none by default). */
+  code?: CodeModelChoice;
   /** The folder already holds this study's grid runs (collecting a study whose grids ran elsewhere): keep it as it is. */
   keepFolder?: boolean;
 }
@@ -170,7 +174,7 @@ function readOutcome(task: GridTask, studyDir: string, thrown?: string, stopped 
   const base = { grid: task.grid, intervals: task.intervals, directory: task.directory };
   let run: Record<string, unknown>;
   try {
-    run = JSON.parse(readFileSync(join(abs, 'run.json'), 'utf8')) as Record<string, unknown>;
+    run = JSON.parse(readTextFile(join(abs, 'run.json'), jsonFileLimit, 'a run record')) as Record<string, unknown>;
   } catch {
     if (stopped) return { ...base, status: 'stopped', failure: 'not run: the study was stopped', specials: [] };
     return { ...base, status: 'failed', failure: thrown ?? 'the run wrote no run.json', specials: [] };
@@ -304,8 +308,9 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
   };
   const tasks: GridTask[] = [];
   for (const r of plan.runs) {
-    const job = freshJob(plan, r, studyDir, prepared.label);
-    const p = await prepareCaseObject(job.doc, { label: job.label, baseDir: job.baseDir, ...(job.file ? { file: job.file } : {}) });
+    // the grids' cases come from the user's case file: its code model (only that one) may load
+    const job = freshJob(plan, r, studyDir, prepared.label, ownCodeModel(prepared.case).loadCode);
+    const p = await prepareCaseObject(job.doc, { label: job.label, baseDir: job.baseDir, ...(job.file ? { file: job.file } : {}), ...ownCodeModel(prepared.case) });
     tasks.push({ ...r, job, prepared: p });
   }
   return inStudyFolder(studyDir, { purpose: options.force ? 'refine --force' : 'refine', label: studyDir }, options.log, () => {
@@ -317,7 +322,7 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
       writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
     }
     return { prepared, plan, tasks };
-  }, options);
+  }, { ...options, branchGiven: options.branch !== undefined });
 }
 
 /** The grids to run afresh, as pieces for an executor (src/run/executor.ts). */
@@ -340,7 +345,9 @@ export async function resumeStudy(dirGiven: string, options: Omit<StudyOptions, 
     const { plan, doc } = readStudyPlan(studyDir, dirGiven);
     if (doc.status === 'finished') throw new InputError(`${dirGiven}: the refinement study finished; there is nothing to resume`);
     const label = `${join(dirGiven, 'refine.json')} (case ${plan.caseFile ?? 'unknown'})`;
-    const prepared = await caseFromRunFolder(plan.case, plan.caseFile, plan.baseFolder, label);
+    // refine.json is data: its case loads a code model only as the user says (--case, --load-code-model)
+    const prepared = await caseFromRunFolder(plan.case, plan.caseFile, plan.baseFolder, label, { dirGiven, choice: options.code ?? {} });
+    const loadCode = ownCodeModel(prepared.case).loadCode;
     // a worker of a killed study may still be stopping: no grid may be written by another process
     for (const r of plan.runs) {
       const holder = lockHolder(join(studyDir, r.directory));
@@ -351,11 +358,11 @@ export async function resumeStudy(dirGiven: string, options: Omit<StudyOptions, 
       const dir = join(studyDir, r.directory);
       const run = readRunRecord(dir);
       if (run?.status === 'finished') tasks.push({ ...r, job: undefined });
-      else if (run) tasks.push({ ...r, job: { kind: 'resume', outDir: dir } });
+      else if (run) tasks.push({ ...r, job: { kind: 'resume', outDir: dir, ...(loadCode !== undefined ? { loadCode } : {}) } });
       else {
         // a grid never started: its case comes from refine.json, read as any case stored in a folder
-        const job = freshJob(plan, r, studyDir, label);
-        tasks.push({ ...r, job, prepared: await caseFromRunFolder(job.doc, plan.caseFile, plan.baseFolder, job.label) });
+        const job = freshJob(plan, r, studyDir, label, loadCode);
+        tasks.push({ ...r, job, prepared: await caseFromRunFolder(job.doc, plan.caseFile, plan.baseFolder, job.label, { dirGiven, choice: loadCode !== undefined ? { recorded: loadCode } : {} }) });
       }
     }
     return { prepared, plan, tasks };
@@ -363,10 +370,10 @@ export async function resumeStudy(dirGiven: string, options: Omit<StudyOptions, 
 }
 
 /** A grid's fresh run: the study's case on the grid's intervals, into the grid's folder. */
-function freshJob(plan: StudyPlan, r: StudyPlan['runs'][number], studyDir: string, label: string): Extract<GridJob, { kind: 'run' }> {
+function freshJob(plan: StudyPlan, r: StudyPlan['runs'][number], studyDir: string, label: string, loadCode: string | undefined): Extract<GridJob, { kind: 'run' }> {
   const doc = structuredClone(plan.case) as Record<string, unknown> & { grid: { intervals: number[]; length: number[] } };
   doc.grid = { intervals: r.intervals, length: (plan.case.grid as { length: number[] }).length.slice() };
-  return { kind: 'run', doc, label: `${label} (grid ${gridLabel(r.intervals)})`, baseDir: plan.baseFolder, ...(plan.caseFile ? { file: plan.caseFile } : {}), outDir: join(studyDir, r.directory) };
+  return { kind: 'run', doc, label: `${label} (grid ${gridLabel(r.intervals)})`, baseDir: plan.baseFolder, ...(plan.caseFile ? { file: plan.caseFile } : {}), outDir: join(studyDir, r.directory), ...(loadCode !== undefined ? { loadCode } : {}) };
 }
 
 /**
@@ -378,7 +385,7 @@ async function inStudyFolder(
   lockOptions: { purpose: string; label: string; takeOverForeign?: boolean },
   logGiven: StudyOptions['log'],
   open: () => { prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] } | Promise<{ prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] }>,
-  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'>,
+  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'> & { branchGiven?: boolean },
 ): Promise<StudyResult> {
   const log = logGiven ?? (() => {});
   const made = makeFolder(studyDir, 'study folder');
@@ -413,7 +420,7 @@ async function inStudyFolder(
       if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, point: plan.point ?? { kind: 'fold', index: 1 }, tasks });
       const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
       const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
-      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false });
+      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false, ...(options.branchGiven !== undefined ? { branchGiven: options.branchGiven } : {}) });
     }
     const studyOptions: StudyOptions = { grids: plan.grids, outDir: studyDir, ...options, jobs: plan.jobs, log };
     const thrown = await runGrids(tasks, studyDir, studyOptions);
@@ -425,6 +432,7 @@ async function inStudyFolder(
       ...point,
       outcomes,
       stopped: options.signal?.aborted ?? false,
+      ...(options.branchGiven !== undefined ? { branchGiven: options.branchGiven } : {}),
     });
   } finally {
     unregister();
@@ -516,6 +524,8 @@ function finishStudy(
   s: {
     studyDir: string;
     plan: StudyPlan;
+    /** Whether --branch was given (curve runs: otherwise the curve holding the point); undefined: keep the plan's branch. */
+    branchGiven?: boolean;
     parameter: string;
     point?: PointSpec;
     outcomes: (GridRun & { specials: SpecialRecord[] })[];
@@ -524,8 +534,19 @@ function finishStudy(
 ): StudyResult {
   const warnings: string[] = [];
   const { parameter, outcomes } = s;
-  const branch = s.plan.branch;
+  let branch = s.plan.branch;
   const expected = s.plan.expectedOrder;
+  // curve runs without --branch: the curve on which the point first appears (curves are numbered
+  // alike on every grid), rather than always curve 1
+  if (s.branchGiven === false && prepared.curve && s.point) {
+    for (const o of outcomes) {
+      const rec = o.specials.filter((r) => r.kind === s.point!.kind).sort((a, b) => a.branch - b.branch)[0];
+      if (rec) {
+        branch = rec.branch;
+        break;
+      }
+    }
+  }
   // the default point: the first fold; when no grid has one, say what there is
   let spec = s.point;
   let failure: string | undefined;
@@ -558,7 +579,8 @@ function finishStudy(
     try {
       analysis = analyseRefinement(
         found.map((r) => ({ h: r.h!, value: r.value!, intervals: r.intervals, ...(r.unknowns !== undefined ? { unknowns: r.unknowns } : {}) })),
-        { ...(expected !== null ? { expectedOrder: expected, assumedOrder: expected } : {}) },
+        // curve points are located to about 1e-10 (their values may sit at zero: a cusp at the origin)
+        { ...(expected !== null ? { expectedOrder: expected, assumedOrder: expected } : {}), ...(prepared.curve ? { locationTolerance: 1e-10 } : {}) },
       );
     } catch (e) {
       failure = `the analysis failed: ${(e as Error).message}`;
@@ -697,7 +719,7 @@ export function studySvg(json: Record<string, unknown>): string {
 export function drawStudyPlots(dir: string, options: { monitor?: string; maxSolutionPlots?: number } = {}): { files: string[]; warnings: string[] } {
   let json: Record<string, unknown>;
   try {
-    json = JSON.parse(readFileSync(join(dir, 'refine.json'), 'utf8')) as Record<string, unknown>;
+    json = JSON.parse(readTextFile(join(dir, 'refine.json'), jsonFileLimit, 'a study record')) as Record<string, unknown>;
   } catch (e) {
     throw new InputError(`cannot draw: ${join(dir, 'refine.json')} cannot be read (${(e as Error).message})`);
   }

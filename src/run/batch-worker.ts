@@ -30,7 +30,7 @@ const view: ProgressView = logView(
 async function work(m: WorkerStart): Promise<number> {
   try {
     const prepared = m.doc
-      ? await prepareCaseObject(m.doc, { label: m.label, file: m.file, baseDir: m.baseDir ?? dirname(m.file) })
+      ? await prepareCaseObject(m.doc, { label: m.label, file: m.file, baseDir: m.baseDir ?? dirname(m.file), ...(m.loadCode !== undefined ? { loadCode: m.loadCode } : {}) })
       : await prepareCase(m.file, { label: m.label });
     const result = await runSession(prepared, { outDir: m.outDir, force: m.force, signal: controller.signal, view, name: prepared.case.name });
     send({ type: 'result', result });

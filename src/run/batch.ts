@@ -18,15 +18,18 @@ import { totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
-import { type PreparedCase, prepareCase, prepareCaseObject } from './case.js';
-import { CheckpointError, Checkpointer, type CheckpointDocument, checkpointFile, previousCheckpointFile, readCheckpoint } from './checkpoint.js';
+import { type PreparedCase, ownCodeModel, prepareCase, prepareCaseObject } from './case.js';
+import { CheckpointError, type CheckpointDocument, checkpointFile, previousCheckpointFile, readCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
 import { folderWriteProblem } from './folders.js';
 import { FolderLock, holderText, lockHolder } from './lock.js';
 import type { ProgressView } from './progress.js';
-import { type ProgressInfo, type RunResult, outputDirectory, runCase } from './run-case.js';
+import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
+import { type ProgressInfo, type RunResult, outputDirectory } from './run-case.js';
 import { columnPlan, newRunProblem, readRunRecord } from './run-directory.js';
+import { runCaseInThread } from './run-thread.js';
 import { writeJsonAtomic } from './writers.js';
+import { jsonFileLimit, readTextFile } from './read-file.js';
 
 /** A case ready to run: checked, its problem built, its output folder decided. */
 export interface RunTarget {
@@ -211,19 +214,22 @@ export interface SessionOptions {
   alongside?: boolean;
 }
 
-/** Run (or resume) one case here, with checkpoints and progress. */
+/**
+ * Run (or resume) one case, with checkpoints and progress: the numerics in a worker thread
+ * (src/run/run-thread.ts), so that this thread answers signals at once however long a
+ * factorisation takes.
+ */
 export async function runSession(prepared: PreparedCase, o: SessionOptions): Promise<RunResult> {
   const c = o.resume?.checkpoint;
-  const checkpointer = new Checkpointer(prepared.case.checkpoint, c ? { sequence: c.sequence, points: c.ledger.points } : {});
   o.view.start(o.name, prepared.settings.parameter, prepared.settings.maxPoints);
   try {
-    return await runCase(prepared, {
+    return await runCaseInThread(prepared, {
       outDir: o.outDir,
       ...(o.force ? { force: true } : {}),
       ...(o.signal ? { signal: o.signal } : {}),
       log: (level, message) => o.view.log(o.name, level, message),
       progress: (p: ProgressInfo) => o.view.update(o.name, p),
-      checkpoint: checkpointer.hook,
+      checkpoint: { policy: prepared.case.checkpoint, ...(c ? { sequence: c.sequence, points: c.ledger.points } : {}) },
       ...(o.lock ? { lock: o.lock } : {}),
       ...(o.alongside ? { alongside: true } : {}),
       ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
@@ -266,6 +272,8 @@ export interface ResumeLockOptions {
   force?: boolean;
   /** The folder's lock, when the caller holds it already (it stays held on a refusal). */
   lock?: FolderLock;
+  /** Which code model the stored case may load (src/run/resume-code.ts); none by default. */
+  code?: CodeModelChoice;
 }
 
 /**
@@ -329,8 +337,18 @@ export function checkRecordedLengths(dirGiven: string, dir: string, csvLengths: 
  * The case stored in a run folder (a checkpoint's or run.json's), prepared as the case file it
  * came from would be: paths relative to that file's folder, or to the run folder when unknown.
  */
-export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: string | null, dir: string, label: string): Promise<PreparedCase> {
-  return prepareCaseObject(doc, { label, ...(caseFile ? { file: caseFile } : {}), baseDir: caseFile ? dirname(caseFile) : dir });
+export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: string | null, dir: string, label: string, code: StoredCode): Promise<PreparedCase> {
+  const baseDir = caseFile ? dirname(caseFile) : dir;
+  // a code model loads only when the user names it (src/run/resume-code.ts)
+  const loadCode = await resumeCodeModel(code.dirGiven, doc, code.runCase as { model?: unknown } | undefined, baseDir, code.choice);
+  return prepareCaseObject(doc, { label, ...(caseFile ? { file: caseFile } : {}), baseDir, ...(loadCode !== undefined ? { loadCode } : {}) });
+}
+
+/** Who reads a stored case back, for the code-model rule: the folder as the user named it, run.json's case (to compare), the user's choice. */
+export interface StoredCode {
+  dirGiven: string;
+  runCase?: unknown;
+  choice: CodeModelChoice;
 }
 
 /**
@@ -342,14 +360,21 @@ export async function caseFromRunFolder(doc: Record<string, unknown>, caseFile: 
 export async function prepareResume(dirGiven: string, options: ResumeLockOptions = {}): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan; lock: FolderLock }> {
   const { dir, run, status, lock } = lockForResume(dirGiven, options);
   try {
-    return { ...(await checkResumable(dir, dirGiven, run, status)), lock };
+    return { ...(await checkResumable(dir, dirGiven, run, status, options.code ?? {})), lock };
   } catch (e) {
     if (!options.lock) lock.release();
     throw e;
   }
 }
 
-async function checkResumable(dir: string, dirGiven: string, run: Record<string, unknown>, status: string): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+async function checkResumable(
+  dir: string,
+  dirGiven: string,
+  run: Record<string, unknown>,
+  status: string,
+  choice: CodeModelChoice,
+): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
+  const code: StoredCode = { dirGiven, runCase: run.case, choice };
   let found;
   try {
     found = readCheckpoint(dir);
@@ -360,7 +385,7 @@ async function checkResumable(dir: string, dirGiven: string, run: Record<string,
     const none = !existsSync(join(dir, checkpointFile)) && !existsSync(join(dir, previousCheckpointFile));
     if (none && run.checkpoint === undefined && run.case && typeof run.case === 'object') {
       const caseFile = typeof run['case-file'] === 'string' ? run['case-file'] : null;
-      const prepared = await caseFromRunFolder(run.case as Record<string, unknown>, caseFile, dir, `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})`);
+      const prepared = await caseFromRunFolder(run.case as Record<string, unknown>, caseFile, dir, `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})`, code);
       const started = typeof run.started === 'string' ? run.started : new Date().toISOString();
       const resumes = Array.isArray(run.resumed) ? run.resumed.filter((t): t is string => typeof t === 'string') : [];
       return { prepared, outDir: dir, plan: { skipped: [], previousStatus: status, restart: { started, resumes } } };
@@ -370,7 +395,7 @@ async function checkResumable(dir: string, dirGiven: string, run: Record<string,
   }
   const c = found.document;
   const caseFile = c.run.caseFile;
-  const prepared = await caseFromRunFolder(c.case, caseFile, dir, `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`);
+  const prepared = await caseFromRunFolder(c.case, caseFile, dir, `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`, code);
   // the saved state must belong to this problem (a code model may have changed since)
   const engine = c.engine as { current?: { x?: unknown } | null; rowScale?: unknown } | null;
   const x = engine?.current?.x;
@@ -496,7 +521,7 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
         label: t.label,
         outDir: t.outDir,
         force: o.force === true,
-        ...(t.doc ? { doc: t.doc, baseDir: t.prepared.baseDir } : {}),
+        ...(t.doc ? { doc: t.doc, baseDir: t.prepared.baseDir, ...ownCodeModel(t.prepared.case) } : {}),
       };
       child.send(start);
     });
@@ -562,6 +587,8 @@ export interface WorkerStart {
   /** The case document to run instead of the file as it is (a value of a sweep), with its base folder. */
   doc?: Record<string, unknown>;
   baseDir?: string;
+  /** The one code model `doc` may load (the case file's, which the user named). */
+  loadCode?: string;
 }
 
 export type WorkerMessage =

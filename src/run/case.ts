@@ -40,18 +40,31 @@
  * `prepareCase` does all checking and builds the problem without writing anything; errors are
  * one-line CaseErrors naming the file, the field path, the value and what is accepted.
  */
-import { existsSync, readFileSync, statSync } from 'node:fs';
+import { existsSync, statSync } from 'node:fs';
 import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { LineCounter, parseDocument } from 'yaml';
 import { z } from 'zod';
-import { InitialStateError, assertFactorMemory, estimateFactorMemory, initialStateBuilder, modelEntry, models } from '../../discretisations/index.js';
+import {
+  type FactorMemoryEstimate,
+  InitialStateError,
+  assertFactorMemory,
+  assertFactorWork,
+  defaultFactorMemoryLimit,
+  estimateFactorMemory,
+  initialStateBuilder,
+  modelEntry,
+  models,
+} from '../../discretisations/index.js';
 import type { OptionSpec } from '../../discretisations/models/options.js';
 import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
+import { type ResolvedFollow, curveSettingsOf, curveStartAt, followDocument, resolveFollow } from './curve-case.js';
+import { type CurveSettings, curveKinds } from '../continuation/curves/types.js';
 import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
+import { FileReadError, caseFileLimit, codeModelLimit, notRegularFile, readTextFile, sizeText } from './read-file.js';
 import {
   type RunPoint,
   extrasForSolutionFile,
@@ -74,6 +87,13 @@ export const maxPointsLimit = 1_000_000;
 export const maxDepthLimit = 10;
 /** Estimated solution files per branch (output.solutions: all) above this are refused. */
 export const solutionBytesLimit = 64 * 1024 ** 3;
+/**
+ * Accepted `grid.length` per axis (in the user's unit, from nanometres to a planet in metres):
+ * outside it h², h⁴ and their inverses leave double precision on the finest grids we accept.
+ */
+export const lengthRange = [1e-9, 1e9] as const;
+/** The smallest Newton tolerance: below it round-off alone keeps the residual from converging. */
+export const minTolerance = 1e-15;
 
 export const solutionChoices = ['special', 'none', 'all'] as const;
 export type SolutionChoice = (typeof solutionChoices)[number];
@@ -98,6 +118,8 @@ export interface ResolvedContinuation {
   locate: { folds: boolean; branchPoints: boolean };
   maxTurnDegrees: number;
   sparseLu: 'auto' | 'klu' | 'superlu';
+  /** A curve run: what it follows and the free parameter (./curve-case.ts). */
+  follow?: ResolvedFollow;
 }
 
 export interface ResolvedCase {
@@ -144,6 +166,11 @@ export interface PreparedCase {
   caution?: string;
   /** Start state (grid unknowns and extra unknowns) from `start:`, with where it came from in words. */
   start?: { u: Float64Array; from: string };
+  /**
+   * A curve run (`continuation.follow`): the curve engine's settings, and whether the start state
+   * is the special point itself (a run point of the followed kind: no search).
+   */
+  curve?: { settings: CurveSettings; atPoint: boolean; frequency?: number };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -236,39 +263,48 @@ const integerIn = (lo: number, hi: number) => {
 const intervalsText = accepted('a list of 1 to 3 integers, intervals per axis, e.g. [64] or [32, 32]');
 const atLeastTwo = accepted('an integer of at least 2');
 
+const lengthText = 'a length from 1e-9 to 1e9';
+const lengthSchema = z.number(accepted(lengthText)).min(lengthRange[0], accepted(lengthText)).max(lengthRange[1], accepted(lengthText));
+
 const gridSchema = section({
   intervals: z.array(z.number(atLeastTwo).int(atLeastTwo).min(2, atLeastTwo), intervalsText).min(1, intervalsText).max(3, intervalsText),
-  length: z.union([positive, z.array(positive)], accepted('a positive number, or a list of positive numbers (one per axis)')).optional(),
+  length: z.union([lengthSchema, z.array(lengthSchema)], accepted(`${lengthText}, or a list of such lengths (one per axis)`)).optional(),
 });
 
 const stepSchema = section({ initial: positive.optional(), min: positive.optional(), max: positive.optional() });
 
 const stopSchema = section({ monitor: z.string(accepted('a monitor name')), above: finite.optional(), below: finite.optional() });
 
-const toleranceText = accepted('a number between 0 and 1');
+const toleranceText = accepted(`a number from ${minTolerance} to below 1`);
 const turnText = accepted('a number of degrees above 0 and at most 90');
 
 const continuationSchema = section({
   parameter: z.string(accepted('the name of a parameter of the model')),
   bounds: z.tuple([finite, finite], accepted('two finite numbers [low, high]')),
-  direction: word(['increase', 'decrease']).optional(),
+  direction: word(['increase', 'decrease', 'both']).optional(),
   method: word(['arclength', 'natural']).optional(),
   step: stepSchema.optional(),
   'max-points': integerIn(1, maxPointsLimit).optional(),
   'stop-when': z.array(stopSchema, accepted('a list of {monitor, above | below}')).optional(),
   'branch-switching': section({ depth: integerIn(0, maxDepthLimit) }).optional(),
   newton: section({
-    tolerance: z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
-    'residual-tolerance': z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
-    'step-tolerance': z.number(toleranceText).positive(toleranceText).lt(1, toleranceText).optional(),
+    tolerance: z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
+    'residual-tolerance': z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
+    'step-tolerance': z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
     'max-iterations': integerIn(1, 100).optional(),
   }).optional(),
   locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
   'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
   'sparse-lu': word(['auto', 'klu', 'superlu']).optional(),
+  // curve runs (./curve-case.ts)
+  follow: word(curveKinds).optional(),
+  free: z.string(accepted('the name of a parameter of the model')).optional(),
+  'free-bounds': z.tuple([finite, finite], accepted('two finite numbers [low, high]')).optional(),
+  'free-direction': word(['increase', 'decrease']).optional(),
+  search: section({ step: stepSchema.optional(), 'max-points': integerIn(1, maxPointsLimit).optional() }).optional(),
 });
 
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster'] as const;
+const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster', 'search'] as const;
 
 const setupLineText = accepted('a list of shell lines run before the run in a cluster job, e.g. ["module load nodejs/20"]');
 
@@ -286,6 +322,8 @@ const caseSchema = z.looseObject(
     // checked by ./initial.ts (its shape depends on the model) and ./settle-case.ts
     initial: z.unknown().optional(),
     time: z.unknown().optional(),
+    // checked by ./find-states-case.ts (used by `branchline find-states`, ignored by the others)
+    search: z.unknown().optional(),
     output: section({
       directory: z.string(accepted('a folder path')).min(1, accepted('a folder path')).optional(),
       solutions: word(solutionChoices).optional(),
@@ -315,11 +353,16 @@ type CaseInput = z.infer<typeof caseSchema>;
 export function parseCaseText(text: string, label: string, json = false): unknown {
   if (text.includes('\u0000')) throw new CaseError(label, '', 'the file holds binary data, not a YAML or JSON case');
   if (json) {
+    let value: unknown;
     try {
-      return JSON.parse(text);
+      value = JSON.parse(text);
     } catch (e) {
       throw new CaseError(label, '', `not valid JSON: ${(e as Error).message}`);
     }
+    // JSON.parse keeps the last of two equal keys without a word; YAML refuses them (uniqueKeys)
+    const twice = duplicateJsonKey(text);
+    if (twice) throw new CaseError(label, pathText(twice.path), `the key ${showValue(twice.key)} is given twice (line ${twice.line}); give each key once`);
+    return value;
   }
   const lineCounter = new LineCounter();
   const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true, lineCounter });
@@ -333,6 +376,69 @@ export function parseCaseText(text: string, label: string, json = false): unknow
     return doc.toJS({ maxAliasCount: 100 });
   } catch (e) {
     throw new CaseError(label, '', `not valid YAML: ${(e as Error).message}`);
+  }
+}
+
+/**
+ * The first key given twice in one object of a JSON text that JSON.parse accepted, with the path
+ * of its object and its line. A plain scan: strings, brackets, colons and commas are all it needs.
+ */
+export function duplicateJsonKey(text: string): { key: string; path: (string | number)[]; line: number } | undefined {
+  type Frame = { keys?: Set<string>; expectKey: boolean; index: number; key?: string };
+  const stack: Frame[] = [];
+  const path = (): (string | number)[] => stack.slice(0, -1).map((f) => (f.keys ? (f.key as string) : f.index));
+  for (let i = 0; i < text.length; i++) {
+    const c = text[i];
+    if (c === '{' || c === '[') {
+      stack.push(c === '{' ? { keys: new Set(), expectKey: true, index: 0 } : { expectKey: false, index: 0 });
+    } else if (c === '}' || c === ']') {
+      stack.pop();
+    } else if (c === ',') {
+      const top = stack[stack.length - 1];
+      if (top?.keys) top.expectKey = true;
+      else if (top) top.index++;
+    } else if (c === '"') {
+      const start = i;
+      for (i++; text[i] !== '"'; i++) if (text[i] === '\\') i++;
+      const top = stack[stack.length - 1];
+      if (top?.keys && top.expectKey) {
+        const key = JSON.parse(text.slice(start, i + 1)) as string;
+        top.expectKey = false;
+        if (top.keys.has(key)) {
+          top.key = key;
+          const line = text.slice(0, start).split('\n').length;
+          return { key, path: path(), line };
+        }
+        top.keys.add(key);
+        top.key = key;
+      }
+    }
+  }
+  return undefined;
+}
+
+/**
+ * Keys that JavaScript gives a meaning of their own (`__proto__` names an object's prototype):
+ * refused anywhere in a case, whatever it was read from (YAML, JSON, a run's stored case).
+ */
+function refuseOddKeys(raw: unknown, label: string): void {
+  const stack: { v: unknown; path: (string | number)[] }[] = [{ v: raw, path: [] }];
+  // YAML anchors and aliases share one object between places (and can make a cycle): each object
+  // is looked at once, or a few nested aliases would mean exponentially many visits
+  const seen = new Set<object>();
+  while (stack.length) {
+    const { v, path } = stack.pop()!;
+    if (v === null || typeof v !== 'object' || ArrayBuffer.isView(v) || v instanceof Date) continue;
+    if (seen.has(v)) continue;
+    seen.add(v);
+    if (Array.isArray(v)) {
+      v.forEach((x, i) => stack.push({ v: x, path: [...path, i] }));
+      continue;
+    }
+    for (const key of Object.keys(v)) {
+      if (key === '__proto__') throw new CaseError(label, pathText(path), `the key '__proto__' is not accepted (JavaScript reads it as the prototype of the map; give another name)`);
+      stack.push({ v: (v as Record<string, unknown>)[key], path: [...path, key] });
+    }
   }
 }
 
@@ -350,13 +456,15 @@ export function readCaseFile(file: string, options: { label?: string } = {}): { 
   if (statSync(abs).isDirectory()) throw new CaseError(label, '', 'is a folder, not a case file');
   let text: string;
   try {
-    text = readFileSync(abs, 'utf8');
+    text = readTextFile(abs, caseFileLimit, 'a case file');
   } catch (e) {
-    throw new CaseError(label, '', `cannot be read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+    if (e instanceof FileReadError) throw new CaseError(label, '', e.reason);
+    throw e;
   }
   const raw = parseCaseText(text, label, extname(abs).toLowerCase() === '.json');
   const defaultName = basename(abs, extname(abs)).replace(/[^A-Za-z0-9._-]/g, '-').replace(/^[^A-Za-z0-9]+/, '') || 'case';
-  return { raw, opts: { label, file: abs, baseDir: dirname(abs), defaultName } };
+  // the user named this file: its code model may load
+  return { raw, opts: { label, file: abs, baseDir: dirname(abs), defaultName, loadCode: true } };
 }
 
 export interface PrepareObjectOptions {
@@ -364,6 +472,30 @@ export interface PrepareObjectOptions {
   file?: string;
   baseDir: string;
   defaultName?: string;
+  /**
+   * Which code model the case may import (and so run): `true` for a case the user named on the
+   * command line (or one built from it in this call), a path for exactly that module, absent for
+   * none. A case read back from a run folder (a checkpoint, run.json) is data: folders travel
+   * between colleagues, and a forged one must not run code the user did not name.
+   */
+  loadCode?: true | string;
+}
+
+/**
+ * The option that lets a case built from `resolved` (a sweep's value, a grid of a study, the same
+ * case in a worker) load its code model: the one already allowed when `resolved` was read; none
+ * for other models.
+ */
+export function ownCodeModel(resolved: { model: string; modelKind: ModelKind }): { loadCode?: string } {
+  return resolved.modelKind === 'code' ? { loadCode: resolved.model } : {};
+}
+
+/** The absolute path of the code model a case's `model` value names (undefined for a built-in id). */
+export function codeModelPath(model: unknown, baseDir: string): string | undefined {
+  if (typeof model !== 'string') return undefined;
+  const id = model.trim();
+  if (Object.hasOwn(models, id) || !(/[\\/]/.test(id) || /\.(mjs|js|cjs)$/i.test(id))) return undefined;
+  return isAbsolute(id) ? id : resolve(baseDir, id);
 }
 
 /**
@@ -406,6 +538,7 @@ export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions)
   if (typeof raw !== 'object' || Array.isArray(raw)) {
     fail('', `expected a map of keys (name, model, grid, parameters, continuation, output), got ${showValue(raw)}`);
   }
+  refuseOddKeys(raw, label);
 
   // 1. the case keys' shapes
   const parsed = caseSchema.safeParse(raw);
@@ -447,9 +580,12 @@ export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions)
     optionSpecs = entry.options;
     dimensions = entry.dimensions;
     registryCaution = entry.caution;
-  } else if (/[\\/]/.test(modelId) || /\.(mjs|js|cjs)$/i.test(modelId)) {
+  } else if (codeModelPath(modelId, opts.baseDir) !== undefined) {
     kind = 'code';
-    modelRef = isAbsolute(modelId) ? modelId : resolve(opts.baseDir, modelId);
+    modelRef = codeModelPath(modelId, opts.baseDir)!;
+    if (opts.loadCode !== true && opts.loadCode !== modelRef) {
+      fail('model', `the code model ${modelRef} is not loaded: a case read back from a folder never runs code the user did not name (pass the case file that names the module)`);
+    }
     factory = await loadCodeModel(modelRef, modelId, label);
   } else {
     return fail('model', `${showValue(modelId)} is not a known model (accepted: ${known.join(', ')}, or a path to a code model such as ./my-model.mjs)`);
@@ -496,6 +632,10 @@ export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions)
   } catch (e) {
     fail('grid.intervals', (e as Error).message);
   }
+  // before the problem is built, with the fewest unknowns the grid can have (one field, Dirichlet
+  // walls): what is refused here is refused below too, once the problem says what it holds
+  const eigenvalues = input.stability?.eigenvalues ?? 0;
+  checkFactorisations(estimateFactorMemory(intervals.map((n) => n - 1), 1, 1), intervals, eigenvalues, fail);
   const grid: GridOptions = { intervals: intervals.slice(), length: length.slice() };
 
   // 5. parameters given as start values (reaction-diffusion: declarations, passed to the model)
@@ -542,6 +682,7 @@ export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions)
       fail('grid.intervals', (e as Error).message);
     }
   }
+  checkFactorisations(builtEstimate(description, problem), intervals, eigenvalues, fail);
 
   // 7. start values (a start from a run point brings that point's parameter values)
   const params: Record<string, number> = {};
@@ -649,7 +790,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     fail('continuation.bounds', `${showValue(c.bounds)} reaches outside the accepted range of ${parameter}, [${pspec.min ?? '-inf'}, ${pspec.max ?? 'inf'}]`);
   }
   const start = params[parameter];
-  const direction = (c.direction ?? defaultSettings.direction) as 'increase' | 'decrease';
+  // `both` (curve runs: one curve each way from the first point) is checked with the curve keys
+  const direction = (c.direction === 'both' ? 'increase' : (c.direction ?? defaultSettings.direction)) as 'increase' | 'decrease';
   if (start < lo || start > hi) {
     fail(
       `parameters.${parameter}`,
@@ -695,6 +837,8 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     maxTurnDegrees: c['max-turn-degrees'] ?? defaultSettings.maxTurnDegrees,
     sparseLu: (c['sparse-lu'] ?? 'auto') as 'auto' | 'klu' | 'superlu',
   };
+  const follow = resolveFollow(c, problem, params, parameter, input.stability?.eigenvalues, fail);
+  if (follow) continuation.follow = follow;
 
   // 9. output, stability, checkpoint
   const solutions = (input.output?.solutions ?? 'special') as SolutionChoice;
@@ -745,7 +889,41 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
     settings: toSettings(continuation, resolved.stability.eigenvalues),
     ...(parts.caution ? { caution: parts.caution } : {}),
     ...(parts.start ? { start: parts.start } : {}),
+    ...(follow ? { curve: { settings: curveSettingsOf({ ...continuation, follow }), ...curveStartAt(follow.kind, startFrom?.point?.record) } } : {}),
   };
+}
+
+/**
+ * What a run's factorisations will cost, refused up front when hopeless: the work of one (3D grids
+ * take minutes per factorisation long before their memory is a problem), and the memory of those
+ * held at once — the continuation's bordered matrix and, with stability, the eigen solver's
+ * shifted matrix — in the solver's one address space.
+ */
+function checkFactorisations(estimate: FactorMemoryEstimate, intervals: readonly number[], eigenvalues: number, fail: (field: string, detail: string) => never): void {
+  const what = `grid ${intervals.join('x')}`;
+  try {
+    assertFactorWork(estimate, what);
+  } catch (e) {
+    fail('grid.intervals', (e as Error).message);
+  }
+  if (eigenvalues > 0 && 2 * estimate.bytes > defaultFactorMemoryLimit) {
+    fail(
+      'grid.intervals',
+      `${what}: the sparse LU factorisations of the continuation and of the eigenvalue solver, held at once, would need about ${((2 * estimate.bytes) / 1024 ** 3).toFixed(1)} GiB, ` +
+        `over the ${(defaultFactorMemoryLimit / 1024 ** 3).toFixed(1)} GiB the solver can hold (one 4 GiB address space); use fewer intervals, or stability: {eigenvalues: 0}`,
+    );
+  }
+}
+
+/** The factorisation estimate of a built problem (its bordered matrix: one more row and column). */
+function builtEstimate(description: ReturnType<Problem['describe']>, problem: Problem): FactorMemoryEstimate {
+  const fields = Math.max(1, description.fields.length);
+  // unknown nodes per axis (eliminated Dirichlet nodes are not unknowns): the axes' node counts
+  // scaled alike so that their product is the problem's grid unknowns per field
+  const nodes = description.axes.map((a) => a.nodes);
+  const all = nodes.reduce((a, x) => a * x, 1);
+  const scale = problem.gridUnknowns > 0 && all > 0 ? (problem.gridUnknowns / fields / all) ** (1 / nodes.length) : 1;
+  return estimateFactorMemory(nodes.map((x) => x * scale), fields, problem.extraUnknowns.length + 1);
 }
 
 /** The diagram's default monitor: `max` (single field), `max:<first field>`, else the first monitor. */
@@ -813,7 +991,9 @@ function readStartState(start: StartKey, problem: Problem, params: Params, fail:
   const field = start.point ? 'start.run' : 'start.solution';
   let array: { shape: number[]; data: Float64Array };
   try {
-    array = readSolutionFile(file);
+    // the grid says how large the file can be: nodes times fields
+    const d = problem.describe();
+    array = readSolutionFile(file, d.axes.reduce((a, ax) => a * ax.nodes, 1) * Math.max(1, d.fields.length));
   } catch (e) {
     return fail(field, (e as Error).message);
   }
@@ -875,6 +1055,11 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
   };
 }
 
+/** The starting state's keys of a case document, `initial:` then `start:` (settle and find-states cases). */
+export function startingStateDocument(c: { initial?: ResolvedInitial; start?: object }): Record<string, unknown> {
+  return { ...(c.initial ? { initial: initialDocument(c.initial) } : {}), ...(c.start ? { start: { ...c.start } } : {}) };
+}
+
 /** The keys every resolved case writes first: name, model, the model's own keys, grid, parameters. */
 export function caseDocumentHead(c: Pick<ResolvedCase, 'name' | 'model' | 'modelOptions' | 'grid' | 'modelKind' | 'parameterDeclarations' | 'parameters'>): Record<string, unknown> {
   return {
@@ -898,13 +1083,14 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
       parameter: k.parameter,
       bounds: k.bounds,
       direction: k.direction,
-      method: k.method,
+      // (curve runs have no method, branch switching or locate keys)
+      ...(k.follow ? followDocument(k.follow) : { method: k.method }),
       step: k.step,
       'max-points': k.maxPoints,
       'stop-when': k.stopWhen,
-      'branch-switching': k.branchSwitching,
+      ...(k.follow ? {} : { 'branch-switching': k.branchSwitching }),
       newton: { 'residual-tolerance': k.newton.residualTolerance, 'step-tolerance': k.newton.stepTolerance, 'max-iterations': k.newton.maxIterations },
-      locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints },
+      ...(k.follow ? {} : { locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints } }),
       'max-turn-degrees': k.maxTurnDegrees,
       'sparse-lu': k.sparseLu,
     },
@@ -923,6 +1109,10 @@ export function caseDocument(c: ResolvedCase): Record<string, unknown> {
 
 async function loadCodeModel(abs: string, given: string, label: string): Promise<ProblemFactory> {
   if (!existsSync(abs)) throw new CaseError(label, 'model', `code model ${showValue(given)} not found (looked for ${abs})`);
+  // importing a FIFO or a device would block or never end
+  const odd = notRegularFile(abs);
+  if (odd) throw new CaseError(label, 'model', `code model ${showValue(given)} cannot be loaded: ${odd}`);
+  if (statSync(abs).size > codeModelLimit) throw new CaseError(label, 'model', `code model ${showValue(given)} is larger than the ${sizeText(codeModelLimit)} accepted for a code model`);
   let mod: Record<string, unknown>;
   try {
     mod = (await import(pathToFileURL(abs).href)) as Record<string, unknown>;

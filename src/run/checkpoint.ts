@@ -36,7 +36,8 @@
  * point, so a stop costs at most `syncEvery - 1` points that the resumed run computes again.
  */
 import { createHash } from 'node:crypto';
-import { existsSync, readFileSync, renameSync, unlinkSync } from 'node:fs';
+import { existsSync, renameSync, unlinkSync } from 'node:fs';
+import { FileReadError, checkpointFileLimit, readRegularFile } from './read-file.js';
 import { join } from 'node:path';
 import type { RunLedger } from './run-directory.js';
 import type { CheckpointContext } from './run-hooks.js';
@@ -273,10 +274,10 @@ export function writeCheckpoint(dir: string, doc: CheckpointDocument): number {
 export function readCheckpointFile(path: string, label = path): CheckpointDocument {
   let bytes: Buffer;
   try {
-    bytes = readFileSync(path);
+    bytes = readRegularFile(path, checkpointFileLimit, 'a checkpoint');
   } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    throw new CheckpointError(code === 'ENOENT' ? `${label} does not exist` : `${label} cannot be read (${code ?? (e as Error).message})`);
+    if (!(e instanceof FileReadError)) throw e;
+    throw new CheckpointError(e.code === 'ENOENT' ? `${label} does not exist` : `${label}: ${e.reason}`);
   }
   return decodeCheckpoint(bytes, label);
 }

@@ -5,7 +5,7 @@
  *
  * Entries are paths relative to the run folder, in our naming scheme only:
  *
- *   run.json, points.json, diagram.svg, checkpoint.bin, checkpoint.previous.bin
+ *   run.json, points.json, points.csv, diagram.svg, checkpoint.bin, checkpoint.previous.bin
  *   branches/<id>.csv
  *   solutions/<name>.npy                 a special point's (or a point's) state
  *   solutions/branch-<id>-point-*.npy    every point's state of one branch (output.solutions: all;
@@ -27,13 +27,22 @@ export const checkpointFile = 'checkpoint.bin';
 export const previousCheckpointFile = 'checkpoint.previous.bin';
 
 /** Files every run has (or may have) under fixed names. */
-export const fixedRunFiles = ['run.json', 'points.json', 'diagram.svg', checkpointFile, previousCheckpointFile] as const;
+export const fixedRunFiles = ['run.json', 'points.json', 'points.csv', 'diagram.svg', checkpointFile, previousCheckpointFile] as const;
 
 /** Files a time integration (`settle`) has under fixed names, besides run.json and the checkpoints. */
 const fixedSettleFiles = ['monitors.csv', 'monitors.svg', 'solutions/final.npy', 'plots/initial.svg', 'plots/final.svg', 'snapshots/time-*.npy'];
 
+/**
+ * Files a search for steady states (`find-states`) has, besides run.json and diagram.svg: its
+ * tables, its states, and the run folders of its traces (`traces/state-*`: every file a run
+ * writes, inside traces/state-<K>-increase/ and traces/state-<K>-decrease/).
+ */
+const fixedFindFiles = ['states.csv', 'solves.csv', 'solutions/state-*.npy', 'traces/state-*'];
+const stateFile = /^solutions\/state-\d+\.npy$/;
+const traceFile = /^traces\/state-\d+-(?:increase|decrease)\/(.+)$/;
+
 /** Sub-folders a run writes into. */
-const runFolders = ['branches', 'solutions', 'plots', 'snapshots'] as const;
+const runFolders = ['branches', 'solutions', 'plots', 'snapshots', 'traces'] as const;
 
 const snapshotFile = /^snapshots\/time-(-?inf|nan|[-+0-9.e]+)\.npy$/;
 
@@ -44,10 +53,19 @@ const pointFamily = /^solutions\/branch-(\d+)-point-\*\.npy$/;
 
 /** Whether `entry` is a name a run writes (see the header); a manifest with any other entry is unusable. */
 export function isRunFileEntry(entry: string): boolean {
-  if ((fixedRunFiles as readonly string[]).includes(entry) || fixedSettleFiles.includes(entry)) return true;
+  if ((fixedRunFiles as readonly string[]).includes(entry) || fixedSettleFiles.includes(entry) || fixedFindFiles.includes(entry)) return true;
   if (branchFile.test(entry) || pointFamily.test(entry)) return true;
   const s = solutionFile.exec(entry);
   return s !== null && solutionName.test(s[1]);
+}
+
+/** Inside a trace's run folder: a run's plots and the temporary files of its atomic writes. */
+function traceExtra(inner: string): boolean {
+  const plot = /^plots\/([^/]+)\.svg$/.exec(inner);
+  if (plot) return solutionName.test(plot[1]);
+  const slash = inner.lastIndexOf('/');
+  const tmp = /^\.(.+)\.\d+\.\d+\.tmp$/.exec(inner.slice(slash + 1));
+  return tmp !== null && !tmp[1].startsWith('.') && isRunFileEntry(inner.slice(0, slash + 1) + tmp[1]);
 }
 
 /** Whether a file name in plots/ is one a run draws (`<solution name>.svg`), not a user's figure. */
@@ -84,6 +102,10 @@ export class Manifest {
     if (this.entries.includes(rel)) return true;
     if (this.families.some((r) => r.test(rel))) return true;
     if (snapshotFile.test(rel) && this.entries.includes('snapshots/time-*.npy')) return true;
+    if (stateFile.test(rel) && this.entries.includes('solutions/state-*.npy')) return true;
+    // a file of a trace's run folder, by the names a run writes (its own solutions and plots included)
+    const trace = traceFile.exec(rel);
+    if (trace && this.entries.includes('traces/state-*')) return isRunFileEntry(trace[1]) || /^branches\/\d+\.csv$/.test(trace[1]) || traceExtra(trace[1]);
     const slash = rel.lastIndexOf('/');
     const folder = slash < 0 ? '' : rel.slice(0, slash + 1);
     const base = rel.slice(slash + 1);
@@ -157,6 +179,20 @@ export function removeRunFiles(dir: string, manifest: Manifest, ignore: (rel: st
     if (ignore(rel)) continue;
     if (!rel.endsWith('/') && manifest.covers(rel)) rmSync(join(dir, rel), { force: true });
     else kept.push(rel);
+  }
+  // a search's trace folders, emptied: their sub-folders, then themselves
+  if (existsSync(join(dir, 'traces'))) {
+    for (const t of readdirSync(join(dir, 'traces'))) {
+      if (!/^state-\d+-(?:increase|decrease)$/.test(t)) continue;
+      for (const f of [...runFolders, '']) {
+        try {
+          const p = join(dir, 'traces', t, f);
+          if (existsSync(p) && readdirSync(p).length === 0) rmdirSync(p);
+        } catch {
+          /* not empty or gone */
+        }
+      }
+    }
   }
   for (const f of runFolders) {
     try {

@@ -27,11 +27,13 @@ import {
   heatMapSvg,
   linePlotSvg,
 } from '../plot/index.js';
+import { curveName } from '../continuation/curves/types.js';
+import { earlierCurves } from './plane-diagram.js';
 import { defaultPlotMonitor } from './case.js';
 import { InputError } from './errors.js';
 import { isRunPlotName } from './manifest.js';
 import type { SpecialRecord } from './run-directory.js';
-import { readPointsJson, readRunJson } from './start.js';
+import { readPointsJson, readRunJson, runFilePath } from './start.js';
 import { parseJsonNumber, readCsv, readNpy, writeFileAtomic } from './writers.js';
 
 export interface PlotOptions {
@@ -57,6 +59,8 @@ export interface PlotResult {
   notes: string[];
   /** The monitor used on the diagram. */
   monitor: string;
+  /** Curve runs: the diagram's axes, the two parameters. */
+  plane?: [string, string];
 }
 
 export interface AxisInfo {
@@ -70,7 +74,20 @@ export interface AxisInfo {
 /** Columns of a branch CSV that are not monitors. */
 const nonMonitorColumns = new Set(['point', 'arclength', 'newton-iterations', 'residual', 'step-length', 'stable', 'unstable-count', 'leading-real', 'leading-imag', 'search-complete', 'unexplained-change']);
 
-const kindWords: Record<string, string> = { fold: 'fold', 'branch-point': 'branch point', hopf: 'Hopf point', end: 'end' };
+const kindWords: Record<string, string> = {
+  fold: 'fold',
+  'branch-point': 'branch point',
+  hopf: 'Hopf point',
+  end: 'end',
+  cusp: 'cusp',
+  'bogdanov-takens': 'Bogdanov–Takens point',
+  'fold-branch-point': 'fold meeting a branch point',
+  'mode-change': 'mode change',
+  'mode-crossing': 'mode crossing',
+  'zero-hopf': 'zero-Hopf point',
+  bautin: 'Bautin point',
+  'double-hopf': 'double-Hopf point',
+};
 
 function str(v: unknown, fallback = ''): string {
   return typeof v === 'string' ? v : fallback;
@@ -126,6 +143,8 @@ export interface RunDiagramData {
   shown: DiagramSpecialPoint[];
   caution?: string;
   warnings: string[];
+  /** Curve runs: the free parameter, on the vertical axis instead of the monitor. */
+  free?: string;
 }
 
 /**
@@ -157,8 +176,11 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
   if (!monitors.includes(chosen)) {
     throw new InputError(`monitor '${chosen}' is not a column of this run (accepted: ${monitors.join(', ') || 'none'})`);
   }
-  // --- the diagram
-  const branchRecords = (Array.isArray(run.branches) ? run.branches : []) as { id: number; file: string }[];
+
+  // --- the diagram (curve runs: the curves in the plane of the two parameters)
+  const free = typeof run['free-parameter'] === 'string' ? run['free-parameter'] : undefined;
+  const across = free ?? chosen;
+  const branchRecords = (Array.isArray(run.branches) ? run.branches : []) as { id: number; file: string; follow?: string; mode?: number[] }[];
   const branchFiles = branchRecords.length
     ? branchRecords.map((b) => ({ id: b.id, file: b.file }))
     : listBranchFiles(dir);
@@ -177,18 +199,20 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
       continue;
     }
     const ip = csv.columns.indexOf(parameter);
-    const im = csv.columns.indexOf(chosen);
+    const im = csv.columns.indexOf(across);
     const is = csv.columns.indexOf('stable');
     if (ip < 0 || im < 0) {
-      warnings.push(`branch ${b.id}: ${b.file} has no column ${ip < 0 ? parameter : chosen}`);
+      warnings.push(`branch ${b.id}: ${b.file} has no column ${ip < 0 ? parameter : across}`);
       continue;
     }
+    const record = branchRecords.find((r) => r.id === b.id);
     branches.push({
       id: b.id,
+      ...(free ? { name: `${record?.follow ? curveName(record.follow) : 'curve'} ${b.id}${Array.isArray(record?.mode) ? `, mode ${record!.mode.join(', ')}` : ''}` } : {}),
       points: csv.rows.map((r) => ({
         parameter: r[ip],
         monitor: r[im],
-        stable: is < 0 || Number.isNaN(r[is]) ? null : r[is] === 1,
+        stable: free ? true : is < 0 || Number.isNaN(r[is]) ? null : r[is] === 1,
       })),
     });
   }
@@ -196,13 +220,17 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
   const shown: DiagramSpecialPoint[] = [];
   for (const s of specials) {
     if (!(SPECIAL_POINT_KINDS as readonly string[]).includes(s.kind) || !ids.has(String(s.branch))) continue;
-    const m = s.monitors?.[chosen];
+    const m = free ? num(s.free) : s.monitors?.[chosen];
     const value = num(s.value);
     if (typeof m !== 'number' || !Number.isFinite(m) || !Number.isFinite(value)) continue;
+    // a curve that ends at a mode change goes on as another curve: its end is the mode change;
+    // a Hopf curve that ends at a Bogdanov–Takens point: its end is that point's marker
+    if (s.kind === 'end' && (s.reason === 'mode-change' || s.reason === 'bogdanov-takens')) continue;
     // ends are where the user's bounds stopped a branch: a bare marker (the legend names it)
-    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : {}) });
+    const modes = s.kind === 'mode-change' && Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? { label: `mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}` } : {};
+    shown.push({ kind: s.kind as SpecialPointKind, branch: s.branch, parameter: value, monitor: m, ...(s.kind === 'end' ? { label: '' } : modes) });
   }
-  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings };
+  return { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, ...(caution ? { caution } : {}), warnings, ...(free ? { free } : {}) };
 }
 
 /**
@@ -210,21 +238,39 @@ export function readRunDiagram(dir: string, monitorAsked?: string): RunDiagramDa
  * run or the monitor is unknown; a solution that cannot be drawn becomes a warning.
  */
 export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult {
-  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings } = readRunDiagram(dir, options.monitor);
+  const { run, specials, parameter, monitor: chosen, fields, descriptions, branches, shown, caution, warnings, free } = readRunDiagram(dir, options.monitor);
   const notes: string[] = [];
   const written: string[] = [];
   const problem = (run.problem ?? {}) as Record<string, unknown>;
   const title = runTitle(run);
+  // a curve run started at a point of an earlier curve run in the same plane: its curves too
+  const earlier = free ? earlierCurves(run, parameter, free) : undefined;
+  const own = branches.length;
+  if (earlier) {
+    branches.push(...earlier.branches);
+    shown.push(...earlier.shown);
+  }
   nameCoincidentBranches(branches);
   labelCoincidentPointsOnce(shown);
   const statusNote = run.status === 'finished' ? '' : ` (run ${str(run.status, 'unfinished')})`;
+  const follow = str(run.follow, 'special point');
+  const withEarlier = earlier?.names.length ? `with the curves of ${earlier.names.join(', ')}, where it started` : '';
+  // curves spanning more than two decades of positive values get a log axis (an ignition limit
+  // over Biot numbers from 0.01 to 100, an imperfection from 1e-6 to 1e-3)
+  const decades = (pick: (p: { parameter: number; monitor: number }) => number): boolean => {
+    const vs = [...branches.flatMap((b) => b.points.map(pick)), ...shown.map(pick)].filter(Number.isFinite);
+    return vs.length > 1 && Math.min(...vs) > 0 && Math.max(...vs) >= 100 * Math.min(...vs);
+  };
   const svg = diagramSvg({
-    title: `${title.name}: ${monitorWords(chosen, fields, descriptions)} against ${parameter}${statusNote}`,
-    subtitle: [title.summary, title.grid].filter((t) => t !== '').join('; '),
+    title: free
+      ? `${title.name}: the ${curveName(follow).replace(/-/g, ' ')}${own === 1 ? '' : 's'} in the plane of ${parameter} and ${free}${statusNote}`
+      : `${title.name}: ${monitorWords(chosen, fields, descriptions)} against ${parameter}${statusNote}`,
+    subtitle: [withEarlier, title.summary, title.grid].filter((t) => t !== '').join('; '),
     parameterName: parameter,
-    monitorName: monitorWords(chosen, fields, descriptions),
+    monitorName: free ?? monitorWords(chosen, fields, descriptions),
     branches,
     specialPoints: shown,
+    ...(free ? { curves: true, logParameter: decades((p) => p.parameter), logMonitor: decades((p) => p.monitor) } : {}),
     ...(caution ? { caution } : {}),
   });
   writeFileAtomic(join(dir, 'diagram.svg'), svg);
@@ -248,7 +294,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       const name = basename(s.solution).replace(/\.npy$/, '');
       const file = `plots/${name}.svg`;
       try {
-        const array = readNpy(join(dir, s.solution));
+        const array = readNpy(runFilePath(dir, s.solution, 'the solution file'));
         const plot = solutionSvg(array, s, { fields, axes, parameter, caution, caseName: title.name, monitor: chosen, descriptions });
         mkdirSync(plotsDir, { recursive: true });
         writeFileAtomic(join(dir, file), plot);
@@ -265,7 +311,7 @@ export function drawRunPlots(dir: string, options: PlotOptions = {}): PlotResult
       if (isRunPlotName(f) && !keep.has(f)) rmSync(join(plotsDir, f), { force: true });
     }
   }
-  return { files: written, warnings, notes, monitor: chosen };
+  return { files: written, warnings, notes, monitor: chosen, ...(free ? { plane: [parameter, free] as [string, string] } : {}) };
 }
 
 
@@ -367,14 +413,17 @@ interface SolutionContext {
 /** `fold 2 on branch 1`, `the end of branch 3` (from the record and its file name). */
 function pointTitle(s: SpecialRecord): string {
   const k = /-(\d+)\.npy$/.exec(String(s.solution ?? ''))?.[1];
-  if (s.kind === 'end') return `the end of branch ${s.branch}`;
+  const what = typeof s['free-parameter'] === 'string' ? 'curve' : 'branch';
+  if (s.kind === 'end') return `the end of ${what} ${s.branch}`;
   const words = kindWords[s.kind] ?? s.kind.replace(/-/g, ' ');
-  return `${words}${k ? ` ${k}` : ''} on branch ${s.branch}`;
+  return `${words}${k ? ` ${k}` : ''} on ${what} ${s.branch}`;
 }
 
 /** One line under the title: parameter value, the diagram's monitor, extra unknowns, location status. */
 function pointSubtitle(s: SpecialRecord, ctx: SolutionContext): string {
   const parts = [`${ctx.parameter} = ${formatValue(num(s.value), 10)}`];
+  // points on curves: the free parameter too
+  if (typeof s['free-parameter'] === 'string') parts.push(`${s['free-parameter']} = ${formatValue(num(s.free), 10)}`);
   const m = s.monitors?.[ctx.monitor];
   if (typeof m === 'number') parts.push(`${monitorWords(ctx.monitor, ctx.fields, ctx.descriptions)} = ${formatValue(m, 6)}`);
   const extras = s['extra-unknowns'];

@@ -13,6 +13,7 @@
  */
 import cliProgress from 'cli-progress';
 import type { ProgressInfo } from './run-case.js';
+import { printable } from './errors.js';
 import { formatValue } from './summary.js';
 
 export interface ProgressView {
@@ -85,6 +86,11 @@ function rateText(rate: number): string {
   return Number.isFinite(rate) ? formatValue(rate, rate < 10 ? 2 : 3) : '?';
 }
 
+/** Draw once more, so that log lines still waiting for the next redraw are shown before the bars go. */
+function flush(multi: cliProgress.MultiBar): void {
+  (multi as unknown as { update(): void }).update();
+}
+
 export function progressView(o: ProgressOptions): ProgressView {
   const now = o.now ?? Date.now;
   const interval = (o.intervalSeconds ?? 10) * 1000;
@@ -110,7 +116,8 @@ export function progressView(o: ProgressOptions): ProgressView {
     return multi;
   };
 
-  const line = (name: string | undefined, text: string): string => `branchline: ${o.showNames && name ? `${name}: ` : ''}${text}\n`;
+  // log lines go to the terminal past the `write` channel when bars are shown: escape them here too
+  const line = (name: string | undefined, text: string): string => printable(`branchline: ${o.showNames && name ? `${name}: ` : ''}${text}\n`);
 
   return {
     start(name, parameter, maxPoints) {
@@ -158,12 +165,14 @@ export function progressView(o: ProgressOptions): ProgressView {
       if (t?.bar && multi) {
         multi.remove(t.bar);
         if (tracks.size === 0) {
+          flush(multi);
           multi.stop();
           multi = undefined;
         }
       }
     },
     close() {
+      if (multi) flush(multi);
       multi?.stop();
       multi = undefined;
       tracks.clear();

@@ -26,10 +26,12 @@
  * from the recorded special points, and solution files written after the checkpoint (and
  * temporary files a killed process left) are removed; the run then goes on as if never stopped.
  */
-import { readdirSync, rmSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { Continuation } from '../continuation/engine.js';
+import { WorkInterrupted } from '../linalg/lu.js';
 import type { ContinuationSettings, EngineEvent } from '../continuation/types.js';
+import type { CurveEvent } from '../continuation/curves/types.js';
+import { curveColumns, curveEngine } from './curve-run.js';
 import { stopReasonText } from '../continuation/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { type PreparedCase, caseDocument } from './case.js';
@@ -42,14 +44,15 @@ import { drawPlotsAfterRun } from './plots.js';
 import { EventWriter, type RunLog, failureReasons } from './run-events.js';
 import { type CheckpointContext, type CheckpointWritten, type ProgressInfo, type SyncState, syncEvery } from './run-hooks.js';
 import { RunRecord, isoNow } from './run-record.js';
-import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger, readRunRecord } from './run-directory.js';
+import { type ColumnPlan, type RunLedger, type RunStatus, RunDirectory, columnPlan, emptyLedger, readRunRecord, removeStaleFiles } from './run-directory.js';
 
 export { failureReasons, syncEvery };
 export type { CheckpointContext, CheckpointWritten, ProgressInfo };
 
 /** What runCase needs from the continuation engine (src/continuation/engine.ts). */
 export interface EngineLike {
-  events(): Generator<EngineEvent, unknown>;
+  /** Branch events (the one-parameter engine) or curve events (the curve engine: curve runs). */
+  events(): Generator<EngineEvent | CurveEvent, unknown>;
   snapshot(): unknown;
   /** When present: whether a snapshot taken now resumes cleanly. */
   readonly canSnapshot?: boolean;
@@ -67,7 +70,8 @@ export type EngineFactory = (
   problem: Problem,
   params: Params,
   settings: ContinuationSettings,
-  options: { start?: Float64Array; state?: unknown },
+  /** `interrupt`: called before every factorisation; throws WorkInterrupted to abandon the step (see Continuation). */
+  options: { start?: Float64Array; state?: unknown; interrupt?: () => void },
 ) => EngineLike;
 
 export const defaultEngine: EngineFactory = (problem, params, settings, options) =>
@@ -80,8 +84,13 @@ export interface RunCaseOptions {
   force?: boolean;
   /** The folder belongs to the caller (a study's grid folder): files of the user in it, without a run, stay. */
   alongside?: boolean;
-  /** Stop request (SIGINT/SIGTERM): the current event is finished, files written, status `stopped`. */
-  signal?: AbortSignal;
+  /**
+   * Stop request (SIGINT/SIGTERM): the run stops between steps, files written, status `stopped`.
+   * When the request can arrive while a step computes (the run in a worker thread, the flag
+   * shared), the step is abandoned at its next factorisation and the run stops at the last step
+   * it finished (its checkpoint is the last sync point, as for any stop).
+   */
+  signal?: { readonly aborted: boolean };
   /** Log lines (the CLI sends them to stderr). */
   log?: RunLog;
   /** Called after every accepted point is written. */
@@ -216,7 +225,7 @@ function takeFolder(outDir: string, options: RunCaseOptions, open: () => OpenRun
 
 /** Step 1 of a new run: the output folder emptied of an earlier run (with `force`; the user's files stay). */
 function prepareRunFolder(prepared: PreparedCase, outDir: string, folder: { force: boolean; alongside: boolean }, log: RunLog): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const dir = RunDirectory.create(outDir, folder);
   if (dir.kept.length) log('info', keptMessage(dir.kept, 'run'));
   return { outDir, dir, ledger: emptyLedger(), plan };
@@ -231,14 +240,14 @@ export function runManifest(outDir: string): Manifest {
 
 /** Step 1 of a run started over (it ended before its first checkpoint): the run's own files removed. */
 function restartRunFolder(prepared: PreparedCase, outDir: string): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const dir = RunDirectory.restart(outDir, runManifest(outDir));
   return { outDir, dir, ledger: emptyLedger(), plan };
 }
 
 /** Step 1 of a resumed run: the folder cut back to what the checkpoint's ledger records. */
 function resumeRunFolder(prepared: PreparedCase, outDir: string, resume: ResumeState): OpenRun {
-  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues);
+  const plan = columnPlan(prepared.problem, prepared.settings.parameter, prepared.case.stability.eigenvalues, curveColumns(prepared));
   const ledger = structuredClone(resume.ledger);
   const manifest = runManifest(outDir);
   const dir = RunDirectory.reopen(outDir, ledger, () => plan.columns, manifest);
@@ -272,7 +281,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
     ...(lastSync ? { lastSync } : {}),
     directory: dir,
     ledger,
-    canSnapshot: engine?.canSnapshot ?? true,
+    canSnapshot: between(),
     snapshot: () => {
       if (sync && lastSync) return lastSync.snapshot;
       if (!engine) throw new Error('no engine to snapshot');
@@ -297,24 +306,42 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
   };
   /** Ledger point count at the last checkpoint-hook call. */
   let hookPoints = ledger.points;
-  const between = (): boolean => engine?.canSnapshot ?? true;
+  /** A step was abandoned half-way (WorkInterrupted): the engine's state is not a state to keep. */
+  let interrupted = false;
+  const between = (): boolean => !interrupted && (engine?.canSnapshot ?? true);
 
   let stopped = false;
+  const signal = options.signal;
+  const interrupt = signal
+    ? (): void => {
+        if (signal.aborted) throw new WorkInterrupted('stop requested');
+      }
+    : undefined;
   try {
-    engine = (options.engine ?? defaultEngine)(problem, params, settings, {
+    engine = (options.engine ?? (prepared.curve ? curveEngine(prepared) : defaultEngine))(problem, params, settings, {
       ...((options.start ?? prepared.start) ? { start: options.start ?? prepared.start!.u } : {}),
       ...(options.resume ? { state: options.resume.engineState } : {}),
+      ...(interrupt ? { interrupt } : {}),
     });
     const events = engine.events();
     try {
       for (;;) {
-        // a stop request is honoured between steps only (a step's events are already computed:
+        // a stop request is honoured between steps (a step's events are already computed:
         // finishing them costs nothing and keeps the files and the engine state in step)
-        if (options.signal?.aborted && between()) {
+        if (signal?.aborted && between()) {
           stopped = true;
           break;
         }
-        const r = events.next();
+        let r: IteratorResult<EngineEvent | CurveEvent, unknown>;
+        try {
+          r = events.next();
+        } catch (e) {
+          if (!(e instanceof WorkInterrupted)) throw e;
+          // the step in progress was abandoned: its state is half-made, never to be snapshotted
+          interrupted = true;
+          stopped = true;
+          break;
+        }
         if (r.done) break;
         writer.handle(r.value);
         if (!record.linearSolver && r.value.type === 'point') {
@@ -357,7 +384,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
       if (!first) {
         record.status = 'failed';
         record.failure = 'the engine produced no branch';
-      } else if (first.stopReason !== undefined && failureReasons.includes(first.stopReason)) {
+      } else if (first.stopReason !== undefined && (failureReasons as readonly string[]).includes(first.stopReason)) {
         record.status = 'failed';
         record.failure = `branch ${first.id} ended: ${first.message || first.stopText}`;
       } else {
@@ -413,23 +440,6 @@ function removeUnrecorded(dir: string, ledger: RunLedger, manifest: Manifest): v
   const keep = new Set<string>();
   for (const s of ledger.specials) if (typeof s.solution === 'string') keep.add(s.solution);
   for (const b of ledger.branches) for (let i = 0; i < b.points; i++) keep.add(`solutions/branch-${b.id}-point-${i}.npy`);
-  const temporary = /^\..*\.tmp$/;
-  for (const [folder, rel] of [
-    [dir, ''],
-    [join(dir, 'solutions'), 'solutions/'],
-    [join(dir, 'branches'), 'branches/'],
-  ] as const) {
-    let entries: string[];
-    try {
-      entries = readdirSync(folder);
-    } catch {
-      continue;
-    }
-    for (const e of entries) {
-      // only the run's own files: a user's file in the folder is never touched
-      if (!manifest.covers(rel + e)) continue;
-      const stale = temporary.test(e) || (rel === 'solutions/' && e.endsWith('.npy') && !keep.has(rel + e));
-      if (stale) rmSync(join(folder, e), { force: true });
-    }
-  }
+  // only the run's own files: a user's file in the folder is never touched
+  removeStaleFiles(dir, ['solutions', 'branches'], (rel, e) => manifest.covers(rel + e) && (/^\..*\.tmp$/.test(e) || (rel === 'solutions/' && e.endsWith('.npy') && !keep.has(rel + e))));
 }

@@ -20,14 +20,16 @@
  * (notes, figures, their own CSVs, also inside branches/ or plots/) is left alone and named. We
  * never empty an arbitrary folder. The caller holds the folder's lock (lock.ts) throughout.
  */
-import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, rmSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import type { ContinuationPoint, SpecialPoint, StopReason } from '../continuation/types.js';
+import type { CurveStopReason } from '../continuation/curves/types.js';
 import type { Params, Problem } from '../problem/problem.js';
 import { InputError } from './errors.js';
 import { isLockFile } from './lock.js';
 import { Manifest, keptText, readManifest, removeRunFiles } from './manifest.js';
-import { type CsvCell, CsvWriter, writeJsonAtomic, writeNpy } from './writers.js';
+import { jsonFileLimit, readTextFile } from './read-file.js';
+import { type CsvCell, CsvWriter, csvLine, writeFileAtomic, writeJsonAtomic, writeNpy } from './writers.js';
 
 export const runFormat = 'branchline run';
 export const runFormatVersion = 1;
@@ -40,14 +42,21 @@ export type RunStatus = 'running' | 'finished' | 'stopped' | 'failed';
 export interface BranchRecord {
   id: number;
   depth: number;
-  origin: { kind: 'start'; direction: 'increase' | 'decrease' } | { kind: 'branch-point'; branch: number; value: number; direction?: 'increase' | 'decrease' | 'both' };
+  origin:
+    | { kind: 'start'; direction: 'increase' | 'decrease'; at?: 'bogdanov-takens' }
+    | { kind: 'branch-point'; branch: number; value: number; direction?: 'increase' | 'decrease' | 'both' }
+    /** Curve runs: a curve that follows the new critical mode from a mode change of curve `branch`. */
+    | { kind: 'mode-change'; branch: number; value: number };
+  /** Curve runs: what the curve follows, and (branch-point curves) its critical mode at the start. */
+  follow?: string;
+  mode?: number[];
   /** CSV file, relative to the run directory. */
   file: string;
   points: number;
   /** Continuation parameter at the first and last accepted point. */
   first?: number;
   last?: number;
-  stopReason?: StopReason;
+  stopReason?: StopReason | CurveStopReason;
   stopText?: string;
   message?: string;
   /**
@@ -55,6 +64,8 @@ export interface BranchRecord {
    * point of each, whether it is stable (null: not certified) and its unstable-eigenvalue count.
    */
   stability?: { from: number; to: number; stable: boolean | null; unstable: number }[];
+  /** Hopf curves: stretches of equal criticality (the sign of the first Lyapunov coefficient), in order. */
+  criticality?: { from: number; to: number; criticality: string }[];
 }
 
 /** A special point as written to points.json (keys in our lowercase words). */
@@ -100,6 +111,18 @@ export interface ColumnPlan {
   stability: boolean;
   /** Eigenvalues written per point (real and imaginary part each): stability.eigenvalues. */
   eigenvalues: number;
+  /** Curve runs: the free parameter's column, test-function columns and mode columns. */
+  curve?: CurveColumns;
+}
+
+/** The extra columns of a curve run's CSVs (./curve-run.ts). */
+export interface CurveColumns {
+  /** The free parameter (its column follows the continuation parameter's). */
+  free: string;
+  /** Test-function columns (last), in the system's order. */
+  tests: string[];
+  /** Mode columns (`mode-x`, …) for branch-point curves: the critical mode's wavenumber per axis. */
+  modes: string[];
 }
 
 /** Per-point eigenvalue columns: `eigenvalue-1-real`, `eigenvalue-1-imag`, … (rightmost first). */
@@ -118,22 +141,25 @@ export function eigenvalueColumns(count: number): string[] {
  * `unexplained-change` (empty, or e.g. "the unstable count changed from 1 to 2" when no fold,
  * branch point or Hopf point located in the step explains the change, even at the minimum step).
  */
-export function columnPlan(problem: Problem, parameter: string, eigenvalues: number): ColumnPlan {
+export function columnPlan(problem: Problem, parameter: string, eigenvalues: number, curve?: CurveColumns): ColumnPlan {
   const monitors = problem.monitors.map((m) => m.name);
   const extras = problem.extraUnknowns.map((e) => e.name).filter((n) => !monitors.includes(n));
-  const stability = eigenvalues > 0;
+  // (curve runs write no stability columns: a Hopf curve's eigenvalues serve its double-Hopf test)
+  const stability = eigenvalues > 0 && !curve;
   const columns = [
     'point',
     'arclength',
     parameter,
+    ...(curve ? [curve.free] : []),
     ...monitors,
     ...extras,
     'newton-iterations',
     'residual',
     'step-length',
     ...(stability ? [...stabilityColumns, 'search-complete', ...eigenvalueColumns(eigenvalues), 'unexplained-change'] : []),
+    ...(curve ? [...curve.tests, ...curve.modes] : []),
   ];
-  return { columns, monitors, extras, stability, eigenvalues };
+  return { columns, monitors, extras, stability, eigenvalues, ...(curve ? { curve } : {}) };
 }
 
 /** The stability data a point carries when the engine computes eigenvalues (see types.ts). */
@@ -153,6 +179,9 @@ export function hasStability(p: ContinuationPoint): boolean {
 
 export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoint): CsvCell[] {
   const row: CsvCell[] = [p.index, p.arclength, p.parameter];
+  // a curve point also carries the free parameter, its test functions and its critical mode
+  const cp = p as ContinuationPoint & { free?: number; tests?: Record<string, number>; mode?: number[] };
+  if (plan.curve) row.push(cp.free);
   for (const m of plan.monitors) row.push(p.monitors[m]);
   plan.extras.forEach((_name, i) => row.push(p.u[problem.gridUnknowns + i]));
   row.push(p.newtonIterations, p.residual, p.step);
@@ -165,6 +194,10 @@ export function pointRow(plan: ColumnPlan, problem: Problem, p: ContinuationPoin
       row.push(e?.re, e?.im);
     }
     row.push(p.unexplained);
+  }
+  if (plan.curve) {
+    for (const t of plan.curve.tests) row.push(cp.tests?.[t]);
+    plan.curve.modes.forEach((_c, a) => row.push(cp.mode?.[a]));
   }
   return row;
 }
@@ -207,6 +240,9 @@ export function specialRecord(problem: Problem, parameter: string, s: SpecialPoi
       rec.frequency = s.frequency;
       rec.period = s.period;
       rec.crossing = s.crossing;
+      if (s.lyapunov !== undefined) rec['first-lyapunov-coefficient'] = s.lyapunov;
+      if (s.criticality !== undefined) rec.criticality = s.criticality;
+      if (s.criticalityNote !== undefined) rec.note = s.criticalityNote;
       break;
     case 'end':
       rec.reason = s.reason;
@@ -227,13 +263,32 @@ export function specialRecord(problem: Problem, parameter: string, s: SpecialPoi
   return rec;
 }
 
+/**
+ * points.csv: the special points as a table for other tools — kind, branch, the parameter (and
+ * on curves the free parameter), located, the Hopf details (frequency, period, first Lyapunov
+ * coefficient, criticality; empty elsewhere), the monitors, the solution file. Rewritten with
+ * points.json.
+ */
+export function pointsCsv(parameter: string, specials: readonly SpecialRecord[]): string {
+  const free = specials.map((s) => s['free-parameter']).find((f): f is string => typeof f === 'string');
+  const monitors: string[] = [];
+  for (const s of specials) for (const m of Object.keys(s.monitors ?? {})) if (!monitors.includes(m)) monitors.push(m);
+  const hopf = ['frequency', 'period', 'first-lyapunov-coefficient', 'criticality'];
+  let out = csvLine(['kind', 'branch', parameter, ...(free ? [free] : []), 'located', ...hopf, ...monitors, 'solution']);
+  const cell = (v: unknown): CsvCell => (typeof v === 'number' || typeof v === 'string' || typeof v === 'boolean' ? v : undefined);
+  for (const s of specials) {
+    out += csvLine([s.kind, s.branch, s.value, ...(free ? [cell(s.free)] : []), cell(s.located), ...hopf.map((k) => cell(s[k])), ...monitors.map((m) => s.monitors?.[m]), s.solution]);
+  }
+  return out;
+}
+
 // ---------------------------------------------------------------------------------------------
 // The directory
 
 /** run.json of `dir` when it is a branchline run's, else undefined. */
 export function readRunRecord(dir: string): Record<string, unknown> | undefined {
   try {
-    const doc = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
+    const doc = JSON.parse(readTextFile(join(dir, 'run.json'), jsonFileLimit, 'a run record')) as Record<string, unknown>;
     return doc && typeof doc === 'object' && doc.format === runFormat ? doc : undefined;
   } catch {
     return undefined;
@@ -422,6 +477,7 @@ export class RunDirectory {
 
   writePoints(parameter: string, specials: readonly SpecialRecord[]): void {
     writeJsonAtomic(join(this.path, 'points.json'), { parameter, points: specials });
+    writeFileAtomic(join(this.path, 'points.csv'), pointsCsv(parameter, specials));
   }
 
   /** A path inside the run directory, relative to `from` (for messages). */
@@ -434,5 +490,23 @@ export class RunDirectory {
     if (this.closed) return;
     for (const id of [...this.writers.keys()]) this.closeBranch(id);
     this.closed = true;
+  }
+}
+
+/**
+ * Before a resume: remove the files of `dir` and of its `subfolders` that `stale(rel, name)` calls
+ * stale (`rel` is '' or 'sub/'); missing folders are skipped. The callers decide what is stale
+ * (files the checkpoint does not list, temporary files) and what is never touched.
+ */
+export function removeStaleFiles(dir: string, subfolders: readonly string[], stale: (rel: string, name: string) => boolean): void {
+  for (const rel of ['', ...subfolders.map((f) => `${f}/`)]) {
+    const folder = rel ? join(dir, rel) : dir;
+    let entries: string[];
+    try {
+      entries = readdirSync(folder);
+    } catch {
+      continue;
+    }
+    for (const e of entries) if (stale(rel, e)) rmSync(join(folder, e), { force: true });
   }
 }

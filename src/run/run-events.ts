@@ -7,6 +7,8 @@
  */
 import type { ContinuationPoint, EngineEvent } from '../continuation/types.js';
 import { stopReasonText } from '../continuation/types.js';
+import { type CurveEvent, curveOnlyStopText } from '../continuation/curves/types.js';
+import { addCriticality, curveBranchRecord, curveSpecialRecord, curveStartWords } from './curve-run.js';
 import type { Params } from '../problem/problem.js';
 import type { PreparedCase } from './case.js';
 import { type BranchRecord, type ColumnPlan, type RunLedger, RunDirectory, hasStability, pointRow, specialRecord } from './run-directory.js';
@@ -36,21 +38,32 @@ export class EventWriter {
     }
   }
 
-  private paramsAt(value: number): Params {
-    return { ...this.prepared.params, [this.prepared.settings.parameter]: value };
+  /** Parameter values at a point (curve points: the free parameter's value too). */
+  private paramsAt(value: number, free?: number): Params {
+    const curve = this.prepared.curve;
+    return { ...this.prepared.params, [this.prepared.settings.parameter]: value, ...(curve && free !== undefined ? { [curve.settings.free]: free } : {}) };
   }
 
   private branchOf(id: number): BranchRecord | undefined {
     return this.ledger.branches.find((b) => b.id === id);
   }
 
-  handle(ev: EngineEvent): void {
+  handle(ev: EngineEvent | CurveEvent): void {
     const { prepared, dir, plan, ledger, log } = this;
     const { problem, settings } = prepared;
     const parameter = settings.parameter;
     const solutionsMode = prepared.case.output.solutions;
     switch (ev.type) {
       case 'branch-start': {
+        if ('follow' in ev.branch) {
+          // a curve run's curve (./curve-run.ts)
+          const record = curveBranchRecord(ev.branch, RunDirectory.branchFile(ev.branch.id));
+          ledger.branches.push(record);
+          dir.openBranch(record.id, plan.columns, ledger);
+          log('info', curveStartWords(ev.branch, parameter));
+          this.branchChanged();
+          break;
+        }
         const info = ev.branch;
         const origin: BranchRecord['origin'] =
           info.origin.kind === 'start'
@@ -79,7 +92,7 @@ export class EventWriter {
           log('warning', w);
         }
         if (solutionsMode === 'all') {
-          dir.writeSolution(`branch-${p.branch}-point-${p.index}`, problem, p.u, this.paramsAt(p.parameter));
+          dir.writeSolution(`branch-${p.branch}-point-${p.index}`, problem, p.u, this.paramsAt(p.parameter, (p as { free?: number }).free));
           ledger.solutions++;
         }
         ledger.points++;
@@ -88,6 +101,7 @@ export class EventWriter {
           b.points++;
           if (b.first === undefined) b.first = p.parameter;
           b.last = p.parameter;
+          addCriticality(b, p.parameter, (p as { tests?: Record<string, number> }).tests);
           // (a branch's first point at a branch point is singular there: its eigenvalue count says nothing)
           if (p.stability && !(p.index === 0 && b.origin.kind === 'branch-point')) {
             const st = (b.stability ??= []);
@@ -104,24 +118,30 @@ export class EventWriter {
         const k = (this.kindCount.get(key) ?? 0) + 1;
         this.kindCount.set(key, k);
         let file: string | undefined;
+        const free = 'free' in s ? s.free : undefined;
         if (solutionsMode !== 'none') {
-          file = dir.writeSolution(`branch-${s.branch}-${s.kind}-${k}`, problem, s.u, this.paramsAt(s.value));
+          file = dir.writeSolution(`branch-${s.branch}-${s.kind}-${k}`, problem, s.u, this.paramsAt(s.value, free));
           ledger.solutions++;
         }
-        ledger.specials.push(specialRecord(problem, parameter, s, file));
+        const curve = prepared.curve;
+        ledger.specials.push(curve && 'free' in s ? curveSpecialRecord(problem, parameter, curve.settings.free, s, file) : specialRecord(problem, parameter, s as Exclude<typeof s, { free: number }>, file));
         dir.writePoints(parameter, ledger.specials);
-        if (s.kind !== 'end') log('info', `${s.kind.replace('-', ' ')} on branch ${s.branch} at ${parameter} = ${s.value}`);
+        if (s.kind !== 'end') {
+          const at = curve && free !== undefined ? `${parameter} = ${s.value}, ${curve.settings.free} = ${free}` : `${parameter} = ${s.value}`;
+          log('info', `${s.kind.replace(/-/g, ' ')} on ${curve ? 'curve' : 'branch'} ${s.branch} at ${at}`);
+        }
         break;
       }
       case 'branch-end': {
         const b = this.branchOf(ev.branch);
+        const text = curveOnlyStopText(ev.reason) ?? stopReasonText[ev.reason as keyof typeof stopReasonText];
         if (b) {
           b.stopReason = ev.reason;
-          b.stopText = stopReasonText[ev.reason] ?? ev.reason;
+          b.stopText = text ?? ev.reason;
           b.message = ev.message;
         }
         dir.closeBranch(ev.branch);
-        log(failureReasons.includes(ev.reason) ? 'warning' : 'info', `branch ${ev.branch} ended: ${ev.message || stopReasonText[ev.reason]}`);
+        log(failureReasons.includes(ev.reason as StopReason) ? 'warning' : 'info', `${prepared.curve ? 'curve' : 'branch'} ${ev.branch} ended: ${ev.message || text}`);
         this.branchChanged();
         break;
       }

@@ -14,6 +14,7 @@ import type { Manifest } from './manifest.js';
 import type { CheckpointWritten } from './run-hooks.js';
 import { type ColumnPlan, type RunDirectory, type RunLedger, type RunStatus, runFormat, runFormatVersion } from './run-directory.js';
 import { softwareVersion } from './version.js';
+import { curveSpecialKinds } from '../continuation/curves/types.js';
 
 /** The head of every run.json (runs and integrations): format, software, status, times, writer, checkpoint. */
 export function runHeader(h: { status: RunStatus; failure?: string; note?: string; caseFile: string | null; started: string; resumes: readonly string[]; checkpoint?: object }): Record<string, unknown> {
@@ -101,6 +102,8 @@ export class RunRecord {
       'start-parameters': { ...params },
       'continuation-parameter': settings.parameter,
       ...(this.linearSolver ? { 'linear-solver': { ...this.linearSolver } } : {}),
+      // curve runs: what the curves follow and the parameter that adjusts along them
+      ...(prepared.curve ? { follow: prepared.curve.settings.follow, 'free-parameter': prepared.curve.settings.free } : {}),
       columns: plan.columns,
       branches: ledger.branches.map((b) => ({
         id: b.id,
@@ -110,6 +113,8 @@ export class RunRecord {
         points: b.points,
         ...(b.first !== undefined ? { 'first-value': b.first, 'last-value': b.last } : {}),
         ...(b.stopReason !== undefined ? { 'stop-reason': b.stopReason, 'stop-text': b.stopText, message: b.message } : {}),
+        ...(b.follow !== undefined ? { follow: b.follow } : {}),
+        ...(b.mode !== undefined ? { mode: b.mode } : {}),
       })),
       counts: {
         branches: ledger.branches.length,
@@ -119,6 +124,8 @@ export class RunRecord {
         hopf: ledger.specials.filter((s) => s.kind === 'hopf').length,
         ends: ledger.specials.filter((s) => s.kind === 'end').length,
         solutions: ledger.solutions,
+        // codimension-two points of curve runs, by kind
+        ...(prepared.curve ? Object.fromEntries(curveSpecialKinds.map((k) => [k, ledger.specials.filter((s) => s.kind === k).length])) : {}),
       },
       timings: {
         'continuation-seconds': previousSeconds + this.continuationSeconds,

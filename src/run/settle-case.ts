@@ -22,8 +22,7 @@ import { z } from 'zod';
 import { algebraicIndexProblem } from '../dynamics/algebraic.js';
 import { type SnapshotSchedule, type TimeSettings, defaultTimeSettings } from '../dynamics/types.js';
 import type { Params, Problem } from '../problem/problem.js';
-import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, caseDocumentHead, defaultCheckpoint, prepareCaseParts, readCaseFile, showValue } from './case.js';
-import { initialDocument } from './initial.js';
+import { type CaseParts, type PrepareObjectOptions, type ResolvedCase, caseDocumentHead, startingStateDocument, defaultCheckpoint, prepareCaseParts, readCaseFile, showValue } from './case.js';
 
 /** The `time:` section, resolved: the integrator's settings (every default filled in). */
 export type ResolvedTime = Omit<TimeSettings, 'stability' | 'fixedStep'>;
@@ -169,8 +168,7 @@ export function settleCaseDocument(c: ResolvedSettleCase): Record<string, unknow
   const t = c.time;
   return {
     ...caseDocumentHead(c),
-    ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
-    ...(c.start ? { start: { ...c.start } } : {}),
+    ...startingStateDocument(c),
     time: {
       end: t.end,
       'max-steps': t.maxSteps,

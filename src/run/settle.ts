@@ -20,7 +20,7 @@
  * for bit; a stop request is honoured between steps and checkpoints the last sync point. No
  * command-line concerns here (no process.exit, no stdout).
  */
-import { mkdirSync, readdirSync, rmSync } from 'node:fs';
+import { mkdirSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { TimeIntegration, type IntegratorState } from '../dynamics/integrator.js';
 import { type SteadyStability, stabilityWords } from '../dynamics/stability.js';
@@ -31,12 +31,13 @@ import { makeFolder, removeIfEmpty } from './folders.js';
 import { onLeaveAtOnce } from './leave.js';
 import { FolderLock } from './lock.js';
 import { keptMessage } from './manifest.js';
-import { RunDirectory, type RunStatus, emptyLedger, extraValues } from './run-directory.js';
+import { RunDirectory, type RunStatus, emptyLedger, extraValues, removeStaleFiles } from './run-directory.js';
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
 import { CsvWriter, type CsvCell, formatNumber, writeJsonAtomic, writeNpy } from './writers.js';
 import { checkRecordedLengths, resumableCheckpoint } from './batch.js';
+import { type CodeModelChoice, storedCaseOptions } from './resume-code.js';
 import { outputDirectory } from './run-case.js';
 
 /** Sync points: the first step, then every this many accepted steps (see the header). */
@@ -390,46 +391,41 @@ async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptio
 /** Before a resume: snapshot files the checkpoint does not list, the final state and temporary files go. */
 function removeUnrecorded(dir: string, ledger: SettleLedger): void {
   const keep = new Set(ledger.snapshots.map((s) => s.file));
-  for (const [folder, rel] of [
-    [dir, ''],
-    [join(dir, 'snapshots'), 'snapshots/'],
-    [join(dir, 'solutions'), 'solutions/'],
-  ] as const) {
-    let entries: string[];
-    try {
-      entries = readdirSync(folder);
-    } catch {
-      continue;
-    }
-    for (const e of entries) {
-      const stale = /^\..*\.tmp$/.test(e) || (rel === 'snapshots/' && e.endsWith('.npy') && !keep.has(rel + e)) || (rel === 'solutions/' && e === 'final.npy');
-      if (stale) rmSync(join(folder, e), { force: true });
-    }
-  }
+  removeStaleFiles(
+    dir,
+    ['snapshots', 'solutions'],
+    (rel, e) => /^\..*\.tmp$/.test(e) || (rel === 'snapshots/' && e.endsWith('.npy') && !keep.has(rel + e)) || (rel === 'solutions/' && e === 'final.npy'),
+  );
 }
 
 /**
  * Everything `resume DIR` needs for a settle run, checked (InputError otherwise): the generic
  * checks of a resume, the case, and that the saved state fits the case's problem.
  */
-export async function prepareSettleResume(dirGiven: string, options: { force?: boolean } = {}): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume; lock: FolderLock }> {
-  const { dir, status, found, lock } = resumableCheckpoint(dirGiven, options);
+export async function prepareSettleResume(
+  dirGiven: string,
+  options: { force?: boolean; code?: CodeModelChoice } = {},
+): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume; lock: FolderLock }> {
+  const { dir, run, status, found, lock } = resumableCheckpoint(dirGiven, options);
   try {
-    return { ...(await checkSettleResumable(dirGiven, dir, status, found)), lock };
+    return { ...(await checkSettleResumable(dirGiven, dir, run, status, found, options.code ?? {})), lock };
   } catch (e) {
     lock.release();
     throw e;
   }
 }
 
-async function checkSettleResumable(dirGiven: string, dir: string, status: string, found: ReturnType<typeof resumableCheckpoint>['found']): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume }> {
+async function checkSettleResumable(
+  dirGiven: string,
+  dir: string,
+  run: Record<string, unknown>,
+  status: string,
+  found: ReturnType<typeof resumableCheckpoint>['found'],
+  choice: CodeModelChoice,
+): Promise<{ prepared: PreparedSettleCase; outDir: string; resume: SettleResume }> {
   const c = found.document;
-  const caseFile = c.run.caseFile;
-  const prepared = await prepareSettleCaseObject(c.case, {
-    label: `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`,
-    ...(caseFile ? { file: caseFile } : {}),
-    baseDir: caseFile ? resolve(caseFile, '..') : dir,
-  });
+  // a code model loads only when the user names it (src/run/resume-code.ts)
+  const prepared = await prepareSettleCaseObject(c.case, await storedCaseOptions(dirGiven, dir, run, found, choice));
   const engine = c.engine as { integrator?: IntegratorState; settle?: SettleLedger } | null;
   const u = engine?.integrator?.u;
   if (!(u instanceof Float64Array) || !engine?.settle) throw new InputError(`${dirGiven}: cannot resume: the checkpoint holds no time-integration state`);

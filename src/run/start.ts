@@ -16,12 +16,13 @@
  * Nothing here writes files; errors are plain Errors whose messages the case reader turns into
  * one-line case errors naming the field.
  */
-import { existsSync, readFileSync, statSync } from 'node:fs';
-import { basename, dirname, join, relative, resolve } from 'node:path';
+import { existsSync, statSync } from 'node:fs';
+import { jsonFileLimit, npyHeaderAllowance, readTextFile } from './read-file.js';
+import { basename, dirname, isAbsolute, join, relative, resolve } from 'node:path';
 import type { SpecialRecord } from './run-directory.js';
 import { parseJsonNumber, readNpy } from './writers.js';
 
-export const pointKinds = ['fold', 'branch-point', 'hopf', 'end'] as const;
+export const pointKinds = ['fold', 'branch-point', 'hopf', 'end', 'cusp', 'bogdanov-takens', 'fold-branch-point', 'mode-change', 'mode-crossing', 'zero-hopf', 'bautin', 'double-hopf'] as const;
 export type PointKind = (typeof pointKinds)[number];
 
 /** The N-th special point of a kind (index from 1). */
@@ -31,7 +32,7 @@ export interface PointSpec {
 }
 
 export const pointSpecAccepted =
-  'fold, branch-point, hopf or end, optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
+  'fold, branch-point, hopf or end (on curves also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing, zero-hopf, bautin, double-hopf), optionally with :N for the N-th along the branch (from 1), e.g. fold or branch-point:2; or final, the last state of a time integration (branchline settle)';
 
 /** Parse `fold`, `fold:2`, `branch-point:1`...; returns null when the text is not one of these. */
 export function parsePointSpec(text: string): PointSpec | null {
@@ -46,7 +47,7 @@ export function parsePointSpec(text: string): PointSpec | null {
 
 /** `fold 1`, `branch point 2`, `Hopf point 1`, `end 1` (plain words). */
 export function pointWords(spec: PointSpec): string {
-  const word = spec.kind === 'branch-point' ? 'branch point' : spec.kind === 'hopf' ? 'Hopf point' : spec.kind;
+  const word = spec.kind === 'branch-point' ? 'branch point' : spec.kind === 'hopf' ? 'Hopf point' : spec.kind.replace(/-/g, ' ');
   return `${word} ${spec.index}`;
 }
 
@@ -90,12 +91,7 @@ export interface RunFiles {
 }
 
 function readJson(file: string): unknown {
-  let text: string;
-  try {
-    text = readFileSync(file, 'utf8');
-  } catch (e) {
-    throw new Error(`${file} cannot be read (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
-  }
+  const text = readTextFile(file, jsonFileLimit, 'a run record');
   try {
     return JSON.parse(text);
   } catch (e) {
@@ -148,6 +144,14 @@ export function runPointParameters(files: RunFiles, record: SpecialRecord): Reco
     }
   }
   out[record.parameter] = record.value;
+  // a point on a curve: the free parameter's value there too
+  if (typeof record['free-parameter'] === 'string') {
+    try {
+      out[record['free-parameter']] = parseJsonNumber(record.free);
+    } catch {
+      /* left to the run's start value */
+    }
+  }
   return out;
 }
 
@@ -173,7 +177,7 @@ export function runPoint(files: RunFiles, spec: PointSpec, branch: number): RunP
   if (typeof record.solution !== 'string') {
     throw new Error(`${where} kept no solution file for ${pointWords(spec)} on branch ${branch} (it ran with output.solutions: none)`);
   }
-  const solution = resolve(files.dir, record.solution);
+  const solution = runFilePath(files.dir, record.solution, `the solution file of ${pointWords(spec)} on branch ${branch}`);
   if (!existsSync(solution)) throw new Error(`${where}: the solution file ${record.solution} of ${pointWords(spec)} on branch ${branch} is missing`);
   const extras = record['extra-unknowns'];
   return {
@@ -183,6 +187,18 @@ export function runPoint(files: RunFiles, spec: PointSpec, branch: number): RunP
     ...(extras && typeof extras === 'object' ? { extras: numberMap(extras) } : {}),
     words: `${pointWords(spec)} on branch ${branch} of ${where}`,
   };
+}
+
+/**
+ * The absolute path of a file a run's own records name (`solutions/...npy` in points.json):
+ * it must lie inside the run folder (a run folder is data; its records must not send us
+ * elsewhere on the disk). `what` names the file in the message.
+ */
+export function runFilePath(dir: string, name: string, what: string): string {
+  const path = resolve(dir, name);
+  const rel = relative(dir, path);
+  if (rel === '' || rel.startsWith('..') || isAbsolute(rel)) throw new Error(`run ${dir}: ${what} (${name}) lies outside the run folder`);
+  return path;
 }
 
 function numberMap(v: Record<string, unknown>): Record<string, number> {
@@ -217,11 +233,15 @@ export function extrasForSolutionFile(file: string): Record<string, number> | un
   }
 }
 
-/** Read a solution file (float64 .npy) with messages naming the file. */
-export function readSolutionFile(file: string): { shape: number[]; data: Float64Array } {
+/**
+ * Read a solution file (float64 .npy) with messages naming the file. `values`: how many values
+ * the grid implies (nodes times fields); a file longer than such an array needs is refused
+ * before it is read.
+ */
+export function readSolutionFile(file: string, values?: number): { shape: number[]; data: Float64Array } {
   if (!existsSync(file)) throw new Error(`${file}: no such file`);
   if (statSync(file).isDirectory()) throw new Error(`${file} is a folder, not a .npy file`);
-  return readNpy(file);
+  return values === undefined ? readNpy(file) : readNpy(file, npyHeaderAllowance + 8 * values, `a solution of this grid (${values} values)`);
 }
 
 /** Extra unknowns by name as a vector in the problem's order; undefined when any is missing. */
@@ -269,9 +289,10 @@ export function finalPoint(dir: string): RunPoint {
 }
 
 /** `settle` for the folder of a time integration, `continuation` for other runs, undefined when unreadable. */
-export function runKind(dir: string): 'settle' | 'continuation' | undefined {
+export function runKind(dir: string): 'settle' | 'find-states' | 'continuation' | undefined {
   try {
-    return readRunJson(dir).kind === 'settle' ? 'settle' : 'continuation';
+    const kind = readRunJson(dir).kind;
+    return kind === 'settle' || kind === 'find-states' ? kind : 'continuation';
   } catch {
     return undefined;
   }

@@ -6,6 +6,7 @@
 import { existsSync, readdirSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { stopReasonText } from '../continuation/types.js';
+import { curveName, curveOnlyStopText } from '../continuation/curves/types.js';
 import type { PreparedCase } from './case.js';
 import type { BranchRecord, SpecialRecord } from './run-directory.js';
 import type { RunResult } from './run-case.js';
@@ -41,9 +42,18 @@ function leadingMonitor(s: SpecialRecord, prepared: PreparedCase): string | unde
   return name === undefined ? undefined : `${name} = ${formatValue(s.monitors[name], monitorDigits)}`;
 }
 
+/** `supercritical, l₁ = −0.84` (Hopf points, one- and two-parameter runs). */
+function hopfCriticalityWords(s: SpecialRecord): string[] {
+  const l1 = s['first-lyapunov-coefficient'];
+  if (typeof l1 !== 'number' || !Number.isFinite(l1)) return typeof s.criticality === 'string' ? [`criticality ${s.criticality}`] : [];
+  return [`${typeof s.criticality === 'string' && s.criticality !== 'undetermined' ? `${s.criticality}, ` : ''}first Lyapunov coefficient ${formatValue(l1, monitorDigits)}`];
+}
+
 function specialText(s: SpecialRecord, prepared: PreparedCase): string {
   const p = prepared.settings.parameter;
-  const at = `${p} = ${formatValue(s.value, parameterDigits)}`;
+  // on curves a point has both parameters
+  const free = typeof s['free-parameter'] === 'string' && typeof s.free === 'number' ? `, ${s['free-parameter']} = ${formatValue(s.free, parameterDigits)}` : '';
+  const at = `${p} = ${formatValue(s.value, parameterDigits)}${free}`;
   const mon = leadingMonitor(s, prepared);
   const details: string[] = [];
   if (mon) details.push(mon);
@@ -66,7 +76,25 @@ function specialText(s: SpecialRecord, prepared: PreparedCase): string {
       if (typeof s.frequency === 'number') words.push(`frequency ${formatValue(s.frequency, monitorDigits)}`);
       if (typeof s.period === 'number') words.push(`period ${formatValue(s.period, monitorDigits)}`);
       if (typeof s.crossing === 'string') words.push(s.crossing);
+      words.push(...hopfCriticalityWords(s));
       return `Hopf point at ${at} (${[...words, ...details].join(', ')})`;
+    }
+    case 'zero-hopf':
+    case 'bautin':
+    case 'double-hopf':
+    case 'bogdanov-takens': {
+      const name = { 'zero-hopf': 'zero-Hopf point', bautin: 'Bautin point', 'double-hopf': 'double-Hopf point', 'bogdanov-takens': 'Bogdanov–Takens point' }[s.kind];
+      const words: string[] = [];
+      if (typeof s.frequency === 'number') words.push(s.kind === 'bogdanov-takens' ? 'frequency 0' : `frequency ${formatValue(s.frequency, monitorDigits)}`);
+      if (s.kind !== 'bautin' && s.kind !== 'bogdanov-takens') words.push(...hopfCriticalityWords(s));
+      return `${name} at ${at}${[...words, ...details].length ? ` (${[...words, ...details].join(', ')})` : ''}`;
+    }
+    case 'mode-change':
+    case 'mode-crossing': {
+      const words = Array.isArray(s.mode) && Array.isArray(s['new-mode']) ? [`mode ${(s.mode as number[]).join(', ')} → ${(s['new-mode'] as number[]).join(', ')}`] : [];
+      const nb = Array.isArray(s['new-branches']) ? (s['new-branches'] as number[]) : [];
+      if (nb.length) words.push(`followed as curve ${nb.join(', ')}`);
+      return `${s.kind.replace(/-/g, ' ')} at ${at} (${[...words, ...details].join(', ')})`;
     }
     default:
       return `${s.kind.replace(/-/g, ' ')} at ${at}${details.length ? ` (${details.join(', ')})` : ''}`;
@@ -94,8 +122,14 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
     }
     case 'point-limit':
       return `reached the point limit (${prepared.settings.maxPoints})`;
+    case 'mode-change':
+      // the special point before says which modes and which curve goes on
+      return 'at the mode change';
+    case 'bogdanov-takens':
+      // the special point before says where
+      return 'at the Bogdanov–Takens point, where ω = 0 and the Hopf curve meets the fold curve';
     default: {
-      const text = stopReasonText[reason] ?? reason;
+      const text = curveOnlyStopText(reason) ?? stopReasonText[reason as keyof typeof stopReasonText] ?? reason;
       return b.message && b.message !== text ? `${text} (${b.message})` : text;
     }
   }
@@ -103,7 +137,15 @@ function endText(b: BranchRecord, end: SpecialRecord | undefined, prepared: Prep
 
 function originText(b: BranchRecord, prepared: PreparedCase): string {
   const p = prepared.settings.parameter;
+  const mode = b.mode ? `, mode ${b.mode.join(', ')}` : '';
+  if (b.follow !== undefined) {
+    const what = `${curveName(b.follow)}${mode}`;
+    if (b.origin.kind === 'mode-change') return `${what}, from the mode change at ${p} = ${formatValue(b.origin.value, parameterDigits)} on curve ${b.origin.branch}`;
+    if (b.origin.kind === 'start' && b.origin.at === 'bogdanov-takens') return `${what}, from the Bogdanov–Takens point, ω growing from 0`;
+    return `${what}, ${p} ${b.origin.kind === 'start' && b.origin.direction === 'decrease' ? 'decreasing' : 'increasing'} from the first point`;
+  }
   if (b.origin.kind === 'start') return `from the start, ${p} ${b.origin.direction === 'increase' ? 'increasing' : 'decreasing'}`;
+  if (b.origin.kind === 'mode-change') return `from the mode change at ${p} = ${formatValue(b.origin.value, parameterDigits)}`;
   const dir = b.origin.direction === 'increase' ? `, ${p} increasing` : b.origin.direction === 'decrease' ? `, ${p} decreasing` : '';
   return `from the branch point at ${p} = ${formatValue(b.origin.value, parameterDigits)} on branch ${b.origin.branch}${dir}`;
 }
@@ -117,10 +159,11 @@ export function branchLines(result: RunResult, prepared: PreparedCase): string[]
     const parts = [`${b.points} point${b.points === 1 ? '' : 's'}`];
     for (const s of specials.slice(0, namedPerBranch)) parts.push(specialText(s, prepared));
     if (specials.length > namedPerBranch) parts.push(`${specials.length - namedPerBranch} more special points (see points.json)`);
-    if (specials.length === 0 && b.points > 0) parts.push('no fold or branch point');
+    if (specials.length === 0 && b.points > 0) parts.push(b.follow !== undefined ? 'no codimension-two point' : 'no fold or branch point');
     parts.push(`ended: ${endText(b, end, prepared)}`);
-    lines.push(`Branch ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
+    lines.push(`${b.follow !== undefined ? 'Curve' : 'Branch'} ${b.id} (${originText(b, prepared)}): ${parts.join(', ')}`);
     if (b.stability?.length) lines.push(`  stability: ${stabilityText(b.stability, prepared.settings.parameter)}`);
+    if (b.criticality?.length) lines.push(`  criticality: ${criticalityText(b.criticality, prepared.settings.parameter)}`);
   }
   return lines;
 }
@@ -134,6 +177,16 @@ function stabilityText(stretches: NonNullable<BranchRecord['stability']>, parame
   });
   if (stretches.length > 6) shown.push(`${stretches.length - 6} more changes (see the CSV)`);
   return shown.join('; ');
+}
+
+/** Stretches of equal criticality on a Hopf curve, e.g. "supercritical for k 0.0625 → 0.0352; subcritical for k 0.0352 → 0.02". */
+function criticalityText(stretches: NonNullable<BranchRecord['criticality']>, parameter: string): string {
+  const shown = stretches.slice(0, 6).map((s) => {
+    const range = s.from === s.to ? `at ${parameter} = ${formatValue(s.from, monitorDigits)}` : `for ${parameter} ${formatValue(s.from, monitorDigits)} → ${formatValue(s.to, monitorDigits)}`;
+    return `${s.criticality} ${range}`;
+  });
+  if (stretches.length > 6) shown.push(`${stretches.length - 6} more changes (see the CSV)`);
+  return `${shown.join('; ')} (the sign of the first Lyapunov coefficient)`;
 }
 
 function seconds(s: number): string {
@@ -150,7 +203,9 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const h = d.axes.map((a) => formatValue(a.h, 6)).join(', ');
   const out: string[] = [];
   out.push(`Case ${prepared.case.name}: ${d.summary}`);
-  out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`);
+  const curve = prepared.curve?.settings;
+  const what = curve ? `the ${curve.follow === 'hopf' ? 'Hopf points' : curve.follow.replace(/-/g, ' ')} followed in ${curve.parameter} over [${curve.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}], ${curve.free} free` : `continuation in ${prepared.settings.parameter} over [${prepared.settings.bounds.map((v) => formatValue(v, parameterDigits)).join(', ')}]`;
+  out.push(`  grid ${grid} intervals (h = ${h}), ${prepared.problem.size} unknowns; ${what}`);
   out.push(...branchLines(result, prepared));
   const status =
     result.status === 'finished'
@@ -163,6 +218,7 @@ export function formatSummary(result: RunResult, prepared: PreparedCase, cwd = p
   const shown = where.startsWith('..') ? result.directory : where;
   const nBranches = result.ledger.branches.length;
   const files = ['run.json', 'points.json'];
+  if (existsSync(join(result.directory, 'points.csv'))) files.push('points.csv');
   if (nBranches) files.push(nBranches === 1 ? `branches/${result.ledger.branches[0].id}.csv` : `branches/ (${nBranches} files)`);
   if (result.ledger.solutions) files.push(`solutions/ (${result.ledger.solutions} .npy file${result.ledger.solutions === 1 ? '' : 's'})`);
   // the pictures drawn at the end of the run (src/run/plots.ts)

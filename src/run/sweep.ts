@@ -11,6 +11,11 @@
  *   sweep.svg      one diagram with every value's branches, a colour per curve, named by the value
  *   <parameter>-<value>/   the run folder of each value (a complete run)
  *
+ * A sweep of a curve run (`continuation.follow`) counts the curves and their special points
+ * instead (sweep.csv: run, status, points, curves and a count per kind of curve point; sweep.json
+ * also gives each point's free-parameter value), and sweep.svg draws every value's curves in the
+ * plane of the two parameters.
+ *
  * The runs are independent: they run here (one after another or in worker processes) or on a
  * cluster (an executor); the summary is made from their folders alone, so it is the same
  * wherever they ran.
@@ -19,7 +24,7 @@ import { existsSync, readdirSync, readFileSync, statSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
 import { diagramSvg } from '../plot/index.js';
 import type { DiagramBranch, DiagramSpecialPoint } from '../plot/diagram.js';
-import { type PreparedCase, caseDocument, prepareCaseObject } from './case.js';
+import { type PreparedCase, caseDocument, ownCodeModel, prepareCaseObject } from './case.js';
 import { InputError } from './errors.js';
 import type { PieceOutcome, RunPiece } from './executor.js';
 import { monitorWords, readRunDiagram } from './plots.js';
@@ -27,6 +32,7 @@ import type { SpecialRecord } from './run-directory.js';
 import { readPointsJson } from './start.js';
 import { formatValue } from './summary.js';
 import { softwareVersion } from './version.js';
+import { curveSpecialKinds } from '../continuation/curves/types.js';
 import { csvLine, parseJsonNumber, writeFileAtomic, writeJsonAtomic } from './writers.js';
 
 export const sweepFormat = 'branchline sweep';
@@ -94,6 +100,10 @@ export async function sweepPieces(prepared: PreparedCase, spec: SweepSpec, paren
   if (spec.parameter === prepared.settings.parameter) {
     throw new InputError(`--sweep: '${spec.parameter}' is the continuation parameter of ${prepared.label}; sweep another parameter (accepted: ${names.filter((n) => n !== spec.parameter).join(', ') || 'none'})`);
   }
+  const curve = sweptCurve(prepared);
+  if (curve && spec.parameter === curve.free) {
+    throw new InputError(`--sweep: '${spec.parameter}' is the free parameter of the curve run ${prepared.label} (it adjusts along the curve); sweep another parameter (accepted: ${names.filter((n) => n !== spec.parameter && n !== prepared.settings.parameter).join(', ') || 'none'})`);
+  }
   const pieces: RunPiece[] = [];
   for (const v of spec.values) {
     const doc = caseDocument(prepared.case) as Record<string, unknown> & { parameters: Record<string, unknown>; output: Record<string, unknown> };
@@ -101,7 +111,8 @@ export async function sweepPieces(prepared: PreparedCase, spec: SweepSpec, paren
     doc.name = `${prepared.case.name}-${spec.parameter}-${valueText(v)}`;
     delete doc.output.directory;
     const label = `${prepared.label} (${spec.parameter} = ${valueText(v)})`;
-    const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file !== undefined ? { file: prepared.file } : {}) });
+    // the values are the user's case: its code model (only that one) may load
+    const p = await prepareCaseObject(doc, { label, baseDir: prepared.baseDir, ...(prepared.file !== undefined ? { file: prepared.file } : {}), ...ownCodeModel(prepared.case) });
     pieces.push({
       name: `${spec.parameter}-${valueText(v)}`,
       outDir: resolve(parent, `${spec.parameter}-${valueText(v)}`),
@@ -119,6 +130,15 @@ export async function sweepPieces(prepared: PreparedCase, spec: SweepSpec, paren
 // The summary
 
 export const SWEEP_COLUMNS = ['run', 'status', 'points', 'branches', 'folds', 'branch-points', 'hopf', 'first-fold', 'first-branch-point', 'first-hopf'] as const;
+
+/** The columns of sweep.csv for a sweep of curve runs: the kinds of curve points counted. */
+export const CURVE_SWEEP_COLUMNS = ['run', 'status', 'points', 'curves', ...curveSpecialKinds] as const;
+
+/** A curve run's kind and free parameter; undefined for a one-parameter run. */
+function sweptCurve(prepared: PreparedCase): { follow: string; free: string } | undefined {
+  const f = prepared.case.continuation.follow;
+  return f ? { follow: f.kind, free: f.free } : undefined;
+}
 
 export interface SweepRow {
   value: number;
@@ -139,6 +159,8 @@ export interface SweepResult {
   files: string[];
   warnings: string[];
   caution?: string;
+  /** A sweep of curve runs: what they follow and the free parameter. */
+  curve?: { follow: string; free: string };
 }
 
 function readRun(dir: string): Record<string, unknown> | undefined {
@@ -189,10 +211,12 @@ export function writeSweepSummary(prepared: PreparedCase, spec: SweepSpec, paren
         ? 'failed'
         : 'stopped';
 
-  let csv = csvLine([spec.parameter, ...SWEEP_COLUMNS]);
+  const curve = sweptCurve(prepared);
+  let csv = csvLine([spec.parameter, ...(curve ? CURVE_SWEEP_COLUMNS : SWEEP_COLUMNS)]);
   for (const r of rows) {
     const count = (k: string): number => r.specials.filter((s) => s.kind === k).length;
-    csv += csvLine([r.value, r.directory, r.status, r.points, r.branches, count('fold'), count('branch-point'), count('hopf'), firstOn(r.specials, 'fold'), firstOn(r.specials, 'branch-point'), firstOn(r.specials, 'hopf')]);
+    if (curve) csv += csvLine([r.value, r.directory, r.status, r.points, r.branches, ...curveSpecialKinds.map(count)]);
+    else csv += csvLine([r.value, r.directory, r.status, r.points, r.branches, count('fold'), count('branch-point'), count('hopf'), firstOn(r.specials, 'fold'), firstOn(r.specials, 'branch-point'), firstOn(r.specials, 'hopf')]);
   }
   const files: string[] = [];
   writeFileAtomic(join(parent, 'sweep.csv'), csv);
@@ -209,6 +233,7 @@ export function writeSweepSummary(prepared: PreparedCase, spec: SweepSpec, paren
     parameter: spec.parameter,
     values: spec.values,
     'continuation-parameter': cparam,
+    ...(curve ? { follow: curve.follow, 'free-parameter': curve.free } : {}),
     runs: rows.map((r) => ({
       value: r.value,
       directory: r.directory,
@@ -216,7 +241,7 @@ export function writeSweepSummary(prepared: PreparedCase, spec: SweepSpec, paren
       ...(r.reason !== undefined ? { reason: r.reason } : {}),
       ...(r.points !== undefined ? { points: r.points } : {}),
       ...(r.branches !== undefined ? { branches: r.branches } : {}),
-      'special-points': r.specials.filter((s) => s.kind !== 'end').map((s) => ({ kind: s.kind, branch: s.branch, value: s.value })),
+      'special-points': r.specials.filter((s) => s.kind !== 'end').map((s) => ({ kind: s.kind, branch: s.branch, value: s.value, ...(curve ? { free: s.free } : {}) })),
     })),
     ...(prepared.caution ? { caution: prepared.caution } : {}),
   };
@@ -229,11 +254,12 @@ export function writeSweepSummary(prepared: PreparedCase, spec: SweepSpec, paren
   } catch (e) {
     warnings.push(`sweep.svg not drawn: ${(e as Error).message}`);
   }
-  return { status: overall, directory: parent, spec, continuationParameter: cparam, rows, files, warnings, ...(prepared.caution ? { caution: prepared.caution } : {}) };
+  return { status: overall, directory: parent, spec, continuationParameter: cparam, rows, files, warnings, ...(prepared.caution ? { caution: prepared.caution } : {}), ...(curve ? { curve } : {}) };
 }
 
 /** One diagram, every value's branches (a colour per curve, named by the value). */
 function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, pieces: readonly RunPiece[], warnings: string[]): string {
+  const curve = sweptCurve(prepared);
   const branches: DiagramBranch[] = [];
   const points: DiagramSpecialPoint[] = [];
   let monitor = prepared.case.plot.monitor;
@@ -253,7 +279,8 @@ function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, piece
     descriptions = d.descriptions;
     const several = d.branches.length > 1;
     const v = `${spec.parameter} = ${formatValue(spec.values[i], 6)}`;
-    for (const b of d.branches) branches.push({ id: `${i}:${b.id}`, name: several ? `${v}, branch ${b.id}` : v, points: b.points });
+    // (curve runs: the curves' own names, e.g. `branch-point curve 2, mode 3`)
+    for (const b of d.branches) branches.push({ id: `${i}:${b.id}`, name: several ? `${v}, ${curve && b.name ? b.name : `branch ${b.id}`}` : v, points: b.points });
     for (const s of d.shown) if (s.kind !== 'end') points.push({ ...s, branch: `${i}:${s.branch}` });
     warnings.push(...d.warnings.map((w) => `${relative(parent, p.outDir)}: ${w}`));
   });
@@ -261,12 +288,15 @@ function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, piece
   const cparam = prepared.settings.parameter;
   const shown = spec.values.map((v) => formatValue(v, 6));
   return diagramSvg({
-    title: `${prepared.case.name}: ${monitorWords(monitor, fields, descriptions)} against ${cparam}, a curve per value of ${spec.parameter}`,
+    title: curve
+      ? `${prepared.case.name}: the ${curve.follow.replace(/-/g, ' ')} curves in the plane of ${cparam} and ${curve.free}, per value of ${spec.parameter}`
+      : `${prepared.case.name}: ${monitorWords(monitor, fields, descriptions)} against ${cparam}, a curve per value of ${spec.parameter}`,
     subtitle: `${spec.parameter} = ${shown.length > 8 ? `${shown.slice(0, 4).join(', ')}, …, ${shown.slice(-2).join(', ')}` : shown.join(', ')}; ${prepared.problem.describe().summary}`,
     parameterName: cparam,
-    monitorName: monitorWords(monitor, fields, descriptions),
+    monitorName: curve ? curve.free : monitorWords(monitor, fields, descriptions),
     branches,
     specialPoints: points,
+    ...(curve ? { curves: true } : {}),
     ...(prepared.caution ? { caution: prepared.caution } : {}),
   });
 }
@@ -275,16 +305,31 @@ function sweepSvg(prepared: PreparedCase, spec: SweepSpec, parent: string, piece
 export function formatSweepSummary(r: SweepResult, cwd = process.cwd()): string {
   const out: string[] = [];
   const cp = r.continuationParameter;
-  out.push(`Sweep of ${r.spec.parameter} over ${r.rows.length} values (continuation in ${cp}):`);
-  const header = [r.spec.parameter, 'status', 'points', 'folds', 'branch points', 'Hopf', `first fold (${cp})`];
-  const table: string[][] = [header];
-  for (const row of r.rows) {
-    const count = (k: string): string => String(row.specials.filter((s) => s.kind === k).length);
-    const fold = firstOn(row.specials, 'fold');
-    table.push([formatValue(row.value, 10), row.status, row.points !== undefined ? String(row.points) : '', count('fold'), count('branch-point'), count('hopf'), fold !== undefined ? formatValue(parseJsonNumber(fold), 11) : '']);
+  let header: string[];
+  const table: string[][] = [];
+  if (r.curve) {
+    out.push(`Sweep of ${r.spec.parameter} over ${r.rows.length} values (${r.curve.follow.replace(/-/g, ' ')} curves in ${cp}, ${r.curve.free} free):`);
+    header = [r.spec.parameter, 'status', 'points', 'curves', 'points on the curves'];
+    table.push(header);
+    for (const row of r.rows) {
+      const kinds = curveSpecialKinds.map((k) => [k, row.specials.filter((s) => s.kind === k).length] as const).filter(([, n]) => n > 0);
+      const named = kinds.map(([k, n]) => `${k} ${n}`).join(', ') || (row.status === 'finished' ? 'none' : '');
+      table.push([formatValue(row.value, 10), row.status, row.points !== undefined ? String(row.points) : '', row.branches !== undefined ? String(row.branches) : '', named]);
+    }
+  } else {
+    out.push(`Sweep of ${r.spec.parameter} over ${r.rows.length} values (continuation in ${cp}):`);
+    header = [r.spec.parameter, 'status', 'points', 'folds', 'branch points', 'Hopf', `first fold (${cp})`];
+    table.push(header);
+    for (const row of r.rows) {
+      const count = (k: string): string => String(row.specials.filter((s) => s.kind === k).length);
+      const fold = firstOn(row.specials, 'fold');
+      table.push([formatValue(row.value, 10), row.status, row.points !== undefined ? String(row.points) : '', count('fold'), count('branch-point'), count('hopf'), fold !== undefined ? formatValue(parseJsonNumber(fold), 11) : '']);
+    }
   }
   const widths = header.map((_, c) => Math.max(...table.map((t) => t[c].length)));
-  for (const t of table) out.push('  ' + t.map((cell, c) => (c <= 1 ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join('   ').trimEnd());
+  // (the curves' words, last, are left-aligned)
+  const left = (c: number): boolean => c <= 1 || (r.curve !== undefined && c === header.length - 1);
+  for (const t of table) out.push('  ' + t.map((cell, c) => (left(c) ? cell.padEnd(widths[c]) : cell.padStart(widths[c]))).join('   ').trimEnd());
   for (const row of r.rows) if (row.reason !== undefined) out.push(`  ${r.spec.parameter} = ${formatValue(row.value, 10)}: ${row.reason}`);
   for (const w of r.warnings) out.push(`Warning: ${w}`);
   const where = relative(cwd, r.directory) || '.';

@@ -9,7 +9,8 @@
  * in CSV (what NumPy, pandas and most spreadsheet importers read). JSON has no non-finite
  * numbers: there they become the strings "nan", "inf", "-inf" rather than a lossy `null`.
  */
-import { closeSync, existsSync, fstatSync, fsyncSync, ftruncateSync, mkdirSync, openSync, readFileSync, renameSync, statSync, truncateSync, unlinkSync, writeSync } from 'node:fs';
+import { closeSync, existsSync, fstatSync, fsyncSync, ftruncateSync, mkdirSync, openSync, renameSync, statSync, truncateSync, unlinkSync, writeSync } from 'node:fs';
+import { csvFileLimit, npyFileLimit, readFileStart, readRegularFile, readTextFile } from './read-file.js';
 import { basename, dirname, join } from 'node:path';
 
 // ---------------------------------------------------------------------------------------------
@@ -216,7 +217,7 @@ export class CsvWriter {
       throw new Error(`${path}: the file has ${size} bytes, fewer than the ${byteLength} the checkpoint recorded`);
     }
     const header = csvLine(columns);
-    const head = readFileSync(path).subarray(0, Buffer.byteLength(header)).toString('utf8');
+    const head = readFileStart(path, Buffer.byteLength(header)).toString('utf8');
     if (head !== header) throw new Error(`${path}: the header row does not match the expected columns (${columns.join(', ')})`);
     truncateSync(path, byteLength);
     const fd = openSync(path, 'a');
@@ -310,7 +311,7 @@ export class WriteError extends Error {
  * error.
  */
 export function readCsv(path: string, textColumns: readonly string[] = []): { columns: string[]; rows: number[][] } {
-  const text = readFileSync(path, 'utf8');
+  const text = readTextFile(path, csvFileLimit, 'a branch file');
   const lines = text.split('\n');
   if (lines[lines.length - 1] === '') lines.pop();
   if (lines.length === 0) throw new Error(`${path}: empty file, expected a header row`);
@@ -436,10 +437,12 @@ export function decodeNpy(bytes: Uint8Array, where = 'npy'): { shape: number[]; 
   return { shape: h.shape, data };
 }
 
-/** Read a `.npy` file of float64 values (see decodeNpy). */
-export function readNpy(path: string): { shape: number[]; data: Float64Array } {
-  if (!existsSync(path)) throw new Error(`${path}: no such file`);
-  return decodeNpy(readFileSync(path), path);
+/**
+ * Read a `.npy` file of float64 values (see decodeNpy): a regular file of at most `limit` bytes
+ * (`what` says what the limit is for in the message).
+ */
+export function readNpy(path: string, limit = npyFileLimit, what = 'a .npy file'): { shape: number[]; data: Float64Array } {
+  return decodeNpy(readRegularFile(path, limit, what), path);
 }
 
 /** Create a folder (and its parents) if it does not exist. */

@@ -27,13 +27,14 @@ import { deserialize, serialize } from 'node:v8';
 import { existsSync, mkdirSync, readFileSync, readdirSync, rmSync, statSync } from 'node:fs';
 import { dirname, join, relative, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { type PreparedCase, prepareCaseObject } from '../run/case.js';
+import { type PreparedCase, codeModelPath, prepareCaseObject } from '../run/case.js';
 import { InputError } from '../run/errors.js';
 import type { ExecuteOptions, PieceOutcome, RunExecutor, RunPiece } from '../run/executor.js';
 import { runNeeds } from '../run/batch.js';
 import { RunDirectory } from '../run/run-directory.js';
 import type { ProgressInfo, RunResult } from '../run/run-case.js';
 import { writeFileAtomic, writeJsonAtomic } from '../run/writers.js';
+import { FileReadError, jsonFileLimit, readTextFile } from '../run/read-file.js';
 import { type TaskState, accountedTasks, checkJob, queued, shownTasks, submit } from './commands.js';
 import { type SlurmSettings, jobScript, stopMargin, taskRanges } from './script.js';
 
@@ -53,6 +54,11 @@ export interface JobTask {
   label: string;
   baseDir: string;
   file?: string;
+  /**
+   * The code model the submitting command's case named (absolute path): that command's user
+   * named it, so the task may load it, and no other (src/run/resume-code.ts). Absent for other models.
+   */
+  codeModel?: string;
   /** Our estimate of what the task needs (MiB). */
   memoryMiB: number;
   parameter: string;
@@ -133,10 +139,12 @@ export function readJob(collection: string): JobRecord {
   const file = join(jobFolder(collection), 'job.json');
   let doc: JobRecord;
   try {
-    doc = JSON.parse(readFileSync(file, 'utf8')) as JobRecord;
+    // a regular file of sane size only (a FIFO or /dev/zero in its place is refused, not read)
+    doc = JSON.parse(readTextFile(file, jsonFileLimit, 'a Slurm job record')) as JobRecord;
   } catch (e) {
     const code = (e as NodeJS.ErrnoException).code;
-    throw new InputError(`${collection}: holds no Slurm job of branchline (${file} ${code === 'ENOENT' ? 'is missing' : 'cannot be read'})`);
+    const why = e instanceof FileReadError ? (code === 'ENOENT' ? 'is missing' : e.reason) : 'cannot be read';
+    throw new InputError(`${collection}: holds no Slurm job of branchline (${file} ${why})`);
   }
   if (doc?.format !== jobFormat) throw new InputError(`${file} is not a branchline Slurm job record`);
   return doc;
@@ -252,6 +260,7 @@ function taskOf(piece: RunPiece, index: number, collection: string): JobTask {
     label: piece.label,
     baseDir: piece.baseDir,
     ...(piece.file !== undefined ? { file: piece.file } : {}),
+    ...(piece.prepared.case.modelKind === 'code' ? { codeModel: piece.prepared.case.model } : {}),
     memoryMiB: taskMemoryMiB(piece.prepared),
     parameter: piece.prepared.settings.parameter,
     maxPoints: piece.prepared.settings.maxPoints,
@@ -348,6 +357,19 @@ export class SlurmExecutor implements RunExecutor {
  * starts again when it had none. Tasks still queued are left alone. Returns the submission, or
  * undefined when there is nothing to resubmit.
  */
+/**
+ * What a resubmission would hand to the shell and to sbatch from the job record itself (not from
+ * this command line): the setup lines (unless `setupReplaced`; the cases' own `cluster.setup`
+ * lines always stay) and the extra sbatch options (unless `optionsReplaced`). A job folder travels
+ * like a run folder, so these are data until the user agrees to run them.
+ */
+export function storedCommands(job: JobRecord, setupReplaced: boolean, optionsReplaced: boolean): { setup: string[]; schedulerOptions: string[] } {
+  const last = job.submissions[job.submissions.length - 1]?.settings ?? { schedulerOptions: [], setup: [] };
+  const setup = setupReplaced ? [] : [...(last.setup ?? [])];
+  for (const t of job.tasks) for (const l of (t.doc as { cluster?: { setup?: string[] } }).cluster?.setup ?? []) if (!setup.includes(l)) setup.push(l);
+  return { setup, schedulerOptions: optionsReplaced ? [] : [...(last.schedulerOptions ?? [])] };
+}
+
 export function resubmit(collection: string, settings: Partial<SlurmSettings>, log?: (level: 'info' | 'warning', m: string) => void): Submission | undefined {
   const job = readJob(collection);
   recordFinalStates(collection, job);
@@ -574,11 +596,39 @@ export function refreshStates(collection: string): TaskOutcome[] {
 // ---------------------------------------------------------------------------------------------
 // The tasks as pieces (for the merge after collecting)
 
-/** Rebuild the pieces of a job from its record (their cases checked again, problems built). */
-export async function jobPieces(collection: string, job: JobRecord = readJob(collection)): Promise<RunPiece[]> {
+/**
+ * The code models a job's cases name (absolute paths, each once): its tasks' cases and the case of
+ * its sweep or study. A job folder is data, like a run folder: they load only when the user asks.
+ */
+export function jobCodeModels(job: JobRecord): string[] {
+  const found = new Set<string>();
+  const add = (doc: unknown, baseDir: unknown): void => {
+    const path = codeModelPath((doc as { model?: unknown } | null)?.model, typeof baseDir === 'string' ? baseDir : '/');
+    if (path !== undefined) found.add(path);
+  };
+  for (const t of job.tasks) {
+    add(t.doc, t.baseDir);
+    if (typeof t.codeModel === 'string') found.add(t.codeModel);
+  }
+  const c = job.context as { case?: unknown; baseDir?: unknown } | undefined;
+  if (c?.case) add(c.case, c.baseDir);
+  return [...found];
+}
+
+/** The option letting a job's stored case load its code model, when the user allowed the job's code models. */
+export function jobCaseCode(doc: unknown, baseDir: string, allowCode: boolean): { loadCode?: string } {
+  const path = allowCode ? codeModelPath((doc as { model?: unknown } | null)?.model, baseDir) : undefined;
+  return path !== undefined ? { loadCode: path } : {};
+}
+
+/**
+ * Rebuild the pieces of a job from its record (their cases checked again, problems built); with
+ * `allowCode` (the user's --load-code-model), their code models load (see jobCodeModels).
+ */
+export async function jobPieces(collection: string, job: JobRecord = readJob(collection), allowCode = false): Promise<RunPiece[]> {
   const pieces: RunPiece[] = [];
   for (const t of job.tasks) {
-    const prepared = await prepareCaseObject(t.doc, { label: t.label, baseDir: t.baseDir, ...(t.file !== undefined ? { file: t.file } : {}) });
+    const prepared = await prepareCaseObject(t.doc, { label: t.label, baseDir: t.baseDir, ...(t.file !== undefined ? { file: t.file } : {}), ...jobCaseCode(t.doc, t.baseDir, allowCode) });
     pieces.push({ name: t.name, outDir: resolve(collection, t.directory), doc: t.doc, label: t.label, baseDir: t.baseDir, ...(t.file !== undefined ? { file: t.file } : {}), prepared });
   }
   return pieces;

@@ -136,13 +136,19 @@ export async function runTask(o: TaskOptions): Promise<number> {
     }
     let result;
     if (run && checkpointed(outDir)) {
-      // the task was here before: continue from its checkpoint, under the lock taken above
-      const { prepared, plan } = await prepareResume(outDir, { lock });
+      // the task was here before: continue from its checkpoint, under the lock taken above; the code
+      // model (if any) is the one the user's command named, as the job record holds it
+      const { prepared, plan } = await prepareResume(outDir, { lock, code: task.codeModel !== undefined ? { recorded: task.codeModel } : {} });
       for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
       view.log(undefined, 'info', `resuming from ${plan.file} (${plan.checkpoint?.ledger.points ?? 0} points; the run was ${plan.previousStatus})`);
       result = await runSession(prepared, { outDir, signal: o.signal, view, name: task.name, resume: plan, lock });
     } else {
-      const prepared = await prepareCaseObject(task.doc, { label: task.label, baseDir: task.baseDir, ...(task.file !== undefined ? { file: task.file } : {}) });
+      const prepared = await prepareCaseObject(task.doc, {
+        label: task.label,
+        baseDir: task.baseDir,
+        ...(task.file !== undefined ? { file: task.file } : {}),
+        ...(task.codeModel !== undefined ? { loadCode: task.codeModel } : {}),
+      });
       // an earlier attempt that left no checkpoint is replaced (only a run of ours: see RunDirectory.create)
       const earlier = folderEntries(outDir).length > 0;
       result = await runSession(prepared, { outDir, force: earlier, signal: o.signal, view, name: task.name, lock });

@@ -108,14 +108,18 @@ describe('the up-front disk estimate', () => {
 
   it.runIf(canMount)('refuses up front (exit 2, one line, nothing written) a run whose rows cannot fit the free space', async () => {
     // 128 KiB: an estimate without the 21 stability and eigenvalue columns (about 92 KiB) would let
-    // the run start; with them it is about 162 KiB
+    // the run start; with them (and the residual and unexplained-change columns) it is about 170 KiB
     const disk = join(tmp, 'small-disk');
     expect(mountTmpfs(disk, 128)).toBe(true);
     mounts.push(disk);
     const r = await cli('run', caseFile, '--out', join(disk, 'run'));
     expect(r.code).toBe(2);
     expect(r.err.trimEnd().split('\n')).toHaveLength(1);
-    expect(r.err).toMatch(/continuation\.max-points: a branch of max-points points would write about 163 KiB \(rows, solution files, checkpoints\), but only 128 KiB is free under/);
+    const m = /continuation\.max-points: a branch of max-points points would write about (\d+) KiB \(rows, solution files, checkpoints\), but only 128 KiB is free under/.exec(r.err);
+    expect(m, r.err).not.toBeNull();
+    // the estimate covers the rows as written (the test above): well above the 128 KiB free
+    expect(Number(m![1])).toBeGreaterThan(150);
+    expect(Number(m![1])).toBeLessThan(200);
     expect(readdirSync(disk)).toEqual([]);
   });
 });

@@ -62,7 +62,7 @@ beforeAll(async () => {
   const r = await main(['node', 'branchline', 'run', caseFile, '--out', reference, '--quiet'], { out: () => {}, err: (s) => (errors += s) });
   if (r !== 0) throw new Error(`the uninterrupted run failed: ${errors}`);
   totalBytes = csvBytes(reference);
-}, 60_000);
+}, 120_000);
 
 describe('kill -9 at random instants, then resume', () => {
   it('ends with the same branch files as the uninterrupted run (several trials, kills during resumes too)', async () => {
@@ -127,7 +127,7 @@ describe('SIGINT and SIGTERM stop a run cleanly', () => {
       expectSameFiles(dir, `${signal} at ${(100 * fraction).toFixed(1)}%`);
     };
     await Promise.all([trial('SIGINT'), trial('SIGTERM')]);
-  }, 60_000);
+  }, 120_000);
 });
 
 describe('a batch whose worker process is killed', () => {
@@ -166,5 +166,5 @@ describe('a batch whose worker process is killed', () => {
     const re = await r.ended;
     expect(re.code, re.err).toBe(0);
     expectSameFiles(join(out, 'kill-me'), 'the killed worker resumed');
-  }, 60_000);
+  }, 120_000);
 });

@@ -172,7 +172,7 @@ describe('the built binary', () => {
     const r = spawnSync(process.execPath, ['bin/branchline.js', 'run', fixture, '--out', out], { encoding: 'utf8' });
     expect(r.status, r.stderr).toBe(0);
     expect(r.stdout).toMatch(/Branch 1 \(from the start, lambda increasing\)/);
-    expect(readdirSync(out).sort()).toEqual(['branches', 'diagram.svg', 'plots', 'points.json', 'run.json', 'solutions']);
+    expect(readdirSync(out).sort()).toEqual(['branches', 'diagram.svg', 'plots', 'points.csv', 'points.json', 'run.json', 'solutions']);
     expect(json(join(out, 'run.json')).status).toBe('finished');
     const bad = spawnSync(process.execPath, ['bin/branchline.js', 'run', join(tmp, 'absent.yaml')], { encoding: 'utf8' });
     expect(bad.status).toBe(2);

@@ -1,6 +1,6 @@
 /** The up-front LU memory estimate and the refusal of hopeless grids. */
 import { describe, expect, it } from 'vitest';
-import { assertFactorMemory, estimateFactorMemory, defaultFactorMemoryLimit } from '../../discretisations/memory.js';
+import { assertFactorMemory, assertFactorWork, defaultFactorWorkLimit, estimateFactorMemory, defaultFactorMemoryLimit } from '../../discretisations/memory.js';
 import { models } from '../../discretisations/index.js';
 
 describe('factor memory estimate', () => {
@@ -36,4 +36,28 @@ describe('factor memory estimate', () => {
     expect(() => assertFactorMemory(estimateFactorMemory([2000, 2000], 2), 'grid 2000x2000')).toThrow(/grid 2000x2000/);
     expect(defaultFactorMemoryLimit).toBe(3 * 1024 ** 3);
   });
+
+  it('factorisation work grows like n^(3/2) in 2D and n² in 3D (nested dissection: George 1973; Lipton, Rose & Tarjan 1979, from memory)', () => {
+    const w2 = (k: number) => estimateFactorMemory([k, k]).flops;
+    const w3 = (k: number) => estimateFactorMemory([k, k, k]).flops;
+    // 2D: doubling k quadruples n, n^(3/2) grows 8-fold
+    expect(w2(512) / w2(256)).toBeGreaterThan(7);
+    expect(w2(512) / w2(256)).toBeLessThan(9);
+    // 3D: doubling k multiplies n by 8, n² by 64
+    expect(w3(64) / w3(32)).toBeGreaterThan(55);
+    expect(w3(64) / w3(32)).toBeLessThan(72);
+    // m×m blocks: m³ times the work
+    expect(estimateFactorMemory([100, 100], 2).flops / estimateFactorMemory([100, 100], 1).flops).toBeCloseTo(8, 1);
+  });
+
+  it('refuses a 3D grid whose factorisation takes minutes (52³ intervals fits in memory but not in time); 40³ passes', () => {
+    const at = (k: number) => estimateFactorMemory([k - 1, k - 1, k - 1], 1, 1);
+    expect(at(52).bytes).toBeLessThan(defaultFactorMemoryLimit);
+    expect(() => assertFactorWork(at(52), 'grid 52x52x52')).toThrow(
+      /^grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations \(132652 unknowns\), about 4 minutes at the solver's measured 0\.9 Gflop\/s, and every point needs several; over the 1\.0e11 limit; use fewer intervals/,
+    );
+    expect(() => assertFactorWork(at(40), 'grid 40x40x40')).not.toThrow();
+    expect(defaultFactorWorkLimit).toBe(1e11);
+  });
 });
+

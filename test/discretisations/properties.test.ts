@@ -62,8 +62,8 @@ const cases: Case[] = [
   { name: 'brusselator 2D periodic', make: () => models.brusselator.factory({ grid: { intervals: [4, 5] }, boundary: 'periodic', initial: 'perturbed' }), ranges: { a: [0.5, 3], b: [0.5, 6], Du: [0.1, 2], Dv: [1, 10] }, amp: 0.5 },
   { name: 'brusselator 1D periodic with phase condition', make: () => models.brusselator.factory({ grid: { intervals: [10] }, boundary: 'periodic', initial: 'perturbed', 'phase-condition': true }), ranges: { a: [0.5, 3], b: [0.5, 6], Du: [0.1, 2], Dv: [1, 10] }, amp: 0.5 },
   { name: 'elastica', make: () => models.elastica.factory({ grid: { intervals: [16] } }), ranges: { lambda: [0, 40] }, amp: 1.5 },
-  { name: 'beam-foundation pinned', make: () => models['beam-foundation'].factory({ grid: { intervals: [10], length: [2] } }), ranges: { P: [0, 50], EI: [0.5, 2], kf: [0, 200], k3: [-100, 100] }, amp: 0.5 },
-  { name: 'beam-foundation clamped', make: () => models['beam-foundation'].factory({ grid: { intervals: [10] }, ends: 'clamped' }), ranges: { P: [0, 50], EI: [0.5, 2], kf: [0, 200], k3: [-100, 100] }, amp: 0.5 },
+  { name: 'beam-foundation pinned', make: () => models['beam-foundation'].factory({ grid: { intervals: [10], length: [2] } }), ranges: { P: [0, 50], EI: [0.5, 2], kf: [0, 200], k3: [-100, 100], imperfection: [-0.3, 0.3] }, amp: 0.5 },
+  { name: 'beam-foundation clamped', make: () => models['beam-foundation'].factory({ grid: { intervals: [10] }, ends: 'clamped' }), ranges: { P: [0, 50], EI: [0.5, 2], kf: [0, 200], k3: [-100, 100], imperfection: [-0.3, 0.3] }, amp: 0.5 },
   {
     // the generic core with everything at once: per-field and per-side boundary kinds,
     // parameter-valued boundary data, a variable diffusion profile, 3D

@@ -68,7 +68,7 @@ describe('ignition (Bratu–Gelfand, u_t = u″ + λeᵘ, cold walls)', () => {
   });
 
   it('past the fold blows up in finite time: no steady state is left (thermal runaway)', () => {
-    // beyond λ* = 3.5138… (exact for the continuum; the DESIGN table) there is no steady state
+    // beyond λ* = 3.5138… (exact for the continuum: Bratu 1914; the value from memory) there is no steady state
     const p = resolveParameters(bratu, { lambda: 5 });
     const r = integrate(bratu, p, { end: 100, blowUp: 1e3 });
     expect(r.outcome.kind).toBe('blown-up');

@@ -6,13 +6,15 @@
  */
 import { describe, expect, test } from 'vitest';
 import fc from 'fast-check';
-import { evaluate } from 'mathjs';
+import { evaluate, parse } from 'mathjs';
 import {
   ACCEPTED_FUNCTIONS,
   compileReaction,
   compileScalar,
   ExpressionError,
   type CompiledReaction,
+  mathTree,
+  printMath,
 } from '../../discretisations/expression/compile.js';
 import { randomExpression, richardsonDerivative, closeTo } from './random-expressions.js';
 
@@ -266,5 +268,97 @@ describe('errors name the field and the offending text on one line', () => {
     expect(() => compileReaction({ fields: ['u', 'u'], parameters: [], reaction: { u: '1' } })).toThrow(/^field 'u' is named twice$/);
     expect(() => compileReaction({ fields: ['2u'], parameters: [], reaction: { '2u': '1' } })).toThrow(/^field name "2u" is not usable in expressions/);
     expect(() => compileReaction({ fields: [], parameters: [], reaction: {} })).toThrow(/at least one field/);
+  });
+});
+
+describe('size limits: nesting, nodes, derivative growth (refused in one short line naming the limit)', () => {
+  const one = (u: string): CompiledReaction => compileReaction({ fields: ['u'], parameters: ['lambda'], reaction: { u } });
+  const refusal = (u: string): string => {
+    try {
+      one(u);
+    } catch (e) {
+      expect(e).toBeInstanceOf(ExpressionError);
+      const msg = (e as Error).message;
+      expect(msg).not.toContain('\n');
+      expect(msg.length).toBeLessThan(260);
+      return msg;
+    }
+    throw new Error('expected a refusal');
+  };
+  const value = (c: CompiledReaction, u: number, lambda = 0.7): number => {
+    const o = new Float64Array(c.fields.length);
+    c.residual(Float64Array.from([u, lambda, 0, 0, 0]), o);
+    return o[0];
+  };
+  const jacobian = (c: CompiledReaction, u: number, lambda = 0.7): number => {
+    const o = new Float64Array(c.couplingRows.length);
+    c.jacobian(Float64Array.from([u, lambda, 0, 0, 0]), o);
+    return o[0];
+  };
+
+  test('a sum of 300 terms compiles: value and derivative against a plain loop and the term-by-term derivative', () => {
+    const text = Array.from({ length: 300 }, (_, k) => `${k % 2 ? '-' : '+'} ${k + 1} * sin(${(k + 1) / 100} * u)`).join(' ').slice(2);
+    const c = one(text);
+    for (const u of [-0.9, 0.3, 1.4]) {
+      let v = 0;
+      let d = 0;
+      for (let k = 0; k < 300; k++) {
+        const s = k % 2 ? -1 : 1;
+        v += s * (k + 1) * Math.sin(((k + 1) / 100) * u);
+        d += s * (k + 1) * ((k + 1) / 100) * Math.cos(((k + 1) / 100) * u);
+      }
+      // pairwise grouping of the long sum: the same value up to rounding
+      expect(closeTo(value(c, u), v, 1e-12)).toBe(true);
+      expect(closeTo(jacobian(c, u), d, 1e-12)).toBe(true);
+    }
+  });
+
+  test('short sums keep their left-to-right order; long ones are grouped pairwise', () => {
+    const three = compileReaction({ fields: ['u', 'v', 'w'], parameters: [], reaction: { u: 'u + v + w', v: '0', w: '0' } });
+    expect(three.sources.residual).toMatch(/o\[0\] = \(\(s0 \+ s1\) \+ s2\);/);
+    const long = one(Array.from({ length: 40 }, () => 'u').join(' - '));
+    expect(long.sources.residual).not.toMatch(/\({20}/); // no left-leaning chain 40 deep
+    expect(value(long, 0.5)).toBe(0.5 - 39 * 0.5);
+  });
+
+  test('a product of 200 factors is refused naming the limit, quickly and without a stack overflow', () => {
+    const msg = refusal(Array.from({ length: 200 }, (_, k) => `(u + ${k + 1})`).join(' * '));
+    expect(msg).toMatch(/^reaction for field 'u': the (second )?derivative of "\(u \+ 1\) \* \(u \+ 2\).{20,40}\.\.\." with respect to .* is too large \(limit: 10,000 nodes per derivative\)$/);
+  });
+
+  test('nesting: 64 levels accepted, 65 refused; 20,000 brackets and 100,000 signs give a short message', () => {
+    const linear = (n: number): string => '('.repeat(n) + 'u' + ' + 1)'.repeat(n);
+    expect(value(one(linear(64)), 0.5)).toBe(64.5);
+    expect(refusal(linear(65))).toMatch(/^reaction for field 'u': brackets nest more than 64 deep in "\(\(\(\(.*\.\.\." \(limit: 64 levels of nesting\)$/);
+    expect(refusal('sin('.repeat(100) + 'u' + ')'.repeat(100))).toMatch(/brackets nest more than 64 deep .*\(limit: 64 levels of nesting\)$/);
+    expect(refusal('('.repeat(20_000) + 'u' + ')'.repeat(20_000))).toMatch(/\(limit: 64 levels of nesting\)$/);
+    expect(refusal('-'.repeat(50_000) + 'u')).toMatch(/nests (more than 64|\d+) deep .*\(limit: 64 levels of nesting\)$/);
+    expect(refusal('u^'.repeat(70) + 'u')).toMatch(/the expression nests 70 deep .*\(limit: 64 levels of nesting\)$/);
+  });
+
+  test('node count and text length', () => {
+    expect(refusal(Array.from({ length: 6000 }, () => 'u').join(' + '))).toMatch(/the expression has 11,999 nodes in .*\(limit: 10,000 nodes per expression\)$/);
+    expect(refusal('u + ' + '0'.repeat(100_000))).toMatch(/the text is 100,004 characters long .*\(limit: 100,000 characters\)$/);
+  });
+
+  test('derivative growth: sin(sin(...(u)...)) 40 deep is refused at its second derivative', () => {
+    expect(refusal('sin('.repeat(40) + 'u' + ')'.repeat(40))).toMatch(/the second derivative of "sin\(sin.*" with respect to 'u' and 'u' is too large \(limit: 10,000 nodes per derivative\)$/);
+  });
+
+  test('compileScalar (diffusion, initial) has the same limits', () => {
+    expect(() => compileScalar('('.repeat(100) + 'x' + ')'.repeat(100), "initial for field 'u'", ['x'])).toThrow(/^initial for field 'u': brackets nest more than 64 deep .*\(limit: 64 levels of nesting\)$/);
+  });
+
+  test('the second-derivative input tree is the tree parsing the printed first derivative gives', () => {
+    const names = [...FIELDS, ...PARAMS, 'x', 'y', 'z'];
+    fc.assert(
+      fc.property(randomExpression(SYMBOLS, 3), (e) => {
+        const c = compileReaction({ fields: FIELDS, parameters: PARAMS, reaction: { u: e.text, v: '0', w: '0' }, coordinates: ['x', 'y'] });
+        for (const d of c.trees.jacobian) {
+          expect(JSON.stringify(mathTree(d, names))).toBe(JSON.stringify(parse(printMath(d, names))));
+        }
+      }),
+      { numRuns: 40 },
+    );
   });
 });

@@ -181,8 +181,8 @@ describe('diagram input errors', () => {
   const base = (): DiagramInput => pitchforkDiagram();
   it('name the problem', () => {
     expect(() =>
-      diagramSvg({ ...base(), specialPoints: [{ kind: 'cusp' as never, branch: 1, parameter: 0, monitor: 0 }] }),
-    ).toThrow(/special point 1 has kind 'cusp' \(accepted: fold, branch-point, hopf, end\)/);
+      diagramSvg({ ...base(), specialPoints: [{ kind: 'saddle' as never, branch: 1, parameter: 0, monitor: 0 }] }),
+    ).toThrow(/special point 1 has kind 'saddle' \(accepted: fold, branch-point, hopf, end, cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing, zero-hopf, bautin, double-hopf\)/);
     expect(() =>
       diagramSvg({ ...base(), specialPoints: [{ kind: 'fold', branch: 9, parameter: 0, monitor: 0 }] }),
     ).toThrow(/refers to branch '9', which is not among the branches \(1, 2, 3\)/);

@@ -5,7 +5,7 @@ import { join, resolve } from 'node:path';
 import fc from 'fast-check';
 import { afterAll, describe, expect, it } from 'vitest';
 import { defaultSettings } from '../../src/continuation/types.js';
-import { caseDocument, parseCaseText, prepareCase, prepareCaseObject } from '../../src/run/case.js';
+import { caseDocument, duplicateJsonKey, parseCaseText, prepareCase, prepareCaseObject } from '../../src/run/case.js';
 import { CaseError } from '../../src/run/errors.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-case-'));
@@ -113,7 +113,7 @@ checkpoint: {every-points: 5, every-seconds: 30}
       (await prepareCase(caseFile(`model: bratu\ngrid: {intervals: [8]}\ncontinuation: {parameter: lambda, bounds: [0, 3], newton: ${newton}}\n`))).settings.newton;
     expect(await read('{residual-tolerance: 1.0e-7, step-tolerance: 1.0e-10}')).toEqual({ residualTolerance: 1e-7, stepTolerance: 1e-10, maxIterations: 10 });
     expect(await read('{tolerance: 1.0e-6, step-tolerance: 1.0e-8}')).toEqual({ residualTolerance: 1e-6, stepTolerance: 1e-8, maxIterations: 10 });
-    await expect(read('{residual-tolerance: 2}')).rejects.toThrow(/continuation\.newton\.residual-tolerance.*between 0 and 1/);
+    await expect(read('{residual-tolerance: 2}')).rejects.toThrow(/continuation\.newton\.residual-tolerance: 2 is not accepted \(accepted: a number from 1e-15 to below 1\)/);
   });
 
   it('accepts JSON, and the resolved case document reads back to the same case', async () => {
@@ -163,7 +163,7 @@ describe('bad case files give one line naming the file, the field, the value and
     ['bounds with three numbers', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, 4, 5]'))), /: continuation\.bounds: .*accepted: two finite numbers/],
     ['a parameter value as text', variant((l) => l.map((s) => s.replace('lambda: 0.5}', "lambda: 'half'}"))), /: parameters\.lambda: 'half' is not accepted \(accepted: a finite number\)/],
     ['a non-finite number', variant((l) => l.map((s) => s.replace('bounds: [0, 4]', 'bounds: [0, .inf]'))), /: continuation\.bounds\[1\]: inf is not accepted \(accepted: a finite number\)/],
-    ['direction misspelt', good + '  direction: upward\n', /: continuation\.direction: 'upward' is not accepted \(accepted: increase, decrease\)/],
+    ['direction misspelt', good + '  direction: upward\n', /: continuation\.direction: 'upward' is not accepted \(accepted: increase, decrease, both\)/],
     ['unknown sparse LU', good + '  sparse-lu: umfpack\n', /: continuation\.sparse-lu: 'umfpack' is not accepted \(accepted: auto, klu, superlu\)/],
     ['missing continuation', good.replace(/continuation:[\s\S]*$/, ''), /: continuation: is missing \(accepted: a map with keys parameter, bounds, direction/],
     ['missing model', good.replace('model: bratu\n', ''), /: model: is missing \(accepted: a model id \(bratu, .*reaction-diffusion\) or a path/],
@@ -172,7 +172,7 @@ describe('bad case files give one line naming the file, the field, the value and
     ['unknown parameter', good.replace('{lambda: 0.5}', '{lambda: 0.5, mu: 2}'), /: parameters\.mu: unknown parameter for model 'bratu' \(accepted: lambda\)/],
     ['a parameter of another variant', good.replace('{lambda: 0.5}', '{lambda: 0.5, biot: 2}'), /: parameters\.biot: unknown parameter .*\(accepted: lambda\); 'biot' belongs to another variant/],
     ['unknown continuation parameter', good.replace('parameter: lambda', 'parameter: lam'), /: continuation\.parameter: 'lam' is not a parameter of model 'bratu' \(accepted: lambda\)/],
-    ['unknown top-level key', good + 'colour: red\n', /: colour: unknown key \(accepted: name, model, grid, parameters, continuation, output, stability, checkpoint, plot, start, initial, time, cluster; for model 'bratu' also boundary\)/],
+    ['unknown top-level key', good + 'colour: red\n', /: colour: unknown key \(accepted: name, model, grid, parameters, continuation, output, stability, checkpoint, plot, start, initial, time, cluster, search; for model 'bratu' also boundary\)/],
     ['unknown nested key', good + '  stepsize: 0.1\n', /: continuation: unknown key 'stepsize' \(accepted: parameter, bounds, direction, method, step,/],
     ['wrong model option value', good + 'boundary: sticky\n', /: boundary: 'sticky' is not accepted \(accepted: dirichlet, robin\)/],
     ['unknown monitor in stop-when', good + '  stop-when: [{monitor: maximum, above: 3}]\n', /: continuation\.stop-when\[0\]\.monitor: 'maximum' is not a monitor of this problem \(accepted: max, min, l2-norm, centre\)/],
@@ -190,6 +190,16 @@ describe('bad case files give one line naming the file, the field, the value and
       'model: gray-scott\ngrid: {intervals: [1000, 1000]}\ncontinuation: {parameter: F, bounds: [0, 1]}\n',
       /: grid\.intervals: grid 1000x1000: the sparse LU would need about [\d.]+ GiB \(2004002 unknowns/,
     ],
+    [
+      'a 3D grid whose factorisation would take minutes',
+      good.replace('[16]', '[52, 52, 52]'),
+      /: grid\.intervals: grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations .*about 4 minutes/,
+    ],
+    [
+      'a 2D grid whose two factorisations (continuation and eigenvalues) do not fit together',
+      good.replace('[16]', '[1000, 1000]') + 'stability: {eigenvalues: 2}\n',
+      /: grid\.intervals: grid 1000x1000: the sparse LU factorisations of the continuation and of the eigenvalue solver, held at once, would need about 3\.\d GiB, over the 3\.0 GiB .* or stability: \{eigenvalues: 0\}/,
+    ],
     // continuation values
     ['bounds reversed', good.replace('bounds: [0, 4]', 'bounds: [4, 0]'), /: continuation\.bounds: \[4, 0\] is reversed \(accepted: \[low, high\] with low < high\)/],
     ['bounds outside the parameter range', good.replace('bounds: [0, 4]', 'bounds: [-1, 4]'), /: continuation\.bounds: \[-1, 4\] reaches outside the accepted range of lambda, \[0, inf\]/],
@@ -201,6 +211,12 @@ describe('bad case files give one line naming the file, the field, the value and
     ['absurd point count', good + '  max-points: 1.0e+9\n', /: continuation\.max-points: 1000000000 is not accepted \(accepted: an integer from 1 to 1000000\)/],
     ['absurd depth', good + '  branch-switching: {depth: 99}\n', /: continuation\.branch-switching\.depth: 99 is not accepted \(accepted: an integer from 0 to 10\)/],
     ['solutions at every point of a huge run', good.replace('[16]', '[400, 400]') + '  max-points: 200000\noutput: {solutions: all}\n', /: output\.solutions: 'all' would write up to \d+ GiB/],
+    ['a vanishing length', good.replace('{intervals: [16]}', '{intervals: [16], length: 1.0e-320}'), /: grid\.length: 1e-320 is not accepted \(accepted: a length from 1e-9 to 1e9/],
+    ['an overflowing length', good.replace('{intervals: [16]}', '{intervals: [16], length: 1.0e+308}'), /: grid\.length: 1e\+308 is not accepted \(accepted: a length from 1e-9 to 1e9/],
+    ['one absurd length of several', good.replace('{intervals: [16]}', '{intervals: [16, 16], length: [1, 1.0e+12]}'), /: grid\.length(\[1\])?: .*is not accepted \(accepted: a length from 1e-9 to 1e9/],
+    ['a tolerance round-off cannot reach', good + '  newton: {tolerance: 1.0e-300}\n', /: continuation\.newton\.tolerance: 1e-300 is not accepted \(accepted: a number from 1e-15 to below 1\)/],
+    ['__proto__ at the top', good + '__proto__: {model: allen-cahn}\n', /: the key '__proto__' is not accepted \(JavaScript reads it as the prototype/],
+    ['__proto__ in parameters', good.replace('{lambda: 0.5}', '{lambda: 0.5, __proto__: {lambda: 3}}'), /: parameters: the key '__proto__' is not accepted/],
     ['bad solutions word', good + 'output: {solutions: some}\n', /: output\.solutions: 'some' is not accepted \(accepted: special, none, all\)/],
     ['bad name', 'name: ../escape\n' + good.replace('name: slab\n', ''), /: name: '\.\.\/escape' is not accepted \(accepted: a name of letters, digits/],
     // expressions
@@ -237,6 +253,21 @@ describe('bad case files give one line naming the file, the field, the value and
   it('broken JSON in a .json file', async () => {
     const err = await errorOf('{"model": "bratu",', '.json');
     expect(err.message).toMatch(/: not valid JSON: /);
+  });
+
+  it('JSON: duplicate keys (also spelt with escapes) and __proto__ keys, at any depth', async () => {
+    const doc = (extra: string, params = '{"lambda": 0.5}'): string =>
+      `{"model": "bratu", "grid": {"intervals": [16]}, "parameters": ${params},\n "continuation": {"parameter": "lambda", "bounds": [0, 4]${extra}}}`;
+    expect((await errorOf(doc(', "bounds": [0, 3]'), '.json')).message).toMatch(/: continuation: the key 'bounds' is given twice \(line 2\); give each key once$/);
+    expect((await errorOf(doc('', '{"lambda": 0.5, "lamb\\u0064a": 2}'), '.json')).message).toMatch(/: parameters: the key 'lambda' is given twice \(line 1\)/);
+    expect((await errorOf(`{"model": "bratu", "model": "allen-cahn", "grid": {"intervals": [16]}}`, '.json')).message).toMatch(/json: the key 'model' is given twice/);
+    expect((await errorOf(doc('', '{"__proto__": {"lambda": 3}}'), '.json')).message).toMatch(/: parameters: the key '__proto__' is not accepted/);
+    expect((await errorOf(`{"__proto__": {"x": 1}, ${doc('').slice(1)}`, '.json')).message).toMatch(/json: the key '__proto__' is not accepted/);
+    // braces, quotes and equal keys inside strings and in different maps are no duplicates
+    const ok = await prepareCase(caseFile(doc(', "stop-when": [{"monitor": "max", "above": 5}, {"monitor": "max", "below": -1}]'), '.json'));
+    expect(ok.settings.stopWhen).toHaveLength(2);
+    expect(duplicateJsonKey('{"a": "{\\"a\\": 1, \\"a\\": 2}", "b": [{"a": 1}, {"a": 2, "c": {"a": 3}}]}')).toBeUndefined();
+    expect(duplicateJsonKey('{"b": [{"a": 1}, {"a": 2, "c": {"d": 3, "d": 4}}]}')).toEqual({ key: 'd', path: ['b', 1, 'c'], line: 1 });
   });
 
   it('a missing file and a folder', async () => {
@@ -340,6 +371,126 @@ describe('fuzzed cases never escape as anything but a one-line CaseError', () =>
         }
       }),
       { numRuns: 500 },
+    );
+  });
+
+  it('YAML aliases that make a cycle (a map or a list inside itself) are refused in one line, not walked forever', async () => {
+    // found by the hostile-case fuzz: the check for prototype keys walked a self-referencing map
+    // without end (YAML 1.2 lets an alias name an enclosing node)
+    for (const [name, text] of [
+      ['map', 'name: cyc\nmodel: bratu\ngrid: &g {intervals: [16], more: *g}\ncontinuation: {parameter: lambda, bounds: [0, 1]}\n'],
+      ['list', 'name: cyc\nmodel: bratu\ngrid: {intervals: [16]}\nx: &a [1, *a]\ncontinuation: {parameter: lambda, bounds: [0, 1]}\n'],
+    ] as const) {
+      const file = join(tmp, `cycle-${name}.yaml`);
+      writeFileSync(file, text);
+      await expect(prepareCase(file)).rejects.toThrow(/^[^\n]*: (grid: unknown key 'more'|x: unknown key)[^\n]*$/);
+    }
+  });
+});
+
+describe('fuzzed hostile cases: prototype keys, control characters, absurd numbers, deeply nested and huge expressions', () => {
+  /** Bytes a terminal acts on (see printable in src/run/errors.ts). */
+  const raw = /[\u0000-\u0008\u000b-\u001f\u007f-\u009f\u202a-\u202e\u2066-\u2069]/;
+  const refusedWell = (e: unknown, label: string): boolean => {
+    if (!(e instanceof CaseError)) throw e;
+    expect(e.message).not.toMatch(/\n|call stack/i);
+    expect(e.message).not.toMatch(raw);
+    expect(e.message.startsWith(`${label}: `)).toBe(true);
+    expect(e.message.length).toBeLessThan(850); // a huge quoted value is cut in the middle (InputError)
+    return true;
+  };
+
+  /** Expressions: random nesting depth (0 to 150), long sums and products, control characters. */
+  const expression: fc.Arbitrary<string> = fc.oneof(
+    fc.tuple(fc.constantFrom('sin', 'exp', 'tanh', '', '-', 'sqrt'), fc.integer({ min: 0, max: 150 })).map(([f, n]) =>
+      f === '-' ? '-'.repeat(n) + 'u' : `${`${f}(`.repeat(n)}u${')'.repeat(n)}`,
+    ),
+    fc.tuple(fc.constantFrom(' + ', ' - ', ' * ', ' / ', '^'), fc.integer({ min: 1, max: 400 }), fc.constantFrom('u', 'mu', '(u + 1)', 'sin(u)', '2')).map(([op, n, t]) => Array.from({ length: n }, () => t).join(op)),
+    fc.string({ maxLength: 30 }).map((s) => `u + ${s}`),
+    fc.constantFrom('u\u001b[2J', '\u0007', 'mu*exp(u)\u009b', `u + ${'0'.repeat(120_000)}`, `${'('.repeat(20_000)}u${')'.repeat(20_000)}`),
+  );
+  const hostile = fc.oneof(
+    fc.constantFrom(1e-320, 1e308, -1e308, 5e-324, 1e-300),
+    fc.string({ maxLength: 12 }).map((s) => `${s}\u001b]0;t\u0007\u202e`),
+    fc.dictionary(fc.constantFrom('__proto__', 'lambda', 'model', 'x'), fc.oneof(fc.integer(), fc.constant({ lambda: 3 })), { minKeys: 1, maxKeys: 3 }).map((d) =>
+      JSON.parse(JSON.stringify(d).replace('"x"', '"__proto__"')),
+    ),
+    expression,
+  );
+  const rdBase = (): Record<string, any> => ({
+    model: 'reaction-diffusion',
+    fields: ['u'],
+    parameters: { mu: 0.5 },
+    reaction: { u: 'mu*exp(u)' },
+    diffusion: { u: 1 },
+    initial: { u: '0' },
+    boundary: 'dirichlet',
+    grid: { intervals: [8] },
+    continuation: { parameter: 'mu', bounds: [0, 1] },
+  });
+  const rdPaths: (string | number)[][] = [['reaction', 'u'], ['diffusion', 'u'], ['initial', 'u'], ['parameters', 'mu'], ['parameters'], ['grid', 'length'], ['continuation', 'bounds', 1], ['model'], ['boundary'], []];
+
+  it('hostile values at any key of an expression-defined case: built, or refused in one clean line', async () => {
+    await fc.assert(
+      fc.asyncProperty(fc.constantFrom(...rdPaths), hostile, async (path, value) => {
+        const doc = rdBase();
+        let target: any = doc;
+        for (const k of path.slice(0, -1)) target = target[k];
+        if (path.length === 0) Object.defineProperty(doc, '__proto__', { value, enumerable: true, configurable: true, writable: true });
+        else target[path[path.length - 1]] = value;
+        try {
+          await prepareCaseObject(doc, { label: 'fuzz.yaml', baseDir: tmp });
+          return true;
+        } catch (e) {
+          return refusedWell(e, 'fuzz.yaml');
+        }
+      }),
+      { numRuns: 120 },
+    );
+  }, 120_000);
+
+  it('__proto__ keys at any depth, written as YAML and as JSON text, and duplicate JSON keys: always refused', async () => {
+    const paths: (string | number)[][] = [[], ['grid'], ['parameters'], ['continuation'], ['continuation', 'step'], ['continuation', 'stop-when', 0], ['output']];
+    const base = (): Record<string, any> => ({
+      model: 'bratu',
+      grid: { intervals: [16] },
+      parameters: { lambda: 0.5 },
+      continuation: { parameter: 'lambda', bounds: [0, 4], step: { initial: 0.1 }, 'stop-when': [{ monitor: 'max', above: 5 }] },
+      output: { solutions: 'special' },
+    });
+    await fc.assert(
+      fc.asyncProperty(fc.constantFrom(...paths), fc.oneof(fc.integer(), fc.constant({ lambda: 3 }), fc.constant('bratu')), fc.boolean(), fc.boolean(), async (path, value, asJson, duplicate) => {
+        const doc = base();
+        let target: any = doc;
+        for (const k of path) target = target[k];
+        let text: string;
+        if (duplicate) {
+          // the same key twice in one map (JSON.parse would keep the last silently)
+          const key = Object.keys(target)[0];
+          const json = JSON.stringify(doc);
+          const inner = JSON.stringify(target);
+          text = json.replace(inner, `{${JSON.stringify(key)}: ${JSON.stringify(value)}, ${inner.slice(1)}`);
+          const file = caseFile(text, asJson ? '.json' : '.yaml');
+          try {
+            await prepareCase(file);
+          } catch (e) {
+            refusedWell(e, file);
+            return /is given twice|Map keys must be unique/.test((e as Error).message);
+          }
+          return false;
+        }
+        Object.defineProperty(target, '__proto__', { value, enumerable: true, configurable: true, writable: true });
+        text = JSON.stringify(doc); // JSON text is YAML too: the same document through both readers
+        const file = caseFile(text, asJson ? '.json' : '.yaml');
+        try {
+          await prepareCase(file);
+        } catch (e) {
+          refusedWell(e, file);
+          return /the key '__proto__' is not accepted/.test((e as Error).message);
+        }
+        return false;
+      }),
+      { numRuns: 80 },
     );
   });
 });

@@ -88,7 +88,7 @@ describe('a run on the scripted engine', () => {
         'branch point at lambda = 2 (pitchfork, supercritical, followed as branch 2, max = 0.7), ended: reached lambda = 2.9',
     );
     expect(lines).toContain('Branch 2 (from the branch point at lambda = 2 on branch 1, lambda increasing): 4 points, no fold or branch point, ended: reached the point limit (200)');
-    expect(text).toMatch(new RegExp(`Files in ${out.slice(tmp.length + 1)}: run.json, points.json, branches/ \\(2 files\\), solutions/ \\(4 .npy files\\)`));
+    expect(text).toMatch(new RegExp(`Files in ${out.slice(tmp.length + 1)}: run.json, points.json, points.csv, branches/ \\(2 files\\), solutions/ \\(4 .npy files\\)`));
     expect(lines[lines.length - 1]).toMatch(/^Caution: Model results for ignition/);
   });
 
@@ -266,7 +266,7 @@ describe('the output folder', () => {
     await expect(runCase(prepared, { outDir: out, engine: fakeEngine() })).rejects.toThrow(/is not empty \(it holds an earlier run\)/);
     const again = await runCase(prepared, { outDir: out, engine: fakeEngine({ ...defaultScript, points2: 0 }), force: true });
     expect(again.status).toBe('finished');
-    expect(readdirSync(out).sort()).toEqual(['branches', 'diagram.svg', 'notes.txt', 'plots', 'points.json', 'run.json', 'solutions']);
+    expect(readdirSync(out).sort()).toEqual(['branches', 'diagram.svg', 'notes.txt', 'plots', 'points.csv', 'points.json', 'run.json', 'solutions']);
     expect(readdirSync(join(out, 'branches'))).toEqual(['1.csv']);
     expect(readdirSync(join(out, 'solutions')).sort()).toEqual(['branch-1-end-1.npy', 'branch-1-fold-1.npy']);
   });

@@ -10,6 +10,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { parseSweep } from '../../src/run/sweep.js';
+import { curveSpecialKinds } from '../../src/continuation/curves/types.js';
 
 /** sweep.csv (text and number cells; ours has no quoted cells). */
 function readCsv(file: string): { columns: string[]; rows: (number | string)[][] } {
@@ -143,5 +144,73 @@ describe('run --sweep', () => {
 
   it('parses its values to the same doubles as the case file would', () => {
     expect(parseSweep('biot = 0.1, 1e-3 ,2').values).toEqual([0.1, 0.001, 2]);
+  });
+});
+
+// Turing lines of a Brusselator strip (branch points of the uniform state in (a, b)), swept over Dv
+const turing = `name: strip
+model: brusselator
+boundary: neumann
+grid: {intervals: [30], length: [15]}
+parameters: {a: 2, b: 2.5, Du: 1, Dv: 8}
+continuation:
+  follow: branch-point
+  parameter: a
+  free: b
+  bounds: [1.5, 3.5]
+  step: {initial: 0.05, max: 0.1}
+`;
+
+describe('run --sweep of a curve run', () => {
+  const file = join(tmp, 'strip.yaml');
+  const out = join(tmp, 'strip-sweep');
+  const dvs = [8, 12];
+  let r: { code: number; out: string; err: string };
+  beforeAll(async () => {
+    writeFileSync(file, turing);
+    r = await cli('run', file, '--sweep', `Dv=${dvs.join(',')}`, '--out', out, '--quiet');
+  });
+
+  it('counts curves and curve points per value; each value’s mode changes lie where its Turing lines cross', () => {
+    expect(r.code, r.err).toBe(0);
+    const csv = readCsv(join(out, 'sweep.csv'));
+    expect(csv.columns).toEqual(['Dv', 'run', 'status', 'points', 'curves', ...curveSpecialKinds]);
+    const doc = JSON.parse(readFileSync(join(out, 'sweep.json'), 'utf8')) as { follow: string; 'free-parameter': string; runs: { 'special-points': { kind: string; value: number; free: number }[] }[] };
+    expect(doc).toMatchObject({ follow: 'branch-point', 'free-parameter': 'b', 'continuation-parameter': 'a' });
+    const h = 15 / 30;
+    const q2 = (n: number): number => (4 / h ** 2) * Math.sin((n * Math.PI * h) / 30) ** 2; // the grid's no-flux Laplacian eigenvalues (LeVeque 2007, §2.10, from memory)
+    dvs.forEach((Dv, i) => {
+      const run = JSON.parse(readFileSync(join(out, `Dv-${Dv}`, 'run.json'), 'utf8')) as { counts: Record<string, number> };
+      const row = csv.rows[i];
+      expect(row.slice(0, 3)).toEqual([Dv, `Dv-${Dv}`, 'finished']);
+      expect(row[csv.columns.indexOf('curves')]).toBe(run.counts.branches);
+      for (const k of curveSpecialKinds) expect(row[csv.columns.indexOf(k)], `${Dv} ${k}`).toBe(run.counts[k]);
+      const changes = doc.runs[i]['special-points'].filter((p) => p.kind === 'mode-change');
+      expect(changes.length).toBeGreaterThan(0);
+      expect(changes.length).toBe(run.counts['mode-change']);
+      for (const c of changes) {
+        // b_n(a) = (1 + Du q²)(a² + Dv q²)/(Dv q²) (Prigogine & Lefever 1968): neighbouring lines
+        // cross where a² = Du Dv q_n² q_{n+1}²; b there on both lines
+        const n = [...Array(29).keys()].map((k) => k + 1).find((m) => Math.abs(c.value - Math.sqrt(Dv * q2(m) * q2(m + 1))) < 1e-9);
+        expect(n, `Dv = ${Dv}: mode change at a = ${c.value}`).toBeDefined();
+        expect(Math.abs(c.free - ((1 + q2(n!)) * (c.value ** 2 + Dv * q2(n!))) / (Dv * q2(n!)))).toBeLessThan(1e-9);
+      }
+    });
+    expect(r.out).toMatch(/^Sweep of Dv over 2 values \(branch point curves in a, b free\):\n {2}Dv +status +points +curves +points on the curves\n {2}8 +finished +\d+ +\d+ +mode-change \d+\n/);
+  });
+
+  it('draws every value’s curves in the plane of the two parameters', () => {
+    const svg = readFileSync(join(out, 'sweep.svg'), 'utf8');
+    expect(svg).toContain('<title>strip: the branch point curves in the plane of a and b, per value of Dv</title>');
+    for (const v of ['Dv = 8, branch-point curve 1', 'Dv = 12, branch-point curve 2']) expect(svg).toContain(v);
+    expect(svg).toContain('data-kind="mode-change"');
+  });
+
+  it('refuses to sweep the free parameter, with one line', async () => {
+    const where = join(tmp, 'strip-free');
+    const e = await cli('run', file, '--sweep', 'b=1,2', '--out', where);
+    expect(e.code).toBe(2);
+    expect(e.err).toMatch(/^branchline: --sweep: 'b' is the free parameter of the curve run .* \(it adjusts along the curve\); sweep another parameter \(accepted: Du, Dv\)\n$/);
+    expect(existsSync(where)).toBe(false);
   });
 });

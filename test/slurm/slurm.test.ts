@@ -17,7 +17,10 @@
  *    resuming to the same files as a run here;
  *  - a task's memory estimate is what sbatch receives as --mem (scontrol shows it), and --memory
  *    replaces it;
- *  - a bad partition is refused with one line, before anything is written.
+ *  - a bad partition is refused with one line, before anything is written;
+ *  - a code model runs on Slurm only as the submitting command named it: job.json records the
+ *    module, the task loads that one (also when it resumes its run), `collect` asks for
+ *    --load-code-model, and a forged job record loads nothing.
  *
  * Without a reachable Slurm these tests are skipped, saying why in their title (CI sets
  * BRANCHLINE_SLURM_REQUIRED=1 so that they fail instead).
@@ -27,10 +30,11 @@ import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSy
 import { hostname, tmpdir } from 'node:os';
 import { join, relative, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
+import { runSession } from '../../src/run/batch.js';
 import { prepareCase } from '../../src/run/case.js';
 import { lockFile } from '../../src/run/lock.js';
 import { parseRecord } from '../../src/slurm/commands.js';
-import { readJob, readTaskResult, taskMemoryMiB } from '../../src/slurm/job.js';
+import { jobFolder, readJob, readTaskResult, taskMemoryMiB } from '../../src/slurm/job.js';
 import { slurm } from './cluster.js';
 
 const bin = resolve('bin/branchline.js');
@@ -263,6 +267,94 @@ stability: {eigenvalues: 3}
       expect((JSON.parse(readFileSync(join(there, v, 'run.json'), 'utf8')) as { resumed?: string[] }).resumed).toHaveLength(1);
     }
   }, 900_000);
+
+  it('a code model runs on Slurm only as the submitting command named it; a forged job record loads nothing', async () => {
+    const model = resolve('test/fixtures/code-model.mjs');
+    const caseFile = join(tmp, 'sine.yaml');
+    writeFileSync(caseFile, `name: sine\nmodel: ${model}\ngrid: {intervals: [20]}\ncontinuation: {parameter: lambda, bounds: [0, 30], max-points: 40}\ncheckpoint: {every-points: 1}\n`);
+    const marker = join(tmp, 'evil-was-imported');
+    const evil = join(tmp, 'evil.mjs');
+    writeFileSync(evil, `import { appendFileSync } from 'node:fs';\nappendFileSync(${JSON.stringify(marker)}, 'imported\\n');\nexport default function () { throw new Error('evil'); }\n`);
+
+    // the user's command names the module: the task loads it (the one job.json records)
+    const there = join(tmp, 'sine-slurm');
+    const r = cli(['run', caseFile, '--out', there, '--slurm', '--time-limit', '10', '--quiet']);
+    expect(r.code, r.err).toBe(0);
+    expect(readJob(there).tasks[0].codeModel).toBe(model);
+    const here = join(tmp, 'sine-here');
+    expect(cli(['run', caseFile, '--out', here, '--quiet']).code).toBe(0);
+    expect(readFileSync(join(there, 'sine', 'branches/1.csv'), 'utf8')).toBe(readFileSync(join(here, 'branches/1.csv'), 'utf8'));
+    // collect reads a folder: the job's module loads only when asked for, its path shown first
+    const refused = cli(['collect', there, '--no-wait', '--quiet']);
+    expect(refused.code).toBe(2);
+    expect(refused.err).toMatch(/sine-slurm: the job's cases use the code model '.*test\/fixtures\/code-model\.mjs', and a folder never loads code by itself; pass --load-code-model/);
+    const asked = cli(['collect', there, '--no-wait', '--quiet', '--load-code-model']);
+    expect(asked.code, asked.err).toBe(0);
+    expect(asked.err).toMatch(/loading the code model '.*test\/fixtures\/code-model\.mjs', as the job's cases name it/);
+
+    // a task resuming its run loads the module the job records (held job: the task is started here by hand, as the job script would)
+    const held = join(tmp, 'sine-held');
+    expect(cli(['run', caseFile, '--out', held, '--slurm', '--no-wait', '--scheduler-option=--hold', '--quiet']).code).toBe(0);
+    sh('scancel', [jobOf(held)]);
+    await until('the held job to leave the queue', () => sh('squeue', ['-h', '-j', jobOf(held)]).trim() === '');
+    const prepared = await prepareCase(caseFile);
+    const controller = new AbortController();
+    const view = { start() {}, log() {}, end() {}, close() {}, update: (_n: string | undefined, p: { points: number }) => p.points >= 5 && controller.abort() };
+    const stopped = await runSession(prepared, { outDir: join(held, 'sine'), signal: controller.signal, view, name: 'sine' });
+    expect(stopped.status).toBe('stopped');
+    const task = (dir: string): { code: number; out: string; err: string } => {
+      const t = spawnSync(process.execPath, [bin, 'task', jobFolder(dir), '--index', '0'], { cwd: tmp, env, encoding: 'utf8', timeout: 300_000 });
+      return { code: t.status ?? -1, out: t.stdout, err: t.stderr };
+    };
+    const resumed = task(held);
+    expect(resumed.code, resumed.out + resumed.err).toBe(0);
+    expect(resumed.out).toMatch(/resuming from checkpoint/);
+    expect(readFileSync(join(held, 'sine', 'branches/1.csv'), 'utf8')).toBe(readFileSync(join(here, 'branches/1.csv'), 'utf8'));
+
+    // forged job records: the case names another module, with and without a matching codeModel
+    const forge = (name: string, codeModel: string | undefined): string => {
+      const dir = join(tmp, name);
+      expect(cli(['run', caseFile, '--out', dir, '--slurm', '--no-wait', '--scheduler-option=--hold', '--quiet']).code).toBe(0);
+      sh('scancel', [jobOf(dir)]);
+      const job = readJob(dir);
+      job.tasks[0].doc = { ...job.tasks[0].doc, model: evil };
+      if (codeModel === undefined) delete job.tasks[0].codeModel;
+      else job.tasks[0].codeModel = codeModel;
+      writeFileSync(join(jobFolder(dir), 'job.json'), JSON.stringify(job));
+      return dir;
+    };
+    const noRecord = forge('sine-forged-a', undefined);
+    const otherRecord = forge('sine-forged-b', model);
+    const both = forge('sine-forged-c', evil);
+    for (const dir of [noRecord, otherRecord]) {
+      const t = task(dir);
+      expect(t.code).toBe(1);
+      expect(t.out).toMatch(/model: the code model .*evil\.mjs is not loaded: a case read back from a folder never runs code the user did not name/);
+    }
+    // a resubmission would run the recorded module: collect asks first
+    await until('the forged jobs to leave the queue', () => [both].every((d) => sh('squeue', ['-h', '-j', jobOf(d)]).trim() === ''));
+    const again = cli(['collect', both, '--resubmit', '--no-wait']);
+    expect(again.code).toBe(2);
+    expect(again.err).toMatch(/the job's cases use the code model '.*evil\.mjs'.*pass --load-code-model/);
+    expect(readJob(both).submissions).toHaveLength(1);
+    expect(existsSync(marker)).toBe(false);
+
+    // the job record's setup lines and sbatch options are shell commands and scheduler input: a
+    // resubmission runs them only with --run-setup (a forged record runs nothing by itself)
+    const setupForged = join(tmp, 'sine-forged-setup');
+    expect(cli(['run', caseFile, '--out', setupForged, '--slurm', '--no-wait', '--scheduler-option=--hold', '--quiet']).code).toBe(0);
+    sh('scancel', [jobOf(setupForged)]);
+    await until('the job with forged setup lines to leave the queue', () => sh('squeue', ['-h', '-j', jobOf(setupForged)]).trim() === '');
+    const record = readJob(setupForged);
+    record.submissions[0].settings.setup = [`touch ${marker}`];
+    writeFileSync(join(jobFolder(setupForged), 'job.json'), JSON.stringify(record));
+    const refusedSetup = cli(['collect', setupForged, '--resubmit', '--no-wait', '--load-code-model']);
+    expect(refusedSetup.code).toBe(2);
+    expect(refusedSetup.err).toMatch(/resubmitting would run what the job folder stores \(setup line 'touch .*', sbatch option '--hold'\), and a folder never runs commands by itself; pass --run-setup/);
+    expect(readJob(setupForged).submissions).toHaveLength(1);
+    expect(existsSync(marker)).toBe(false);
+  }, 600_000);
+
   it('a resumed task holds its folder’s lock: a writer on another node is left alone until the scheduler says its job has ended', async () => {
     const caseFile = join(tmp, 'held.yaml');
     writeFileSync(caseFile, pileCase('held'));

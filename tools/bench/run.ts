@@ -5,7 +5,7 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,settle,reference   a subset
+ *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,settle,reference,curves,hopf-curves   a subset
  *
  * `reference` times whole `branchline run`s of 2D Bratu 200x200 against a SciPy implementation of
  * the same continuation (tools/bench/reference.ts) and prints the ratios; without Python and
@@ -22,6 +22,7 @@ import { type StepBenchRow, shareTable, stepTable } from './continuation.js';
 import { table } from './stats.js';
 import { benchReference } from './reference.js';
 import { type BackendRow, backendCases, backendTable } from './backends.js';
+import { type CurveBenchRow, curveTable } from './curves.js';
 import { type SettleBenchRow, settleTable } from './settle.js';
 
 const args = process.argv.slice(2);
@@ -122,6 +123,23 @@ if (want('reference')) {
   else console.log(`  reference: ${r.note}`);
   console.log(r.text + '\n');
   results.reference = { python: r.python, note: r.note, rows: r.rows };
+}
+
+if (want('curves')) {
+  const m = quick ? 60 : 200;
+  const r = inChild<CurveBenchRow>('curves', String(m), quick ? '5' : '10', String(repeats));
+  console.log('A fold-curve step against a one-parameter step on the same grid (no eigenvalues; target ratio at most 3)');
+  console.log(curveTable([r]) + '\n');
+  results.curves = r;
+}
+
+if (want('hopf-curves')) {
+  // 2(m+1)² unknowns: 20,402 at m = 100
+  const m = quick ? 30 : 100;
+  const r = inChild<CurveBenchRow>('hopf-curves', String(m), quick ? '3' : '5', String(repeats));
+  console.log('A Hopf-curve step against a one-parameter step with eigenvalues on the same grid (target ratio at most 4)');
+  console.log(curveTable([r]) + '\n');
+  results['hopf-curves'] = r;
 }
 
 if (want('settle')) {

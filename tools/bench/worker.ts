@@ -4,10 +4,13 @@
  *   node dist/tools/bench/worker.js steps <case> <m> <steps> <eigenvalues> <repeats>
  *   node dist/tools/bench/worker.js branch <n> <eigenvalues>
  *   node dist/tools/bench/worker.js backend <case index> <quick 0|1> <klu|superlu> <repeats>
+ *   node dist/tools/bench/worker.js curves <m> <steps> <repeats>
+ *   node dist/tools/bench/worker.js hopf-curves <m> <steps> <repeats>
  *   node dist/tools/bench/worker.js settle <m>
  */
 import { benchBranch, benchSteps, bratu1d, bratu2d, bratu3d, grayScott2d } from './continuation.js';
 import { backendCases, benchBackend } from './backends.js';
+import { benchCurveSteps, benchHopfCurveSteps } from './curves.js';
 import { benchSettle } from './settle.js';
 import type { Backend } from '../../src/linalg/lu.js';
 
@@ -23,6 +26,12 @@ if (kind === 'steps') {
   const [index, quick, backend, repeats] = rest;
   const c = backendCases(quick === '1')[Number(index)];
   console.log(JSON.stringify(benchBackend(c, backend as Backend, Number(repeats))));
+} else if (kind === 'curves') {
+  const [m, steps, repeats] = rest;
+  console.log(JSON.stringify(benchCurveSteps(Number(m), Number(steps), Number(repeats))));
+} else if (kind === 'hopf-curves') {
+  const [m, steps, repeats] = rest;
+  console.log(JSON.stringify(benchHopfCurveSteps(Number(m), Number(steps), Number(repeats))));
 } else if (kind === 'settle') {
   console.log(JSON.stringify(benchSettle(Number(rest[0]))));
 } else {

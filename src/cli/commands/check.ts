@@ -2,8 +2,10 @@ import type { Command } from 'commander';
 import type { CommandContext } from '../io.js';
 import { type EntryReport, type JacobianCheckReport, checkJacobian } from '../../problem/check.js';
 import type { UnknownLocation } from '../../problem/problem.js';
-import { prepareCaseObject, readCaseFile } from '../../run/case.js';
+import { type PreparedCase, prepareCaseObject, readCaseFile } from '../../run/case.js';
 import { prepareSettleCaseObject } from '../../run/settle-case.js';
+import { checkCurveCase } from '../../continuation/curves/check.js';
+import { curveName } from '../../continuation/curves/types.js';
 import { InputError } from '../../run/errors.js';
 import { formatValue } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
@@ -56,6 +58,27 @@ function reportLines(r: JacobianCheckReport, parameter: string): string[] {
   return lines;
 }
 
+/** The curve-system line of a curve case (the check itself: src/continuation/curves/check.ts). */
+function checkCurveSystem(prepared: PreparedCase): { kind: string; passed: boolean; line: string; 'jacobian-error'?: number; 'solve-error'?: number } {
+  const settings = prepared.curve!.settings;
+  const kind = curveName(settings.follow);
+  const r = checkCurveCase(prepared.problem, prepared.params, settings, prepared.start?.u);
+  if ('error' in r) return { kind, passed: false, line: `${kind} system: not checked — ${r.error}` };
+  const what =
+    settings.follow === 'fold'
+      ? 'F = 0 and the bordered null-vector condition'
+      : settings.follow === 'hopf'
+        ? 'F = 0 and the complex bordered condition for a pair ±iω, ω an unknown'
+        : 'the uniform state and the bordered null-vector condition';
+  return {
+    kind,
+    passed: r.passed,
+    'jacobian-error': r.jacobianError,
+    'solve-error': r.solveError,
+    line: `${kind} system (${what}, in ${settings.parameter} and ${settings.free}): ${r.passed ? 'agrees' : 'disagrees'} — linearisation against differences ${r.jacobianError.toExponential(1)}, bordered solve ${r.solveError.toExponential(1)} (relative)`,
+  };
+}
+
 /** The verdict: the Jacobian and the parameter derivatives (what every Newton step uses). */
 export function derivativesAgree(r: JacobianCheckReport): boolean {
   return r.jacobian.passed && r.parameters.every((p) => p.passed);
@@ -84,7 +107,9 @@ perturbed a little so that no term vanishes by accident; every stored Jacobian e
 entry the sparsity pattern lacks) and the derivative in every parameter are compared with
 central differences, and the worst entries are named by row, column and grid node.
 Second derivatives, when the model supplies them, are compared too and reported (they serve
-branch switching only and do not decide the exit code).
+branch switching only and do not decide the exit code). For a curve case (continuation.follow)
+the augmented system is checked as well: its linearisation against central differences, and
+its bordered solve against that linearisation, at the start state.
 Exit codes: 0 the Jacobian and parameter derivatives agree; 1 they do not (or the model breaks
 its contract); 2 the case file is bad.`,
     )
@@ -106,8 +131,11 @@ its contract); 2 the case file is bad.`,
         setExit(1);
         return;
       }
+      // curve runs: the augmented system's linearisation too (src/continuation/curves/check.ts)
+      const curve = 'curve' in prepared && prepared.curve ? checkCurveSystem(prepared) : undefined;
+      const agree = derivativesAgree(report) && (curve?.passed ?? true);
       if (opts.json) {
-        io.out(toJson({ case: prepared.case.name, 'case-file': prepared.file ?? null, parameters: params, agree: derivativesAgree(report), report }));
+        io.out(toJson({ case: prepared.case.name, 'case-file': prepared.file ?? null, parameters: params, agree, report, ...(curve ? { curve } : {}) }));
       } else {
         const lines = [
           `Case ${prepared.case.name}: ${d.summary}`,
@@ -115,12 +143,16 @@ its contract); 2 the case file is bad.`,
             .map(([k, v]) => `${k} = ${formatValue(v, 10)}`)
             .join(', ')} and the initial state (slightly perturbed), tolerance ${formatValue(tolerance, 3)}`,
           ...reportLines(report, parameter),
+          ...(curve ? [curve.line] : []),
+          ...(curve && !curve.passed && derivativesAgree(report)
+            ? [`The ${curve.kind} system disagrees with finite differences although the model's derivatives agree: its second derivatives (F_uu, F_up) are the suspects, or the start state is too close to a second singularity.`]
+            : []),
           derivativesAgree(report)
             ? 'The Jacobian and the parameter derivatives agree with finite differences.'
             : 'The derivatives disagree with finite differences: fix the entries named above (a wrong Jacobian slows Newton down or stops it, and misplaces folds and branch points).',
         ];
         io.out(lines.join('\n') + '\n');
       }
-      setExit(derivativesAgree(report) ? 0 : 1);
+      setExit(agree ? 0 : 1);
     });
 }

@@ -12,7 +12,8 @@ import { registerNew } from './new.js';
 import { registerRefine } from './refine.js';
 import { registerPlot } from './plot.js';
 import { registerSettle } from './settle.js';
+import { registerFindStates } from './find-states.js';
 import { registerCollect } from './collect.js';
 import { registerTask } from './task.js';
 
-export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerSettle, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot, registerCollect, registerTask];
+export const commands: ((program: Command, context: CommandContext) => void)[] = [registerRun, registerSettle, registerFindStates, registerResume, registerCheck, registerModels, registerNew, registerRefine, registerPlot, registerCollect, registerTask];

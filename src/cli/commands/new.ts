@@ -5,6 +5,7 @@ import type { OptionSpec } from '../../../discretisations/models/options.js';
 import type { ParameterSpec, Problem } from '../../problem/problem.js';
 import { defaultSettings } from '../../continuation/types.js';
 import { defaultCheckpoint } from '../../run/case.js';
+import { defaultHopfEigenvalues } from '../../run/curve-case.js';
 import { InputError } from '../../run/errors.js';
 
 /**
@@ -76,6 +77,155 @@ const suggestions: Record<string, Suggestion> = {
     note: 'the straight beam buckles at branch points; a softening foundation (k3 > 0) makes them subcritical',
   },
 };
+
+/**
+ * Curve starters (`--follow`): which parameter moves, which adjusts, and where the first point
+ * comes from, per model and kind; models with one parameter have none.
+ */
+interface CurveSuggestion {
+  /** Model keys set for the curve (e.g. convective walls, a pulse to start from). */
+  options?: Record<string, string>;
+  parameters?: Record<string, number>;
+  parameter: string;
+  free: string;
+  bounds: [number, number];
+  freeBounds?: [number, number];
+  step: { initial: number; max: number };
+  /** Largest step of the search for the first point (when the default, 0.5, could step over it). */
+  search?: number;
+  /** Domain length per axis (default 1). */
+  length?: number;
+  /** The `initial:` line (a start state the first point is searched from). */
+  initial?: string;
+  /** Which way the free parameter moves in that search (default increase). */
+  freeDirection?: 'increase' | 'decrease';
+  note: string;
+}
+
+type StarterKind = 'fold' | 'branch-point' | 'hopf';
+const starterKinds: readonly StarterKind[] = ['fold', 'branch-point', 'hopf'];
+
+const curveSuggestions: Record<string, Partial<Record<StarterKind, CurveSuggestion>>> = {
+  bratu: {
+    fold: {
+      options: { boundary: 'robin' },
+      parameters: { lambda: 0.1, biot: 1 },
+      parameter: 'biot',
+      free: 'lambda',
+      bounds: [0.01, 100],
+      step: { initial: 0.05, max: 5 },
+      note: 'the ignition limit against the Biot number: the fold met raising lambda at biot = 1, followed both ways (Semenov’s 2·biot/e for small biot; the cold-wall fold for large)',
+    },
+  },
+  brusselator: {
+    'branch-point': {
+      options: { boundary: 'neumann' },
+      length: 20,
+      parameters: { a: 2, b: 2, Du: 1, Dv: 8 },
+      parameter: 'a',
+      free: 'b',
+      bounds: [1, 4],
+      step: { initial: 0.05, max: 0.1 },
+      note: 'the Turing line: the first branch point of the uniform state met raising b, followed as a moves; where another mode takes over, a new curve follows it',
+    },
+    hopf: {
+      options: { boundary: 'neumann' },
+      length: Math.PI,
+      parameters: { a: 1, b: 1.5, Du: 1, Dv: 4 },
+      parameter: 'a',
+      free: 'b',
+      bounds: [0.5, 3],
+      step: { initial: 0.05, max: 0.2 },
+      note: 'the oscillation boundary of the uniform state: the first Hopf point met raising b, followed as a moves (b = 1 + a², ω = a), with zero-Hopf points where a pattern mode also goes unstable',
+    },
+  },
+  'gray-scott': {
+    hopf: {
+      options: { boundary: 'neumann' },
+      parameters: { F: 0.035, k: 0.05, Du: 1, Dv: 1 },
+      initial: '{u: 0.2912622971971077, v: 0.2918331717423674}',
+      freeDirection: 'decrease',
+      parameter: 'k',
+      free: 'F',
+      bounds: [0.02, 0.07],
+      freeBounds: [0, 1],
+      step: { initial: 0.002, max: 0.005 },
+      note: 'the oscillation boundary of the uniform fed state, (F + k)² = F·√k: the Hopf point met lowering F from the upper uniform state, followed both ways in k — to a Bautin point one way, to the Bogdanov–Takens point on the fold curve the other',
+    },
+  },
+  'beam-foundation': {
+    fold: {
+      parameters: { P: 0, imperfection: 0.01 },
+      parameter: 'imperfection',
+      free: 'P',
+      bounds: [0.0001, 0.05],
+      step: { initial: 0.002, max: 0.01 },
+      search: 0.1,
+      note: 'imperfection sensitivity: the limit load met loading the slightly crooked beam, followed as the imperfection grows',
+    },
+    'branch-point': {
+      parameter: 'kf',
+      free: 'P',
+      bounds: [0, 2000],
+      step: { initial: 10, max: 50 },
+      note: 'the buckling load of the straight beam against the foundation stiffness; where another mode buckles first, a new curve follows it',
+    },
+  },
+};
+
+/** A commented starter of a curve run (`branchline new MODEL --follow KIND`). */
+export function curveStarterCase(id: string, follow: StarterKind, dimension?: number): string {
+  const entry = Object.hasOwn(models, id) ? models[id] : undefined;
+  if (!entry) throw new InputError(`'${id}' is not a known model (accepted: ${Object.keys(models).join(', ')})`);
+  const s = curveSuggestions[id]?.[follow];
+  if (!s) {
+    const offered = Object.entries(curveSuggestions).flatMap(([m, k]) => Object.keys(k).map((kind) => `${m} --follow ${kind}`));
+    throw new InputError(`--follow ${follow}: no curve starter for model '${id}' (offered: ${offered.join(', ')}); a curve needs two parameters — add continuation.follow and free to a starter of your own`);
+  }
+  const dim = dimension ?? entry.dimensions[0];
+  if (!entry.dimensions.includes(dim)) throw new InputError(`--dimensions: model '${id}' supports ${entry.dimensions.map((d) => `${d}D`).join(', ')}, not ${dim}D`);
+  const intervals = gridFor(dim);
+  const problem: Problem = entry.factory({ ...(s.options ?? {}), grid: { intervals: intervals.map(() => 8), length: intervals.map(() => s.length ?? 1) } });
+  const monitors = problem.monitors.map((m) => m.name);
+  const what = follow === 'hopf' ? 'Hopf point' : follow.replace('-', ' ');
+  const lines = [
+    `# A starter case for a curve run of the model '${id}': a ${what} followed in two parameters.`,
+    `# ${s.note}.`,
+    '# Check it, then run it:',
+    `#   branchline check ${id}-${follow}-curve.yaml && branchline run ${id}-${follow}-curve.yaml`,
+    `name: ${id}-${follow}-curve`,
+    `model: ${id}`,
+    ...Object.entries(s.options ?? {}).map(([k, v]) => `${k}: ${v}`),
+    'grid:',
+    c(`  intervals: [${intervals.join(', ')}]`, `intervals per axis; h = length / intervals`),
+    ...(s.length ? [c(`  length: [${intervals.map(() => s.length).join(', ')}]`, 'domain length per axis')] : []),
+    ...(s.initial ? [c(`initial: ${s.initial}`, 'the start state (a uniform state)')] : []),
+    c('parameters:', `start values; the first ${what} is searched for from here`),
+    ...problem.parameters.map((p) => c(`  ${p.name}: ${yamlNumber(s.parameters?.[p.name] ?? p.default)}`, p.description)),
+    'continuation:',
+    c(`  follow: ${follow}`, 'fold | branch-point (of a uniform state) | hopf: follow it in two parameters'),
+    c(`  parameter: ${s.parameter}`, 'moves along the curve'),
+    c(`  bounds: [${yamlNumber(s.bounds[0])}, ${yamlNumber(s.bounds[1])}]`, `the curve ends when ${s.parameter} reaches either end`),
+    c('  direction: both', 'increase | decrease | both (one curve each way from the first point)'),
+    c(`  free: ${s.free}`, `adjusts to stay on the ${what}`),
+    s.freeBounds ? c(`  free-bounds: [${yamlNumber(s.freeBounds[0])}, ${yamlNumber(s.freeBounds[1])}]`, `the curve ends there too`) : `  # free-bounds: [low, high]      # the curve ends there too`,
+    c(`  free-direction: ${s.freeDirection ?? 'increase'}`, `the first ${what} is met moving ${s.free} this way from the start`),
+    ...(s.search ? [c(`  search: {step: {max: ${yamlNumber(s.search)}}}`, `steps of that search (small enough not to step over it)`)] : []),
+    '  # start from one of an earlier run instead: start: {run: runs/earlier, point: ' + `${follow}}` + (follow === 'hopf' ? '   # or a bogdanov-takens point of a fold curve' : ''),
+    c(`  step: {initial: ${yamlNumber(s.step.initial)}, max: ${yamlNumber(s.step.max)}}`, 'arclength steps in the weighted norm (both parameters count)'),
+    c('  max-points: 500', 'per curve'),
+    `  # stop-when: [{monitor: ${monitors[0] ?? 'max'}, above: 10}]   # monitors: ${monitors.join(', ')}`,
+    '  # newton: {tolerance: 1.0e-9, max-iterations: 10}',
+    ...(follow === 'hopf' ? [c(`stability: {eigenvalues: ${defaultHopfEigenvalues}}`, 'rightmost eigenvalues per point, to find double-Hopf points (0: none, faster)')] : []),
+    'output:',
+    c('  solutions: special', `node arrays (.npy) at ${follow === 'hopf' ? 'zero-Hopf, Bautin, double-Hopf and Bogdanov–Takens points' : 'cusps, Bogdanov–Takens points, mode changes'} and ends | none | all`),
+    'checkpoint:',
+    c(`  every-points: ${defaultCheckpoint.everyPoints}`, 'write a checkpoint (for `branchline resume`) this often...'),
+    c(`  every-seconds: ${defaultCheckpoint.everySeconds}`, '...and at least this often'),
+  ];
+  if (entry.caution) lines.push(`# Caution: ${entry.caution}`);
+  return lines.join('\n') + '\n';
+}
 
 /** A line with its comment aligned (the comment starts at column 34). */
 const c = (text: string, comment: string): string => `${text.padEnd(32)} # ${comment}`;
@@ -242,12 +392,21 @@ export function registerNew(program: Command, { io }: CommandContext): void {
     .description('print a commented starter case for a model on stdout (save it, edit it, run it)')
     .argument('<model>', `a model id: ${Object.keys(models).join(', ')}`)
     .option('--dimensions <d>', 'number of space dimensions (1, 2 or 3, as the model supports; default its first)')
-    .addHelpText('after', '\nExample:\n  branchline new bratu > slab.yaml && branchline run slab.yaml\nExit codes: 0 printed; 2 unknown model or dimension.')
-    .action((id: string, opts: { dimensions?: string }) => {
+    .option('--follow <kind>', 'a curve run instead: fold, branch-point or hopf followed in two parameters')
+    .addHelpText(
+      'after',
+      '\nExamples:\n  branchline new bratu > slab.yaml && branchline run slab.yaml\n  branchline new bratu --follow fold > ignition-limit.yaml\n  branchline new brusselator --follow hopf > oscillation-boundary.yaml\nExit codes: 0 printed; 2 unknown model, dimension or curve kind.',
+    )
+    .action((id: string, opts: { dimensions?: string; follow?: string }) => {
       let dim: number | undefined;
       if (opts.dimensions !== undefined) {
         dim = Number(opts.dimensions);
         if (!Number.isInteger(dim) || dim < 1 || dim > 3) throw new InputError(`--dimensions: '${opts.dimensions}' is not accepted (accepted: 1, 2 or 3)`);
+      }
+      if (opts.follow !== undefined) {
+        if (!(starterKinds as readonly string[]).includes(opts.follow)) throw new InputError(`--follow: '${opts.follow}' is not accepted (accepted: ${starterKinds.join(', ')})`);
+        io.out(curveStarterCase(id, opts.follow as StarterKind, dim));
+        return;
       }
       io.out(starterCase(id, dim));
     });

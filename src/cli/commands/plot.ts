@@ -5,6 +5,7 @@ import { join, relative, resolve } from 'node:path';
 import { defaultMaxSolutionPlots, drawRunPlots } from '../../run/plots.js';
 import { drawStudyPlots } from '../../refine/study.js';
 import { drawSettlePlots } from '../../run/settle-plots.js';
+import { drawFindPlots } from '../../run/find-states-plots.js';
 import { runKind } from '../../run/start.js';
 
 /** `branchline plot DIR`: (re)draw the SVG pictures of a run, or of a refinement study, from its files. */
@@ -27,6 +28,13 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
         setExit(r.warnings.length ? 1 : 0);
         return;
       }
+      if (runKind(abs) === 'find-states') {
+        const r = drawFindPlots(abs, options);
+        for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
+        io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (a search for steady states${r.monitor ? `; diagram: ${r.monitor}` : ''}): ${summarise(r.files)}\n`);
+        setExit(r.warnings.length ? 1 : 0);
+        return;
+      }
       if (runKind(abs) === 'settle') {
         const r = drawSettlePlots(abs);
         for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
@@ -37,7 +45,8 @@ export function registerPlot(program: Command, { io, setExit }: CommandContext):
       const r = drawRunPlots(abs, options);
       for (const w of r.warnings) io.err(`branchline: warning: ${w}\n`);
       for (const n of r.notes) io.err(`branchline: ${n}\n`);
-      io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (diagram: ${r.monitor} against the continuation parameter): ${summarise(r.files)}\n`);
+      const diagram = r.plane ? `the curves in the plane of ${r.plane[0]} and ${r.plane[1]}` : `${r.monitor} against the continuation parameter`;
+      io.out(`Drew ${r.files.length} picture${r.files.length === 1 ? '' : 's'} in ${where} (diagram: ${diagram}): ${summarise(r.files)}\n`);
       setExit(r.warnings.length ? 1 : 0);
     });
 }

@@ -55,7 +55,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
     .argument('<case>', 'case file (YAML or JSON)')
     .requiredOption('--grids <list>', 'intervals along the first axis, e.g. 32,64,128 (every axis is scaled alike; any ratios)')
     .option('--point <which>', `the special point: ${pointSpecAccepted} (default: the first fold)`)
-    .option('--branch <k>', 'the branch the point lies on (default 1)')
+    .option('--branch <k>', 'the branch the point lies on (default 1; curve runs: the curve on which the point appears)')
     .option('--jobs <n>', 'grids run side by side in this many processes (default 1)')
     .option('--expected-order <p>', 'formal order of the discretisation, checked against the observed one (default 2; none for code models)')
     .option('--out <dir>', 'study folder (default runs/<case name>-refine)')
@@ -69,7 +69,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
       if (opts.point !== undefined) {
         point = parsePointSpec(opts.point);
         if (!point) throw new InputError(`--point '${opts.point}' is not accepted (accepted: ${pointSpecAccepted})`);
-        if (point.kind === 'end') throw new InputError(`--point '${opts.point}': the end of a branch is where it was stopped, not a property of the problem (accepted: fold, branch-point or hopf, with :N)`);
+        if (point.kind === 'end') throw new InputError(`--point '${opts.point}': the end of a branch is where it was stopped, not a property of the problem (accepted: fold, branch-point or hopf, with :N; for curve runs also cusp, bogdanov-takens, fold-branch-point, mode-change, mode-crossing, zero-hopf, bautin, double-hopf)`);
       }
       const branch = opts.branch !== undefined ? positiveInteger(opts.branch, '--branch') : undefined;
       const jobs = opts.jobs !== undefined ? positiveInteger(opts.jobs, '--jobs') : undefined;

@@ -23,6 +23,8 @@ export function registerResume(program: Command, { io, setExit }: CommandContext
     .description('continue a stopped or killed run (or time integration) from its last checkpoint, in its own folder; or a refinement study (its unfinished grids, then the analysis)')
     .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin), or a study folder (holding refine.json)')
     .option('--force', 'take the folder over from a writer on another host that cannot be checked from here (never from a live process on this machine)')
+    .option('--case <file>', 'the case file the run was made from: the code model it names is loaded (a run folder alone never loads code)')
+    .option('--load-code-model', "load the code model the run's checkpoint names (its path is printed first)")
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
     .addHelpText(
@@ -31,6 +33,8 @@ export function registerResume(program: Command, { io, setExit }: CommandContext
 The branch files are cut back to the last checkpoint (checkpoint.bin, or checkpoint.previous.bin
 when the newest one is damaged) and the run goes on from there; it ends with the same files as a
 run that was never interrupted. A checkpoint that is incomplete or damaged is never read.
+A run folder is data: a run (or study) of a code model resumes only with --case FILE (the case
+file naming the module) or --load-code-model.
 Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run marked stopped.
 A run that ended before its first checkpoint starts over from the case recorded in run.json.
 A refinement study: finished grids are kept, stopped or killed ones resume from their
@@ -38,13 +42,18 @@ checkpoints, grids not started yet run; then refine.csv, refine.json and refine.
 Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder holds no run,
 a finished run, a run another process is writing, or no usable checkpoint.`,
     )
-    .action(async (dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }) => {
+    .action(async (dirGiven: string, opts: { force?: boolean; case?: string; loadCodeModel?: boolean; quiet?: boolean; json?: boolean }) => {
+      const code = {
+        ...(opts.case !== undefined ? { caseFile: opts.case } : {}),
+        loadCodeModel: opts.loadCodeModel === true,
+        notice: (text: string) => io.err(`branchline: ${text}\n`),
+      };
       const abs = resolve(dirGiven);
       if (existsSync(join(abs, 'refine.json')) && !existsSync(join(abs, 'run.json'))) {
         // a refinement study: its unfinished grids go on, then the analysis is redone
         const stop = studySignals(io);
         try {
-          const result = await resumeStudy(dirGiven, { signal: stop.signal, log: studyLog(io, opts.quiet === true), ...(opts.force ? { force: true } : {}) });
+          const result = await resumeStudy(dirGiven, { signal: stop.signal, log: studyLog(io, opts.quiet === true), ...(opts.force ? { force: true } : {}), code });
           io.out(formatStudySummary(result));
           setExit(result.status === 'finished' ? 0 : 1);
         } finally {
@@ -52,8 +61,9 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
         }
         return;
       }
-      if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit });
-      const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true });
+      if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit }, code);
+      if (runKind(dirGiven) === 'find-states') throw new InputError(`${dirGiven}: a search for steady states (find-states) keeps no checkpoints; run it again (with --force to replace this folder), or start cases from its states (start: {solution: ${join(dirGiven, 'solutions', 'state-1.npy')}})`);
+      const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true, code });
       try {
         await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);
       } finally {

@@ -1,4 +1,4 @@
-import { relative } from 'node:path';
+import { relative, resolve } from 'node:path';
 import type { Command } from 'commander';
 import { type CommandContext, type Io, processIo } from '../io.js';
 import { type CaseOutcome, batchLines, hasWorkers, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
@@ -8,6 +8,7 @@ import { type ProgressView, progressView } from '../../run/progress.js';
 import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
 import { parseSweep } from '../../run/sweep.js';
+import { drawBatchPlanes } from '../../run/plane-diagram.js';
 import { addClusterOptions, clusterSettings } from './cluster.js';
 import { type SeveralOptions, runCasesOnSlurm, runSweep } from './several.js';
 
@@ -153,8 +154,10 @@ option or an output folder), found before any run starts.`,
         view.close();
         stop.release();
       }
+      // curve runs of the batch that share a parameter plane: one diagram of all their curves
+      const planes = several ? drawBatchPlanes(outcomes.filter((o) => o.result).map((o) => o.directory), opts.out !== undefined ? resolve(opts.out) : undefined) : [];
       if (opts.json) io.out(toJson(jsonSummary(outcomes)));
-      else if (several) io.out(batchLines(outcomes).join('\n') + '\n');
+      else if (several) io.out([...batchLines(outcomes), ...planes.map((p) => `The curves of ${p.runs.length} runs in the plane of ${p.parameter} and ${p.free}: ${relative(process.cwd(), p.file) || p.file}`)].join('\n') + '\n');
       setExit(outcomes.every((o) => o.status === 'finished') ? 0 : 1);
     });
 }

@@ -6,9 +6,11 @@ import type { CommandContext } from '../io.js';
 import { estimateFactorMemory } from '../../../discretisations/index.js';
 import { outputFolderProblem } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
+import type { CodeModelChoice } from '../../run/resume-code.js';
 import { type PreparedSettleCase, prepareSettleCase } from '../../run/settle-case.js';
 import { settleView } from '../../run/settle-progress.js';
-import { type SettleResult, prepareSettleResume, settleCase, settleDirectory } from '../../run/settle.js';
+import { type SettleResult, prepareSettleResume, settleDirectory } from '../../run/settle.js';
+import { settleCaseInThread } from '../../run/run-thread.js';
 import { formatSettleSummary, settleJson } from '../../run/settle-summary.js';
 import { toJson } from '../../run/writers.js';
 import type { FolderLock } from '../../run/lock.js';
@@ -58,7 +60,8 @@ export async function settleSession(
   const stop = stopOnSignals(io, () => view);
   let result: SettleResult;
   try {
-    result = await settleCase(prepared, {
+    // in a worker thread: a long factorisation never keeps the signals waiting (see run-thread.ts)
+    result = await settleCaseInThread(prepared, {
       outDir,
       ...(opts.force ? { force: true } : {}),
       signal: stop.signal,
@@ -79,8 +82,13 @@ export async function settleSession(
 }
 
 /** `branchline resume DIR` for a time integration (called by the resume command). */
-export async function resumeSettle(dirGiven: string, opts: { force?: boolean; quiet?: boolean; json?: boolean }, context: CommandContext): Promise<void> {
-  const { prepared, outDir, resume, lock } = await prepareSettleResume(dirGiven, { force: opts.force === true });
+export async function resumeSettle(
+  dirGiven: string,
+  opts: { force?: boolean; quiet?: boolean; json?: boolean },
+  context: CommandContext,
+  code: CodeModelChoice = {},
+): Promise<void> {
+  const { prepared, outDir, resume, lock } = await prepareSettleResume(dirGiven, { force: opts.force === true, code });
   try {
     if (!opts.quiet) {
       for (const s of resume.skipped) context.io.err(`branchline: warning: ${s}; using ${resume.file}\n`);
