@@ -224,7 +224,7 @@ export class EigenCall {
       let hit = -1;
       let best = Infinity;
       for (let i = 0; i < known.length; i++) {
-        if (matched.has(i) || !sameCluster(known[i].mu, v.mu, this.floor)) continue;
+        if (matched.has(i) || !this.mayCoincide(known[i], entry)) continue;
         const d = cabs(known[i].mu.re - v.mu.re, known[i].mu.im - v.mu.im);
         if (d < best) {
           best = d;
@@ -234,12 +234,25 @@ export class EigenCall {
       if (hit < 0) continue;
       matched.add(hit);
       // a better approximation replaces a simple value (in a cluster it would change the span)
-      const simple = known.filter((k) => sameCluster(k.mu, v.mu, this.floor)).length === 1;
+      const simple = known.filter((k) => this.mayCoincide(k, entry)).length === 1;
       if (simple && r.relativeResidual < known[hit].relativeResidual) known[hit] = entry;
     }
     this.known = closeConjugates(known, tol, this.floor);
     if (out.disc) this.discs.push(out.disc);
     this.lastOutcome = out;
+  }
+
+  /**
+   * Whether two converged values may be one eigenvalue (or copies of one): of one cluster, or
+   * closer than their residuals allow to tell apart (‖J x − μ M x‖/‖x‖ bounds the distance to an
+   * eigenvalue of a normal pencil; scaled by the mass). Near zero — at a fold or branch point,
+   * where one eigenvalue of J is ~1e-13 — the cluster tolerance is far below the accuracy of the
+   * values, and the same eigenvalue found by two searches (8.8e-14 and 6.0e-14) would otherwise
+   * be listed twice. Which of them are copies is then told by their vectors.
+   */
+  private mayCoincide(a: KnownPair, b: KnownPair): boolean {
+    if (sameCluster(a.mu, b.mu, this.floor)) return true;
+    return cabs(a.mu.re - b.mu.re, a.mu.im - b.mu.im) <= (a.residual + b.residual) / this.mMax;
   }
 
   /**
@@ -252,8 +265,9 @@ export class EigenCall {
    */
   private repeatsKnownVector(entry: KnownPair): boolean {
     const basis: Float64Array[] = [];
+    const conjugate = { ...entry, mu: { re: entry.mu.re, im: -entry.mu.im } };
     for (const k of this.known) {
-      if (!sameCluster(k.mu, entry.mu, this.floor) && !sameCluster(k.mu, { re: entry.mu.re, im: -entry.mu.im }, this.floor)) continue;
+      if (!this.mayCoincide(k, entry) && !this.mayCoincide(k, conjugate)) continue;
       for (const x of k.mu.im !== 0 ? [k.xr, k.xi] : [k.xr]) {
         const c = Float64Array.from(x);
         const n0 = norm2(c);
