@@ -16,7 +16,7 @@ import type { CscMatrix } from '../sparse.js';
 import { norm2, scaleInPlace } from '../vector.js';
 import { orthogonalize } from './krylov-schur.js';
 import { type Enclosure, normEstimate, reaches, searchedRegion } from './certification.js';
-import { type KnownPair, closeConjugates, fmt, listFloor, pencilResidual, sameCluster, selectRightmost, sortRightmost } from './eigenpairs.js';
+import { type KnownPair, closeConjugates, fmt, leastResidualValue, listFloor, pencilResidual, sameCluster, selectRightmost, sortRightmost } from './eigenpairs.js';
 import type { SearchOutcome, SearchSpec } from './search.js';
 import { type Purify, makeWarmStart } from './seeding.js';
 import { type ShiftOperator, apolloniusDisc, cabs, cayleyImage } from './transform.js';
@@ -206,13 +206,17 @@ export class EigenCall {
     const matched = new Set<number>();
     const known = this.known;
     for (const v of out.values) {
-      const r = this.residualOf(v.mu, v.xr, v.xi);
-      const ok = v.converged && r.relativeResidual <= this.residualLimit(v.mu, sigma);
+      // the value of least residual for the Ritz vector (a far shift leaves the Ritz value itself
+      // less accurate than its vector); a conjugate stays the exact conjugate (closeConjugates)
+      const refined = leastResidualValue(this.J, this.mass, v.mu, v.xr, v.xi);
+      const mu = refined.mu;
+      const r = { residual: refined.residual, relativeResidual: refined.residual / (this.jNorm + cabs(mu.re, mu.im) * this.mMax) };
+      const ok = v.converged && r.relativeResidual <= this.residualLimit(mu, sigma);
       if (!ok) {
-        if (v.converged) this.notes.push(`a Ritz value ${fmt(v.mu)} met the Krylov test but its residual on J, M is ${r.relativeResidual.toExponential(1)}`);
+        if (v.converged) this.notes.push(`a Ritz value ${fmt(mu)} met the Krylov test but its residual on J, M is ${r.relativeResidual.toExponential(1)}`);
         continue;
       }
-      const entry: KnownPair = { mu: v.mu, xr: v.xr, xi: v.xi, residual: r.residual, relativeResidual: r.relativeResidual, converged: true };
+      const entry: KnownPair = { mu, xr: v.xr, xi: v.xi, residual: r.residual, relativeResidual: r.relativeResidual, converged: true };
       // a value of a known cluster is a further copy when its vector leaves the span of the
       // copies known (the copies of a multiple eigenvalue are told apart by their vectors, never
       // by their values); otherwise it is one of them seen again
@@ -225,7 +229,7 @@ export class EigenCall {
       let best = Infinity;
       for (let i = 0; i < known.length; i++) {
         if (matched.has(i) || !this.mayCoincide(known[i], entry)) continue;
-        const d = cabs(known[i].mu.re - v.mu.re, known[i].mu.im - v.mu.im);
+        const d = cabs(known[i].mu.re - mu.re, known[i].mu.im - mu.im);
         if (d < best) {
           best = d;
           hit = i;

@@ -34,6 +34,46 @@ export function pencilResidual(J: CscMatrix, mass: Float64Array | undefined, mu:
   return x2 > 0 ? Math.sqrt(r2 / x2) : Infinity;
 }
 
+/**
+ * The value for the vector x = xr + i·xi with the least residual ‖J x − μ M x‖: μ* = (Mx)ᴴJx / ‖Mx‖²
+ * (the Rayleigh quotient when M = I), kept only if its residual is below that of `mu`; a real μ
+ * stays real. A Ritz value of a shift-invert or Cayley search is accurate relative to the
+ * transformed operator: with the shift far from it (a Cayley shift ~1000 to certify the right
+ * half-plane of an elastica whose eigenvalues of interest lie near −10) its error was ~1e-7
+ * relative where its vector gives ~1e-9 this way.
+ */
+export function leastResidualValue(J: CscMatrix, mass: Float64Array | undefined, mu: Complex, xr: Float64Array, xi: Float64Array): { mu: Complex; residual: number } {
+  const n = J.cols;
+  const jr = matVec(J, xr, new Float64Array(n));
+  const ji = matVec(J, xi, new Float64Array(n));
+  let pr = 0;
+  let pi = 0;
+  let mm = 0;
+  let x2 = 0;
+  for (let i = 0; i < n; i++) {
+    const m = mass ? mass[i] : 1;
+    pr += m * (xr[i] * jr[i] + xi[i] * ji[i]);
+    pi += m * (xr[i] * ji[i] - xi[i] * jr[i]);
+    mm += m * m * (xr[i] * xr[i] + xi[i] * xi[i]);
+    x2 += xr[i] * xr[i] + xi[i] * xi[i];
+  }
+  const residualAt = (v: Complex): number => {
+    let r2 = 0;
+    for (let i = 0; i < n; i++) {
+      const m = mass ? mass[i] : 1;
+      const rr = jr[i] - m * (v.re * xr[i] - v.im * xi[i]);
+      const ri = ji[i] - m * (v.re * xi[i] + v.im * xr[i]);
+      r2 += rr * rr + ri * ri;
+    }
+    return x2 > 0 ? Math.sqrt(r2 / x2) : Infinity;
+  };
+  const given = residualAt(mu);
+  if (!(mm > 0)) return { mu, residual: given };
+  const best = { re: pr / mm, im: mu.im === 0 ? 0 : pi / mm };
+  const better = residualAt(best);
+  return better < given ? { mu: best, residual: better } : { mu, residual: given };
+}
+
 /** Sort in place by decreasing real part, then decreasing imaginary part. */
 export function sortRightmost<T extends { re: number; im: number }>(a: T[]): T[] {
   return a.sort((x, y) => (y.re !== x.re ? y.re - x.re : y.im - x.im));
