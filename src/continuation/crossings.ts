@@ -31,37 +31,95 @@ function scaleOf(values: readonly { re: number; im: number }[]): number {
   return m;
 }
 
+type C = { re: number; im: number };
+
+/** The values to match between neighbouring points: all found near the axis when reported. */
+export function valuesNearAxis(s: PointStability): C[] {
+  return s.nearAxis ?? s.eigenvalues;
+}
+
 /**
- * Signed count change from complex pairs crossing the imaginary axis between a and b: each
- * eigenvalue of a with Im > 0 is matched to the nearest unused one of b with Im > 0; a pair whose
- * real part changes sign contributes +2 (into the right half-plane) or −2.
+ * The eigenvalues with Im > 0 of a and b matched one to one (as many as the shorter list has) so
+ * that the sum of squared distances is least (an assignment problem, solved exactly by the
+ * Hungarian method). Matching each value of a to its nearest in b instead fails where pairs lie
+ * closer to one another than a step moves them: on the gel-spots trace every pair's real part
+ * grows by ~6e-4 per step while neighbouring pairs are ~2e-4 apart, and the pair crossing the
+ * axis was matched to its stable neighbour (no Hopf point located). The least sum of squares is
+ * unchanged by a common drift of all values (Σ|a_i + t − a_π(i)|² is least for π = identity), the
+ * usual motion along a branch.
+ */
+export function matchPairs(a: readonly C[], b: readonly C[]): { a: C; b: C }[] {
+  const ua = a.filter((v) => v.im > REAL_TOLERANCE * scaleOf(a));
+  const ub = b.filter((v) => v.im > REAL_TOLERANCE * scaleOf(b));
+  if (ua.length === 0 || ub.length === 0) return [];
+  const flip = ua.length > ub.length;
+  const rows = flip ? ub : ua;
+  const cols = flip ? ua : ub;
+  const cost = rows.map((r) => cols.map((c) => (r.re - c.re) ** 2 + (r.im - c.im) ** 2));
+  return assignment(cost).map((j, i) => (flip ? { a: cols[j], b: rows[i] } : { a: rows[i], b: cols[j] }));
+}
+
+/**
+ * The least-cost assignment of each row to a distinct column (rows ≤ columns): the Hungarian
+ * method with potentials, O(rows² · columns) (Kuhn–Munkres, as in the usual textbook form, from
+ * memory). Returns the column of each row.
+ */
+function assignment(cost: number[][]): number[] {
+  const n = cost.length;
+  const m = cost[0].length;
+  const u = new Float64Array(n + 1);
+  const v = new Float64Array(m + 1);
+  const p = new Int32Array(m + 1);
+  const way = new Int32Array(m + 1);
+  for (let i = 1; i <= n; i++) {
+    p[0] = i;
+    let j0 = 0;
+    const minv = new Float64Array(m + 1).fill(Infinity);
+    const used = new Uint8Array(m + 1);
+    do {
+      used[j0] = 1;
+      const i0 = p[j0];
+      let delta = Infinity;
+      let j1 = 0;
+      for (let j = 1; j <= m; j++) {
+        if (used[j]) continue;
+        const cur = cost[i0 - 1][j - 1] - u[i0] - v[j];
+        if (cur < minv[j]) {
+          minv[j] = cur;
+          way[j] = j0;
+        }
+        if (minv[j] < delta) {
+          delta = minv[j];
+          j1 = j;
+        }
+      }
+      for (let j = 0; j <= m; j++) {
+        if (used[j]) {
+          u[p[j]] += delta;
+          v[j] -= delta;
+        } else minv[j] -= delta;
+      }
+      j0 = j1;
+    } while (p[j0] !== 0);
+    do {
+      const j1 = way[j0];
+      p[j0] = p[j1];
+      j0 = j1;
+    } while (j0 !== 0);
+  }
+  const out = new Array<number>(n);
+  for (let j = 1; j <= m; j++) if (p[j] !== 0) out[p[j] - 1] = j - 1;
+  return out;
+}
+
+/**
+ * Signed count change from complex pairs crossing the imaginary axis between a and b: the values
+ * with Im > 0 found near the axis at both points, matched (matchPairs); a pair whose real part
+ * changes sign contributes +2 (into the right half-plane) or −2.
  */
 export function pairCrossings(a: PointStability, b: PointStability): number {
-  // every value found near the axis when the search reports them (more may be unstable than listed)
-  const va0 = a.nearAxis ?? a.eigenvalues;
-  const vb0 = b.nearAxis ?? b.eigenvalues;
-  const ta = REAL_TOLERANCE * scaleOf(va0);
-  const tb = REAL_TOLERANCE * scaleOf(vb0);
-  const candidates = vb0.filter((v) => v.im > tb);
-  const used = new Set<number>();
   let change = 0;
-  for (const va of va0) {
-    if (va.im <= ta) continue;
-    let best = -1;
-    let distance = Infinity;
-    candidates.forEach((vb, k) => {
-      if (used.has(k)) return;
-      const d = Math.hypot(vb.re - va.re, vb.im - va.im);
-      if (d < distance) {
-        best = k;
-        distance = d;
-      }
-    });
-    if (best < 0) continue;
-    used.add(best);
-    const vb = candidates[best];
-    if (va.re > 0 !== vb.re > 0) change += vb.re > 0 ? 2 : -2;
-  }
+  for (const m of matchPairs(valuesNearAxis(a), valuesNearAxis(b))) if (m.a.re > 0 !== m.b.re > 0) change += m.b.re > 0 ? 2 : -2;
   return change;
 }
 

@@ -10,6 +10,7 @@ import { EigenTracker, type EigenWarmStart, type FactoredShift, type RightmostRe
 import { arcPoint } from './branch-point.js';
 import type { ContinuationSystem } from './system.js';
 import type { NewtonSettings, PointStability } from './types.js';
+import { matchPairs, valuesNearAxis } from './crossings.js';
 
 /** Imaginary parts below this fraction of the spectrum's scale count as real. */
 const REAL_TOLERANCE = 1e-8;
@@ -125,12 +126,13 @@ function nearAxis(...lists: { re: number; im: number }[][]): { re: number; im: n
   return out;
 }
 
-/** The complex eigenvalue (Im > 0) of `s` nearest to `target` in the complex plane, or undefined. */
+/** The complex eigenvalue (Im > 0) found near the axis at `s` nearest to `target`, or undefined. */
 export function pairNear(s: PointStability, target: { re: number; im: number }): { re: number; im: number } | undefined {
   let best: { re: number; im: number } | undefined;
   let bestDistance = Infinity;
-  const scale = spectralScale(s.eigenvalues);
-  for (const v of s.eigenvalues) {
+  const values = valuesNearAxis(s);
+  const scale = spectralScale(values);
+  for (const v of values) {
     if (v.im <= REAL_TOLERANCE * scale) continue;
     const d = Math.hypot(v.re - target.re, v.im - target.im);
     if (d < bestDistance) {
@@ -141,17 +143,18 @@ export function pairNear(s: PointStability, target: { re: number; im: number }):
   return best;
 }
 
-/** The complex pair that crossed between a and b: the one whose real part changed sign. */
+/**
+ * The complex pair that crossed between a and b: of the pairs matched between the two points
+ * (crossings.ts, over every value found near the axis — the pair crossing may lie beyond the
+ * listed ones when more are unstable than listed), the one whose real part changed sign with the
+ * least move.
+ */
 export function crossingPair(a: PointStability, b: PointStability): { a: { re: number; im: number }; b: { re: number; im: number } } | undefined {
-  const scale = spectralScale(a.eigenvalues);
   let best: { a: { re: number; im: number }; b: { re: number; im: number }; gap: number } | undefined;
-  for (const va of a.eigenvalues) {
-    if (va.im <= REAL_TOLERANCE * scale) continue;
-    const vb = pairNear(b, va);
-    if (!vb) continue;
-    if (Math.sign(va.re) === Math.sign(vb.re)) continue;
-    const gap = Math.hypot(vb.re - va.re, vb.im - va.im);
-    if (!best || gap < best.gap) best = { a: va, b: vb, gap };
+  for (const m of matchPairs(valuesNearAxis(a), valuesNearAxis(b))) {
+    if (Math.sign(m.a.re) === Math.sign(m.b.re)) continue;
+    const gap = Math.hypot(m.b.re - m.a.re, m.b.im - m.a.im);
+    if (!best || gap < best.gap) best = { a: m.a, b: m.b, gap };
   }
   return best ? { a: best.a, b: best.b } : undefined;
 }

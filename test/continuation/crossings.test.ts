@@ -4,7 +4,8 @@
  * matched by what the step saw.
  */
 import { describe, expect, it } from 'vitest';
-import { accountFirstStep, accountStep, pairCrossings } from '../../src/continuation/crossings.js';
+import { accountFirstStep, accountStep, matchPairs, pairCrossings } from '../../src/continuation/crossings.js';
+import { crossingPair } from '../../src/continuation/stability.js';
 import type { PointStability } from '../../src/continuation/types.js';
 
 function stability(values: [number, number][], complete = true): PointStability {
@@ -83,5 +84,40 @@ describe('counting crossings between neighbouring points', () => {
     expect([crossed.from, crossed.to]).toEqual([2, 3]);
     // and one that went stable: 1 → 0 besides the critical one
     expect(accountFirstStep(origin, stability([[-0.2, 0], [-0.05, 0], [-3, 0]]), 1)!.explained).toBe(false);
+  });
+});
+
+describe('matching pairs between neighbouring points (the gel-spots trace)', () => {
+  // The values near the axis at F = 0.025970 and F = 0.025019 on the gel-spots trace (32², four
+  // spots; rounded): every pair drifts right by ~6e-4 per step while neighbouring pairs lie
+  // ~6e-4 apart. Matched each to its nearest, the crossing pair (−4.9e-4 → +1.2e-4) went to its
+  // stable neighbour and no Hopf point was located; the least-squares matching is exact for a
+  // common drift.
+  const before = stability([[-4.926e-4, 0.032772], [-4.926e-4, -0.032772], [-1.6393e-3, 0.032943], [-1.6393e-3, -0.032943], [-1.6393e-3, 0.032943], [-1.6393e-3, -0.032943]]);
+  const after = stability([[1.213e-4, 0.032874], [1.213e-4, -0.032874], [-9.521e-4, 0.033076], [-9.521e-4, -0.033076], [-9.521e-4, 0.033076], [-9.521e-4, -0.033076]]);
+
+  it('finds the pair that crossed (a Hopf point) although a stable pair lies nearer to it', () => {
+    expect(pairCrossings(before, after)).toBe(2);
+    const pair = crossingPair(before, after)!;
+    expect(pair).toBeDefined();
+    expect(pair.a.re).toBeCloseTo(-4.926e-4, 10);
+    expect(pair.b.re).toBeCloseTo(1.213e-4, 10);
+  });
+
+  it('finds a pair crossing beyond the listed values among those found near the axis', () => {
+    // 6 unstable, 4 listed: the fourth pair crosses (F = 0.02293 → 0.02191, rounded)
+    const a = { ...stability([[1.5955e-3, 0.032869], [1.5955e-3, -0.032869], [6.695e-4, 0.033114], [6.695e-4, -0.033114]]), unstableCount: 6, unstableComplex: 6 };
+    a.nearAxis = [...a.eigenvalues, { re: 6.695e-4, im: 0.033114 }, { re: 6.695e-4, im: -0.033114 }, { re: -2.837e-4, im: 0.033333 }, { re: -2.837e-4, im: -0.033333 }];
+    const b = { ...stability([[2.3917e-3, 0.032719], [2.3917e-3, -0.032719], [1.529e-3, 0.032972], [1.529e-3, -0.032972]]), unstableCount: 8, unstableComplex: 8 };
+    b.nearAxis = [...b.eigenvalues, { re: 1.529e-3, im: 0.032972 }, { re: 1.529e-3, im: -0.032972 }, { re: 6.453e-4, im: 0.033196 }, { re: 6.453e-4, im: -0.033196 }];
+    expect(pairCrossings(a, b)).toBe(2);
+    const pair = crossingPair(a, b)!;
+    expect(pair.a.re).toBeCloseTo(-2.837e-4, 10);
+    expect(pair.b.re).toBeCloseTo(6.453e-4, 10);
+  });
+
+  it('matches as a whole: the least sum of squared distances, also when the lists differ in length', () => {
+    const m = matchPairs([{ re: 0, im: 1 }, { re: 0, im: 1.1 }], [{ re: 0.08, im: 1.1 }, { re: 0.08, im: 1.0 }, { re: -5, im: 3 }]);
+    expect(m.map((x) => [x.a.im, x.b.im])).toEqual([[1, 1.0], [1.1, 1.1]]);
   });
 });
