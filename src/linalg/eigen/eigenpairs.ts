@@ -20,11 +20,14 @@ export interface KnownPair {
 /** ‖J x − μ M x‖ / ‖x‖ for the complex vector x = xr + i·xi (M diagonal, undefined = identity). */
 export function pencilResidual(J: CscMatrix, mass: Float64Array | undefined, mu: Complex, xr: Float64Array, xi: Float64Array): number {
   const n = J.cols;
-  const jr = matVec(J, xr, new Float64Array(n));
-  const ji = matVec(J, xi, new Float64Array(n));
+  return residualFromProducts(matVec(J, xr, new Float64Array(n)), matVec(J, xi, new Float64Array(n)), mass, mu, xr, xi);
+}
+
+/** ‖J x − μ M x‖ / ‖x‖ from J xr = jr and J xi = ji. */
+function residualFromProducts(jr: Float64Array, ji: Float64Array, mass: Float64Array | undefined, mu: Complex, xr: Float64Array, xi: Float64Array): number {
   let r2 = 0;
   let x2 = 0;
-  for (let i = 0; i < n; i++) {
+  for (let i = 0; i < xr.length; i++) {
     const m = mass ? mass[i] : 1;
     const rr = jr[i] - m * (mu.re * xr[i] - mu.im * xi[i]);
     const ri = ji[i] - m * (mu.re * xi[i] + mu.im * xr[i]);
@@ -49,28 +52,16 @@ export function leastResidualValue(J: CscMatrix, mass: Float64Array | undefined,
   let pr = 0;
   let pi = 0;
   let mm = 0;
-  let x2 = 0;
   for (let i = 0; i < n; i++) {
     const m = mass ? mass[i] : 1;
     pr += m * (xr[i] * jr[i] + xi[i] * ji[i]);
     pi += m * (xr[i] * ji[i] - xi[i] * jr[i]);
     mm += m * m * (xr[i] * xr[i] + xi[i] * xi[i]);
-    x2 += xr[i] * xr[i] + xi[i] * xi[i];
   }
-  const residualAt = (v: Complex): number => {
-    let r2 = 0;
-    for (let i = 0; i < n; i++) {
-      const m = mass ? mass[i] : 1;
-      const rr = jr[i] - m * (v.re * xr[i] - v.im * xi[i]);
-      const ri = ji[i] - m * (v.re * xi[i] + v.im * xr[i]);
-      r2 += rr * rr + ri * ri;
-    }
-    return x2 > 0 ? Math.sqrt(r2 / x2) : Infinity;
-  };
-  const given = residualAt(mu);
+  const given = residualFromProducts(jr, ji, mass, mu, xr, xi);
   if (!(mm > 0)) return { mu, residual: given };
   const best = { re: pr / mm, im: mu.im === 0 ? 0 : pi / mm };
-  const better = residualAt(best);
+  const better = residualFromProducts(jr, ji, mass, best, xr, xi);
   return better < given ? { mu: best, residual: better } : { mu, residual: given };
 }
 
