@@ -42,9 +42,9 @@ export function valuesNearAxis(s: PointStability): C[] {
  * The eigenvalues with Im > 0 of a and b matched one to one (as many as the shorter list has) so
  * that the sum of squared distances is least (an assignment problem, solved exactly by the
  * Hungarian method). Matching each value of a to its nearest in b instead fails where pairs lie
- * closer to one another than a step moves them: on the gel-spots trace every pair's real part
- * grows by ~6e-4 per step while neighbouring pairs are ~2e-4 apart, and the pair crossing the
- * axis was matched to its stable neighbour (no Hopf point located). The least sum of squares is
+ * closer to one another than a step moves them: on the gel-spots trace every pair moves ~6e-4
+ * per step, more than the ~5.5e-4 between the crossing pair and its stable neighbour's next
+ * value, and the pair crossing the axis was matched to that neighbour (no Hopf point located). The least sum of squares is
  * unchanged by a common drift of all values (Σ|a_i + t − a_π(i)|² is least for π = identity), the
  * usual motion along a branch.
  */

@@ -89,8 +89,8 @@ describe('counting crossings between neighbouring points', () => {
 
 describe('matching pairs between neighbouring points (the gel-spots trace)', () => {
   // The values near the axis at F = 0.025970 and F = 0.025019 on the gel-spots trace (32², four
-  // spots; rounded): every pair drifts right by ~6e-4 per step while neighbouring pairs lie
-  // ~6e-4 apart. Matched each to its nearest, the crossing pair (−4.9e-4 → +1.2e-4) went to its
+  // spots; rounded): every pair drifts right by ~6e-4 per step, more than the ~5.5e-4 from the
+  // crossing pair to its stable neighbour's next value. Matched each to its nearest, the crossing pair (−4.9e-4 → +1.2e-4) went to its
   // stable neighbour and no Hopf point was located; the least-squares matching is exact for a
   // common drift.
   const before = stability([[-4.926e-4, 0.032772], [-4.926e-4, -0.032772], [-1.6393e-3, 0.032943], [-1.6393e-3, -0.032943], [-1.6393e-3, 0.032943], [-1.6393e-3, -0.032943]]);
