@@ -6,7 +6,7 @@
  * --force` follows the same rule, over a continuation run and over an earlier integration, and
  * so does the resume of an integration (a user's file in snapshots/ stays, its stale files go).
  */
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -16,6 +16,7 @@ import { runCase } from '../../src/run/run-case.js';
 import { settleCase } from '../../src/run/settle.js';
 import { prepareSettleCase } from '../../src/run/settle-case.js';
 import { cli, json } from './processes.js';
+import { filesBelow } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-force-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -27,15 +28,7 @@ const write = (file: string, text: string): void => {
 };
 
 /** Every file below `dir`, relative, sorted. */
-function tree(dir: string, rel = ''): string[] {
-  const out: string[] = [];
-  for (const e of readdirSync(join(dir, rel), { withFileTypes: true })) {
-    const r = rel ? `${rel}/${e.name}` : e.name;
-    if (e.isDirectory()) out.push(...tree(dir, r));
-    else out.push(r);
-  }
-  return out.sort();
-}
+const tree = filesBelow;
 
 // branch switching: the earlier run has branches/2.csv, 3.csv … that the slab run never writes
 const pitchforks = join(tmp, 'pitchforks.yaml');

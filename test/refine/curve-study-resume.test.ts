@@ -7,13 +7,14 @@
  * for byte, but for the time fields the README names (`started`, `ended`, `timings`, `resumed` in
  * run.json, `seconds` in refine.json).
  */
-import { mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join, relative } from 'node:path';
+import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { prepareCase } from '../../src/run/case.js';
 import { type StudyOptions, runStudy } from '../../src/refine/study.js';
+import { filesBelow, runRecordWithoutTimes } from '../cli/same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-curve-study-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -64,25 +65,9 @@ async function stoppedAfterFirstGrid(dir: string, options: Partial<StudyOptions>
   expect(r.runs.map((x) => x.status)).toEqual(['finished', 'stopped', 'stopped']);
 }
 
-function files(dir: string): string[] {
-  const out: string[] = [];
-  const walk = (d: string): void => {
-    for (const e of readdirSync(d, { withFileTypes: true })) {
-      if (e.isDirectory()) walk(join(d, e.name));
-      else out.push(relative(dir, join(d, e.name)));
-    }
-  };
-  walk(dir);
-  return out.sort();
-}
-
 /** A study file without the time fields the README lists as free to differ. */
 function withoutTimes(dir: string, file: string): unknown {
-  if (file.endsWith('run.json')) {
-    const r = json(join(dir, file));
-    for (const k of ['started', 'ended', 'timings', 'resumed']) delete r[k];
-    return r;
-  }
+  if (file.endsWith('run.json')) return runRecordWithoutTimes(join(dir, file));
   if (file === 'refine.json') {
     const r = json(join(dir, file));
     for (const run of r.runs) delete run.seconds;
@@ -92,8 +77,8 @@ function withoutTimes(dir: string, file: string): unknown {
 }
 
 function expectSameStudy(dir: string, reference: string): void {
-  expect(files(dir)).toEqual(files(reference));
-  for (const f of files(reference)) {
+  expect(filesBelow(dir)).toEqual(filesBelow(reference));
+  for (const f of filesBelow(reference)) {
     if (f.endsWith('.npy')) expect(readFileSync(join(dir, f)).equals(readFileSync(join(reference, f))), f).toBe(true);
     else expect(withoutTimes(dir, f), f).toEqual(withoutTimes(reference, f));
   }
