@@ -518,6 +518,20 @@ function submittedStudy(
   };
 }
 
+/**
+ * The curve that holds the point (`cusp`, `zero-hopf:2`…) in the first grid's points that have it
+ * at all: the lowest-numbered curve with at least N points of that kind (curves are numbered alike
+ * on every grid). Undefined when no grid has it.
+ */
+export function curveHoldingPoint(specialsPerGrid: readonly (readonly SpecialRecord[])[], point: PointSpec): number | undefined {
+  for (const specials of specialsPerGrid) {
+    const curves = [...new Set(specials.filter((r) => r.kind === point.kind).map((r) => r.branch))].sort((a, b) => a - b);
+    const holding = curves.find((c) => findSpecial(specials, point, c) !== undefined);
+    if (holding !== undefined) return holding;
+  }
+  return undefined;
+}
+
 /** Pick the point, analyse, write refine.csv / refine.json / refine.svg. */
 function finishStudy(
   prepared: PreparedCase,
@@ -536,15 +550,7 @@ function finishStudy(
   const expected = s.plan.expectedOrder;
   // curve runs without --branch (the plan says so, for a resumed study too): the curve on which
   // the point first appears (curves are numbered alike on every grid), rather than always curve 1
-  if (!s.plan.branchGiven && prepared.curve && s.point) {
-    for (const o of outcomes) {
-      const rec = o.specials.filter((r) => r.kind === s.point!.kind).sort((a, b) => a.branch - b.branch)[0];
-      if (rec) {
-        branch = rec.branch;
-        break;
-      }
-    }
-  }
+  if (!s.plan.branchGiven && prepared.curve && s.point) branch = curveHoldingPoint(outcomes.map((o) => o.specials), s.point) ?? branch;
   // the default point: the first fold; when no grid has one, say what there is
   let spec = s.point;
   let failure: string | undefined;

@@ -3,7 +3,7 @@
  * point as the uninterrupted study. Without --branch a curve study takes the curve holding the
  * requested point (here the cusp, which lies on curve 2 of a fold curve followed both ways); the
  * resumed study must choose alike (its plan records that no branch was given), and with --branch
- * given it keeps that branch. The resumed folder equals the uninterrupted one file for file, byte
+ * given it keeps that branch. The curve holding `KIND:N` is the first with N points of the kind. The resumed folder equals the uninterrupted one file for file, byte
  * for byte, but for the time fields the README names (`started`, `ended`, `timings`, `resumed` in
  * run.json, `seconds` in refine.json).
  */
@@ -13,7 +13,8 @@ import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { prepareCase } from '../../src/run/case.js';
-import { type StudyOptions, runStudy } from '../../src/refine/study.js';
+import { type StudyOptions, curveHoldingPoint, runStudy } from '../../src/refine/study.js';
+import type { SpecialRecord } from '../../src/run/run-directory.js';
 import { filesBelow, runRecordWithoutTimes } from '../cli/same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-curve-study-'));
@@ -117,3 +118,16 @@ describe('a curve study stopped after its first grid and resumed', () => {
   }, 60_000);
 });
 
+describe('the curve that holds the point', () => {
+  const rec = (kind: string, branch: number): SpecialRecord => ({ kind, branch, parameter: 'p2', value: 0, arclength: 0, monitors: {}, residual: 0 });
+  it('is the lowest-numbered curve with at least N points of the kind, in the first grid that has one', () => {
+    const grid = [rec('end', 1), rec('zero-hopf', 1), rec('zero-hopf', 2), rec('zero-hopf', 2), rec('end', 2)];
+    expect(curveHoldingPoint([grid], { kind: 'zero-hopf', index: 1 })).toBe(1);
+    expect(curveHoldingPoint([grid], { kind: 'zero-hopf', index: 2 })).toBe(2);
+    expect(curveHoldingPoint([grid], { kind: 'zero-hopf', index: 3 })).toBeUndefined();
+    expect(curveHoldingPoint([grid], { kind: 'cusp', index: 1 })).toBeUndefined();
+    // a grid without the point does not decide; the first grid with it does
+    expect(curveHoldingPoint([[rec('end', 1)], grid], { kind: 'zero-hopf', index: 2 })).toBe(2);
+    expect(curveHoldingPoint([[rec('cusp', 3)], [rec('cusp', 2)]], { kind: 'cusp', index: 1 })).toBe(3);
+  });
+});
