@@ -14,6 +14,7 @@ import { jsonSummary } from '../../run/batch.js';
 import { studyLog, studySignals } from './refine.js';
 import { onTerminal, resumeHint, stopOnSignals } from './run.js';
 import { resumeSettle } from './settle.js';
+import { resumeFind } from './find-states.js';
 import { runKind } from '../../run/start.js';
 
 /** `branchline resume DIR`: continue a stopped or killed run from its last checkpoint. */
@@ -62,7 +63,7 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
         return;
       }
       if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit }, code);
-      if (runKind(dirGiven) === 'find-states') throw new InputError(`${dirGiven}: a search for steady states (find-states) keeps no checkpoints; run it again (with --force to replace this folder), or start cases from its states (start: {solution: ${join(dirGiven, 'solutions', 'state-1.npy')}})`);
+      if (runKind(dirGiven) === 'find-states') return resumeFind(dirGiven, opts, { io, setExit }, code);
       const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true, code });
       try {
         await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);
