@@ -82,11 +82,11 @@ function contents(dir: string): Map<string, Buffer> {
 }
 
 /** Resolves when `path` exists (polled). */
-async function until(path: string, timeoutMs = 60_000): Promise<void> {
+async function until(path: string, timeoutMs = 60_000, everyMs = 5): Promise<void> {
   const t0 = Date.now();
   while (!existsSync(path)) {
     if (Date.now() - t0 > timeoutMs) throw new Error(`${path} did not appear`);
-    await sleep(5);
+    await sleep(everyMs);
   }
 }
 
@@ -156,6 +156,27 @@ describe('a search killed (SIGKILL) resumes to the files of an uninterrupted one
     expect(e.code, e.err).toBe(0);
     expectSameFiles(dir, 'killed twice');
     expect(json(join(dir, 'run.json')).resumed.length).toBe(2);
+  }, 300_000);
+});
+
+describe('a search killed during its first solve', () => {
+  it('starts over from the case its run.json records and ends with the files of an uninterrupted search', async () => {
+    ensureBuilt();
+    // kill -9 as soon as run.json exists: the first solve and its checkpoint come later; should a
+    // trial still see a checkpoint, it is repeated
+    let dir = '';
+    for (let k = 0; k < 5 && (dir === '' || existsSync(join(dir, 'checkpoint.bin'))); k++) {
+      dir = join(tmp, `early-${k}`);
+      const p = start(['find-states', caseFile, '--out', dir, '--quiet']);
+      await until(join(dir, 'run.json'), 60_000, 1);
+      p.child.kill('SIGKILL');
+      expect((await p.ended).signal).toBe('SIGKILL');
+    }
+    expect(existsSync(join(dir, 'checkpoint.bin'))).toBe(false);
+    const r = await cli('resume', dir);
+    expect(r.code, r.err).toBe(0);
+    expect(r.err).toMatch(/starting the search strip over from the case recorded in run\.json \(was running; it ended before its first checkpoint\)/);
+    expectSameFiles(dir, 'started over');
   }, 300_000);
 });
 
