@@ -223,6 +223,8 @@ function removeUnrecorded(outDir: string, saved: FindCheckpoint): void {
   const known = saved.search.states.length;
   removeStaleFiles(outDir, ['solutions'], (rel, e) => /^\..*\.tmp$/.test(e) || (rel === 'solutions/' && /^state-(\d+)\.npy$/.test(e) && Number(/\d+/.exec(e)![0]) > known));
   if (!saved.search.done) removeRunFiles(outDir, new Manifest(['traces/state-*']), (rel) => !rel.startsWith('traces/'));
+  // (removeRunFiles takes away the run's folders left empty)
+  mkdirSync(join(outDir, 'solutions'), { recursive: true });
 }
 
 async function findInFolder(prepared: PreparedFindCase, outDir: string, options: FindOptions): Promise<FindResult> {
@@ -459,6 +461,7 @@ function traceDocument(prepared: PreparedFindCase, outDir: string, s: FoundState
     continuation,
     output: { solutions: 'special' },
     stability: { eigenvalues: c.stability.eigenvalues },
+    checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
     ...(raw.plot !== undefined ? { plot: raw.plot } : {}),
     start: { solution: join(outDir, stateFile(s.id)) },
   };

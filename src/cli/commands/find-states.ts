@@ -15,7 +15,7 @@ import { findJson, formatFindSummary } from '../../run/find-states-summary.js';
 import { leaveAtOnce } from '../../run/leave.js';
 import type { CodeModelChoice } from '../../run/resume-code.js';
 import { toJson } from '../../run/writers.js';
-import { twoStageSignals } from './run.js';
+import { resumeHint, twoStageSignals } from './run.js';
 
 /**
  * Run (or resume) a search here: the first SIGINT/SIGTERM ends the current solve (or the current
@@ -41,7 +41,7 @@ async function findSession(prepared: PreparedFindCase, outDir: string, options: 
         if (level === 'warning' || !quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
       },
     });
-    io.out(json ? toJson(findJson(result)) : formatFindSummary(result, prepared) + (result.status === 'stopped' ? `To continue: branchline resume ${outDir}\n` : ''));
+    io.out(json ? toJson(findJson(result)) : formatFindSummary(result, prepared) + resumeHint({ status: result.status, directory: outDir }));
     setExit(result.status === 'finished' && result.states.length > 0 ? 0 : 1);
   } finally {
     stop.release();
