@@ -159,6 +159,42 @@ describe('a search killed (SIGKILL) resumes to the files of an uninterrupted one
   }, 300_000);
 });
 
+describe('stop signals (Ctrl-C, SIGTERM as Slurm sends before preempting)', () => {
+  it('SIGTERM in a trace stops (exit 1, stopped, how to go on); SIGINT twice leaves at once (exit 130, stopped, no lock); resume ends with the same files', async () => {
+    ensureBuilt();
+    const dir = join(tmp, 'signals');
+    const first = start(['find-states', caseFile, '--out', dir, '--quiet']);
+    await until(join(dir, 'traces/state-1-increase/checkpoint.bin'));
+    first.child.kill('SIGTERM');
+    const e1 = await first.ended;
+    expect(e1.code, e1.err).toBe(1);
+    expect(e1.err).toMatch(/SIGTERM: finishing the current solve and stopping/);
+    expect(e1.out).toMatch(/To continue: branchline resume /);
+    expect(json(join(dir, 'run.json')).status).toBe('stopped');
+    expect(json(join(dir, 'traces/state-1-increase/run.json')).status).toBe('stopped');
+    // a resume, left at once on two signals during a trace
+    const second = start(['resume', dir, '--quiet']);
+    await until(join(dir, 'traces/state-2-increase/checkpoint.bin'));
+    second.child.kill('SIGSTOP');
+    second.child.kill('SIGINT');
+    second.child.kill('SIGTERM');
+    second.child.kill('SIGCONT');
+    const e2 = await second.ended;
+    if (e2.code === 130) {
+      expect(e2.err).toMatch(/leaving at once/);
+      const run = json(join(dir, 'run.json'));
+      expect(run.status).toBe('stopped');
+      expect(run.note).toMatch(/left at once on a second/);
+    } else expect(e2.code, e2.err).toBe(1); // the first stop was done before the second signal came
+    for (const f of filesBelow(dir)) if (f.endsWith('run.json')) expect(json(join(dir, f)).status, f).not.toBe('running');
+    expect(existsSync(join(dir, 'writer.lock'))).toBe(false);
+    expect(existsSync(join(dir, 'traces/state-2-increase/writer.lock'))).toBe(false);
+    const last = await cli('resume', dir, '--quiet');
+    expect(last.code, last.err).toBe(0);
+    expectSameFiles(dir, 'stopped by signals');
+  }, 300_000);
+});
+
 describe('a search killed during its first solve', () => {
   it('starts over from the case its run.json records and ends with the files of an uninterrupted search', async () => {
     ensureBuilt();
