@@ -25,7 +25,7 @@ import { folderWriteProblem } from './folders.js';
 import { FolderLock, holderText, lockHolder } from './lock.js';
 import type { ProgressView } from './progress.js';
 import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
-import { type ProgressInfo, type RunResult, outputDirectory } from './run-case.js';
+import { type ProgressInfo, type ResumeState, type RunResult, outputDirectory } from './run-case.js';
 import { columnPlan, newRunProblem, readRunRecord } from './run-directory.js';
 import { runCaseInThread } from './run-thread.js';
 import { writeJsonAtomic } from './writers.js';
@@ -233,22 +233,23 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       ...(o.lock ? { lock: o.lock } : {}),
       ...(o.alongside ? { alongside: true } : {}),
       ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
-      ...(c
-        ? {
-            resume: {
-              ledger: c.ledger,
-              engineState: c.engine,
-              started: c.run.started,
-              previousSeconds: c.run.seconds,
-              resumes: c.run.resumes,
-              checkpoint: { file: o.resume!.file ?? checkpointFile, sequence: c.sequence, written: c.written, points: c.ledger.points },
-            },
-          }
-        : {}),
+      ...(c ? { resume: resumeStateOf(c, o.resume!.file) } : {}),
     });
   } finally {
     o.view.end(o.name);
   }
+}
+
+/** What runCase continues from (its `resume` option): a checkpoint's contents, read from `file`. */
+export function resumeStateOf(c: CheckpointDocument, file = checkpointFile): ResumeState {
+  return {
+    ledger: c.ledger,
+    engineState: c.engine,
+    started: c.run.started,
+    previousSeconds: c.run.seconds,
+    resumes: c.run.resumes,
+    checkpoint: { file, sequence: c.sequence, written: c.written, points: c.ledger.points },
+  };
 }
 
 /** The outcome of a finished session. */

@@ -44,7 +44,7 @@ import { join, relative, resolve } from 'node:path';
 import { periodicAxes } from '../deflation/distance.js';
 import { DeflatedSearch, type FoundState, type Guess, type SearchEndReason, type SearchState, type SolveRecord, searchEndText } from '../deflation/search.js';
 import { stabilityWords } from '../dynamics/stability.js';
-import type { ResumePlan } from './batch.js';
+import { type ResumePlan, resumeStateOf } from './batch.js';
 import { type PreparedCase, caseDocumentHead, ownCodeModel, prepareCaseObject } from './case.js';
 import { type CheckpointDocument, Checkpointer, checkpointFile, checkpointFormat, checkpointVersion, previousCheckpointFile, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
 import { type PreparedFindCase, findCaseDocument } from './find-states-case.js';
@@ -221,7 +221,10 @@ export async function findStates(prepared: PreparedFindCase, options: FindOption
  */
 function removeUnrecorded(outDir: string, saved: FindCheckpoint): void {
   const known = saved.search.states.length;
-  removeStaleFiles(outDir, ['solutions'], (rel, e) => /^\..*\.tmp$/.test(e) || (rel === 'solutions/' && /^state-(\d+)\.npy$/.test(e) && Number(/\d+/.exec(e)![0]) > known));
+  // only the search's own files: a user's file in the folder is never touched
+  const ours = new Manifest(findFiles);
+  const later = (rel: string, e: string): boolean => rel === 'solutions/' && /^state-\d+\.npy$/.test(e) && Number(/\d+/.exec(e)![0]) > known;
+  removeStaleFiles(outDir, ['solutions'], (rel, e) => ours.covers(rel + e) && (/^\..*\.tmp$/.test(e) || later(rel, e)));
   if (!saved.search.done) removeRunFiles(outDir, new Manifest(['traces/state-*']), (rel) => !rel.startsWith('traces/'));
   // (removeRunFiles takes away the run's folders left empty)
   mkdirSync(join(outDir, 'solutions'), { recursive: true });
@@ -488,9 +491,8 @@ async function traceStates(prepared: PreparedFindCase, outDir: string, states: r
       let resume: ResumeState | undefined;
       if (going && going.state === s.id && going.direction === direction) {
         // the trace under way: on from its own checkpoint (checked by the resume, its lock held)
-        const c = going.plan.checkpoint!;
         run = going.prepared;
-        resume = { ledger: c.ledger, engineState: c.engine, started: c.run.started, previousSeconds: c.run.seconds, resumes: c.run.resumes, checkpoint: { file: going.plan.file ?? checkpointFile, sequence: c.sequence, written: c.written, points: c.ledger.points } };
+        resume = resumeStateOf(going.plan.checkpoint!, going.plan.file);
       } else {
         const doc = traceDocument(prepared, outDir, s, direction);
         run = await prepareCaseObject(doc, { label: `${prepared.label} (trace of state ${s.id}, ${direction})`, baseDir: prepared.baseDir, ...(prepared.file ? { file: prepared.file } : {}), ...ownCodeModel(prepared.case) });
