@@ -22,8 +22,8 @@ import { existsSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { isDeepStrictEqual } from 'node:util';
 import { checkSearchState } from '../deflation/search.js';
-import { checkRecordedLengths, lockForResume, prepareResume } from './batch.js';
-import { CheckpointError, checkpointFile, previousCheckpointFile, readCheckpoint } from './checkpoint.js';
+import { checkRecordedLengths, checkpointOrRestart, lockForResume, prepareResume } from './batch.js';
+import { checkpointFile, previousCheckpointFile } from './checkpoint.js';
 import { InputError } from './errors.js';
 import { type PreparedFindCase, prepareFindCaseObject } from './find-states-case.js';
 import { type FindCheckpoint, type FindResume, guessDigest, solvesFile, stateFile, stateFileBytes, traceFolder } from './find-states.js';
@@ -61,26 +61,15 @@ async function checkFindResumable(dirGiven: string, dir: string, run: Record<str
   const refuse = (what: string): never => {
     throw new InputError(`${dirGiven}: cannot resume: ${what}`);
   };
-  let found: ReturnType<typeof readCheckpoint>;
-  try {
-    found = readCheckpoint(dir);
-  } catch (e) {
-    if (!(e instanceof CheckpointError)) throw e;
+  const from = checkpointOrRestart(dirGiven, dir, run);
+  if ('restart' in from) {
     // killed during its first solve: nothing was kept; start over from the case run.json records
-    // (unless run.json says a checkpoint was written: then it went missing)
-    const none = !existsSync(join(dir, checkpointFile)) && !existsSync(join(dir, previousCheckpointFile));
-    if (none && run.checkpoint === undefined && run.case && typeof run.case === 'object') {
-      const caseFile = typeof run['case-file'] === 'string' ? run['case-file'] : null;
-      const baseDir = caseFile ? dirname(caseFile) : dir;
-      const loadCode = await resumeCodeModel(dirGiven, run.case as { model?: unknown }, run.case as { model?: unknown }, baseDir, choice);
-      const prepared = await prepareFindCaseObject(run.case, { label: `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})`, ...(caseFile ? { file: caseFile } : {}), baseDir, ...(loadCode ? { loadCode } : {}) });
-      const started = typeof run.started === 'string' ? run.started : new Date().toISOString();
-      const resumes = Array.isArray(run.resumed) ? run.resumed.filter((t): t is string => typeof t === 'string') : [];
-      return { prepared, outDir: dir, restart: { started, resumes, previousStatus: status } };
-    }
-    if (none) return refuse(`run.json records a checkpoint, but neither ${checkpointFile} nor ${previousCheckpointFile} is there (removed?)`);
-    return refuse(e.message);
+    const baseDir = from.caseFile ? dirname(from.caseFile) : dir;
+    const loadCode = await resumeCodeModel(dirGiven, from.case, from.case, baseDir, choice);
+    const prepared = await prepareFindCaseObject(from.case, { label: from.label, ...(from.caseFile ? { file: from.caseFile } : {}), baseDir, ...(loadCode ? { loadCode } : {}) });
+    return { prepared, outDir: dir, restart: { ...from.restart, previousStatus: status } };
   }
+  const found = from.found;
   const c = found.document;
   // the checkpoint belongs to this search: the case run.json records (both written by the search)
   if (!isDeepStrictEqual(JSON.parse(JSON.stringify(c.case)), run.case)) refuse(`the case in ${found.file} is not the case run.json records (was one of them replaced or edited?)`);
