@@ -130,7 +130,6 @@ describe('a search stopped on request resumes to the files of an uninterrupted o
     expect(trace.status).toBe('stopped');
     expect(trace.counts.points).toBeGreaterThan(0);
     expect(existsSync(traceCheckpoint)).toBe(true);
-    cpSync(dir, join(tmp, 'mid-trace-copy'), { recursive: true });
     const r = await cli('resume', dir);
     expect(r.code, r.err).toBe(0);
     expect(r.err).toMatch(/the search done; the trace of state 2 \(increase\) goes on from its checkpoint/);
@@ -217,10 +216,14 @@ describe('a search killed during its first solve', () => {
 });
 
 describe('a resume refuses in one line (exit 2) and writes nothing', () => {
-  /** A stopped search to forge (the one stopped in the middle of a trace, as it was). */
+  // a search stopped in the middle of a trace, copied and forged below
+  const original = join(tmp, 'to-forge');
+  beforeAll(async () => {
+    await stoppedSearch(original, () => false, () => existsSync(join(original, 'traces/state-1-decrease/checkpoint.bin')));
+  }, 120_000);
   const forged = (name: string, edit: (doc: ReturnType<typeof decodeCheckpoint>) => void): string => {
     const dir = join(tmp, name);
-    cpSync(join(tmp, 'mid-trace-copy'), dir, { recursive: true });
+    cpSync(original, dir, { recursive: true });
     const doc = decodeCheckpoint(readFileSync(join(dir, 'checkpoint.bin')));
     edit(doc);
     // a valid checksum: only the content is forged
@@ -261,12 +264,24 @@ describe('a resume refuses in one line (exit 2) and writes nothing', () => {
 
   it('a checkpoint copied from a search of another case', async () => {
     const dir = join(tmp, 'copied');
-    cpSync(join(tmp, 'mid-trace-copy'), dir, { recursive: true });
+    cpSync(original, dir, { recursive: true });
     const other = join(tmp, 'other');
     await stoppedSearch(other, (m) => /^state 2 found/.test(m), undefined, write('other.yaml', caseText.replace('lambda: 50', 'lambda: 52')));
     cpSync(join(other, 'checkpoint.bin'), join(dir, 'checkpoint.bin'));
     await refused(dir, /cannot resume: the case in checkpoint\.bin is not the case run\.json records/);
   }, 120_000);
+
+  it('a folder forged to name a code model (checkpoint and run.json agreeing) never loads it', async () => {
+    const marker = join(tmp, 'evil-was-imported');
+    const evil = write('evil.mjs', `import { appendFileSync } from 'node:fs';\nappendFileSync(${JSON.stringify(marker)}, 'imported\\n');\nexport default function () { throw new Error('evil'); }\n`);
+    const dir = forged('forged-model', (doc) => {
+      (doc.case as any).model = evil;
+    });
+    const run = json(join(dir, 'run.json'));
+    writeFileSync(join(dir, 'run.json'), JSON.stringify({ ...run, case: { ...run.case, model: evil } }));
+    await refused(dir, /cannot resume: the run uses the code model .*evil\.mjs, and a run folder never loads code by itself/);
+    expect(existsSync(marker)).toBe(false);
+  });
 
   it('a finished search: there is nothing to resume', async () => {
     const before = contents(reference);
