@@ -13,7 +13,10 @@
  *    file edited, is refused;
  *  - solves.csv must hold every row the checkpoint counts;
  *  - the trace under way, if any, goes on from its own checkpoint with the checks of a run's
- *    resume (batch.ts `prepareResume`: its lock taken); a trace without one is traced again.
+ *    resume (batch.ts `prepareResume`: its lock taken), its case the one its run.json records; a
+ *    trace without a checkpoint is traced again. (A trace's case names its state file by its
+ *    absolute path: a search folder moved while a trace was under way resumes only while the
+ *    old path still holds it.)
  *
  * A search that ended before its first checkpoint (killed during its first solve) starts over from
  * the case run.json records. InputError (one line) for every refusal, the locks released.
@@ -113,7 +116,13 @@ async function checkFindResumable(dirGiven: string, dir: string, run: Record<str
     const hasCheckpoint = existsSync(join(folder, checkpointFile)) || existsSync(join(folder, previousCheckpointFile));
     if (record && record.status !== 'finished' && hasCheckpoint) {
       // on from the trace's own checkpoint, checked as any run's resume (its lock taken here)
-      const t = await prepareResume(join(dirGiven, traceFolder(next.state, next.direction)), { code: choice });
+      const given = join(dirGiven, traceFolder(next.state, next.direction));
+      const t = await prepareResume(given, { code: choice });
+      const stored = t.plan.checkpoint?.case;
+      if (stored && !isDeepStrictEqual(JSON.parse(JSON.stringify(stored)), readRunRecord(folder)?.case)) {
+        t.lock.release();
+        refuse(`the case in ${join(traceFolder(next.state, next.direction), t.plan.file ?? checkpointFile)} is not the case its run.json records (was one of them replaced or edited?)`);
+      }
       if (t.plan.checkpoint) resume.trace = { ...next, prepared: t.prepared, plan: t.plan, lock: t.lock };
       else t.lock.release();
     }

@@ -262,6 +262,15 @@ describe('a resume refuses in one line (exit 2) and writes nothing', () => {
     );
   });
 
+  it('a trace under way whose checkpoint names another case', async () => {
+    const dir = forged('forged-trace', () => {});
+    const file = join(dir, 'traces/state-1-decrease/checkpoint.bin');
+    const doc = decodeCheckpoint(readFileSync(file));
+    (doc.case as any).continuation.bounds = [0, 100];
+    writeFileSync(file, encodeCheckpoint(doc));
+    await refused(dir, /cannot resume: the case in traces\/state-1-decrease\/checkpoint\.bin is not the case its run\.json records/);
+  });
+
   it('a checkpoint copied from a search of another case', async () => {
     const dir = join(tmp, 'copied');
     cpSync(original, dir, { recursive: true });
