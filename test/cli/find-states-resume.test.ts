@@ -167,7 +167,7 @@ describe('stop signals (Ctrl-C, SIGTERM as Slurm sends before preempting)', () =
     first.child.kill('SIGTERM');
     const e1 = await first.ended;
     expect(e1.code, e1.err).toBe(1);
-    expect(e1.err).toMatch(/SIGTERM: finishing the current solve and stopping/);
+    expect(e1.err).toMatch(/SIGTERM: finishing the current step, writing a checkpoint and stopping/);
     expect(e1.out).toMatch(/To continue: branchline resume /);
     expect(json(join(dir, 'run.json')).status).toBe('stopped');
     expect(json(join(dir, 'traces/state-1-increase/run.json')).status).toBe('stopped');

@@ -12,34 +12,28 @@ import { type PreparedFindCase, prepareFindCase } from '../../run/find-states-ca
 import { type FindOptions, findDirectory, findStates } from '../../run/find-states.js';
 import { prepareFindResume } from '../../run/find-states-resume.js';
 import { findJson, formatFindSummary } from '../../run/find-states-summary.js';
-import { leaveAtOnce } from '../../run/leave.js';
 import type { CodeModelChoice } from '../../run/resume-code.js';
+import { logView } from '../../run/progress.js';
 import { toJson } from '../../run/writers.js';
-import { resumeHint, twoStageSignals } from './run.js';
+import { resumeHint, stopOnSignals } from './run.js';
 
 /**
- * Run (or resume) a search here: the first SIGINT/SIGTERM ends the current solve (or the current
- * step of a trace) and stops with every state kept; a second leaves at once (exit 130), run.json
- * marked stopped, the last checkpoint kept for `resume`.
+ * Run (or resume) a search here, with the stop signals of runs (run.ts `stopOnSignals`): the first
+ * SIGINT/SIGTERM ends the current solve (or the current step of a trace), writes the checkpoint
+ * and stops with every state kept; a second leaves at once (exit 130), run.json marked stopped.
  */
 async function findSession(prepared: PreparedFindCase, outDir: string, options: Omit<FindOptions, 'outDir' | 'signal' | 'log'>, quiet: boolean, json: boolean, { io, setExit }: CommandContext): Promise<void> {
-  const stop = twoStageSignals(
-    (signal) => io.err(`branchline: ${signal}: finishing the current solve and stopping (${signal} again to leave at once)\n`),
-    (signal, count) => {
-      if (count > 2) process.exit(130);
-      io.err(`branchline: second ${signal}: leaving at once; \`branchline resume DIR\` continues from the last checkpoint\n`);
-      leaveAtOnce(`left at once on a second ${signal}; resume goes on from the last checkpoint`);
-      process.exit(130);
-    },
-  );
+  const say = (level: 'info' | 'warning', message: string): void => {
+    if (level === 'warning' || !quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
+  };
+  const view = logView(say);
+  const stop = stopOnSignals(io, () => view);
   try {
     const result = await findStates(prepared, {
       ...options,
       outDir,
       signal: stop.signal,
-      log: (level, message) => {
-        if (level === 'warning' || !quiet) io.err(`branchline: ${level === 'warning' ? 'warning: ' : ''}${message}\n`);
-      },
+      log: say,
     });
     io.out(json ? toJson(findJson(result)) : formatFindSummary(result, prepared) + resumeHint({ status: result.status, directory: outDir }));
     setExit(result.status === 'finished' && result.states.length > 0 ? 0 : 1);
