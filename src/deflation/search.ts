@@ -147,11 +147,11 @@ export function checkSearchState(s: SearchState, size: number, guesses: number):
   }
   for (const [i, st] of s.states.entries()) {
     if (!st || st.id !== i + 1) return `has states not numbered 1, 2, … (state ${i + 1})`;
-    if (!(st.u instanceof Float64Array) || st.u.length !== size) return `state ${i + 1} has ${st.u instanceof Float64Array ? st.u.length : 'no'} values, the problem has ${size} unknowns`;
-    for (let k = 0; k < size; k++) if (!Number.isFinite(st.u[k])) return `state ${i + 1} has a value that is not finite`;
+    if (!(st.u instanceof Float64Array) || st.u.length !== size) return `has state ${i + 1} with ${st.u instanceof Float64Array ? st.u.length : 'no'} values, the problem has ${size} unknowns`;
+    for (let k = 0; k < size; k++) if (!Number.isFinite(st.u[k])) return `has state ${i + 1} with a value that is not finite`;
     const by = s.solves[st.solve - 1];
-    if (!by || by.outcome !== 'new' || by.state !== st.id || by.guess !== st.guess) return `state ${i + 1} is not the one its solve ${String(st.solve)} found`;
-    if (!whole(st.solves, 1, s.solves.length)) return `state ${i + 1} has a bad count of solves`;
+    if (!by || by.outcome !== 'new' || by.state !== st.id || by.guess !== st.guess) return `has state ${i + 1} that its solve ${String(st.solve)} did not find`;
+    if (!whole(st.solves, 1, s.solves.length)) return `has state ${i + 1} with a bad count of solves`;
   }
   return undefined;
 }

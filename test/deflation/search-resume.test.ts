@@ -50,7 +50,7 @@ describe('a deflated search resumed from a snapshot', () => {
     const snap = whole.snapshots[3];
     expect(checkSearchState(snap, problem.size, guesses.length)).toBeUndefined();
     expect(checkSearchState({ ...snap, failedWith: [-1] }, problem.size, guesses.length)).toMatch(/1 guess.*3/);
-    expect(checkSearchState({ ...snap, states: snap.states.map((s, i) => (i === 0 ? { ...s, u: new Float64Array(5) } : s)) }, problem.size, guesses.length)).toMatch(/state 1 has 5 values/);
+    expect(checkSearchState({ ...snap, states: snap.states.map((s, i) => (i === 0 ? { ...s, u: new Float64Array(5) } : s)) }, problem.size, guesses.length)).toMatch(/has state 1 with 5 values/);
     expect(checkSearchState({ ...snap, states: [snap.states[1], snap.states[0], ...snap.states.slice(2)] }, problem.size, guesses.length)).toMatch(/numbered/);
     expect(checkSearchState({ ...snap, cursor: 7 }, problem.size, guesses.length)).toMatch(/cursor/);
     expect(checkSearchState({ ...snap, solves: snap.solves.slice(1) }, problem.size, guesses.length)).toMatch(/solve/);
