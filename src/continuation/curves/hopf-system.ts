@@ -39,7 +39,7 @@ import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../../linalg/bordered.js';
 import { EigenTracker, rightmostEigenvalues } from '../../linalg/eigen.js';
 import { type LUOptions, SparseLU } from '../../linalg/lu.js';
-import { matTVec } from '../../linalg/sparse.js';
+import { matTVec, matVec } from '../../linalg/sparse.js';
 import { type DerivativeEvaluator, derivativeEvaluator, directionalJacobian } from '../../problem/derivatives.js';
 import type { Params, Problem } from '../../problem/problem.js';
 import { ComplexNullBorder } from '../hopf/complex-border.js';
@@ -416,13 +416,7 @@ export class HopfSystem implements AugmentedSystem {
   jacobianTimes(delta: Float64Array, out: Float64Array): void {
     this.exact();
     const n = this.n;
-    const pat = this.problem.pattern();
-    out.fill(0);
-    for (let j = 0; j < n; j++) {
-      const dj = delta[j];
-      if (dj === 0) continue;
-      for (let k = pat.colPtr[j]; k < pat.colPtr[j + 1]; k++) out[pat.rowIdx[k]] += this.linJac[k] * dj;
-    }
+    matVec({ ...this.problem.pattern(), values: this.linJac }, delta, out);
     const [dp, dq, dw] = [delta[n], delta[n + 1], delta[n + 2]];
     let g = this.gPar * dp + this.gFree * dq + this.gOmega * dw;
     let h = this.hPar * dp + this.hFree * dq + this.hOmega * dw;

@@ -32,8 +32,10 @@ import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../../linalg/bordered.js';
 import { ComplexSparseLU, type LUOptions } from '../../linalg/lu.js';
 import { type CscPattern, embedPattern, entryIndex, patternUnion } from '../../linalg/sparse.js';
+import { infNorm } from '../../linalg/vector.js';
 import type { Problem } from '../../problem/problem.js';
 import { type SystemCounters, emptyCounters, pseudoRandomVector } from '../curves/augmented.js';
+import { type RefinementOperator, refineSolution } from '../curves/refinement.js';
 
 export interface ComplexNumber {
   re: number;
@@ -82,6 +84,15 @@ export class ComplexNullBorder {
   private readonly d: Float64Array;
   private readonly mags: Float64Array;
   private readonly e: Float64Array;
+  /** A and Aᵀ with the reference LU, for the refinement. */
+  private readonly operator: RefinementOperator = {
+    apply: (z, out) => this.time('solves', () => this.apply(z, out, false)),
+    correct: (r, d) => void this.solve(r, d),
+  };
+  private readonly transposedOperator: RefinementOperator = {
+    apply: (z, out) => this.time('solves', () => this.apply(z, out, true)),
+    correct: (r, d) => void this.solveTranspose(r, d),
+  };
 
   constructor(
     readonly problem: Problem,
@@ -284,39 +295,7 @@ export class ComplexNullBorder {
    * contracts slowly (then a factorisation is cheaper).
    */
   private refine(z: Float64Array, transpose: boolean): boolean {
-    const m = 2 * (this.n + 1);
-    const { r, d } = this;
-    let previous = Infinity;
-    let last = Infinity;
-    for (let k = 0; k < 10; k++) {
-      const mag = this.time('solves', () => this.apply(z, r, transpose));
-      let rn = 0;
-      for (let i = 0; i < m; i++) {
-        r[i] = this.e[i] - r[i];
-        rn = Math.max(rn, Math.abs(r[i]));
-      }
-      if (k >= 1 && rn <= 64 * Number.EPSILON * mag) return true;
-      if (k >= 1) {
-        const rho = rn / previous;
-        if (rho > 0.25) return last <= 1e-8;
-        if (last * rho <= 1e-14) return true;
-        if (k >= 2 && last * rho ** 4 > 1e-14) return false;
-      }
-      previous = rn;
-      if (transpose) this.solveTranspose(r, d);
-      else this.solve(r, d);
-      let dn = 0;
-      let zn = 0;
-      for (let i = 0; i < m; i++) {
-        z[i] += d[i];
-        dn = Math.max(dn, Math.abs(d[i]));
-        zn = Math.max(zn, Math.abs(z[i]));
-      }
-      if (!Number.isFinite(dn)) return false;
-      last = dn / zn;
-      if (last <= 1e-15) return true;
-    }
-    return false;
+    return refineSolution(z, this.e, transpose ? this.transposedOperator : this.operator, this.r, this.d);
   }
 
   /**
@@ -404,9 +383,7 @@ export class ComplexNullBorder {
   restoreBorders(b: Float64Array, c: Float64Array): void {
     this.b.set(b);
     this.c.set(c);
-    let bmax = 0;
-    for (let i = 0; i < this.n; i++) bmax = Math.max(bmax, Math.abs(b[i]));
-    this.corner = bmax;
+    this.corner = infNorm(b);
     this.factorNext = true;
   }
 
