@@ -6,6 +6,14 @@
  * converging at the rate ‖A_ref⁻¹(A − A_ref)‖). It stops when the residual reaches the rounding
  * level of the products (the result is then as good as a direct solve's), and gives up (false)
  * when it contracts so slowly that a factorisation is cheaper.
+ *
+ * The rounding level of the products, 64ε·Σ|A_ij z_j|, can lie below what a direct solve with
+ * the reference LU reaches (pivot growth, rows of very different scales, as in the complex
+ * border of Hopf curves): the refinement then stalls just above it and gives up although z is
+ * as good as a direct solve's. Callers that measure a direct solve's residual at each
+ * factorisation pass it as `floor` (relative to the same magnitude): a residual at that level
+ * is accepted too. At least one correction is always made (a start that is accurate already
+ * gains its last digits from it).
  */
 
 /** The current matrix and the reference factorisation, as the refinement sees them. */
@@ -21,8 +29,9 @@ export interface RefinementOperator {
  * length m. True when z solves the system to working accuracy, false when the refinement
  * contracts slowly or breaks down (z is then partly refined: callers restore or factor).
  */
-export function refineSolution(z: Float64Array, rhs: Float64Array, op: RefinementOperator, r: Float64Array, d: Float64Array): boolean {
+export function refineSolution(z: Float64Array, rhs: Float64Array, op: RefinementOperator, r: Float64Array, d: Float64Array, floor?: number): boolean {
   const m = rhs.length;
+  const level = Math.max(64 * Number.EPSILON, floor ?? 0);
   let previous = Infinity;
   let last = Infinity;
   for (let k = 0; k < 10; k++) {
@@ -33,7 +42,7 @@ export function refineSolution(z: Float64Array, rhs: Float64Array, op: Refinemen
       rn = Math.max(rn, Math.abs(r[i]));
     }
     // at the rounding level of the products (the result is as good as a direct solve's)
-    if (k >= 1 && rn <= 64 * Number.EPSILON * mag) return true;
+    if (k >= 1 && rn <= level * mag) return true;
     if (k >= 1) {
       // the residual (not the update, which can pause for a step) measures the contraction ρ;
       // the last correction left an error of about ρ times itself

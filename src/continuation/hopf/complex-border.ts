@@ -84,6 +84,9 @@ export class ComplexNullBorder {
   private readonly d: Float64Array;
   private readonly mags: Float64Array;
   private readonly e: Float64Array;
+  /** The residual levels of direct solves with the current factorisation (x and y), relative to the products' magnitude. */
+  private floorX = 64 * Number.EPSILON;
+  private floorY = 64 * Number.EPSILON;
   /** A and Aᵀ with the reference LU, for the refinement. */
   private readonly operator: RefinementOperator = {
     apply: (z, out) => this.time('solves', () => this.apply(z, out, false)),
@@ -179,6 +182,10 @@ export class ComplexNullBorder {
     else this.counters.refactorisations++;
     this.solve(this.e, this.x);
     this.solveTranspose(this.e, this.y);
+    this.time('solves', () => {
+      this.floorX = this.directFloor(this.x, false);
+      this.floorY = this.directFloor(this.y, true);
+    });
   }
 
   /**
@@ -295,7 +302,23 @@ export class ComplexNullBorder {
    * contracts slowly (then a factorisation is cheaper).
    */
   private refine(z: Float64Array, transpose: boolean): boolean {
-    return refineSolution(z, this.e, transpose ? this.transposedOperator : this.operator, this.r, this.d);
+    return refineSolution(z, this.e, transpose ? this.transposedOperator : this.operator, this.r, this.d, transpose ? this.floorY : this.floorX);
+  }
+
+  /**
+   * The residual of a direct solve with the factorisation just made, relative to the products'
+   * magnitude, times 16 (at least 64ε): the level the refinement accepts (../curves/refinement.ts).
+   * With the weighted borders (c of the size of the quadrature weights, b of order one, J of
+   * order 1/h²) A is badly scaled on fine grids (condition about 10⁹ at 100×100 intervals): a
+   * direct solve's residual then lies well above 64ε·Σ|A_ij z_j|, the refined one stalls within
+   * a small factor of it, and that factor varies from solve to solve.
+   */
+  private directFloor(z: Float64Array, transpose: boolean): number {
+    const mag = this.apply(z, this.r, transpose);
+    let rn = 0;
+    for (let i = 0; i < this.r.length; i++) rn = Math.max(rn, Math.abs(this.e[i] - this.r[i]));
+    const level = (16 * rn) / mag;
+    return Number.isFinite(level) ? Math.max(64 * Number.EPSILON, level) : 64 * Number.EPSILON;
   }
 
   /**
