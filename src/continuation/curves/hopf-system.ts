@@ -449,7 +449,9 @@ export class HopfSystem implements AugmentedSystem {
     const t0 = performance.now();
     let values: { re: number; im: number }[];
     try {
-      values = this.tracker.compute(this.jac).values;
+      // J's factorisation from l₁ serves as the shift-0 operator (none where J is singular)
+      const factored = this.lyapunov.jacobianSolver();
+      values = this.tracker.compute(this.jac, factored ? { factored } : {}).values;
     } catch {
       return NaN;
     } finally {
