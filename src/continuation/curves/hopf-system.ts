@@ -160,8 +160,10 @@ export class HopfSystem implements AugmentedSystem {
     this.kSol = new Float64Array(n + 3);
   }
 
+  /** The border's and the Newton matrix's counts, with l₁'s factorisations of J and 2iωM − J (its time is its own). */
   get counters(): SystemCounters {
-    return this.border.counters;
+    const c = this.border.counters;
+    return { ...c, factorisations: c.factorisations + this.lyapunov.factorisations, seconds: { ...c.seconds } };
   }
 
   params(y: Float64Array): Params {
