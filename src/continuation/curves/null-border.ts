@@ -39,6 +39,33 @@ import type { Params, Problem } from '../../problem/problem.js';
 import { type SystemCounters, emptyCounters, pseudoRandomVector } from './augmented.js';
 import { type RefinementOperator, refineSolution } from './refinement.js';
 
+/**
+ * Real borders from right and left vector approximations x and y (first n entries of each, n the
+ * length of the weights): c = W x / ‖x‖_w and b = W⁻¹ y / ‖W⁻¹ᐟ²y‖ (W the quadrature weights), so
+ * cᵀx > 0 and bᵀy > 0; returns ‖x‖_w, ‖W⁻¹ᐟ²y‖ and the corner d = max|b_i|, which keeps the sparse
+ * LU's threshold pivoting from taking the border early. `what` names the vectors in the error
+ * thrown when one of them vanishes.
+ */
+export function weightedBorders(x: ArrayLike<number>, y: ArrayLike<number>, wt: ArrayLike<number>, b: Float64Array, c: Float64Array, what: string): { sx: number; sy: number; corner: number } {
+  const n = wt.length;
+  let sx = 0;
+  let sy = 0;
+  for (let i = 0; i < n; i++) {
+    sx += wt[i] * x[i] * x[i];
+    sy += (y[i] * y[i]) / wt[i];
+  }
+  sx = Math.sqrt(sx);
+  sy = Math.sqrt(sy);
+  if (!(sx > 0 && sy > 0 && Number.isFinite(sx) && Number.isFinite(sy))) throw new Error(`the ${what} vanished (the bordered system is degenerate)`);
+  let bmax = 0;
+  for (let i = 0; i < n; i++) {
+    c[i] = (wt[i] * x[i]) / sx;
+    b[i] = y[i] / wt[i] / sy;
+    bmax = Math.max(bmax, Math.abs(b[i]));
+  }
+  return { sx, sy, corner: bmax };
+}
+
 export class NullVectorBorder {
   readonly n: number;
   /** Column border b and row border c (length n). */
@@ -420,25 +447,9 @@ export class NullVectorBorder {
 
   /** Borders from right and left vector approximations x (right) and y (left); returns ‖x‖_w and ‖W⁻¹ᐟ²y‖. */
   setBorders(x: Float64Array, y: Float64Array): { sx: number; sy: number } {
-    const wt = this.weights;
-    const n = this.n;
-    let sx = 0;
-    let sy = 0;
-    for (let i = 0; i < n; i++) {
-      sx += wt[i] * x[i] * x[i];
-      sy += (y[i] * y[i]) / wt[i];
-    }
-    sx = Math.sqrt(sx);
-    sy = Math.sqrt(sy);
-    if (!(sx > 0 && sy > 0 && Number.isFinite(sx) && Number.isFinite(sy))) throw new Error('the null vectors vanished (the bordered system is degenerate)');
-    let bmax = 0;
-    for (let i = 0; i < n; i++) {
-      this.c[i] = (wt[i] * x[i]) / sx;
-      this.b[i] = y[i] / wt[i] / sy;
-      bmax = Math.max(bmax, Math.abs(this.b[i]));
-    }
-    this.corner = bmax;
-    return { sx, sy };
+    const r = weightedBorders(x, y, this.weights, this.b, this.c, 'null vectors');
+    this.corner = r.corner;
+    return r;
   }
 
   /** Borders as saved (checkpoints). */

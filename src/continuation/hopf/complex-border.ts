@@ -35,6 +35,7 @@ import { type CscPattern, embedPattern, entryIndex, patternUnion } from '../../l
 import { infNorm } from '../../linalg/vector.js';
 import type { Problem } from '../../problem/problem.js';
 import { type SystemCounters, emptyCounters, pseudoRandomVector } from '../curves/augmented.js';
+import { weightedBorders } from '../curves/null-border.js';
 import { type RefinementOperator, refineSolution } from '../curves/refinement.js';
 
 export interface ComplexNumber {
@@ -384,22 +385,7 @@ export class ComplexNullBorder {
     const inv = new Float64Array(n);
     for (let i = 0; i < n; i++) inv[i] = 1 / wt[i];
     const le = realPart(left, n, inv);
-    let sx = 0;
-    let sy = 0;
-    for (let i = 0; i < n; i++) {
-      sx += wt[i] * re[i] * re[i];
-      sy += (le[i] * le[i]) / wt[i];
-    }
-    sx = Math.sqrt(sx);
-    sy = Math.sqrt(sy);
-    if (!(sx > 0 && sy > 0 && Number.isFinite(sx) && Number.isFinite(sy))) throw new Error('the eigenvectors vanished (the bordered system is degenerate)');
-    let bmax = 0;
-    for (let i = 0; i < n; i++) {
-      this.c[i] = (wt[i] * re[i]) / sx;
-      this.b[i] = le[i] / wt[i] / sy;
-      bmax = Math.max(bmax, Math.abs(this.b[i]));
-    }
-    this.corner = bmax;
+    this.corner = weightedBorders(re, le, wt, this.b, this.c, 'eigenvectors').corner;
   }
 
   /** Borders as saved (checkpoints). */
