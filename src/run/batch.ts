@@ -212,6 +212,8 @@ export interface SessionOptions {
   lock?: FolderLock;
   /** The folder belongs to the caller (a study's grid folder): see RunCaseOptions.alongside. */
   alongside?: boolean;
+  /** Processor cores the run may use (RunCaseOptions.cores; default 1). */
+  cores?: number;
 }
 
 /**
@@ -233,6 +235,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       ...(o.lock ? { lock: o.lock } : {}),
       ...(o.alongside ? { alongside: true } : {}),
       ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
+      ...(o.cores !== undefined ? { cores: o.cores } : {}),
       ...(c
         ? {
             resume: {
@@ -417,6 +420,8 @@ export interface BatchOptions {
   view: ProgressView;
   /** Called as each case ends (in the order they end). */
   onOutcome?: (target: RunTarget, outcome: CaseOutcome) => void;
+  /** Processor cores each case run here may use (RunCaseOptions.cores; cases in worker processes use one). */
+  cores?: number;
 }
 
 const workers = new Set<ChildProcess>();
@@ -457,7 +462,7 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
         continue;
       }
       try {
-        const result = await runSession(t.prepared, { outDir: t.outDir, ...(o.force ? { force: true } : {}), signal: o.signal, view: o.view, name: t.prepared.case.name });
+        const result = await runSession(t.prepared, { outDir: t.outDir, ...(o.force ? { force: true } : {}), signal: o.signal, view: o.view, name: t.prepared.case.name, ...(o.cores !== undefined ? { cores: o.cores } : {}) });
         finish(i, outcomeOf(t, result));
       } catch (e) {
         finish(i, { name: t.prepared.case.name, caseFile: t.prepared.file ?? null, directory: t.outDir, status: 'failed', reason: e instanceof Error ? e.message : String(e) });
