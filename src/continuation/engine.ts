@@ -525,6 +525,8 @@ export class Continuation {
         const trace = own ?? (this.lent.delete(next.info.id) ? this.options.helpers!.take(next.info.id, this.options.interrupt) : undefined);
         this.lent.delete(next.info.id);
         if (trace) {
+          if (own) this.shared.outOfTurn++;
+          else this.shared.helpers++;
           yield* this.takeOver(trace);
           continue;
         }
@@ -550,6 +552,8 @@ export class Continuation {
     if (b.index + 1 >= this.settings.maxPoints) yield this.end(b, 'point-limit');
   }
 
+  /** How many branches were traced by helpers, and out of turn by the spare engine (for the run's log). */
+  readonly shared = { helpers: 0, outOfTurn: 0 };
   /** Branches handed to helpers (or traced by the spare engine) and not yet taken over. */
   private readonly lent = new Set<number>();
   /** Branches traced here by the spare engine while a helper held the next one. */

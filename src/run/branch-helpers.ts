@@ -25,6 +25,13 @@ import type { BranchHelpers, BranchTask, BranchTrace } from '../continuation/eng
 import { type PreparedCase, caseDocument, ownCodeModel } from './case.js';
 import { syncEvery } from './run-hooks.js';
 
+/**
+ * Below this many unknowns a run or a grid costs about what starting another thread or process
+ * costs (loading the program and the WebAssembly solvers, preparing the case: a second or two of
+ * CPU), so by default (no --cores) such work stays on one core.
+ */
+export const sideBySideUnknowns = 5000;
+
 /** What a helper thread starts with (workerData). */
 export interface HelperSetup {
   doc: Record<string, unknown>;

@@ -62,6 +62,8 @@ export interface EngineLike {
    * from here exactly what an engine resumed from a snapshot taken now computes (sync points).
    */
   restartLinearAlgebra?(): void;
+  /** When present: how many branches were traced by helper threads, and out of turn (BranchHelpers). */
+  readonly shared?: { helpers: number; outOfTurn: number };
   /** When present: which sparse LU the continuation uses and why (recorded in run.json). */
   linearSolver?(): { backend: string; requested: string; reason: string } | undefined;
   dispose(): void;
@@ -410,6 +412,10 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
     record.failure = e instanceof Error ? e.message : String(e);
     log('warning', `run failed: ${record.failure}`);
   } finally {
+    if (helpers && engine?.shared) {
+      const s = engine.shared;
+      log('info', `${options.cores} cores: ${s.helpers} branch${s.helpers === 1 ? '' : 'es'} traced in helper threads, ${s.outOfTurn} out of turn in this one`);
+    }
     try {
       helpers?.dispose();
       engine?.dispose();

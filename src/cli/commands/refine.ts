@@ -4,6 +4,7 @@ import { leaveAtOnce } from '../../run/leave.js';
 import { machineCores, parseCores, twoStageSignals } from './run.js';
 import { resolve } from 'node:path';
 import { caseDocument, prepareCase } from '../../run/case.js';
+import { sideBySideUnknowns } from '../../run/branch-helpers.js';
 import { InputError } from '../../run/errors.js';
 import { parsePointSpec, pointSpecAccepted } from '../../run/start.js';
 import { formatStudySummary, runStudy } from '../../refine/study.js';
@@ -56,7 +57,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
     .requiredOption('--grids <list>', 'intervals along the first axis, e.g. 32,64,128 (every axis is scaled alike; any ratios)')
     .option('--point <which>', `the special point: ${pointSpecAccepted} (default: the first fold)`)
     .option('--branch <k>', 'the branch the point lies on (default 1; curve runs: the curve on which the point appears)')
-    .option('--cores <n>', `processor cores the study may use: up to n grids run side by side, each in its own process (default: this machine's cores, ${machineCores()} here; the files are the same for any number)`)
+    .option('--cores <n>', `processor cores the study may use: up to n grids run side by side, each in its own process (default: this machine's cores, ${machineCores()} here, when the second-largest grid has at least ${sideBySideUnknowns} unknowns, else 1; the files are the same for any number)`)
     .option('--jobs <n>', 'grids run side by side in this many processes (overrides --cores)')
     .option('--expected-order <p>', 'formal order of the discretisation, checked against the observed one (default 2; none for code models)')
     .option('--out <dir>', 'study folder (default runs/<case name>-refine)')
@@ -86,8 +87,10 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
       const settings = clusterSettings(opts, [prepared]);
       if (settings && jobs !== undefined) throw new InputError('--jobs runs grids side by side on this machine; with --slurm each grid is its own task (leave --jobs out)');
       if (settings && opts.cores !== undefined) throw new InputError('--cores runs grids side by side on this machine; with --slurm each grid is its own task (leave --cores out)');
-      // grids side by side, as many as the cores allow (one process each)
-      const sideBySide = settings ? undefined : (jobs ?? Math.min(parseCores(opts.cores), grids.length));
+      // grids side by side (one process each): as many as --cores says, or by default as the
+      // machine has where the grids are large enough to share (runStudy decides)
+      const cores = settings ? undefined : parseCores(opts.cores);
+      const sideBySide = jobs ?? (typeof cores === 'number' ? Math.min(cores, grids.length) : undefined);
       const outDir = opts.out !== undefined ? resolve(opts.out) : resolve('runs', `${prepared.case.name}-refine`);
       const executor = settings
         ? new SlurmExecutor({
@@ -116,7 +119,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
           ...(executor ? { executor } : {}),
           ...(point ? { point } : {}),
           ...(branch !== undefined ? { branch } : {}),
-          ...(sideBySide !== undefined ? { jobs: sideBySide } : {}),
+          ...(sideBySide !== undefined ? { jobs: sideBySide } : cores === 'auto' ? { cores: machineCores() } : {}),
           ...(expectedOrder !== undefined ? { expectedOrder } : {}),
           ...(opts.force ? { force: true } : {}),
           signal: stop.signal,

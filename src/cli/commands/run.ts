@@ -2,6 +2,7 @@ import { availableParallelism } from 'node:os';
 import { relative, resolve } from 'node:path';
 import type { Command } from 'commander';
 import { type CommandContext, type Io, processIo } from '../io.js';
+import { sideBySideUnknowns } from '../../run/branch-helpers.js';
 import { type CaseOutcome, batchLines, hasWorkers, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
 import { leaveAtOnce } from '../../run/leave.js';
@@ -95,9 +96,9 @@ export function machineCores(): number {
   return Math.max(1, availableParallelism());
 }
 
-/** `--cores N`: a whole number from 1 (default: this machine's cores). */
-export function parseCores(text: string | undefined): number {
-  if (text === undefined) return machineCores();
+/** `--cores N`: a whole number from 1; absent: `auto` (this machine's cores where the work is large enough to share). */
+export function parseCores(text: string | undefined): number | 'auto' {
+  if (text === undefined) return 'auto';
   const n = Number(text);
   if (!/^\s*\d+\s*$/.test(text) || !Number.isInteger(n) || n < 1 || n > maxJobs) {
     throw new InputError(`--cores: '${text}' is not accepted (accepted: a whole number from 1 to ${maxJobs})`);
@@ -106,7 +107,7 @@ export function parseCores(text: string | undefined): number {
 }
 
 /** The --cores option's help (run, resume). */
-export const coresHelp = `processor cores a run may use: the branches that start at a branch point are traced side by side (default: this machine's cores, ${machineCores()} here; the files are the same for any number)`;
+export const coresHelp = `processor cores a run may use: the branches that start at branch points are traced side by side (default: this machine's cores, ${machineCores()} here, for grids of at least ${sideBySideUnknowns} unknowns, else 1; the files are the same for any number)`;
 
 /** `branchline run CASE...`: trace cases and write their run directories. */
 export function registerRun(program: Command, { io, setExit }: CommandContext): void {
