@@ -168,6 +168,11 @@ export interface BranchTrace {
 export interface BranchHelpers {
   /** The run layer's sync-point period (see traceBranch). */
   readonly syncEvery: number;
+  /**
+   * Whether this thread may trace a later branch while a helper still holds the next one (with a
+   * second engine: a second set of factorisations in this thread's memory).
+   */
+  readonly outOfTurn: boolean;
   /** How many more branches can be handed over now. */
   free(): number;
   /** Whether a submitted branch is still being traced (taking it now would wait). */
@@ -510,12 +515,22 @@ export class Continuation {
         const head = this.state.queue[0];
         if (!head) break;
         // the next branch is still being traced elsewhere: trace a later one meanwhile (kept for its turn)
-        if (this.lent.has(head.info.id) && !this.ownTraces.has(head.info.id) && this.options.helpers!.busy(head.info.id)) {
+        const helpers = this.options.helpers;
+        if (helpers?.outOfTurn && !this.spareFailed && this.lent.has(head.info.id) && !this.ownTraces.has(head.info.id) && helpers.busy(head.info.id)) {
           this.lend();
           const later = this.state.queue.find((q) => !this.lent.has(q.info.id));
           if (later) {
             this.lent.add(later.info.id);
-            this.ownTraces.set(later.info.id, this.spare().traceBranch({ pending: later, known: this.state.knownBranchPoints }, this.options.helpers!.syncEvery));
+            try {
+              this.ownTraces.set(later.info.id, this.spare().traceBranch({ pending: later, known: this.state.knownBranchPoints }, helpers.syncEvery));
+            } catch (e) {
+              rethrowInterrupt(e);
+              // (out of memory, say) the branch is traced in its turn by this engine instead
+              this.spareEngine?.dispose();
+              this.spareEngine = undefined;
+              this.lent.delete(later.info.id);
+              this.spareFailed = true;
+            }
             continue;
           }
         }
@@ -559,6 +574,8 @@ export class Continuation {
   /** Branches traced here by the spare engine while a helper held the next one. */
   private readonly ownTraces = new Map<number, BranchTrace>();
   private spareEngine: Continuation | undefined;
+  /** The spare engine failed once (out of memory, say): no more branches out of turn. */
+  private spareFailed = false;
 
   /** A second engine of this thread for branches traced out of turn (see events()). */
   private spare(): Continuation {

@@ -24,6 +24,7 @@ import { MessageChannel, type MessagePort, Worker, receiveMessageOnPort } from '
 import type { BranchHelpers, BranchTask, BranchTrace } from '../continuation/engine.js';
 import { type PreparedCase, caseDocument, ownCodeModel } from './case.js';
 import { syncEvery } from './run-hooks.js';
+import { defaultFactorMemoryLimit, estimateFactorMemory } from '../../discretisations/index.js';
 
 /**
  * Below this many unknowns a run or a grid costs about what starting another thread or process
@@ -82,7 +83,12 @@ export class BranchHelperThreads implements BranchHelpers {
     private readonly count: number,
     private readonly script: string,
     private readonly log: (level: 'info' | 'warning', message: string) => void,
-  ) {}
+  ) {
+    const d = prepared.problem.describe();
+    const factor = estimateFactorMemory(d.axes.map((a) => a.nodes), Math.max(1, d.fields.length), prepared.problem.extraUnknowns.length + 1).bytes;
+    // the continuation's factors and, with stability, the eigen solver's: twice over
+    this.outOfTurn = 2 * factor * (prepared.case.stability.eigenvalues > 0 ? 2 : 1) <= defaultFactorMemoryLimit;
+  }
 
   /**
    * Helpers for a run on `cores` cores (cores − 1 threads beside the run's own); undefined when
@@ -100,6 +106,11 @@ export class BranchHelperThreads implements BranchHelpers {
   }
 
   readonly syncEvery = syncEvery;
+  /**
+   * While a helper holds the next branch, this thread traces a later one with a second engine —
+   * only where a second set of factorisations fits the solver's address space with the first.
+   */
+  readonly outOfTurn: boolean;
 
   busy(id: number): boolean {
     const h = this.helpers.find((x) => x.busy === id);

@@ -62,6 +62,7 @@ function drive(c: Continuation): unknown[][] {
 /** Helpers in this thread: each branch traced at once by a new engine; `busyFor` answers of busy() before it is ready. */
 class HereHelpers implements BranchHelpers {
   readonly syncEvery = every;
+  readonly outOfTurn = true;
   readonly traced: number[] = [];
   private readonly traces = new Map<number, BranchTrace>();
   private readonly busyLeft = new Map<number, number>();
