@@ -151,6 +151,9 @@ export class DeflatedNewton {
     const { n, problem, params, settings, matrix, f, rhs, d, g, trial } = this;
     const w = problem.weights;
     for (let i = 0; i < n; i++) if (!Number.isFinite(u[i])) return { converged: false, iterations: 0, residual: NaN, failure: 'non-finite', message: 'the initial guess is not finite' };
+    // every solve takes fresh pivots, as on a new matrix: a solve does not depend on the ones
+    // before it, so a search resumed from a snapshot repeats the uninterrupted one bit for bit
+    matrix.forget();
     matrix.evaluateJacobian(u, params);
     const c = 1 / (polishShift * this.scaleFromJacobian());
     let res = this.residual(u);

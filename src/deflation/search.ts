@@ -121,6 +121,41 @@ export interface SearchState {
   counters: { iterations: number; residuals: number; factorisations: number };
 }
 
+const outcomes: readonly SolveOutcome[] = ['new', 'repeat', 'failed'];
+const endReasons = Object.keys(searchEndText) as SearchEndReason[];
+
+/**
+ * Why a saved search state (a snapshot read back) cannot go on with a problem of `size` unknowns
+ * and `guesses` guesses, in words ("has …"), or undefined when it fits: the states numbered from 1
+ * in order, each of `size` finite values and found by the solve that says so, the solves numbered
+ * from 1, the guess cursor and the per-guess record in range.
+ */
+export function checkSearchState(s: SearchState, size: number, guesses: number): string | undefined {
+  const whole = (x: unknown, lo: number, hi: number): boolean => Number.isInteger(x) && (x as number) >= lo && (x as number) <= hi;
+  if (s === null || typeof s !== 'object' || s.version !== 1) return 'is not a search state of this version';
+  if (!Array.isArray(s.states) || !Array.isArray(s.solves) || !Array.isArray(s.failedWith)) return 'has no states, solves or guess record';
+  if (s.failedWith.length !== guesses) return `has ${s.failedWith.length} guess${s.failedWith.length === 1 ? '' : 'es'}, this search ${guesses}`;
+  if (!s.failedWith.every((f) => whole(f, -1, s.states.length))) return 'has a guess record out of range';
+  if (!whole(s.cursor, 0, guesses - 1)) return `has the guess cursor ${String(s.cursor)} out of range`;
+  if (typeof s.done !== 'boolean' || (s.done && !endReasons.includes(s.endReason!))) return 'has no valid end';
+  const c = s.counters;
+  if (!c || ![c.iterations, c.residuals, c.factorisations].every((x) => whole(x, 0, Number.MAX_SAFE_INTEGER))) return 'has no valid counters';
+  for (const [i, r] of s.solves.entries()) {
+    if (!r || r.solve !== i + 1) return `has solves not numbered 1, 2, … (solve ${i + 1})`;
+    if (!whole(r.guess, 1, guesses) || !outcomes.includes(r.outcome)) return `has solve ${i + 1} with a bad guess or outcome`;
+    if (r.outcome !== 'failed' && !whole(r.state, 1, s.states.length)) return `has solve ${i + 1} ending at a state it does not hold`;
+  }
+  for (const [i, st] of s.states.entries()) {
+    if (!st || st.id !== i + 1) return `has states not numbered 1, 2, … (state ${i + 1})`;
+    if (!(st.u instanceof Float64Array) || st.u.length !== size) return `has state ${i + 1} with ${st.u instanceof Float64Array ? st.u.length : 'no'} values, the problem has ${size} unknowns`;
+    for (let k = 0; k < size; k++) if (!Number.isFinite(st.u[k])) return `has state ${i + 1} with a value that is not finite`;
+    const by = s.solves[st.solve - 1];
+    if (!by || by.outcome !== 'new' || by.state !== st.id || by.guess !== st.guess) return `has state ${i + 1} that its solve ${String(st.solve)} did not find`;
+    if (!whole(st.solves, 1, s.solves.length)) return `has state ${i + 1} with a bad count of solves`;
+  }
+  return undefined;
+}
+
 export class DeflatedSearch {
   private readonly state: SearchState;
   private readonly deflation: Deflation;
@@ -138,7 +173,8 @@ export class DeflatedSearch {
     this.state = options.state
       ? structuredClone(options.state)
       : { version: 1, states: [], solves: [], failedWith: guesses.map(() => -1), cursor: 0, done: false, counters: { iterations: 0, residuals: 0, factorisations: 0 } };
-    if (this.state.failedWith.length !== guesses.length) throw new Error(`the saved search has ${this.state.failedWith.length} guesses, this one ${guesses.length}`);
+    const bad = options.state ? checkSearchState(this.state, problem.size, guesses.length) : undefined;
+    if (bad) throw new Error(`the saved search ${bad}`);
     this.deflation = new Deflation(problem, params, settings.deflation);
     for (const s of this.state.states) this.deflation.add(s.u);
     this.newton = new DeflatedNewton(problem, params, this.deflation, settings.newton);

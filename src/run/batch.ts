@@ -25,7 +25,7 @@ import { folderWriteProblem } from './folders.js';
 import { FolderLock, holderText, lockHolder } from './lock.js';
 import type { ProgressView } from './progress.js';
 import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
-import { type ProgressInfo, type RunResult, outputDirectory } from './run-case.js';
+import { type ProgressInfo, type ResumeState, type RunResult, outputDirectory } from './run-case.js';
 import { columnPlan, newRunProblem, readRunRecord } from './run-directory.js';
 import { runCaseInThread } from './run-thread.js';
 import { sideBySideUnknowns } from './branch-helpers.js';
@@ -248,22 +248,23 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       ...(o.alongside ? { alongside: true } : {}),
       ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
       ...(o.cores !== undefined ? { cores: o.cores === 'auto' ? defaultRunCores(prepared) : o.cores } : {}),
-      ...(c
-        ? {
-            resume: {
-              ledger: c.ledger,
-              engineState: c.engine,
-              started: c.run.started,
-              previousSeconds: c.run.seconds,
-              resumes: c.run.resumes,
-              checkpoint: { file: o.resume!.file ?? checkpointFile, sequence: c.sequence, written: c.written, points: c.ledger.points },
-            },
-          }
-        : {}),
+      ...(c ? { resume: resumeStateOf(c, o.resume!.file) } : {}),
     });
   } finally {
     o.view.end(o.name);
   }
+}
+
+/** What runCase continues from (its `resume` option): a checkpoint's contents, read from `file`. */
+export function resumeStateOf(c: CheckpointDocument, file = checkpointFile): ResumeState {
+  return {
+    ledger: c.ledger,
+    engineState: c.engine,
+    started: c.run.started,
+    previousSeconds: c.run.seconds,
+    resumes: c.run.resumes,
+    checkpoint: { file, sequence: c.sequence, written: c.written, points: c.ledger.points },
+  };
 }
 
 /** The outcome of a finished session. */
@@ -382,6 +383,33 @@ export async function prepareResume(dirGiven: string, options: ResumeLockOptions
   }
 }
 
+/**
+ * What a resume goes on from: the newest usable checkpoint of the folder — or, for a run (or
+ * search) killed before its first checkpoint, nothing resumable having been computed, the case
+ * run.json records (`label` names it for messages) and the times, to start it over. InputError
+ * when a checkpoint was written but none can be used (run.json records one that went missing).
+ */
+export function checkpointOrRestart(
+  dirGiven: string,
+  dir: string,
+  run: Record<string, unknown>,
+): { found: ReturnType<typeof readCheckpoint> } | { restart: { started: string; resumes: string[] }; case: Record<string, unknown>; caseFile: string | null; label: string } {
+  try {
+    return { found: readCheckpoint(dir) };
+  } catch (e) {
+    if (!(e instanceof CheckpointError)) throw e;
+    const none = !existsSync(join(dir, checkpointFile)) && !existsSync(join(dir, previousCheckpointFile));
+    if (none && run.checkpoint === undefined && run.case && typeof run.case === 'object') {
+      const caseFile = typeof run['case-file'] === 'string' ? run['case-file'] : null;
+      const started = typeof run.started === 'string' ? run.started : new Date().toISOString();
+      const resumes = Array.isArray(run.resumed) ? run.resumed.filter((t): t is string => typeof t === 'string') : [];
+      return { restart: { started, resumes }, case: run.case as Record<string, unknown>, caseFile, label: `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})` };
+    }
+    if (none) throw new InputError(`${dirGiven}: cannot resume: run.json records a checkpoint, but neither ${checkpointFile} nor ${previousCheckpointFile} is there (removed?)`);
+    throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
+  }
+}
+
 async function checkResumable(
   dir: string,
   dirGiven: string,
@@ -390,24 +418,12 @@ async function checkResumable(
   choice: CodeModelChoice,
 ): Promise<{ prepared: PreparedCase; outDir: string; plan: ResumePlan }> {
   const code: StoredCode = { dirGiven, runCase: run.case, choice };
-  let found;
-  try {
-    found = readCheckpoint(dir);
-  } catch (e) {
-    if (!(e instanceof CheckpointError)) throw e;
-    // killed before its first checkpoint: nothing resumable was computed; start over from the
-    // case run.json records (unless run.json says a checkpoint was written: then it went missing)
-    const none = !existsSync(join(dir, checkpointFile)) && !existsSync(join(dir, previousCheckpointFile));
-    if (none && run.checkpoint === undefined && run.case && typeof run.case === 'object') {
-      const caseFile = typeof run['case-file'] === 'string' ? run['case-file'] : null;
-      const prepared = await caseFromRunFolder(run.case as Record<string, unknown>, caseFile, dir, `${join(dirGiven, 'run.json')} (case ${caseFile ?? 'unknown'})`, code);
-      const started = typeof run.started === 'string' ? run.started : new Date().toISOString();
-      const resumes = Array.isArray(run.resumed) ? run.resumed.filter((t): t is string => typeof t === 'string') : [];
-      return { prepared, outDir: dir, plan: { skipped: [], previousStatus: status, restart: { started, resumes } } };
-    }
-    if (none) throw new InputError(`${dirGiven}: cannot resume: run.json records a checkpoint, but neither ${checkpointFile} nor ${previousCheckpointFile} is there (removed?)`);
-    throw new InputError(`${dirGiven}: cannot resume: ${e.message}`);
+  const from = checkpointOrRestart(dirGiven, dir, run);
+  if ('restart' in from) {
+    const prepared = await caseFromRunFolder(from.case, from.caseFile, dir, from.label, code);
+    return { prepared, outDir: dir, plan: { skipped: [], previousStatus: status, restart: from.restart } };
   }
+  const found = from.found;
   const c = found.document;
   const caseFile = c.run.caseFile;
   const prepared = await caseFromRunFolder(c.case, caseFile, dir, `${join(dirGiven, found.file)} (case ${caseFile ?? 'unknown'})`, code);

@@ -54,8 +54,8 @@ const digestBytes = 32;
 /** Plain number arrays at least this long go to the binary payload. */
 const longArray = 16;
 
-/** Why a checkpoint was written. */
-export type CheckpointReason = 'first-point' | 'points' | 'time' | 'stop';
+/** Why a checkpoint was written (a search for steady states: after a solve, after a trace). */
+export type CheckpointReason = 'first-point' | 'points' | 'time' | 'stop' | 'solve' | 'trace';
 
 export interface CheckpointDocument {
   format: typeof checkpointFormat;

@@ -239,6 +239,8 @@ export function findCaseDocument(c: ResolvedFindCase): Record<string, unknown> {
     ...(c.continuation !== undefined ? { continuation: c.continuation } : {}),
     output: { ...c.output },
     stability: { eigenvalues: c.stability.eigenvalues },
+    // how often each trace writes its checkpoints (the search writes one after every solve)
+    checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
     ...(c.plot ? { plot: { ...c.plot } } : {}),
   };
 }

@@ -142,7 +142,7 @@ describe('find-states on the bundled Allen–Cahn strip (Chafee & Infante 1974: 
     for (let k = 1; k <= 5; k++) for (const d of ['increase', 'decrease']) expect(drawn).toContain(`${k}:${d}:1`);
   });
 
-  it('redraws the same pictures with branchline plot, and refuses to resume a search in one line', async () => {
+  it('redraws the same pictures with branchline plot; resuming the finished search is refused in one line', async () => {
     const before = readFileSync(join(out, 'diagram.svg'), 'utf8');
     const r = await cli('plot', out);
     expect(r.code, r.err).toBe(0);
@@ -150,7 +150,8 @@ describe('find-states on the bundled Allen–Cahn strip (Chafee & Infante 1974: 
     expect(readFileSync(join(out, 'diagram.svg'), 'utf8')).toBe(before);
     const again = await cli('resume', out);
     expect(again.code).toBe(2);
-    expect(again.err).toMatch(/keeps no checkpoints/);
+    expect(again.err).toMatch(/the run finished at .*; there is nothing to resume/);
+    expect(existsSync(join(out, 'checkpoint.bin'))).toBe(false);
     expect(again.err.trim().split('\n').length).toBe(1);
   });
 });

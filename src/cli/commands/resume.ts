@@ -14,13 +14,14 @@ import { jsonSummary } from '../../run/batch.js';
 import { studyLog, studySignals } from './refine.js';
 import { coresHelp, onTerminal, parseCores, resumeHint, stopOnSignals } from './run.js';
 import { resumeSettle } from './settle.js';
+import { resumeFind } from './find-states.js';
 import { runKind } from '../../run/start.js';
 
 /** `branchline resume DIR`: continue a stopped or killed run from its last checkpoint. */
 export function registerResume(program: Command, { io, setExit }: CommandContext): void {
   program
     .command('resume')
-    .description('continue a stopped or killed run (or time integration) from its last checkpoint, in its own folder; or a refinement study (its unfinished grids, then the analysis)')
+    .description('continue a stopped or killed run (or time integration, or search for steady states) from its last checkpoint, in its own folder; or a refinement study (its unfinished grids, then the analysis)')
     .argument('<dir>', 'the run folder (holding run.json and checkpoint.bin), or a study folder (holding refine.json)')
     .option('--force', 'take the folder over from a writer on another host that cannot be checked from here (never from a live process on this machine)')
     .option('--case <file>', 'the case file the run was made from: the code model it names is loaded (a run folder alone never loads code)')
@@ -40,6 +41,9 @@ Ctrl-C or SIGTERM: the current step is finished, a checkpoint written, the run m
 A run that ended before its first checkpoint starts over from the case recorded in run.json.
 A refinement study: finished grids are kept, stopped or killed ones resume from their
 checkpoints, grids not started yet run; then refine.csv, refine.json and refine.svg are redone.
+A search for steady states (find-states) goes on with the solve after its last checkpoint, or
+with the trace under way from that trace's checkpoint; its state files must hold the
+checkpoint's states exactly.
 Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder holds no run,
 a finished run, a run another process is writing, or no usable checkpoint.`,
     )
@@ -63,7 +67,7 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
         return;
       }
       if (runKind(dirGiven) === 'settle') return resumeSettle(dirGiven, opts, { io, setExit }, code);
-      if (runKind(dirGiven) === 'find-states') throw new InputError(`${dirGiven}: a search for steady states (find-states) keeps no checkpoints; run it again (with --force to replace this folder), or start cases from its states (start: {solution: ${join(dirGiven, 'solutions', 'state-1.npy')}})`);
+      if (runKind(dirGiven) === 'find-states') return resumeFind(dirGiven, opts, { io, setExit }, code);
       const { prepared, outDir, plan, lock } = await prepareResume(dirGiven, { force: opts.force === true, code });
       try {
         await resumeHere(prepared, outDir, plan, lock, dirGiven, opts);

@@ -76,7 +76,7 @@ export function onTerminal(io: Io): boolean {
 }
 
 /** After the summary of a stopped run: how to go on. */
-export function resumeHint(o: CaseOutcome): string {
+export function resumeHint(o: Pick<CaseOutcome, 'status' | 'directory'>): string {
   if (o.status !== 'stopped') return '';
   const r = relative(process.cwd(), o.directory);
   return `To continue: branchline resume ${r === '' ? '.' : r.startsWith('..') ? o.directory : r}\n`;

@@ -30,6 +30,7 @@
  * independent null vector appears: the fold curve crosses a curve of branch points).
  */
 import type { LUOptions } from '../../linalg/lu.js';
+import { matVec } from '../../linalg/sparse.js';
 import type { Params, Problem } from '../../problem/problem.js';
 import { type AugmentedSystem, type TestFunction, type TestValue, solveSmall } from './augmented.js';
 import { BorderedCurveSystem } from './bordered-system.js';
@@ -212,13 +213,7 @@ export class FoldSystem extends BorderedCurveSystem implements AugmentedSystem {
   jacobianTimes(delta: Float64Array, out: Float64Array): void {
     this.exact();
     const n = this.n;
-    const pat = this.problem.pattern();
-    out.fill(0);
-    for (let j = 0; j < n; j++) {
-      const dj = delta[j];
-      if (dj === 0) continue;
-      for (let k = pat.colPtr[j]; k < pat.colPtr[j + 1]; k++) out[pat.rowIdx[k]] += this.jac[k] * dj;
-    }
+    matVec({ ...this.problem.pattern(), values: this.jac }, delta, out);
     let s = this.gPar * delta[n] + this.gFree * delta[n + 1];
     for (let i = 0; i < n; i++) {
       out[i] += this.fPar[i] * delta[n] + this.fFree[i] * delta[n + 1];

@@ -33,9 +33,38 @@ import { performance } from 'node:perf_hooks';
 import { BorderedMatrix } from '../../linalg/bordered.js';
 import { SparseLU, type LUOptions } from '../../linalg/lu.js';
 import { matTVec } from '../../linalg/sparse.js';
+import { infNorm } from '../../linalg/vector.js';
 import { type DerivativeEvaluator, derivativeEvaluator, directionalJacobian } from '../../problem/derivatives.js';
 import type { Params, Problem } from '../../problem/problem.js';
 import { type SystemCounters, emptyCounters, pseudoRandomVector } from './augmented.js';
+import { type RefinementOperator, refineSolution } from './refinement.js';
+
+/**
+ * Real borders from right and left vector approximations x and y (first n entries of each, n the
+ * length of the weights): c = W x / ‖x‖_w and b = W⁻¹ y / ‖W⁻¹ᐟ²y‖ (W the quadrature weights), so
+ * cᵀx > 0 and bᵀy > 0; returns ‖x‖_w, ‖W⁻¹ᐟ²y‖ and the corner d = max|b_i|, which keeps the sparse
+ * LU's threshold pivoting from taking the border early. `what` names the vectors in the error
+ * thrown when one of them vanishes.
+ */
+export function weightedBorders(x: ArrayLike<number>, y: ArrayLike<number>, wt: ArrayLike<number>, b: Float64Array, c: Float64Array, what: string): { sx: number; sy: number; corner: number } {
+  const n = wt.length;
+  let sx = 0;
+  let sy = 0;
+  for (let i = 0; i < n; i++) {
+    sx += wt[i] * x[i] * x[i];
+    sy += (y[i] * y[i]) / wt[i];
+  }
+  sx = Math.sqrt(sx);
+  sy = Math.sqrt(sy);
+  if (!(sx > 0 && sy > 0 && Number.isFinite(sx) && Number.isFinite(sy))) throw new Error(`the ${what} vanished (the bordered system is degenerate)`);
+  let bmax = 0;
+  for (let i = 0; i < n; i++) {
+    c[i] = (wt[i] * x[i]) / sx;
+    b[i] = y[i] / wt[i] / sy;
+    bmax = Math.max(bmax, Math.abs(b[i]));
+  }
+  return { sx, sy, corner: bmax };
+}
 
 export class NullVectorBorder {
   readonly n: number;
@@ -74,6 +103,17 @@ export class NullVectorBorder {
   private readonly z: Float64Array;
   private readonly r: Float64Array;
   private readonly d: Float64Array;
+  /** e_{n+1}, the right-hand side of the refined systems. */
+  private readonly e: Float64Array;
+  /** M and Mᵀ with the reference LU, for the refinement. */
+  private readonly operator: RefinementOperator = {
+    apply: (z, out) => this.time('solves', () => this.applyM(z, out, false)),
+    correct: (r, d) => this.correct(r, d, false),
+  };
+  private readonly transposedOperator: RefinementOperator = {
+    apply: (z, out) => this.time('solves', () => this.applyM(z, out, true)),
+    correct: (r, d) => this.correct(r, d, true),
+  };
 
   constructor(
     readonly problem: Problem,
@@ -99,6 +139,8 @@ export class NullVectorBorder {
     this.z = new Float64Array(n + 1);
     this.r = new Float64Array(n + 1);
     this.d = new Float64Array(n + 1);
+    this.e = new Float64Array(n + 1);
+    this.e[n] = 1;
   }
 
   /** Whether the model's exact second derivatives are used (else directional differences). */
@@ -247,47 +289,13 @@ export class NullVectorBorder {
    * LU; false when it contracts slowly (then a factorisation is cheaper).
    */
   private refine(transpose: boolean): boolean {
-    const n = this.n;
-    const { z, r, d } = this;
-    let previous = Infinity;
-    let last = Infinity;
-    for (let k = 0; k < 10; k++) {
-      const mag = this.time('solves', () => this.applyM(z, r, transpose));
-      let rn = 0;
-      for (let i = 0; i < n; i++) {
-        r[i] = -r[i];
-        rn = Math.max(rn, Math.abs(r[i]));
-      }
-      r[n] = 1 - r[n];
-      rn = Math.max(rn, Math.abs(r[n]));
-      // at the rounding level of the products (the result is as good as a direct solve's)
-      if (k >= 1 && rn <= 64 * Number.EPSILON * mag) return true;
-      if (k >= 1) {
-        // the residual (not the update, which can pause for a step) measures the contraction ρ;
-        // the last correction left an error of about ρ times itself
-        const rho = rn / previous;
-        // no more progress: the rounding floor when the corrections were already small (the
-        // result is then as good as a direct solve's), slow contraction otherwise
-        if (rho > 0.25) return last <= 1e-8;
-        if (last * rho <= 1e-14) return true;
-        // more than four further corrections needed: a factorisation is cheaper
-        if (k >= 2 && last * rho ** 4 > 1e-14) return false;
-      }
-      previous = rn;
-      this.counters.solves++;
-      this.time('solves', () => (transpose ? this.solver().solveTranspose(r, d) : this.solver().solve(r, d)));
-      let dn = 0;
-      let zn = 0;
-      for (let i = 0; i <= n; i++) {
-        z[i] += d[i];
-        dn = Math.max(dn, Math.abs(d[i]));
-        zn = Math.max(zn, Math.abs(z[i]));
-      }
-      if (!Number.isFinite(dn)) return false;
-      last = dn / zn;
-      if (last <= 1e-15) return true;
-    }
-    return false;
+    return refineSolution(this.z, this.e, transpose ? this.transposedOperator : this.operator, this.r, this.d);
+  }
+
+  /** One correction with the reference LU. */
+  private correct(r: Float64Array, d: Float64Array, transpose: boolean): void {
+    this.counters.solves++;
+    this.time('solves', () => (transpose ? this.solver().solveTranspose(r, d) : this.solver().solve(r, d)));
   }
 
   /** w from the transposed system (once per update: exact when factored here, refined otherwise). */
@@ -439,34 +447,16 @@ export class NullVectorBorder {
 
   /** Borders from right and left vector approximations x (right) and y (left); returns ‖x‖_w and ‖W⁻¹ᐟ²y‖. */
   setBorders(x: Float64Array, y: Float64Array): { sx: number; sy: number } {
-    const wt = this.weights;
-    const n = this.n;
-    let sx = 0;
-    let sy = 0;
-    for (let i = 0; i < n; i++) {
-      sx += wt[i] * x[i] * x[i];
-      sy += (y[i] * y[i]) / wt[i];
-    }
-    sx = Math.sqrt(sx);
-    sy = Math.sqrt(sy);
-    if (!(sx > 0 && sy > 0 && Number.isFinite(sx) && Number.isFinite(sy))) throw new Error('the null vectors vanished (the bordered system is degenerate)');
-    let bmax = 0;
-    for (let i = 0; i < n; i++) {
-      this.c[i] = (wt[i] * x[i]) / sx;
-      this.b[i] = y[i] / wt[i] / sy;
-      bmax = Math.max(bmax, Math.abs(this.b[i]));
-    }
-    this.corner = bmax;
-    return { sx, sy };
+    const r = weightedBorders(x, y, this.weights, this.b, this.c, 'null vectors');
+    this.corner = r.corner;
+    return r;
   }
 
   /** Borders as saved (checkpoints). */
   restoreBorders(b: Float64Array, c: Float64Array): void {
     this.b.set(b);
     this.c.set(c);
-    let bmax = 0;
-    for (let i = 0; i < this.n; i++) bmax = Math.max(bmax, Math.abs(b[i]));
-    this.corner = bmax;
+    this.corner = infNorm(b);
   }
 
   /**

@@ -28,6 +28,7 @@
  *     C(q, q, q̄) = D_a S + i D_b S,  S(u) = B_u(a, a) + B_u(b, b)  (D_a: derivative along a).
  */
 import { performance } from 'node:perf_hooks';
+import type { FactoredShift } from '../../linalg/eigen.js';
 import { ComplexSparseLU, type LUOptions, SparseLU } from '../../linalg/lu.js';
 import { type CscPattern, embedPattern, entryIndex, matVec } from '../../linalg/sparse.js';
 import { infNorm } from '../../linalg/vector.js';
@@ -70,6 +71,8 @@ export class FirstLyapunovCoefficient {
   private complex: ComplexSparseLU | undefined;
   private readonly complexValues: Float64Array;
   private fresh = true;
+  /** Whether `real` holds J's factorisation from the last `compute`. */
+  private realCurrent = false;
   private readonly jPlus: Float64Array;
   private readonly jMinus: Float64Array;
   private readonly jA: Float64Array;
@@ -96,6 +99,17 @@ export class FirstLyapunovCoefficient {
     this.jA = new Float64Array(nz);
     this.jB = new Float64Array(nz);
     this.work = new Float64Array(n);
+  }
+
+  /**
+   * Solves with J at the last `compute` (its real factorisation), for the eigenvalue solver's
+   * shift-0 operator; undefined when J was singular there or not factored. Valid until the next
+   * `compute`.
+   */
+  jacobianSolver(): FactoredShift | undefined {
+    if (!this.realCurrent || !this.real) return undefined;
+    const lu = this.real;
+    return { shift: 0, lu: { solve: (b: Float64Array, out?: Float64Array) => lu.solve(b, out) } };
   }
 
   /** Fresh pivots at the next factorisations (sync points of a run). */
@@ -125,10 +139,12 @@ export class FirstLyapunovCoefficient {
     let determinant = { sign: 0, logAbs: -Infinity };
     this.real ??= new SparseLU(this.pattern, this.luOptions);
     let realOk = true;
+    this.realCurrent = false;
     try {
       this.real.update(J, this.fresh);
       this.factorisations++;
       determinant = this.real.logDeterminant();
+      this.realCurrent = true;
     } catch {
       realOk = false;
     }
