@@ -85,7 +85,7 @@ export function benchCores(quick: boolean, repeats: number, log: (line: string) 
     const fold = join(dir, 'fold.yaml');
     writeFileSync(fold, foldCase());
     const plan: { name: string; command: string; unknowns: number; args: (cores: number) => (out: string) => string[] }[] = [
-      { name: `2D Allen–Cahn ${2 * m}x${m}, 4 eigenvalues, branches from 4 branch points`, command: 'run', unknowns: (2 * m - 1) * (m - 1), args: (c) => (out) => ['run', sw, '--out', out, '--cores', String(c)] },
+      { name: `2D Allen–Cahn ${2 * m}x${m}, 4 eigenvalues, the branches after its branch points`, command: 'run', unknowns: (2 * m - 1) * (m - 1), args: (c) => (out) => ['run', sw, '--out', out, '--cores', String(c)] },
       { name: `2D Bratu fold, grids ${grids.join(', ')}`, command: 'refine', unknowns: (grids[grids.length - 1] - 1) ** 2, args: (c) => (out) => ['refine', fold, '--grids', grids.join(','), '--out', out, '--cores', String(c)] },
     ];
     for (const p of plan) {
