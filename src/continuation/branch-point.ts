@@ -210,6 +210,8 @@ export interface BranchDirections {
    * critical eigenvalue positive (where the old branch is the unstable one).
    */
   unstableSide: number;
+  /** The same for the new branch: the parameter side on which it has the critical eigenvalue positive. */
+  newUnstableSide: number;
   /** Coefficients of the algebraic bifurcation equation in the orthonormal kernel basis (e1, e2). */
   q: { q11: number; q12: number; q22: number };
 }
@@ -346,17 +348,19 @@ export function branchDirections(sys: ContinuationSystem, xStar: Float64Array, t
   for (let i = 0; i < n; i++) phi[i] = e2[n] * e1[i] - e1[n] * e2[i];
   const pn = sys.normU(phi);
   if (pn > 0) scaleInPlace(phi, 1 / pn);
-  // critical eigenvalue along the old branch: μ(s) ≈ s · ψᵀ F_xx[τ1, (φ, 0)] / ψᵀ M φ
+  // critical eigenvalue along a branch with tangent v: μ(s) ≈ s · ψᵀ F_xx[v, (φ, 0)] / ψᵀ M φ
   const phiX = new Float64Array(n + 1);
   phiX.set(phi);
-  const dmu = Q(tau1, phiX);
   const mass = sys.problem.massDiagonal;
   let psiMphi = 0;
   for (let i = 0; i < n; i++) psiMphi += psi[i] * (mass ? mass[i] : 1) * phi[i];
-  const muPrime = dmu / psiMphi;
-  const side = Math.sign(muPrime * tau1[n]);
-  const unstableSide = Number.isFinite(side) && Math.abs(tau1[n]) > 1e-6 ? side : 0;
-  return { tau1, tau2, direction, psi, phi, unstableSide, q: { q11, q12, q22 } };
+  const sideAlong = (v: Float64Array): number => {
+    const side = Math.sign((Q(v, phiX) / psiMphi) * v[n]);
+    return Number.isFinite(side) && Math.abs(v[n]) > 1e-6 ? side : 0;
+  };
+  const unstableSide = sideAlong(tau1);
+  const newUnstableSide = sideAlong(direction);
+  return { tau1, tau2, direction, psi, phi, unstableSide, newUnstableSide, q: { q11, q12, q22 } };
 }
 
 /** The real eigenvalue nearest zero in a stability result (NaN when none is real). */

@@ -803,18 +803,28 @@ export class Continuation {
     let located = false;
     const seen = { fold: tOld[n] * tangent[n] < 0, branchPoint: b.determinantSign !== 0 && sign !== 0 && sign !== b.determinantSign };
     // fold: the tangent's λ component changes sign
+    let fold: EngineEvent | undefined;
     if (st.method === 'arclength' && st.locate.folds && tOld[n] * tangent[n] < 0) {
-      specials.push(this.foldEvent(b, xOld, tOld, xNew, tangent));
+      fold = this.foldEvent(b, xOld, tOld, xNew, tangent);
       located = true;
     }
     // branch point: the bordered determinant changes sign
     if (st.method === 'arclength' && st.locate.branchPoints && b.determinantSign !== 0 && sign !== 0 && sign !== b.determinantSign) {
-      specials.push(...this.branchPointEvents(b, xOld, tOld, b.determinantSign, ds, sign));
+      const found = this.branchPointEvents(b, xOld, tOld, b.determinantSign, ds, sign, xNew);
+      // A branch that turns in λ exactly where it crosses another is one of a pitchfork's pair of
+      // symmetric branches passing through its branch point: the turn is the branch point, not a fold.
+      const bp = found[0];
+      if (fold && fold.type === 'special' && bp.type === 'special' && bp.point.kind === 'branch-point' && bp.point.located && bp.point.type === 'pitchfork') {
+        const far = this.sys.norm(difference(stateOf(fold.point), stateOf(bp.point)));
+        if (far <= 1e-3 * ds) fold = undefined;
+      }
+      specials.push(...found);
       located = true;
       // whether its branches were computed (a helper may compute them for a point an earlier
       // branch found meanwhile), the rest of the branch starts from the same fresh linear algebra
       this.restartLinearAlgebra();
     }
+    if (fold) specials.unshift(fold);
     // parameter bounds: land exactly on the bound and stop
     const lam = xNew[n];
     let bound: number | undefined;
@@ -914,7 +924,8 @@ export class Continuation {
     return { type: 'special', point: fold };
   }
 
-  private branchPointEvents(b: BranchState, xa: Float64Array, ta: Float64Array, signA: number, ds: number, signB: number): EngineEvent[] {
+  /** xb: the step's new point, past the branch point on the old branch. */
+  private branchPointEvents(b: BranchState, xa: Float64Array, ta: Float64Array, signA: number, ds: number, signB: number, xb: Float64Array): EngineEvent[] {
     const n = this.n;
     const st = this.settings;
     const loc = locateBranchPoint(this.sys, xa, ta, signA, ds, signB, st.newton, st.branchPointTolerance);
@@ -974,8 +985,18 @@ export class Continuation {
       event.note = 'no point on a new branch converged (the crossing branch could not be followed)';
       return events;
     }
-    if (firsts.length === 2) {
-      const shape = branchShape(firsts[0].x[n] - xs[n], this.sys.norm(difference(firsts[0].x, xs)), firsts[1].x[n] - xs[n], this.sys.norm(difference(firsts[1].x, xs)), st.newton.stepTolerance * (1 + this.sys.norm(xs)));
+    const noise = st.newton.stepTolerance * (1 + this.sys.norm(xs));
+    // the old branch's own shape about the point, from the step's two ends: symmetric when it is one
+    // of a pitchfork's pair of branches (it turns in λ here), the new branch then being the one they
+    // break from — the point's type does not depend on the branch it was reached along
+    const oldShape = branchShape(xb[n] - xs[n], this.sys.norm(difference(xb, xs)), xa[n] - xs[n], this.sys.norm(difference(xa, xs)), noise);
+    if (oldShape === 'pitchfork' && Math.abs(dirs.tau1[n]) < 0.05 * Math.abs(dirs.direction[n])) {
+      event.type = 'pitchfork';
+      event.newBranchDirection = 'both';
+      const side = Math.sign(xa[n] - xs[n] + xb[n] - xs[n]);
+      event.criticality = dirs.newUnstableSide === 0 ? 'undetermined' : side === dirs.newUnstableSide ? 'supercritical' : 'subcritical';
+    } else if (firsts.length === 2) {
+      const shape = branchShape(firsts[0].x[n] - xs[n], this.sys.norm(difference(firsts[0].x, xs)), firsts[1].x[n] - xs[n], this.sys.norm(difference(firsts[1].x, xs)), noise);
       if (shape === 'pitchfork') {
         event.type = 'pitchfork';
         const side = Math.sign(firsts[0].x[n] - xs[n] + firsts[1].x[n] - xs[n]);
@@ -1148,6 +1169,14 @@ function subtractCounters(a: EngineCounters, b: EngineCounters, sign = 1): Engin
   for (const k of ['factorisations', 'refactorisations', 'solves', 'assemblies', 'eigenSolves', 'eigenFactorisations'] as const) out[k] = a[k] - sign * b[k];
   for (const k of Object.keys(out.seconds) as (keyof EngineCounters['seconds'])[]) out.seconds[k] = a.seconds[k] - sign * (b.seconds[k] ?? 0);
   return out;
+}
+
+/** (u, λ) of a special point, as the engine's state vectors hold them. */
+function stateOf(p: { u: Float64Array; value: number }): Float64Array {
+  const x = new Float64Array(p.u.length + 1);
+  x.set(p.u);
+  x[p.u.length] = p.value;
+  return x;
 }
 
 function inRange(v: number, lo: number, hi: number): boolean {

@@ -36,6 +36,11 @@ export interface StudyPlan {
   /** The special point asked for (null: the first fold). */
   point: PointSpec | null;
   branch: number;
+  /**
+   * Whether the branch was asked for (--branch). A curve study without it analyses the curve that
+   * holds the point (src/refine/study.ts), on every grid and after a resume alike.
+   */
+  branchGiven: boolean;
   expectedOrder: number | null;
   jobs: number;
   /** Each grid's intervals per axis and its folder (relative to the study folder). */
@@ -50,6 +55,7 @@ export function planJson(p: StudyPlan): Record<string, unknown> {
     grids: p.grids,
     point: p.point ? pointSpecText(p.point) : null,
     branch: p.branch,
+    'branch-given': p.branchGiven,
     'expected-order': p.expectedOrder,
     jobs: p.jobs,
   };
@@ -100,6 +106,8 @@ export function readStudyPlan(dir: string, label: string): { plan: StudyPlan; do
       grids: grids as number[],
       point: point ?? null,
       branch: Number.isInteger(p!.branch) ? (p!.branch as number) : 1,
+      // a plan of an earlier version does not say: branch 1 was then the default
+      branchGiven: typeof p!['branch-given'] === 'boolean' ? p!['branch-given'] : Number.isInteger(p!.branch) && p!.branch !== 1,
       expectedOrder: typeof expected === 'number' ? expected : null,
       jobs: Number.isInteger(p!.jobs) && (p!.jobs as number) > 0 ? (p!.jobs as number) : 1,
       runs: plannedRuns,

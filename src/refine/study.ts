@@ -309,6 +309,7 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
     grids: options.grids.slice(),
     point: options.point ?? null,
     branch,
+    branchGiven: options.branch !== undefined,
     expectedOrder: expected,
     jobs,
     runs: intervals.map((iv, i) => ({ grid: options.grids[i], intervals: iv, directory: `grid-${gridLabel(iv)}` })),
@@ -333,7 +334,7 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
       writeStartJson(studyDir, plan, prepared.case.name, { ...softwareVersion(), node: process.version });
     }
     return { prepared, plan, tasks };
-  }, { ...options, branchGiven: options.branch !== undefined });
+  }, options);
 }
 
 /** The grids to run afresh, as pieces for an executor (src/run/executor.ts). */
@@ -396,7 +397,7 @@ async function inStudyFolder(
   lockOptions: { purpose: string; label: string; takeOverForeign?: boolean },
   logGiven: StudyOptions['log'],
   open: () => { prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] } | Promise<{ prepared: PreparedCase; plan: StudyPlan; tasks: GridTask[] }>,
-  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'> & { branchGiven?: boolean },
+  options: Pick<StudyOptions, 'signal' | 'workerScript' | 'jobs' | 'executor'>,
 ): Promise<StudyResult> {
   const log = logGiven ?? (() => {});
   const made = makeFolder(studyDir, 'study folder');
@@ -431,7 +432,7 @@ async function inStudyFolder(
       if (outcomes.some((o) => o.status === 'submitted')) return submittedStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, point: plan.point ?? { kind: 'fold', index: 1 }, tasks });
       const reasons = new Map(tasks.map((t, i) => [t, outcomes[i]?.status === 'finished' ? undefined : outcomes[i]?.reason]));
       const done = tasks.map((t) => readOutcome(t, studyDir, reasons.get(t), false));
-      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false, ...(options.branchGiven !== undefined ? { branchGiven: options.branchGiven } : {}) });
+      return finishStudy(prepared, { studyDir, plan, parameter: prepared.settings.parameter, ...point, outcomes: done, stopped: false });
     }
     const studyOptions: StudyOptions = { grids: plan.grids, outDir: studyDir, ...options, jobs: plan.jobs, log };
     const thrown = await runGrids(tasks, studyDir, studyOptions);
@@ -443,7 +444,6 @@ async function inStudyFolder(
       ...point,
       outcomes,
       stopped: options.signal?.aborted ?? false,
-      ...(options.branchGiven !== undefined ? { branchGiven: options.branchGiven } : {}),
     });
   } finally {
     unregister();
@@ -534,14 +534,26 @@ function submittedStudy(
   };
 }
 
+/**
+ * The curve that holds the point (`cusp`, `zero-hopf:2`…) in the first grid's points that have it
+ * at all: the lowest-numbered curve with at least N points of that kind (curves are numbered alike
+ * on every grid). Undefined when no grid has it.
+ */
+export function curveHoldingPoint(specialsPerGrid: readonly (readonly SpecialRecord[])[], point: PointSpec): number | undefined {
+  for (const specials of specialsPerGrid) {
+    const curves = [...new Set(specials.filter((r) => r.kind === point.kind).map((r) => r.branch))].sort((a, b) => a - b);
+    const holding = curves.find((c) => findSpecial(specials, point, c) !== undefined);
+    if (holding !== undefined) return holding;
+  }
+  return undefined;
+}
+
 /** Pick the point, analyse, write refine.csv / refine.json / refine.svg. */
 function finishStudy(
   prepared: PreparedCase,
   s: {
     studyDir: string;
     plan: StudyPlan;
-    /** Whether --branch was given (curve runs: otherwise the curve holding the point); undefined: keep the plan's branch. */
-    branchGiven?: boolean;
     parameter: string;
     point?: PointSpec;
     outcomes: (GridRun & { specials: SpecialRecord[] })[];
@@ -552,17 +564,9 @@ function finishStudy(
   const { parameter, outcomes } = s;
   let branch = s.plan.branch;
   const expected = s.plan.expectedOrder;
-  // curve runs without --branch: the curve on which the point first appears (curves are numbered
-  // alike on every grid), rather than always curve 1
-  if (s.branchGiven === false && prepared.curve && s.point) {
-    for (const o of outcomes) {
-      const rec = o.specials.filter((r) => r.kind === s.point!.kind).sort((a, b) => a.branch - b.branch)[0];
-      if (rec) {
-        branch = rec.branch;
-        break;
-      }
-    }
-  }
+  // curve runs without --branch (the plan says so, for a resumed study too): the curve on which
+  // the point first appears (curves are numbered alike on every grid), rather than always curve 1
+  if (!s.plan.branchGiven && prepared.curve && s.point) branch = curveHoldingPoint(outcomes.map((o) => o.specials), s.point) ?? branch;
   // the default point: the first fold; when no grid has one, say what there is
   let spec = s.point;
   let failure: string | undefined;

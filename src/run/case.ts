@@ -39,12 +39,16 @@
  *
  * `prepareCase` does all checking and builds the problem without writing anything; errors are
  * one-line CaseErrors naming the file, the field path, the value and what is accepted.
+ *
+ * This file reads a case top to bottom (the file, the keys' shapes, the model, the grid, the
+ * parameters, the start state, the continuation); its parts live beside it: ./case-text.ts (YAML
+ * and JSON text), ./case-schema.ts (the keys' shapes, limits and defaults), ./case-messages.ts
+ * (values and field paths in messages), ./case-model.ts (code models, model errors, the
+ * catalogue), ./case-start.ts (the `start:` key) and ./case-document.ts (the resolved case
+ * written back as a document).
  */
 import { existsSync, statSync } from 'node:fs';
-import { basename, dirname, extname, isAbsolute, resolve } from 'node:path';
-import { pathToFileURL } from 'node:url';
-import { LineCounter, parseDocument } from 'yaml';
-import { z } from 'zod';
+import { basename, dirname, extname, resolve } from 'node:path';
 import {
   type FactorMemoryEstimate,
   InitialStateError,
@@ -62,44 +66,22 @@ import { autoMinimumUnknowns, decideBackend } from '../linalg/lu.js';
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
-import { type ResolvedFollow, curveSettingsOf, curveStartAt, followDocument, resolveFollow } from './curve-case.js';
-import { type CurveSettings, curveKinds } from '../continuation/curves/types.js';
-import { type ResolvedInitial, initialDocument, initialSpec, initialWords, resolveInitial } from './initial.js';
-import { FileReadError, caseFileLimit, codeModelLimit, notRegularFile, readTextFile, sizeText } from './read-file.js';
-import {
-  type RunPoint,
-  extrasForSolutionFile,
-  extrasVector,
-  finalPoint,
-  parsePointSpec,
-  pointSpecAccepted,
-  pointSpecText,
-  readRunFiles,
-  readSolutionFile,
-  runPoint,
-} from './start.js';
+import { type ResolvedFollow, curveSettingsOf, curveStartAt, resolveFollow } from './curve-case.js';
+import type { CurveSettings } from '../continuation/curves/types.js';
+import { type ResolvedInitial, initialSpec, initialWords, resolveInitial } from './initial.js';
+import { FileReadError, caseFileLimit, readTextFile } from './read-file.js';
+import { keyNote, keyPath, pathText, showValue, valueAt } from './case-messages.js';
+import { type CaseInput, type SolutionChoice, caseKeys, caseSchema, continuationSchema, defaultCheckpoint, solutionBytesLimit } from './case-schema.js';
+import { parseCaseText, refuseOddKeys } from './case-text.js';
+import { codeModelPath, loadCodeModel, modelErrorField } from './case-model.js';
+import { type StartKey, readStartState, resolveStartKey, setPhaseReference } from './case-start.js';
 
-// ---------------------------------------------------------------------------------------------
-// Limits (bad input is refused up front rather than discovered hours later)
-
-/** Points per branch above this are refused as absurd. */
-export const maxPointsLimit = 1_000_000;
-/** Branch-switching depth above this is refused (the number of branches can double per level). */
-export const maxDepthLimit = 10;
-/** Estimated solution files per branch (output.solutions: all) above this are refused. */
-export const solutionBytesLimit = 64 * 1024 ** 3;
-/**
- * Accepted `grid.length` per axis (in the user's unit, from nanometres to a planet in metres):
- * outside it h², h⁴ and their inverses leave double precision on the finest grids we accept.
- */
-export const lengthRange = [1e-9, 1e9] as const;
-/** The smallest Newton tolerance: below it round-off alone keeps the residual from converging. */
-export const minTolerance = 1e-15;
-
-export const solutionChoices = ['special', 'none', 'all'] as const;
-export type SolutionChoice = (typeof solutionChoices)[number];
-
-export const defaultCheckpoint = { everyPoints: 25, everySeconds: 60 };
+// the parts of reading a case that live in their own files, offered here as before
+export { showValue } from './case-messages.js';
+export { defaultCheckpoint, lengthRange, maxDepthLimit, maxPointsLimit, minTolerance, solutionBytesLimit, solutionChoices, type SolutionChoice } from './case-schema.js';
+export { duplicateJsonKey, parseCaseText } from './case-text.js';
+export { codeModelPath, modelCatalogue, ownCodeModel } from './case-model.js';
+export { caseDocument, caseDocumentHead, startingStateDocument } from './case-document.js';
 
 // ---------------------------------------------------------------------------------------------
 // The resolved case
@@ -174,275 +156,6 @@ export interface PreparedCase {
   curve?: { settings: CurveSettings; atPoint: boolean; frequency?: number };
 }
 
-// ---------------------------------------------------------------------------------------------
-// Showing values in messages
-
-/** A short, safe rendering of any value for messages (never throws). */
-/** `parent.key` for plain keys; just `parent` when the key itself is odd (empty, spaces…). */
-function keyPath(parent: string, key: string): string {
-  return /^[\w:-]+$/.test(key) ? `${parent}.${key}` : parent;
-}
-
-/** For odd keys, the message names the key itself (it cannot appear in the field path). */
-function keyNote(key: string): string {
-  return /^[\w:-]+$/.test(key) ? '' : `the name ${JSON.stringify(key)}: `;
-}
-
-export function showValue(v: unknown): string {
-  const text = render(v, 0);
-  return text.length > 60 ? text.slice(0, 57) + '...' : text;
-}
-
-function render(v: unknown, depth: number): string {
-  if (v === undefined) return depth === 0 ? 'nothing' : 'undefined';
-  if (v === null) return 'null';
-  if (typeof v === 'string') return depth === 0 && v.length > 60 ? `'${v.slice(0, 57)}...'` : `'${v}'`;
-  if (typeof v === 'number') return Number.isNaN(v) ? 'nan' : v === Infinity ? 'inf' : v === -Infinity ? '-inf' : String(v);
-  if (typeof v === 'bigint') return `${v}`;
-  if (typeof v === 'boolean') return v ? 'true' : 'false';
-  if (typeof v === 'function') return 'a function';
-  if (typeof v === 'symbol') return 'a symbol';
-  if (v instanceof Date) return Number.isNaN(v.getTime()) ? 'an invalid date' : v.toISOString();
-  if (depth > 2) return Array.isArray(v) ? '[...]' : '{...}';
-  if (Array.isArray(v) || ArrayBuffer.isView(v)) {
-    const items = Array.from(v as ArrayLike<unknown>).slice(0, 8).map((x) => render(x, depth + 1));
-    return `[${items.join(', ')}${(v as ArrayLike<unknown>).length > 8 ? ', ...' : ''}]`;
-  }
-  if (typeof v === 'object') {
-    const entries = Object.keys(v).slice(0, 6).map((k) => `${k}: ${render((v as Record<string, unknown>)[k], depth + 1)}`);
-    return `{${entries.join(', ')}${Object.keys(v).length > 6 ? ', ...' : ''}}`;
-  }
-  return 'a value';
-}
-
-function pathText(path: readonly PropertyKey[]): string {
-  let s = '';
-  for (const k of path) {
-    if (typeof k === 'number') s += `[${k}]`;
-    else s += s ? `.${String(k)}` : String(k);
-  }
-  return s;
-}
-
-function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
-  let v: unknown = root;
-  for (const k of path) {
-    if (v === null || typeof v !== 'object') return undefined;
-    v = (v as Record<PropertyKey, unknown>)[k as string];
-  }
-  return v;
-}
-
-// ---------------------------------------------------------------------------------------------
-// Schema of the case keys (model-specific keys are checked against the model's option list)
-
-/** Leaf schemas carry the words for "what is accepted" as their error message. */
-const accepted = (text: string) => ({ error: () => text });
-
-const finite = z.number(accepted('a finite number'));
-const positive = z.number(accepted('a positive number')).positive(accepted('a positive number'));
-const positiveInteger = (what = 'a positive integer') => z.number(accepted(what)).int(accepted(what)).positive(accepted(what));
-const word = (choices: readonly string[]) => z.enum(choices as [string, ...string[]], accepted(choices.join(', ')));
-const bool = z.boolean(accepted('true or false'));
-
-function section<T extends z.ZodRawShape>(shape: T) {
-  const keys = Object.keys(shape).join(', ');
-  return z.strictObject(shape, {
-    error: (iss) =>
-      iss.code === 'unrecognized_keys'
-        ? `unknown key${iss.keys.length > 1 ? 's' : ''} ${iss.keys.map((k) => `'${k}'`).join(', ')} (accepted: ${keys})`
-        : `a map with keys ${keys}`,
-  });
-}
-
-/** An integer from lo to hi (inclusive). */
-const integerIn = (lo: number, hi: number) => {
-  const text = accepted(`an integer from ${lo} to ${hi}`);
-  return z.number(text).int(text).min(lo, text).max(hi, text);
-};
-
-const intervalsText = accepted('a list of 1 to 3 integers, intervals per axis, e.g. [64] or [32, 32]');
-const atLeastTwo = accepted('an integer of at least 2');
-
-const lengthText = 'a length from 1e-9 to 1e9';
-const lengthSchema = z.number(accepted(lengthText)).min(lengthRange[0], accepted(lengthText)).max(lengthRange[1], accepted(lengthText));
-
-const gridSchema = section({
-  intervals: z.array(z.number(atLeastTwo).int(atLeastTwo).min(2, atLeastTwo), intervalsText).min(1, intervalsText).max(3, intervalsText),
-  length: z.union([lengthSchema, z.array(lengthSchema)], accepted(`${lengthText}, or a list of such lengths (one per axis)`)).optional(),
-});
-
-const stepSchema = section({ initial: positive.optional(), min: positive.optional(), max: positive.optional() });
-
-const stopSchema = section({ monitor: z.string(accepted('a monitor name')), above: finite.optional(), below: finite.optional() });
-
-const toleranceText = accepted(`a number from ${minTolerance} to below 1`);
-const turnText = accepted('a number of degrees above 0 and at most 90');
-
-const continuationSchema = section({
-  parameter: z.string(accepted('the name of a parameter of the model')),
-  bounds: z.tuple([finite, finite], accepted('two finite numbers [low, high]')),
-  direction: word(['increase', 'decrease', 'both']).optional(),
-  method: word(['arclength', 'natural']).optional(),
-  step: stepSchema.optional(),
-  'max-points': integerIn(1, maxPointsLimit).optional(),
-  'stop-when': z.array(stopSchema, accepted('a list of {monitor, above | below}')).optional(),
-  'branch-switching': section({ depth: integerIn(0, maxDepthLimit) }).optional(),
-  newton: section({
-    tolerance: z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
-    'residual-tolerance': z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
-    'step-tolerance': z.number(toleranceText).min(minTolerance, toleranceText).lt(1, toleranceText).optional(),
-    'max-iterations': integerIn(1, 100).optional(),
-  }).optional(),
-  locate: section({ folds: bool.optional(), 'branch-points': bool.optional() }).optional(),
-  'max-turn-degrees': z.number(turnText).positive(turnText).max(90, turnText).optional(),
-  'sparse-lu': word(['auto', 'klu', 'superlu']).optional(),
-  // curve runs (./curve-case.ts)
-  follow: word(curveKinds).optional(),
-  free: z.string(accepted('the name of a parameter of the model')).optional(),
-  'free-bounds': z.tuple([finite, finite], accepted('two finite numbers [low, high]')).optional(),
-  'free-direction': word(['increase', 'decrease']).optional(),
-  search: section({ step: stepSchema.optional(), 'max-points': integerIn(1, maxPointsLimit).optional() }).optional(),
-});
-
-const caseKeys = ['name', 'model', 'grid', 'parameters', 'continuation', 'output', 'stability', 'checkpoint', 'plot', 'start', 'initial', 'time', 'cluster', 'search'] as const;
-
-const setupLineText = accepted('a list of shell lines run before the run in a cluster job, e.g. ["module load nodejs/20"]');
-
-const caseSchema = z.looseObject(
-  {
-    name: z
-      .string(accepted('a name of letters, digits, dots, dashes and underscores (it names the output folder)'))
-      .regex(/^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$/, accepted('a name of letters, digits, dots, dashes and underscores (it names the output folder)'))
-      .optional(),
-    model: z.string(accepted(`a model id (${Object.keys(models).join(', ')}) or a path to a code model (.mjs)`)),
-    grid: gridSchema,
-    parameters: z.record(z.string(), z.unknown(), accepted('a map of parameter names to values, e.g. {lambda: 0.5}')).optional(),
-    // required by `run` (prepareCaseObject), optional for `settle` (a case may hold both)
-    continuation: continuationSchema.optional(),
-    // checked by ./initial.ts (its shape depends on the model) and ./settle-case.ts
-    initial: z.unknown().optional(),
-    time: z.unknown().optional(),
-    // checked by ./find-states-case.ts (used by `branchline find-states`, ignored by the others)
-    search: z.unknown().optional(),
-    output: section({
-      directory: z.string(accepted('a folder path')).min(1, accepted('a folder path')).optional(),
-      solutions: word(solutionChoices).optional(),
-    }).optional(),
-    stability: section({ eigenvalues: integerIn(0, 50) }).optional(),
-    checkpoint: section({ 'every-points': positiveInteger().optional(), 'every-seconds': positive.optional() }).optional(),
-    plot: section({ monitor: z.string(accepted('a monitor name, e.g. max or l2-norm')).optional() }).optional(),
-    start: section({
-      solution: z.string(accepted('a path to a .npy file')).min(1, accepted('a path to a .npy file')).optional(),
-      run: z.string(accepted('a run folder')).min(1, accepted('a run folder')).optional(),
-      point: z.string(accepted(pointSpecAccepted)).optional(),
-      branch: integerIn(1, 1_000_000).optional(),
-    }).optional(),
-    cluster: section({
-      setup: z.array(z.string(setupLineText).regex(/^[^\r\n]*\S[^\r\n]*$/, setupLineText), setupLineText).optional(),
-    }).optional(),
-  },
-  accepted('a case: a map with keys name, model, grid, parameters, continuation, output'),
-);
-
-type CaseInput = z.infer<typeof caseSchema>;
-
-// ---------------------------------------------------------------------------------------------
-// Reading
-
-/** Parse YAML (or JSON for `.json` files) into a plain value; errors are one line with the line number. */
-export function parseCaseText(text: string, label: string, json = false): unknown {
-  if (text.includes('\u0000')) throw new CaseError(label, '', 'the file holds binary data, not a YAML or JSON case');
-  if (json) {
-    let value: unknown;
-    try {
-      value = JSON.parse(text);
-    } catch (e) {
-      throw new CaseError(label, '', `not valid JSON: ${(e as Error).message}`);
-    }
-    // JSON.parse keeps the last of two equal keys without a word; YAML refuses them (uniqueKeys)
-    const twice = duplicateJsonKey(text);
-    if (twice) throw new CaseError(label, pathText(twice.path), `the key ${showValue(twice.key)} is given twice (line ${twice.line}); give each key once`);
-    return value;
-  }
-  const lineCounter = new LineCounter();
-  const doc = parseDocument(text, { prettyErrors: false, uniqueKeys: true, lineCounter });
-  if (doc.errors.length > 0) {
-    const err = doc.errors[0];
-    const line = err.pos ? lineCounter.linePos(err.pos[0]).line : undefined;
-    const first = err.message.split('\n')[0].replace(/ at line \d+, column \d+:?$/, '');
-    throw new CaseError(label, '', `not valid YAML${line ? ` (line ${line})` : ''}: ${first}`);
-  }
-  try {
-    return doc.toJS({ maxAliasCount: 100 });
-  } catch (e) {
-    throw new CaseError(label, '', `not valid YAML: ${(e as Error).message}`);
-  }
-}
-
-/**
- * The first key given twice in one object of a JSON text that JSON.parse accepted, with the path
- * of its object and its line. A plain scan: strings, brackets, colons and commas are all it needs.
- */
-export function duplicateJsonKey(text: string): { key: string; path: (string | number)[]; line: number } | undefined {
-  type Frame = { keys?: Set<string>; expectKey: boolean; index: number; key?: string };
-  const stack: Frame[] = [];
-  const path = (): (string | number)[] => stack.slice(0, -1).map((f) => (f.keys ? (f.key as string) : f.index));
-  for (let i = 0; i < text.length; i++) {
-    const c = text[i];
-    if (c === '{' || c === '[') {
-      stack.push(c === '{' ? { keys: new Set(), expectKey: true, index: 0 } : { expectKey: false, index: 0 });
-    } else if (c === '}' || c === ']') {
-      stack.pop();
-    } else if (c === ',') {
-      const top = stack[stack.length - 1];
-      if (top?.keys) top.expectKey = true;
-      else if (top) top.index++;
-    } else if (c === '"') {
-      const start = i;
-      for (i++; text[i] !== '"'; i++) if (text[i] === '\\') i++;
-      const top = stack[stack.length - 1];
-      if (top?.keys && top.expectKey) {
-        const key = JSON.parse(text.slice(start, i + 1)) as string;
-        top.expectKey = false;
-        if (top.keys.has(key)) {
-          top.key = key;
-          const line = text.slice(0, start).split('\n').length;
-          return { key, path: path(), line };
-        }
-        top.keys.add(key);
-        top.key = key;
-      }
-    }
-  }
-  return undefined;
-}
-
-/**
- * Keys that JavaScript gives a meaning of their own (`__proto__` names an object's prototype):
- * refused anywhere in a case, whatever it was read from (YAML, JSON, a run's stored case).
- */
-function refuseOddKeys(raw: unknown, label: string): void {
-  const stack: { v: unknown; path: (string | number)[] }[] = [{ v: raw, path: [] }];
-  // YAML anchors and aliases share one object between places (and can make a cycle): each object
-  // is looked at once, or a few nested aliases would mean exponentially many visits
-  const seen = new Set<object>();
-  while (stack.length) {
-    const { v, path } = stack.pop()!;
-    if (v === null || typeof v !== 'object' || ArrayBuffer.isView(v) || v instanceof Date) continue;
-    if (seen.has(v)) continue;
-    seen.add(v);
-    if (Array.isArray(v)) {
-      v.forEach((x, i) => stack.push({ v: x, path: [...path, i] }));
-      continue;
-    }
-    for (const key of Object.keys(v)) {
-      if (key === '__proto__') throw new CaseError(label, pathText(path), `the key '__proto__' is not accepted (JavaScript reads it as the prototype of the map; give another name)`);
-      stack.push({ v: (v as Record<string, unknown>)[key], path: [...path, key] });
-    }
-  }
-}
-
 /** Read and check a case file, build its problem; nothing is written. */
 export async function prepareCase(file: string, options: { label?: string } = {}): Promise<PreparedCase> {
   const { raw, opts } = readCaseFile(file, options);
@@ -480,23 +193,6 @@ export interface PrepareObjectOptions {
    * between colleagues, and a forged one must not run code the user did not name.
    */
   loadCode?: true | string;
-}
-
-/**
- * The option that lets a case built from `resolved` (a sweep's value, a grid of a study, the same
- * case in a worker) load its code model: the one already allowed when `resolved` was read; none
- * for other models.
- */
-export function ownCodeModel(resolved: { model: string; modelKind: ModelKind }): { loadCode?: string } {
-  return resolved.modelKind === 'code' ? { loadCode: resolved.model } : {};
-}
-
-/** The absolute path of the code model a case's `model` value names (undefined for a built-in id). */
-export function codeModelPath(model: unknown, baseDir: string): string | undefined {
-  if (typeof model !== 'string') return undefined;
-  const id = model.trim();
-  if (Object.hasOwn(models, id) || !(/[\\/]/.test(id) || /\.(mjs|js|cjs)$/i.test(id))) return undefined;
-  return isAbsolute(id) ? id : resolve(baseDir, id);
 }
 
 /**
@@ -954,91 +650,6 @@ export function defaultPlotMonitor(monitors: readonly string[], fields: readonly
   return monitors[0] ?? 'max';
 }
 
-interface StartKey {
-  resolved: ResolvedStart;
-  /** For a start from a run point: the point (solution file, parameters, extras). */
-  point?: RunPoint;
-  /** For a start from a solution file. */
-  solution?: string;
-}
-
-/** Check the `start` key and read what it names (the run's files; the .npy later). */
-function resolveStartKey(
-  start: { solution?: string; run?: string; point?: string; branch?: number } | undefined,
-  baseDir: string,
-  fail: (field: string, detail: string) => never,
-): StartKey | undefined {
-  if (start === undefined) return undefined;
-  const accepted = '{solution: file.npy}, {run: folder, point: fold[:N], branch: K} or {run: folder, point: final}';
-  if (start.solution !== undefined && start.run !== undefined) fail('start', `gives both solution and run (accepted: ${accepted})`);
-  if (start.solution !== undefined) {
-    if (start.point !== undefined || start.branch !== undefined) fail('start', `point and branch go with run, not with solution (accepted: ${accepted})`);
-    const file = resolve(baseDir, start.solution);
-    return { resolved: { solution: file }, solution: file };
-  }
-  if (start.run === undefined) fail('start', `names neither a solution file nor a run (accepted: ${accepted})`);
-  if (start.point === undefined) fail('start.point', `is missing (accepted: ${pointSpecAccepted})`);
-  if (start.point!.trim().toLowerCase() === 'final') {
-    const dir = resolve(baseDir, start.run!);
-    try {
-      return { resolved: { run: dir, point: 'final', branch: 1 }, point: finalPoint(dir) };
-    } catch (e) {
-      return fail('start.run', (e as Error).message);
-    }
-  }
-  const spec = parsePointSpec(start.point!);
-  if (!spec) fail('start.point', `${showValue(start.point)} is not accepted (accepted: ${pointSpecAccepted})`);
-  const dir = resolve(baseDir, start.run!);
-  const branch = start.branch ?? 1;
-  let files: ReturnType<typeof readRunFiles>;
-  try {
-    files = readRunFiles(dir);
-  } catch (e) {
-    return fail('start.run', (e as Error).message);
-  }
-  let point: RunPoint;
-  try {
-    point = runPoint(files, spec!, branch);
-  } catch (e) {
-    return fail('start.point', (e as Error).message);
-  }
-  return { resolved: { run: dir, point: pointSpecText(spec!), branch }, point };
-}
-
-/** Read the start state named by the `start` key and check it against the problem's grid. */
-function readStartState(start: StartKey, problem: Problem, params: Params, fail: (field: string, detail: string) => never): { u: Float64Array; from: string } {
-  const file = start.point?.solution ?? start.solution!;
-  const field = start.point ? 'start.run' : 'start.solution';
-  let array: { shape: number[]; data: Float64Array };
-  try {
-    // the grid says how large the file can be: nodes times fields
-    const d = problem.describe();
-    array = readSolutionFile(file, d.axes.reduce((a, ax) => a * ax.nodes, 1) * Math.max(1, d.fields.length));
-  } catch (e) {
-    return fail(field, (e as Error).message);
-  }
-  const extrasByName = start.point ? start.point.extras : extrasForSolutionFile(file);
-  const extras = extrasVector(problem.extraUnknowns.map((x) => x.name), extrasByName);
-  let u: Float64Array;
-  try {
-    u = problem.fromNodeArray(array.shape, array.data, params, extras);
-  } catch (e) {
-    return fail(field, `${file}: ${(e as Error).message}`);
-  }
-  if (u.length !== problem.size) fail(field, `${file}: the model made ${u.length} unknowns from it, the problem has ${problem.size}`);
-  for (let i = 0; i < u.length; i++) {
-    if (!Number.isFinite(u[i])) fail(field, `${file}: holds non-finite values (unknown ${i})`);
-  }
-  setPhaseReference(problem, u);
-  return { u, from: start.point ? `the ${start.point.words}` : `the solution file ${file}` };
-}
-
-/** A phase condition measures shifts against a reference profile: the start state is the natural one. */
-function setPhaseReference(problem: Problem, u: Float64Array): void {
-  const withReference = problem as Problem & { setPhaseReference?: (u: Float64Array) => void };
-  if (problem.extraUnknowns.length > 0 && typeof withReference.setPhaseReference === 'function') withReference.setPhaseReference(u);
-}
-
 function resolveStep(
   s: { initial?: number; min?: number; max?: number },
   fail: (field: string, detail: string) => never,
@@ -1075,136 +686,3 @@ export function toSettings(c: ResolvedContinuation, eigenvalues = 0): Continuati
   };
 }
 
-/** The starting state's keys of a case document, `initial:` then `start:` (settle and find-states cases). */
-export function startingStateDocument(c: { initial?: ResolvedInitial; start?: object }): Record<string, unknown> {
-  return { ...(c.initial ? { initial: initialDocument(c.initial) } : {}), ...(c.start ? { start: { ...c.start } } : {}) };
-}
-
-/** The keys every resolved case writes first: name, model, the model's own keys, grid, parameters. */
-export function caseDocumentHead(c: Pick<ResolvedCase, 'name' | 'model' | 'modelOptions' | 'grid' | 'modelKind' | 'parameterDeclarations' | 'parameters'>): Record<string, unknown> {
-  return {
-    name: c.name,
-    model: c.model,
-    ...c.modelOptions,
-    grid: { intervals: c.grid.intervals, length: c.grid.length },
-    parameters: c.modelKind === 'expression' ? (c.parameterDeclarations ?? {}) : c.parameters,
-  };
-}
-
-/**
- * The resolved case in the case-file format (every default filled in), as stored in run.json;
- * `prepareCaseObject` reads it back (issue: resume).
- */
-export function caseDocument(c: ResolvedCase): Record<string, unknown> {
-  const k = c.continuation;
-  return {
-    ...caseDocumentHead(c),
-    continuation: {
-      parameter: k.parameter,
-      bounds: k.bounds,
-      direction: k.direction,
-      // (curve runs have no method, branch switching or locate keys)
-      ...(k.follow ? followDocument(k.follow) : { method: k.method }),
-      step: k.step,
-      'max-points': k.maxPoints,
-      'stop-when': k.stopWhen,
-      ...(k.follow ? {} : { 'branch-switching': k.branchSwitching }),
-      newton: { 'residual-tolerance': k.newton.residualTolerance, 'step-tolerance': k.newton.stepTolerance, 'max-iterations': k.newton.maxIterations },
-      ...(k.follow ? {} : { locate: { folds: k.locate.folds, 'branch-points': k.locate.branchPoints } }),
-      'max-turn-degrees': k.maxTurnDegrees,
-      'sparse-lu': k.sparseLu,
-    },
-    output: { ...(c.output.directory !== undefined ? { directory: c.output.directory } : {}), solutions: c.output.solutions },
-    stability: { eigenvalues: c.stability.eigenvalues },
-    checkpoint: { 'every-points': c.checkpoint.everyPoints, 'every-seconds': c.checkpoint.everySeconds },
-    ...(c.plot ? { plot: { monitor: c.plot.monitor } } : {}),
-    ...(c.start ? { start: { ...c.start } } : {}),
-    ...(c.initial ? { initial: initialDocument(c.initial) } : {}),
-    ...(c.cluster ? { cluster: { setup: c.cluster.setup.slice() } } : {}),
-  };
-}
-
-// ---------------------------------------------------------------------------------------------
-// Code models and model errors
-
-async function loadCodeModel(abs: string, given: string, label: string): Promise<ProblemFactory> {
-  if (!existsSync(abs)) throw new CaseError(label, 'model', `code model ${showValue(given)} not found (looked for ${abs})`);
-  // importing a FIFO or a device would block or never end
-  const odd = notRegularFile(abs);
-  if (odd) throw new CaseError(label, 'model', `code model ${showValue(given)} cannot be loaded: ${odd}`);
-  if (statSync(abs).size > codeModelLimit) throw new CaseError(label, 'model', `code model ${showValue(given)} is larger than the ${sizeText(codeModelLimit)} accepted for a code model`);
-  let mod: Record<string, unknown>;
-  try {
-    mod = (await import(pathToFileURL(abs).href)) as Record<string, unknown>;
-  } catch (e) {
-    throw new CaseError(label, 'model', `code model ${showValue(given)} could not be loaded: ${(e as Error).message ?? String(e)}`);
-  }
-  const f = mod.default;
-  if (typeof f !== 'function') {
-    throw new CaseError(label, 'model', `code model ${showValue(given)} has no default export of a factory function (accepted: export default function (options) { return problem; })`);
-  }
-  const factory = f as ProblemFactory;
-  return (options) => {
-    try {
-      return factory(options);
-    } catch (e) {
-      throw new Error(`code model ${showValue(given)} failed to build the problem: ${e instanceof Error ? e.message : String(e)}`);
-    }
-  };
-}
-
-/** Find the case field a model's error message is about (the models name options in words). */
-function modelErrorField(message: string, modelId: string, kind: ModelKind): { field: string; detail: string } {
-  const stripped = message.replace(/^model '[^']*':\s*/, '');
-  const memory = /^model '[^']*' on (grid \S+: the sparse LU would need.*)$/.exec(message);
-  if (memory) return { field: 'grid.intervals', detail: memory[1] };
-  const tries: [RegExp, (m: RegExpExecArray) => string][] = [
-    [/^grid\.(intervals|length)(\[\d+\])?/, (m) => `grid.${m[1]}${m[2] ?? ''}`],
-    [/^(reaction|diffusion|initial) for field '([^']+)'/, (m) => `${m[1]}.${m[2]}`],
-    [/^boundary of field '([^']+)'/, (m) => `boundary.${m[1]}`],
-    [/^boundary\b/, () => 'boundary'],
-    [/^parameter(?: name)? '([^']+)'/, (m) => `parameters.${m[1]}`],
-    [/option '([^']+)'/, (m) => (m[1] === 'parameters' ? 'parameters' : m[1])],
-    [/^(field name|'[^']+' is both)/, () => 'fields'],
-    [/grid has \d+ axes/, () => 'grid.intervals'],
-  ];
-  if (kind !== 'code') {
-    for (const [re, f] of tries) {
-      const m = re.exec(stripped);
-      if (m) {
-        const field = f(m);
-        // the message already names the field: keep its wording without repeating the model
-        return { field, detail: stripped.replace(/^grid\.(intervals|length)(\[\d+\])?( \(axis [xyz]\))?\s*/, '') };
-      }
-    }
-  }
-  return { field: 'model', detail: kind === 'code' ? message : `model '${modelId}': ${stripped}` };
-}
-
-/** The parameters and options of every model, for `branchline models`. */
-export function modelCatalogue(): {
-  id: string;
-  description: string;
-  dimensions: readonly number[];
-  parameters: { name: string; default: number; description: string }[];
-  options: readonly OptionSpec[];
-  /** The monitors of the model with its default options (built on a small grid of its first dimension); null for expression models (they depend on the fields). */
-  monitors: { name: string; description: string }[] | null;
-  caution?: string;
-}[] {
-  return Object.entries(models).map(([id, e]) => ({
-    id,
-    description: e.description,
-    dimensions: e.dimensions,
-    parameters: e.parameters.map((p) => ({ name: p.name, default: p.default, description: p.description })),
-    options: e.options.filter((o) => o.name !== 'grid'),
-    monitors: id === 'reaction-diffusion' ? null : catalogueMonitors(e),
-    ...(e.caution ? { caution: e.caution } : {}),
-  }));
-}
-
-function catalogueMonitors(e: (typeof models)[string]): { name: string; description: string }[] {
-  const dim = e.dimensions[0];
-  const problem = e.factory({ grid: { intervals: new Array(dim).fill(8), length: new Array(dim).fill(1) } });
-  return problem.monitors.map((m) => ({ name: m.name, description: m.description }));
-}

@@ -30,8 +30,8 @@ import { InputError } from './errors.js';
 import { makeFolder, removeIfEmpty } from './folders.js';
 import { onLeaveAtOnce } from './leave.js';
 import { FolderLock } from './lock.js';
-import { keptMessage } from './manifest.js';
-import { RunDirectory, type RunStatus, emptyLedger, extraValues, removeStaleFiles } from './run-directory.js';
+import { Manifest, keptMessage, readManifest } from './manifest.js';
+import { RunDirectory, type RunStatus, emptyLedger, extraValues, readRunRecord, removeStaleFiles } from './run-directory.js';
 import { type PreparedSettleCase, prepareSettleCaseObject, settleCaseDocument } from './settle-case.js';
 import { drawSettlePlots } from './settle-plots.js';
 import { isoNow, problemDocument, runHeader } from './run-record.js';
@@ -388,13 +388,25 @@ async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptio
   };
 }
 
-/** Before a resume: snapshot files the checkpoint does not list, the final state and temporary files go. */
+/** The files the integration in `dir` wrote (run.json `files`; when unusable, every name an integration writes). */
+function settleManifest(dir: string): Manifest {
+  const run = readRunRecord(dir);
+  const m = run ? readManifest(run) : undefined;
+  return m instanceof Manifest ? m : new Manifest(settleFiles);
+}
+
+/**
+ * Before a resume: of the files the integration wrote (its manifest: a user's own files stay, as
+ * for runs), the snapshots the checkpoint does not list, the final state and temporary files go.
+ */
 function removeUnrecorded(dir: string, ledger: SettleLedger): void {
   const keep = new Set(ledger.snapshots.map((s) => s.file));
+  const manifest = settleManifest(dir);
   removeStaleFiles(
     dir,
     ['snapshots', 'solutions'],
-    (rel, e) => /^\..*\.tmp$/.test(e) || (rel === 'snapshots/' && e.endsWith('.npy') && !keep.has(rel + e)) || (rel === 'solutions/' && e === 'final.npy'),
+    (rel, e) =>
+      manifest.covers(rel + e) && (/^\..*\.tmp$/.test(e) || (rel === 'snapshots/' && e.endsWith('.npy') && !keep.has(rel + e)) || (rel === 'solutions/' && e === 'final.npy')),
   );
 }
 

@@ -5,31 +5,17 @@
  * SIGINT (the built binary, a real process) resumed to the same files as an uninterrupted run.
  */
 import { type ChildProcess, spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join, resolve } from 'node:path';
+import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { main } from '../../src/cli/main.js';
 import { readCsv } from '../../src/run/writers.js';
 import { ensureBuilt } from './built.js';
+import { bin, cli, csvBytes, json, sleep, writerIn } from './processes.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-curves-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
-const bin = resolve('bin/branchline.js');
-
-async function cli(...args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await main(['node', 'branchline', ...args], { out: (s) => (out += s), err: (s) => (err += s) });
-  return { code, out, err };
-}
-
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
-const write = (name: string, text: string): string => {
-  const f = join(tmp, name);
-  writeFileSync(f, text);
-  return f;
-};
+const write = writerIn(tmp);
 
 // Turing lines of a Brusselator line: curves joined at mode changes
 const turing = `name: turing-lines
@@ -234,22 +220,6 @@ describe('curve runs: from the fold of an earlier run, and several at a time', (
     }
   });
 });
-
-function csvBytes(dir: string): number {
-  const b = join(dir, 'branches');
-  if (!existsSync(b)) return 0;
-  let total = 0;
-  for (const f of readdirSync(b)) {
-    try {
-      total += statSync(join(b, f)).size;
-    } catch {
-      /* removed meanwhile */
-    }
-  }
-  return total;
-}
-
-const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
 
 describe('curve runs: stop and resume', () => {
   const reference = join(tmp, 'turing-reference');

@@ -3,16 +3,20 @@
  * system with the real engine: the user's files — beside the run, inside branches/, solutions/
  * and plots/ — stay and are named; a folder whose run.json lists no files, or lists a file a run
  * does not write, is not a run to delete; `resume` never removes a user's file either. `settle
- * --force` follows the same rule, over a continuation run and over an earlier integration.
+ * --force` follows the same rule, over a continuation run and over an earlier integration, and
+ * so does the resume of an integration (a user's file in snapshots/ stays, its stale files go).
  */
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { prepareCase } from '../../src/run/case.js';
 import { Checkpointer } from '../../src/run/checkpoint.js';
 import { runCase } from '../../src/run/run-case.js';
+import { settleCase } from '../../src/run/settle.js';
+import { prepareSettleCase } from '../../src/run/settle-case.js';
 import { cli, json } from './processes.js';
+import { filesBelow } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-force-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -24,15 +28,7 @@ const write = (file: string, text: string): void => {
 };
 
 /** Every file below `dir`, relative, sorted. */
-function tree(dir: string, rel = ''): string[] {
-  const out: string[] = [];
-  for (const e of readdirSync(join(dir, rel), { withFileTypes: true })) {
-    const r = rel ? `${rel}/${e.name}` : e.name;
-    if (e.isDirectory()) out.push(...tree(dir, r));
-    else out.push(r);
-  }
-  return out.sort();
-}
+const tree = filesBelow;
 
 // branch switching: the earlier run has branches/2.csv, 3.csv … that the slab run never writes
 const pitchforks = join(tmp, 'pitchforks.yaml');
@@ -149,6 +145,33 @@ describe('settle --force', () => {
     expect(snapshotsOnDisk(dir)).toEqual(recorded);
     // (the earlier integration's snapshots at other times were there and are gone)
     expect(earlierSnapshots.filter((f) => !recorded.includes(f)).length).toBeGreaterThan(0);
+  });
+
+  it('resume removes only the integration’s own files written after its checkpoint, never the user’s (snapshots/ included)', async () => {
+    const dir = join(tmp, 'settle-resumed');
+    const stopper = new AbortController();
+    const r = await settleCase(await prepareSettleCase(pulse(50000)), { outDir: dir, signal: stopper.signal, progress: (p) => p.step >= 60 && stopper.abort() });
+    expect(r.status).toBe('stopped');
+    const listed = (json(join(dir, 'run.json')).snapshots as { file: string }[]).map((x) => x.file);
+    for (const [f, text] of Object.entries(files)) write(join(dir, f), text);
+    // what the integration itself may have left after its checkpoint: a later snapshot, temporary files
+    const stale = ['snapshots/time-99999.npy', '.monitors.csv.1.1.tmp', 'snapshots/.time-99999.npy.1.2.tmp'];
+    for (const f of stale) write(join(dir, f), 'stale');
+    const resumed = await cli('resume', dir, '--quiet');
+    expect(resumed.code, resumed.err).toBe(0);
+    for (const [f, text] of Object.entries(files)) expect(readFileSync(join(dir, f), 'utf8'), f).toBe(text);
+    for (const f of stale) expect(existsSync(join(dir, f)), f).toBe(false);
+    // the snapshots on disk are exactly those the finished integration records (the stopped run's among them)
+    const recorded = (json(join(dir, 'run.json')).snapshots as { file: string }[]).map((x) => x.file).sort();
+    expect(recorded).toEqual(expect.arrayContaining(listed));
+    expect(snapshotsOnDisk(dir)).toEqual(recorded);
+    expect(existsSync(join(dir, 'writer.lock'))).toBe(false);
+
+    // and --force over it keeps them too
+    const again = await cli('settle', pulse(2), '--out', dir, '--force');
+    expect(again.code, again.err).toBe(1);
+    expect(again.err).toMatch(/replaced the earlier run; kept 7 files it did not write/);
+    for (const [f, text] of Object.entries(files)) expect(readFileSync(join(dir, f), 'utf8'), f).toBe(text);
   });
 });
 

@@ -5,32 +5,20 @@
  * Bogdanov–Takens point of a fold-curve run, drawn with that run's fold curves; a batch's plane
  * diagram; a run stopped in the middle and resumed to the same files; bad keys refused.
  */
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { main } from '../../src/cli/main.js';
 import { prepareCase } from '../../src/run/case.js';
 import { Checkpointer } from '../../src/run/checkpoint.js';
 import { runCase } from '../../src/run/run-case.js';
 import { readCsv } from '../../src/run/writers.js';
+import { cli, json, writerIn } from './processes.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-hopf-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 
-async function cli(...args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await main(['node', 'branchline', ...args], { out: (s) => (out += s), err: (s) => (err += s) });
-  return { code, out, err };
-}
-
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
-const write = (name: string, text: string): string => {
-  const f = join(tmp, name);
-  writeFileSync(f, text);
-  return f;
-};
+const write = writerIn(tmp);
 
 /** The gray-scott Hopf starter on a coarse grid. */
 async function starter(): Promise<string> {

@@ -12,7 +12,6 @@ import fc from 'fast-check';
 import { stringify } from 'yaml';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { models } from '../../discretisations/index.js';
-import { main } from '../../src/cli/main.js';
 import { prepareCase } from '../../src/run/case.js';
 import { checkpointFile, previousCheckpointFile } from '../../src/run/checkpoint.js';
 import { progressView } from '../../src/run/progress.js';
@@ -20,25 +19,13 @@ import { runCase } from '../../src/run/run-case.js';
 import { Checkpointer } from '../../src/run/checkpoint.js';
 import { fakeEngine } from '../run/fake-engine.js';
 import { ensureBuilt } from './built.js';
+import { bin, cli, json, writerIn } from './processes.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-overnight-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
-const bin = resolve('bin/branchline.js');
 const slab = resolve('test/fixtures/run/bratu-1d.yaml');
 
-async function cli(...args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await main(['node', 'branchline', ...args], { out: (s) => (out += s), err: (s) => (err += s) });
-  return { code, out, err };
-}
-
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
-const write = (name: string, text: string): string => {
-  const f = join(tmp, name);
-  writeFileSync(f, text);
-  return f;
-};
+const write = writerIn(tmp);
 const noStackTrace = /\bat .*\.(ts|js|mjs):\d+|\n\s+at /;
 
 // no steady state exists beyond the fold (λ* ≈ 3.51 for 1D Bratu, Bratu 1914): Newton cannot converge at λ = 3.9

@@ -1,7 +1,7 @@
 /** Helpers of the command-line tests: the CLI in this process, or the built binary in a real child process. */
 import { type ChildProcess, spawn } from 'node:child_process';
-import { readFileSync } from 'node:fs';
-import { resolve } from 'node:path';
+import { existsSync, readFileSync, readdirSync, statSync, writeFileSync } from 'node:fs';
+import { join, resolve } from 'node:path';
 import { main } from '../../src/cli/main.js';
 
 export const bin = resolve('bin/branchline.js');
@@ -37,6 +37,30 @@ export async function cli(...args: string[]): Promise<{ code: number; out: strin
 
 export const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 export const sleep = (ms: number): Promise<void> => new Promise((r) => setTimeout(r, ms));
+
+/** `write(name, text)`: writes the file `name` in `dir` and returns its path. */
+export function writerIn(dir: string): (name: string, text: string) => string {
+  return (name, text) => {
+    const f = join(dir, name);
+    writeFileSync(f, text);
+    return f;
+  };
+}
+
+/** Bytes in a run folder's branch files so far (how far a run has got, read while it runs). */
+export function csvBytes(dir: string): number {
+  const b = join(dir, 'branches');
+  if (!existsSync(b)) return 0;
+  let total = 0;
+  for (const f of readdirSync(b)) {
+    try {
+      total += statSync(join(b, f)).size;
+    } catch {
+      /* removed meanwhile */
+    }
+  }
+  return total;
+}
 
 /** A smaller size of switchingCase for tests that run it many times. */
 export const smallSwitching = { intervals: 32, maxPoints: 40 };

@@ -10,13 +10,13 @@
  * branch files have reached a random fraction of their final size, after a random extra delay.
  */
 import type { ChildProcess } from 'node:child_process';
-import { existsSync, mkdtempSync, readdirSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../src/cli/main.js';
 import { ensureBuilt } from './built.js';
-import { type Ended, json, sleep, start, switchingCase } from './processes.js';
+import { type Ended, csvBytes, json, sleep, start, switchingCase } from './processes.js';
 import { expectSameFiles as expectReference } from './same-files.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-kill-'));
@@ -25,20 +25,6 @@ afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 const caseText = switchingCase('kill-me', '{every-points: 3, every-seconds: 0.05}');
 const caseFile = join(tmp, 'kill-me.yaml');
 const reference = join(tmp, 'reference');
-
-function csvBytes(dir: string): number {
-  const b = join(dir, 'branches');
-  if (!existsSync(b)) return 0;
-  let total = 0;
-  for (const f of readdirSync(b)) {
-    try {
-      total += statSync(join(b, f)).size;
-    } catch {
-      /* removed meanwhile */
-    }
-  }
-  return total;
-}
 
 /** Send `signal` once the run's branch files reach `bytes` (plus `extraMs`); false when the run ended first. */
 async function signalAt(p: { child: ChildProcess; ended: Promise<Ended> }, dir: string, bytes: number, extraMs: number, signal: NodeJS.Signals): Promise<boolean> {

@@ -9,21 +9,14 @@ import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { models } from '../../discretisations/index.js';
-import { main } from '../../src/cli/main.js';
 import { readCsv, readNpy } from '../../src/run/writers.js';
+import { cli, json } from './processes.js';
+import { robinSlabFold } from '../exact/bratu-robin.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-cli-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
 const fixture = resolve('test/fixtures/run/bratu-1d.yaml');
 
-async function cli(...args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await main(['node', 'branchline', ...args], { out: (s) => (out += s), err: (s) => (err += s) });
-  return { code, out, err };
-}
-
-const json = (file: string): Record<string, any> => JSON.parse(readFileSync(file, 'utf8'));
 
 describe('branchline run (in process, real engine)', () => {
   const out = join(tmp, 'slab');
@@ -190,22 +183,8 @@ describe('the bundled demo case (cases/catalytic-slab.yaml)', () => {
     const r = await cli('run', resolve('cases/catalytic-slab.yaml'), '--out', out, '--quiet');
     expect(r.code, r.err).toBe(0);
     const fold = json(join(out, 'points.json')).points.find((p: any) => p.kind === 'fold');
-    // Exact family (Bratu 1914 for u'' + λe^u = 0, worked here for the Robin faces):
-    // u = u_m − 2 ln cosh(a(x − ½)) with λ e^{u_m} = 2a²; the face condition −u'(0) + Bi·u(0) = 0
-    // gives u_m = 2 ln cosh(a/2) + (2a/Bi) tanh(a/2), so λ(a) = 2a² sech²(a/2) exp(−(2a/Bi) tanh(a/2)),
-    // and the fold is its maximum over a (golden-section search).
-    const biot = 5;
-    const lambdaOf = (a: number): number => ((2 * a * a) / Math.cosh(a / 2) ** 2) * Math.exp(-((2 * a) / biot) * Math.tanh(a / 2));
-    let lo = 0.1;
-    let hi = 5;
-    const g = (Math.sqrt(5) - 1) / 2;
-    for (let i = 0; i < 200; i++) {
-      const m1 = hi - g * (hi - lo);
-      const m2 = lo + g * (hi - lo);
-      if (lambdaOf(m1) < lambdaOf(m2)) lo = m1;
-      else hi = m2;
-    }
-    const exact = lambdaOf((lo + hi) / 2);
+    // the exact fold of the slab with convective faces at Bi = 5 (Bratu 1914, worked for Robin faces: test/exact/bratu-robin.ts)
+    const exact = robinSlabFold(5);
     expect(exact).toBeCloseTo(1.8883, 4);
     // 200 intervals, second-order stencil and faces: within O(h²) = O(2.5e-5)
     expect(Math.abs(fold.value - exact)).toBeLessThan(1e-4);

@@ -1,10 +1,11 @@
 /**
  * Compare a run folder with an uninterrupted reference run of the same case: the same branch
  * files with every number within 1e-10 (the same rows), the same special points and solution
- * files, run.json finished with the same counts, and no checkpoint left.
+ * files, run.json finished with the same counts, and no checkpoint left. Also: every file below a
+ * folder, and a run.json without the fields that may differ between two runs of one case.
  */
 import { existsSync, readFileSync, readdirSync } from 'node:fs';
-import { join } from 'node:path';
+import { join, relative } from 'node:path';
 import { expect } from 'vitest';
 import { readCsv, readNpy } from '../../src/run/writers.js';
 
@@ -50,4 +51,24 @@ export function expectSameFiles(dir: string, reference: string, what: string): v
   expect(existsSync(join(dir, 'checkpoint.bin')), what).toBe(false);
   expect(existsSync(join(dir, 'writer.lock')), what).toBe(false);
   expect(worst).toBeLessThanOrEqual(1e-10);
+}
+
+/** Every file below `dir`, as paths relative to it, sorted. */
+export function filesBelow(dir: string): string[] {
+  const out: string[] = [];
+  const walk = (d: string): void => {
+    for (const e of readdirSync(d, { withFileTypes: true })) {
+      if (e.isDirectory()) walk(join(d, e.name));
+      else out.push(relative(dir, join(d, e.name)));
+    }
+  };
+  walk(dir);
+  return out.sort();
+}
+
+/** A run.json without what may differ between two runs of one case (README: times, resumes). */
+export function runRecordWithoutTimes(file: string): Record<string, unknown> {
+  const r = json(file);
+  for (const k of ['started', 'ended', 'resumed', 'timings']) delete r[k];
+  return r;
 }

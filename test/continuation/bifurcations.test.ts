@@ -1,5 +1,6 @@
 import { describe, expect, test } from 'vitest';
-import { runModel, settings } from './collect.js';
+import { runModel, runProblem, settings } from './collect.js';
+import { models } from '../../discretisations/index.js';
 import type { BranchPointEvent, FoldPoint } from '../../src/continuation/types.js';
 import { analyseRefinement } from '../../src/refine/index.js';
 
@@ -80,6 +81,34 @@ describe('Allen–Cahn (Chafee–Infante) u″ + λ(u − u³) = 0 on (0, 1), Di
       // the two halves are different branches: they leave u = 0 in opposite directions
       expect(a[a.length - 1].monitors.max).toBeGreaterThan(0.1);
     }
+  });
+});
+
+describe('Allen–Cahn: a pitchfork reached along its pair of symmetric branches', () => {
+  // Traced from the one-signed state u₁ at λ = 50 towards smaller λ, the branch comes down to
+  // u = 0 at the first discrete eigenvalue μ₁ = (4/h²) sin²(πh/2) (standard finite-difference
+  // result) and goes on as −u₁: λ turns there, but the turn is the pitchfork (the u ↦ −u symmetry
+  // of u″ + λ(u − u³)), not a fold. Its type and criticality must be those seen from u = 0
+  // (the test above): supercritical, since u₁ exists for λ > μ₁ where u = 0 is unstable.
+  test('one branch point, a supercritical pitchfork at μ₁, and no fold', () => {
+    const intervals = 40;
+    const h = 1 / intervals;
+    const start = new Float64Array(intervals - 1);
+    for (let i = 0; i < start.length; i++) start[i] = Math.sin((Math.PI * (i + 1)) / intervals);
+    const problem = models['allen-cahn'].factory({ grid: { intervals: [intervals] } });
+    const run = runProblem(problem, { lambda: 50 }, settings({ parameter: 'lambda', direction: 'decrease', bounds: [0, 50], step: { initial: 0.5, min: 1e-8, max: 2 }, maxPoints: 130, branchSwitching: { depth: 0 } }), { start });
+    expect(run.points[0].monitors.max).toBeGreaterThan(0.5); // started on u₁, not on u = 0
+    expect(run.specials.filter((s) => s.kind === 'fold')).toHaveLength(0);
+    const bps = branchPoints(run.specials);
+    expect(bps).toHaveLength(1);
+    expect(Math.abs(bps[0].value - mu(1, h))).toBeLessThan(1e-8 * mu(1, h));
+    expect(bps[0].type).toBe('pitchfork');
+    expect(bps[0].criticality).toBe('supercritical');
+    // and the branch went on past it as −u₁: λ rises again
+    const last = run.points[run.points.length - 1];
+    expect(last.parameter).toBeGreaterThan(bps[0].value);
+    expect(last.monitors.max).toBe(0);
+    expect(last.monitors.min).toBeLessThan(-0.1);
   });
 });
 

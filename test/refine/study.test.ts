@@ -13,6 +13,7 @@ import { prepareCaseObject } from '../../src/run/case.js';
 import { InputError } from '../../src/run/errors.js';
 import { type StudyResult, runStudy, scaledGrids } from '../../src/refine/study.js';
 import { parseXml } from '../plot/xml-check.js';
+import { robinSlabFold } from '../exact/bratu-robin.js';
 
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-refine-'));
 afterAll(() => rmSync(tmp, { recursive: true, force: true }));
@@ -132,20 +133,10 @@ describe('refine on 1D Bratu', () => {
   });
 
   it('convective (Robin) faces: each error figure brackets the true error of the value it claims to cover', async () => {
-    // Exact family (Bratu 1914 for u'' + λe^u = 0, worked for the Robin faces as in
-    // test/cli/run-command.test.ts): λ(a) = 2a² sech²(a/2) exp(−(2a/Bi) tanh(a/2)); the fold is its maximum.
+    // Exact family (Bratu 1914 for u'' + λe^u = 0, worked for the Robin faces in
+    // test/exact/bratu-robin.ts): λ(a) = 2a² sech²(a/2) exp(−(2a/Bi) tanh(a/2)); the fold is its maximum.
     const biot = 5;
-    const lambdaOf = (a: number): number => ((2 * a * a) / Math.cosh(a / 2) ** 2) * Math.exp(-((2 * a) / biot) * Math.tanh(a / 2));
-    let lo = 0.1;
-    let hi = 5;
-    const g = (Math.sqrt(5) - 1) / 2;
-    for (let i = 0; i < 200; i++) {
-      const m1 = hi - g * (hi - lo);
-      const m2 = lo + g * (hi - lo);
-      if (lambdaOf(m1) < lambdaOf(m2)) lo = m1;
-      else hi = m2;
-    }
-    const exact = lambdaOf((lo + hi) / 2);
+    const exact = robinSlabFold(biot);
     const robin = {
       name: 'slab-robin',
       model: 'bratu',

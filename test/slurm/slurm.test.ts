@@ -26,9 +26,9 @@
  * BRANCHLINE_SLURM_REQUIRED=1 so that they fail instead).
  */
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { hostname, tmpdir } from 'node:os';
-import { join, relative, resolve } from 'node:path';
+import { join, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { runSession } from '../../src/run/batch.js';
 import { prepareCase } from '../../src/run/case.js';
@@ -36,6 +36,7 @@ import { lockFile } from '../../src/run/lock.js';
 import { parseRecord } from '../../src/slurm/commands.js';
 import { jobFolder, readJob, readTaskResult, taskMemoryMiB } from '../../src/slurm/job.js';
 import { slurm } from './cluster.js';
+import { filesBelow, runRecordWithoutTimes } from '../cli/same-files.js';
 
 const bin = resolve('bin/branchline.js');
 const tmp = mkdtempSync(join(tmpdir(), 'branchline-slurm-'));
@@ -64,27 +65,10 @@ async function until(what: string, ok: () => boolean, seconds = 300): Promise<vo
   }
 }
 
-function files(dir: string): string[] {
-  const out: string[] = [];
-  const walk = (d: string): void => {
-    for (const e of readdirSync(d, { withFileTypes: true })) {
-      if (e.isDirectory()) walk(join(d, e.name));
-      else out.push(relative(dir, join(d, e.name)));
-    }
-  };
-  walk(dir);
-  return out.sort();
-}
+const files = filesBelow;
 
 /** run.json without what may differ between a run here and on a cluster (times, resumes). */
-function runRecord(dir: string): Record<string, unknown> {
-  const r = JSON.parse(readFileSync(join(dir, 'run.json'), 'utf8')) as Record<string, unknown>;
-  delete r.started;
-  delete r.ended;
-  delete r.resumed;
-  delete r.timings;
-  return r;
-}
+const runRecord = (dir: string): Record<string, unknown> => runRecordWithoutTimes(join(dir, 'run.json'));
 
 /** Two run folders hold the same results: every file byte for byte but run.json's times. */
 function expectSameRun(here: string, there: string): void {

@@ -14,14 +14,7 @@
 #include <stdint.h>
 #include "klu.h"
 #include "bl_order.h"
-
-#define BL_OK 0
-#define BL_SINGULAR 1          /* factorisation completed with a zero pivot */
-#define BL_NONFINITE 2         /* a matrix value (or a pivot) is NaN or infinite */
-#define BL_OUT_OF_MEMORY -1
-#define BL_INVALID -2
-#define BL_NOT_FACTORED -3
-#define BL_ORDERING_FAILED -4
+#include "bl_common.h"  /* status codes (BL_*), the determinant helpers */
 
 #define BL_ORDER_AMD 0
 #define BL_ORDER_COLAMD 1
@@ -255,19 +248,6 @@ int bl_tsolve(bl_handle *h, double *B, int nrhs, int conj) {
     return ok ? BL_OK : BL_INVALID;
 }
 
-static int perm_parity(const int *P, int n, unsigned char *seen) {
-    /* parity of a permutation: (n - number of cycles) mod 2 */
-    memset(seen, 0, (size_t)n);
-    int swaps = 0;
-    for (int k = 0; k < n; k++) {
-        if (seen[k]) continue;
-        int len = 0, j = k;
-        while (!seen[j]) { seen[j] = 1; j = P[j]; len++; }
-        swaps += len - 1;
-    }
-    return swaps & 1;
-}
-
 /*
  * Determinant of A from the factorisation P (R \ A) Q = L U (L unit lower triangular,
  * block triangular form included): det A = sign(P) sign(Q) prod(Rs) prod(diag U).
@@ -283,37 +263,12 @@ int bl_logdet(bl_handle *h, double *out) {
     int n = h->n;
     unsigned char *seen = (unsigned char *)malloc((size_t)(n > 0 ? n : 1));
     if (!seen) return BL_OUT_OF_MEMORY;
-    int parity = perm_parity(h->numeric->Pnum, n, seen) ^ perm_parity(h->symbolic->Q, n, seen);
+    int parity = bl_perm_parity(h->numeric->Pnum, n, seen) ^ bl_perm_parity(h->symbolic->Q, n, seen);
     free(seen);
     double logabs = 0;
     const double *Rs = h->numeric->Rs;
     if (Rs) for (int k = 0; k < n; k++) logabs += log(Rs[k]); /* row scale factors are > 0 */
-    if (!h->is_complex) {
-        const double *d = (const double *)h->numeric->Udiag;
-        int neg = parity;
-        for (int k = 0; k < n; k++) {
-            double v = d[k];
-            if (v == 0) { out[0] = 0; out[1] = -INFINITY; return BL_OK; }
-            if (v < 0) neg ^= 1;
-            logabs += log(fabs(v));
-        }
-        out[0] = neg ? -1 : 1;
-        out[1] = logabs;
-    } else {
-        const double *d = (const double *)h->numeric->Udiag;
-        double pr = parity ? -1 : 1, pi = 0;
-        for (int k = 0; k < n; k++) {
-            double re = d[2 * k], im = d[2 * k + 1];
-            double a = hypot(re, im);
-            if (a == 0) { out[0] = 0; out[1] = 0; out[2] = -INFINITY; return BL_OK; }
-            re /= a; im /= a;
-            double nr = pr * re - pi * im, ni = pr * im + pi * re;
-            double s = hypot(nr, ni); /* renormalise against drift */
-            pr = nr / s; pi = ni / s;
-            logabs += log(a);
-        }
-        out[0] = pr; out[1] = pi; out[2] = logabs;
-    }
+    bl_det_from_diagonal((const double *)h->numeric->Udiag, n, h->is_complex, parity, logabs, out);
     return BL_OK;
 }
 

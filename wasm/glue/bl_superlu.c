@@ -373,18 +373,6 @@ double bs_condest(bs_handle *h) {
     return anorm * est;
 }
 
-static int perm_parity(const int *P, int n, unsigned char *seen) {
-    memset(seen, 0, (size_t)n);
-    int swaps = 0;
-    for (int k = 0; k < n; k++) {
-        if (seen[k]) continue;
-        int len = 0, j = k;
-        while (!seen[j]) { seen[j] = 1; j = P[j]; len++; }
-        swaps += len - 1;
-    }
-    return swaps & 1;
-}
-
 /*
  * Determinant of A from Pr diag(R) A Pc = L U (L unit lower triangular):
  * det A = sign(Pr) sign(Pc) prod(diag U) / prod(R). Writes out[0] = sign (+1, -1, or 0 when
@@ -399,35 +387,11 @@ int bs_logdet(bs_handle *h, double *out) {
     int n = h->n;
     unsigned char *seen = (unsigned char *)malloc((size_t)(n > 0 ? n : 1));
     if (!seen) return BL_OUT_OF_MEMORY;
-    int parity = n > 0 ? perm_parity(h->perm_r, n, seen) ^ perm_parity(h->perm_c, n, seen) : 0;
+    int parity = n > 0 ? bl_perm_parity(h->perm_r, n, seen) ^ bl_perm_parity(h->perm_c, n, seen) : 0;
     free(seen);
     double logabs = 0;
     for (int k = 0; k < n; k++) logabs -= log(h->R[k]);
-    const double *d = h->udiag;
-    if (!h->is_complex) {
-        int neg = parity;
-        for (int k = 0; k < n; k++) {
-            double v = d[k];
-            if (v == 0) { out[0] = 0; out[1] = -INFINITY; return BL_OK; }
-            if (v < 0) neg ^= 1;
-            logabs += log(fabs(v));
-        }
-        out[0] = neg ? -1 : 1;
-        out[1] = logabs;
-    } else {
-        double pr = parity ? -1 : 1, pi = 0;
-        for (int k = 0; k < n; k++) {
-            double re = d[2 * k], im = d[2 * k + 1];
-            double a = hypot(re, im);
-            if (a == 0) { out[0] = 0; out[1] = 0; out[2] = -INFINITY; return BL_OK; }
-            re /= a; im /= a;
-            double nr = pr * re - pi * im, ni = pr * im + pi * re;
-            double s = hypot(nr, ni);
-            pr = nr / s; pi = ni / s;
-            logabs += log(a);
-        }
-        out[0] = pr; out[1] = pi; out[2] = logabs;
-    }
+    bl_det_from_diagonal(h->udiag, n, h->is_complex, parity, logabs, out);
     return BL_OK;
 }
 

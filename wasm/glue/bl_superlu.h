@@ -11,13 +11,7 @@ typedef int int_t; /* SuperLU's index type (slu_ddefs.h and slu_zdefs.h define i
 #include "supermatrix.h"
 #include "slu_util.h"
 
-#define BL_OK 0
-#define BL_SINGULAR 1          /* factorisation completed with an exactly zero pivot */
-#define BL_NONFINITE 2         /* a matrix value (or a pivot) is NaN or infinite */
-#define BL_OUT_OF_MEMORY -1
-#define BL_INVALID -2
-#define BL_NOT_FACTORED -3
-#define BL_ORDERING_FAILED -4
+#include "bl_common.h"  /* status codes (BL_*), the determinant helpers */
 
 typedef struct {
     int n, nnz, is_complex;
