@@ -39,6 +39,20 @@ export const defaultFactorWorkLimit = 1e11;
 /** The solver's measured speed on large grids (floating-point operations per second, see above). */
 export const measuredFactorRate = 0.9e9;
 
+/**
+ * Measured speed of each sparse LU on large grids (floating-point operations of the model below
+ * per second): KLU as above; SuperLU 3.0 Gflop/s — 3D Bratu 40³ intervals, 2.8·10¹⁰ predicted
+ * flops factored in 9.3 s, 3.6 times KLU (wasm/README.md, "Measured").
+ */
+export const factorRates = { klu: measuredFactorRate, superlu: 3.0e9 } as const;
+
+/**
+ * Default ceiling for the time of one factorisation, in seconds at the chosen solver's measured
+ * rate: defaultFactorWorkLimit at KLU's rate (about two minutes), so SuperLU, three times
+ * faster on such grids, may take grids with three times the work.
+ */
+export const defaultFactorSecondsLimit = defaultFactorWorkLimit / measuredFactorRate;
+
 export interface FactorMemoryEstimate {
   readonly unknowns: number;
   /** Estimated stored entries of L + U. */
@@ -126,14 +140,18 @@ function durationText(seconds: number): string {
 }
 
 /**
- * Throw a one-line Error when one factorisation would need more than `limitFlops` operations (see
- * defaultFactorWorkLimit): such a run makes no visible progress for many minutes per point.
+ * Throw a one-line Error when one factorisation by `solver` (the sparse LU the run will use)
+ * would take more than `limitSeconds` at that solver's measured rate (factorRates; see
+ * defaultFactorSecondsLimit): such a run makes no visible progress for many minutes per point.
  */
-export function assertFactorWork(estimate: FactorMemoryEstimate, what: string, limitFlops = defaultFactorWorkLimit): void {
+export function assertFactorWork(estimate: FactorMemoryEstimate, what: string, solver: keyof typeof factorRates = 'klu', limitSeconds = defaultFactorSecondsLimit): void {
+  const rate = factorRates[solver];
+  const limitFlops = limitSeconds * rate;
   if (estimate.flops > limitFlops) {
+    const name = solver === 'klu' ? 'KLU' : 'SuperLU';
     throw new Error(
       `${what}: one sparse LU factorisation would need about ${flopText(estimate.flops)} floating-point operations ` +
-        `(${estimate.unknowns} unknowns), about ${durationText(estimate.flops / measuredFactorRate)} at the solver's measured ${measuredFactorRate / 1e9} Gflop/s, ` +
+        `(${estimate.unknowns} unknowns), about ${durationText(estimate.flops / rate)} at the solver's (${name}) measured ${rate / 1e9} Gflop/s, ` +
         `and every point needs several; over the ${flopText(limitFlops)} limit; use fewer intervals (3D work grows like n²)`,
     );
   }

@@ -124,7 +124,83 @@ export interface ContinuationOptions {
    * work). The engine is then unusable: resume from a snapshot taken between steps.
    */
   interrupt?: () => void;
+  /**
+   * Other threads that trace queued branches side by side with this one (the run layer's
+   * branch helpers, src/run/branch-helpers.ts). Results do not depend on them: see `BranchHelpers`.
+   */
+  helpers?: BranchHelpers;
 }
+
+/** A queued branch to trace elsewhere, with the branch points known when it was handed over. */
+export interface BranchTask {
+  pending: PendingBranch;
+  known: Float64Array[];
+}
+
+/** One step of a branch traced elsewhere: its events and what the step added to the engine's state. */
+export interface BranchStep {
+  events: EngineEvent[];
+  /** The branch's state after the step (null once it ended). */
+  current: BranchState | null;
+  /** Branches queued in the step (at branch points; ids stand in until the trace is taken over). */
+  queued: PendingBranch[];
+  /** Branch points first seen in the step. */
+  known: Float64Array[];
+  branches: BranchInfo[];
+  ended: EngineState['ended'];
+}
+
+/** A whole branch traced elsewhere, step by step, and the linear algebra it took. */
+export interface BranchTrace {
+  steps: BranchStep[];
+  counters: EngineCounters;
+}
+
+/**
+ * Where queued branches can be traced side by side (worker threads). Each branch after a branch
+ * point is traced from its pending state alone: the linear algebra starts afresh at a branch's
+ * start, after every located branch point and at every sync step, so a branch traced in another
+ * thread computes, bit for bit, what this engine would. The traces are taken over in queue order:
+ * a branch point that an earlier branch found meanwhile is marked `already known` then (its new
+ * branches dropped), branch ids are given then, so the events, files and ids are those of a run
+ * on one core.
+ */
+export interface BranchHelpers {
+  /** The run layer's sync-point period (see traceBranch). */
+  readonly syncEvery: number;
+  /**
+   * Whether this thread may trace a later branch while a helper still holds the next one (with a
+   * second engine: a second set of factorisations in this thread's memory).
+   */
+  readonly outOfTurn: boolean;
+  /** How many more branches can be handed over now. */
+  free(): number;
+  /** Whether a submitted branch is still being traced (taking it now would wait). */
+  busy(id: number): boolean;
+  /** Start tracing a branch elsewhere (the task is copied at once). */
+  submit(id: number, task: BranchTask): void;
+  /**
+   * The trace of a submitted branch, waiting for it if need be; `interrupt` is called while
+   * waiting (it throws to abandon). Undefined: the helper failed, trace the branch here.
+   */
+  take(id: number, interrupt?: () => void): BranchTrace | undefined;
+}
+
+/**
+ * Whether the step that brought a branch's point `index` ends at a sync point (run-case.ts):
+ * after every branch's first point and then after every `every` points along the branch. The
+ * rule counts along the branch, never across branches, so that a branch traced in a helper
+ * thread starts its linear algebra afresh exactly where a run on one core does.
+ */
+export function syncIndex(index: number, every: number): boolean {
+  return index === 0 || (index + 1) % every === 0;
+}
+
+/** Ids of branches queued in a helper's trace count from here until the trace is taken over. */
+const standInIds = 1_000_000_000;
+
+/** The note of a branch point already found (its branches are not followed again). */
+const alreadyKnownNote = 'already known: its branches are followed from where it was first found';
 
 function cloneState(s: EngineState): EngineState {
   return structuredClone(s);
@@ -178,7 +254,7 @@ export class Continuation {
   get counters(): EngineCounters {
     const s = this.sys;
     const e = this.stab?.totals;
-    return {
+    const own: EngineCounters = {
       factorisations: s.factorisations,
       refactorisations: s.refactorisations,
       solves: s.solves,
@@ -187,6 +263,8 @@ export class Continuation {
       eigenFactorisations: e?.factorisations ?? 0,
       seconds: { ...s.seconds, eigen: this.stab?.seconds ?? 0 },
     };
+    // the lists below are empty until a helper's trace is taken over
+    return (this.lentCounters ?? []).reduce((a, c) => subtractCounters(a, c, -1), own);
   }
 
   /**
@@ -207,6 +285,7 @@ export class Continuation {
   dispose(): void {
     this.sys.dispose();
     this.stab?.dispose();
+    this.spareEngine?.dispose();
   }
 
   /** Rightmost eigenvalues at the branch's current point (no-op without stability analysis). */
@@ -326,6 +405,8 @@ export class Continuation {
   /** Begin the next queued branch. */
   private startPending(p: PendingBranch): EngineEvent[] {
     const n = this.n;
+    // every branch starts with fresh linear algebra: traced here or in a helper, the same digits
+    this.restartLinearAlgebra();
     const b: BranchState = {
       info: p.info,
       x: p.origin.slice(),
@@ -425,24 +506,193 @@ export class Continuation {
     try {
       if (!this.state.started) yield* this.emit(this.start());
       for (;;) {
-        let b = this.state.current;
-        if (!b) {
-          const next = this.state.queue.shift();
-          if (!next) break;
-          yield* this.emit(this.startPending(next));
-          b = this.state.current!;
-          if (b.index + 1 >= this.settings.maxPoints) {
-            yield* this.emit(this.end(b, 'point-limit'));
+        const b = this.state.current;
+        if (b) {
+          yield* this.emit(this.stepOn(b));
+          this.lend();
+          continue;
+        }
+        const head = this.state.queue[0];
+        if (!head) break;
+        // the next branch is still being traced elsewhere: trace a later one meanwhile (kept for its turn)
+        const helpers = this.options.helpers;
+        if (helpers?.outOfTurn && !this.spareFailed && this.lent.has(head.info.id) && !this.ownTraces.has(head.info.id) && helpers.busy(head.info.id)) {
+          this.lend();
+          const later = this.state.queue.find((q) => !this.lent.has(q.info.id));
+          if (later) {
+            this.lent.add(later.info.id);
+            try {
+              this.ownTraces.set(later.info.id, this.spare().traceBranch({ pending: later, known: this.state.knownBranchPoints }, helpers.syncEvery));
+            } catch (e) {
+              rethrowInterrupt(e);
+              // (out of memory, say) the branch is traced in its turn by this engine instead
+              this.spareEngine?.dispose();
+              this.spareEngine = undefined;
+              this.lent.delete(later.info.id);
+              this.spareFailed = true;
+            }
             continue;
           }
         }
-        yield* this.emit(this.settings.method === 'natural' ? this.naturalStep(b) : this.arclengthStep(b));
+        const next = this.state.queue.shift()!;
+        const own = this.ownTraces.get(next.info.id);
+        this.ownTraces.delete(next.info.id);
+        const trace = own ?? (this.lent.delete(next.info.id) ? this.options.helpers!.take(next.info.id, this.options.interrupt) : undefined);
+        this.lent.delete(next.info.id);
+        if (trace) {
+          if (own) this.shared.outOfTurn++;
+          else this.shared.helpers++;
+          yield* this.takeOver(trace);
+          continue;
+        }
+        this.lend();
+        for (const events of this.pendingSteps(next)) yield* this.emit(events);
       }
     } finally {
       this.quiescent = true;
     }
     const c = this.counters;
     return { branches: this.state.ended.map((e) => ({ ...e })), factorisations: c.factorisations, refactorisations: c.refactorisations, solves: c.solves, eigenSolves: c.eigenSolves };
+  }
+
+  /** One step along the current branch. */
+  private stepOn(b: BranchState): EngineEvent[] {
+    return this.settings.method === 'natural' ? this.naturalStep(b) : this.arclengthStep(b);
+  }
+
+  /** The first steps of a queued branch: its start (two points), and its end when the point limit allows no more. */
+  private *pendingSteps(p: PendingBranch): Generator<EngineEvent[]> {
+    yield this.startPending(p);
+    const b = this.state.current!;
+    if (b.index + 1 >= this.settings.maxPoints) yield this.end(b, 'point-limit');
+  }
+
+  /** How many branches were traced by helpers, and out of turn by the spare engine (for the run's log). */
+  readonly shared = { helpers: 0, outOfTurn: 0 };
+  /** Branches handed to helpers (or traced by the spare engine) and not yet taken over. */
+  private readonly lent = new Set<number>();
+  /** Branches traced here by the spare engine while a helper held the next one. */
+  private readonly ownTraces = new Map<number, BranchTrace>();
+  private spareEngine: Continuation | undefined;
+  /** The spare engine failed once (out of memory, say): no more branches out of turn. */
+  private spareFailed = false;
+
+  /** A second engine of this thread for branches traced out of turn (see events()). */
+  private spare(): Continuation {
+    this.spareEngine ??= new Continuation(this.problem, this.params, this.settings, this.options.interrupt ? { interrupt: this.options.interrupt } : {});
+    return this.spareEngine;
+  }
+  /** Linear-algebra counts of the traces taken over from helpers. */
+  private readonly lentCounters: EngineCounters[] = [];
+
+  /** Hand queued branches to idle helpers (in queue order). */
+  private lend(): void {
+    const h = this.options.helpers;
+    if (!h) return;
+    for (const q of this.state.queue) {
+      if (h.free() <= 0) return;
+      if (this.lent.has(q.info.id)) continue;
+      this.lent.add(q.info.id);
+      h.submit(q.info.id, { pending: q, known: this.state.knownBranchPoints });
+    }
+  }
+
+  /** Whether a branch point at xs was found before. */
+  private isKnown(xs: Float64Array): boolean {
+    return this.state.knownBranchPoints.some((k) => this.sys.norm(difference(k, xs)) <= 1e-4 * (1 + this.sys.norm(xs)));
+  }
+
+  /**
+   * Trace one queued branch to its end, from its pending state and the branch points known (a
+   * helper thread's work; see BranchHelpers). Uses this engine only for that branch: make a new
+   * engine, or reuse one that traced only such branches. `syncEvery`: the run layer's sync-point
+   * period — the linear algebra starts afresh after every step whose point index on its branch
+   * is a multiple of it, as in the run layer's own loop (run-case.ts).
+   */
+  traceBranch(task: BranchTask, syncEvery: number): BranchTrace {
+    const before = this.counters;
+    const s = this.state;
+    s.started = true;
+    s.nextBranchId = standInIds;
+    s.queue = [];
+    s.current = null;
+    s.branches = [];
+    s.ended = [];
+    s.knownBranchPoints = task.known.map((k) => k.slice());
+    let seen = s.knownBranchPoints.length;
+    const steps: BranchStep[] = [];
+    const record = (events: EngineEvent[]): void => {
+      steps.push({
+        events,
+        current: s.current ? structuredClone(s.current) : null,
+        queued: s.queue.splice(0),
+        known: s.knownBranchPoints.slice(seen),
+        branches: s.branches.splice(0),
+        ended: s.ended.splice(0),
+      });
+      seen = s.knownBranchPoints.length;
+      // the run layer's sync points (run-case.ts): the linear algebra starts afresh there
+      if (events.some((e) => e.type === 'point' && syncIndex(e.point.index, syncEvery))) this.restartLinearAlgebra();
+    };
+    for (const events of this.pendingSteps(task.pending)) record(events);
+    for (let b = s.current; b; b = s.current) record(this.stepOn(b));
+    return { steps, counters: subtractCounters(this.counters, before) };
+  }
+
+  /**
+   * Take over a branch traced elsewhere, step by step, as if traced here: branch points found
+   * meanwhile by earlier branches become `already known` (their new branches dropped), and the
+   * new branches get their ids now.
+   */
+  private *takeOver(trace: BranchTrace): Generator<EngineEvent> {
+    const s = this.state;
+    this.lentCounters.push(trace.counters);
+    for (const step of trace.steps) {
+      const ids = new Map<number, number>();
+      const events = step.events.map((e) => {
+        if (e.type !== 'special' || e.point.kind !== 'branch-point' || !e.point.located || e.point.multiplicity !== 1 || e.point.note === alreadyKnownNote) return e;
+        // the helper saw this branch point for the first time
+        const p = e.point;
+        const xs = new Float64Array(this.n + 1);
+        xs.set(p.u);
+        xs[this.n] = p.value;
+        if (this.isKnown(xs)) {
+          const known: BranchPointEvent = {
+            kind: 'branch-point',
+            branch: p.branch,
+            value: p.value,
+            arclength: p.arclength,
+            u: p.u,
+            monitors: p.monitors,
+            residual: p.residual,
+            located: p.located,
+            multiplicity: 1,
+            type: 'unknown',
+            criticality: 'undetermined',
+            newBranches: [],
+            note: alreadyKnownNote,
+          };
+          return { type: 'special', point: known } as EngineEvent;
+        }
+        s.knownBranchPoints.push(xs);
+        p.newBranches = p.newBranches.map((id) => {
+          const real = s.nextBranchId++;
+          ids.set(id, real);
+          return real;
+        });
+        return e;
+      });
+      for (const q of step.queued) {
+        const real = ids.get(q.info.id);
+        if (real === undefined) continue; // its branch point was known already
+        q.info.id = real;
+        s.queue.push(q);
+      }
+      s.branches.push(...step.branches);
+      s.ended.push(...step.ended);
+      s.current = step.current;
+      yield* this.emit(events);
+    }
   }
 
   /** Yield a step's events; the state is complete (snapshot-safe) at the last one. */
@@ -574,6 +824,9 @@ export class Continuation {
       }
       specials.push(...found);
       located = true;
+      // whether its branches were computed (a helper may compute them for a point an earlier
+      // branch found meanwhile), the rest of the branch starts from the same fresh linear algebra
+      this.restartLinearAlgebra();
     }
     if (fold) specials.unshift(fold);
     // parameter bounds: land exactly on the bound and stop
@@ -701,11 +954,9 @@ export class Continuation {
       return events;
     }
     // already seen (a branch that returns to a known branch point)?
-    for (const k of this.state.knownBranchPoints) {
-      if (this.sys.norm(difference(k, xs)) <= 1e-4 * (1 + this.sys.norm(xs))) {
-        event.note = 'already known: its branches are followed from where it was first found';
-        return events;
-      }
+    if (this.isKnown(xs)) {
+      event.note = alreadyKnownNote;
+      return events;
     }
     this.state.knownBranchPoints.push(xs.slice());
     const dirs = branchDirections(this.sys, xs, ta);
@@ -914,6 +1165,14 @@ export function branchShape(a: number, hPlus: number, c: number, hMinus: number,
 /** Branch points of multiplicity two are located a hundred times tighter than simple ones' bracket (both then land near 1e-10). */
 function doubleCrossingTolerance(branchPointTolerance: number): number {
   return 1e-2 * branchPointTolerance;
+}
+
+/** a − sign·b, field by field (sign −1: the sum). */
+function subtractCounters(a: EngineCounters, b: EngineCounters, sign = 1): EngineCounters {
+  const out = { ...a, seconds: { ...a.seconds } };
+  for (const k of ['factorisations', 'refactorisations', 'solves', 'assemblies', 'eigenSolves', 'eigenFactorisations'] as const) out[k] = a[k] - sign * b[k];
+  for (const k of Object.keys(out.seconds) as (keyof EngineCounters['seconds'])[]) out.seconds[k] = a.seconds[k] - sign * (b.seconds[k] ?? 0);
+  return out;
 }
 
 /** (u, λ) of a special point, as the engine's state vectors hold them. */

@@ -41,6 +41,7 @@ import { onLeaveAtOnce } from '../run/leave.js';
 import { FolderLock, holderText, lockHolder } from '../run/lock.js';
 import { keptMessage } from '../run/manifest.js';
 import { type SpecialRecord, readRunRecord } from '../run/run-directory.js';
+import { sideBySideUnknowns } from '../run/branch-helpers.js';
 import { type PointSpec, availablePoints, findSpecial, pointSpecText, pointWords, readPointsJson } from '../run/start.js';
 import { softwareVersion } from '../run/version.js';
 import { csvLine, parseJsonNumber, writeFileAtomic, writeJsonAtomic } from '../run/writers.js';
@@ -62,8 +63,14 @@ export interface StudyOptions {
   point?: PointSpec;
   /** Along which branch (default 1). */
   branch?: number;
-  /** Grids run side by side in this many worker processes (default 1: one after another here). */
+  /** Grids run side by side in this many worker processes (default 1: one after another here, unless `cores` says otherwise). */
   jobs?: number;
+  /**
+   * Without `jobs`: the processor cores the study may use — up to that many grids side by side
+   * when the second-largest grid has at least sideBySideUnknowns unknowns (smaller grids finish
+   * before another process would have started; the largest runs alone anyway).
+   */
+  cores?: number;
   /** The study folder. */
   outDir: string;
   /** Replace an earlier study in a non-empty folder (only a folder holding a refinement study). */
@@ -314,6 +321,10 @@ export async function runStudy(prepared: PreparedCase, options: StudyOptions): P
     const p = await prepareCaseObject(job.doc, { label: job.label, baseDir: job.baseDir, ...(job.file ? { file: job.file } : {}), ...ownCodeModel(prepared.case) });
     tasks.push({ ...r, job, prepared: p });
   }
+  if (options.jobs === undefined && options.cores !== undefined && options.cores > 1) {
+    const sizes = tasks.map((t) => t.prepared!.problem.size).sort((a, b) => b - a);
+    if ((sizes[1] ?? 0) >= sideBySideUnknowns) plan.jobs = Math.min(options.cores, tasks.length);
+  }
   return inStudyFolder(studyDir, { purpose: options.force ? 'refine --force' : 'refine', label: studyDir }, options.log, () => {
     // collecting a study whose grids ran elsewhere: the folder already holds them, as it is
     if (!options.keepFolder) {
@@ -453,8 +464,13 @@ async function runGrids(tasks: readonly GridTask[], studyDir: string, options: S
   options.signal?.addEventListener('abort', onAbort);
   const thrown = new Map<GridTask, string | undefined>();
   try {
+    // side by side, the largest grids first, so that the small ones fill the other lanes
+    // meanwhile (each grid is its own run folder: the order changes no file)
+    const size = (t: GridTask): number => t.intervals.reduce((a, b) => a * b, 1);
+    const todo = tasks.filter((t) => t.job);
+    if (script && jobs > 1) todo.sort((a, b) => size(b) - size(a));
     await pool(
-      tasks.filter((t) => t.job),
+      todo,
       script ? jobs : 1,
       async (task) => {
         if (options.signal?.aborted) {

@@ -14,7 +14,7 @@
  */
 import { type ChildProcess, fork } from 'node:child_process';
 import { existsSync, statSync, statfsSync } from 'node:fs';
-import { totalmem } from 'node:os';
+import { availableParallelism, totalmem } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { estimateFactorMemory } from '../../discretisations/index.js';
 import { fileURLToPath } from 'node:url';
@@ -28,6 +28,7 @@ import { type CodeModelChoice, resumeCodeModel } from './resume-code.js';
 import { type ProgressInfo, type ResumeState, type RunResult, outputDirectory } from './run-case.js';
 import { columnPlan, newRunProblem, readRunRecord } from './run-directory.js';
 import { runCaseInThread } from './run-thread.js';
+import { sideBySideUnknowns } from './branch-helpers.js';
 import { writeJsonAtomic } from './writers.js';
 import { jsonFileLimit, readTextFile } from './read-file.js';
 
@@ -141,6 +142,17 @@ export function runNeeds(prepared: PreparedCase): { memory: number; disk: number
   return { memory, disk: points * (row + solutions) + checkpoint, points, row };
 }
 
+/**
+ * The cores a run uses by default (no --cores) on a machine with `machine` cores: one below
+ * sideBySideUnknowns unknowns, else as many as the machine has and its memory holds (each
+ * helper thread holds factorisations of its own, about what the run itself holds).
+ */
+export function defaultRunCores(prepared: PreparedCase, machine = Math.max(1, availableParallelism())): number {
+  if (prepared.problem.size < sideBySideUnknowns) return 1;
+  const each = runNeeds(prepared).memory;
+  return Math.max(1, Math.min(machine, Math.floor((0.8 * totalmem()) / Math.max(each, 1))));
+}
+
 /** Requests that cannot fit this machine, refused before anything runs (with the estimates). */
 export function resourceProblems(targets: readonly RunTarget[], jobs: number, memoryHere = true): string[] {
   const problems: string[] = [];
@@ -212,6 +224,8 @@ export interface SessionOptions {
   lock?: FolderLock;
   /** The folder belongs to the caller (a study's grid folder): see RunCaseOptions.alongside. */
   alongside?: boolean;
+  /** Processor cores the run may use (RunCaseOptions.cores; default 1); `auto`: defaultRunCores on this machine. */
+  cores?: number | 'auto';
 }
 
 /**
@@ -233,6 +247,7 @@ export async function runSession(prepared: PreparedCase, o: SessionOptions): Pro
       ...(o.lock ? { lock: o.lock } : {}),
       ...(o.alongside ? { alongside: true } : {}),
       ...(o.resume?.restart ? { restart: o.resume.restart } : {}),
+      ...(o.cores !== undefined ? { cores: o.cores === 'auto' ? defaultRunCores(prepared) : o.cores } : {}),
       ...(c ? { resume: resumeStateOf(c, o.resume!.file) } : {}),
     });
   } finally {
@@ -433,6 +448,8 @@ export interface BatchOptions {
   view: ProgressView;
   /** Called as each case ends (in the order they end). */
   onOutcome?: (target: RunTarget, outcome: CaseOutcome) => void;
+  /** Processor cores each case run here may use (SessionOptions.cores; cases in worker processes use one). */
+  cores?: number | 'auto';
 }
 
 const workers = new Set<ChildProcess>();
@@ -473,7 +490,7 @@ export async function runBatch(targets: readonly RunTarget[], o: BatchOptions): 
         continue;
       }
       try {
-        const result = await runSession(t.prepared, { outDir: t.outDir, ...(o.force ? { force: true } : {}), signal: o.signal, view: o.view, name: t.prepared.case.name });
+        const result = await runSession(t.prepared, { outDir: t.outDir, ...(o.force ? { force: true } : {}), signal: o.signal, view: o.view, name: t.prepared.case.name, ...(o.cores !== undefined ? { cores: o.cores } : {}) });
         finish(i, outcomeOf(t, result));
       } catch (e) {
         finish(i, { name: t.prepared.case.name, caseFile: t.prepared.file ?? null, directory: t.outDir, status: 'failed', reason: e instanceof Error ? e.message : String(e) });

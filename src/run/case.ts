@@ -62,6 +62,7 @@ import {
 } from '../../discretisations/index.js';
 import type { OptionSpec } from '../../discretisations/models/options.js';
 import { type ContinuationSettings, defaultSettings } from '../continuation/types.js';
+import { autoMinimumUnknowns, decideBackend } from '../linalg/lu.js';
 import { validateProblemNames } from '../problem/names.js';
 import type { GridOptions, Params, Problem, ProblemFactory } from '../problem/problem.js';
 import { CaseError } from './errors.js';
@@ -331,7 +332,8 @@ export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions)
   // before the problem is built, with the fewest unknowns the grid can have (one field, Dirichlet
   // walls): what is refused here is refused below too, once the problem says what it holds
   const eigenvalues = input.stability?.eigenvalues ?? 0;
-  checkFactorisations(estimateFactorMemory(intervals.map((n) => n - 1), 1, 1), intervals, eigenvalues, fail);
+  const requestedSolver = ((input.continuation as { 'sparse-lu'?: 'auto' | 'klu' | 'superlu' } | undefined)?.['sparse-lu'] ?? 'auto');
+  checkFactorisations(estimateFactorMemory(intervals.map((n) => n - 1), 1, 1), intervals, eigenvalues, requestedSolver, fail);
   const grid: GridOptions = { intervals: intervals.slice(), length: length.slice() };
 
   // 5. parameters given as start values (reaction-diffusion: declarations, passed to the model)
@@ -378,7 +380,7 @@ export async function prepareCaseParts(raw: unknown, opts: PrepareObjectOptions)
       fail('grid.intervals', (e as Error).message);
     }
   }
-  checkFactorisations(builtEstimate(description, problem), intervals, eigenvalues, fail);
+  checkFactorisations(builtEstimate(description, problem), intervals, eigenvalues, requestedSolver, fail);
 
   // 7. start values (a start from a run point brings that point's parameter values)
   const params: Record<string, number> = {};
@@ -595,10 +597,16 @@ export async function prepareCaseObject(raw: unknown, opts: PrepareObjectOptions
  * held at once — the continuation's bordered matrix and, with stability, the eigen solver's
  * shifted matrix — in the solver's one address space.
  */
-function checkFactorisations(estimate: FactorMemoryEstimate, intervals: readonly number[], eigenvalues: number, fail: (field: string, detail: string) => never): void {
+function checkFactorisations(
+  estimate: FactorMemoryEstimate,
+  intervals: readonly number[],
+  eigenvalues: number,
+  requested: 'auto' | 'klu' | 'superlu',
+  fail: (field: string, detail: string) => never,
+): void {
   const what = `grid ${intervals.join('x')}`;
   try {
-    assertFactorWork(estimate, what);
+    assertFactorWork(estimate, what, likelySolver(estimate, requested));
   } catch (e) {
     fail('grid.intervals', (e as Error).message);
   }
@@ -609,6 +617,18 @@ function checkFactorisations(estimate: FactorMemoryEstimate, intervals: readonly
         `over the ${(defaultFactorMemoryLimit / 1024 ** 3).toFixed(1)} GiB the solver can hold (one 4 GiB address space); use fewer intervals, or stability: {eigenvalues: 0}`,
     );
   }
+}
+
+/**
+ * The sparse LU a run will factor with: the one the case asks for, or the automatic choice
+ * (decideBackend) applied to the estimate — an estimate, as the refusal it serves: the run itself
+ * decides on the ordering's prediction, whose counts differ from the model's by a small factor.
+ */
+export function likelySolver(estimate: FactorMemoryEstimate, requested: 'auto' | 'klu' | 'superlu'): 'klu' | 'superlu' {
+  if (requested !== 'auto') return requested;
+  if (estimate.unknowns < autoMinimumUnknowns) return 'klu';
+  // the model counts L and U; the decision counts L
+  return decideBackend(estimate.unknowns, { entries: estimate.factorEntries / 2, flops: estimate.flops, supernodes: 0 }).backend;
 }
 
 /** The factorisation estimate of a built problem (its bordered matrix: one more row and column). */

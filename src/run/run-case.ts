@@ -27,7 +27,8 @@
  * temporary files a killed process left) are removed; the run then goes on as if never stopped.
  */
 import { join, resolve } from 'node:path';
-import { Continuation } from '../continuation/engine.js';
+import { type BranchHelpers, Continuation, syncIndex } from '../continuation/engine.js';
+import { BranchHelperThreads } from './branch-helpers.js';
 import { WorkInterrupted } from '../linalg/lu.js';
 import type { ContinuationSettings, EngineEvent } from '../continuation/types.js';
 import type { CurveEvent } from '../continuation/curves/types.js';
@@ -61,6 +62,8 @@ export interface EngineLike {
    * from here exactly what an engine resumed from a snapshot taken now computes (sync points).
    */
   restartLinearAlgebra?(): void;
+  /** When present: how many branches were traced by helper threads, and out of turn (BranchHelpers). */
+  readonly shared?: { helpers: number; outOfTurn: number };
   /** When present: which sparse LU the continuation uses and why (recorded in run.json). */
   linearSolver?(): { backend: string; requested: string; reason: string } | undefined;
   dispose(): void;
@@ -71,7 +74,7 @@ export type EngineFactory = (
   params: Params,
   settings: ContinuationSettings,
   /** `interrupt`: called before every factorisation; throws WorkInterrupted to abandon the step (see Continuation). */
-  options: { start?: Float64Array; state?: unknown; interrupt?: () => void },
+  options: { start?: Float64Array; state?: unknown; interrupt?: () => void; helpers?: BranchHelpers },
 ) => EngineLike;
 
 export const defaultEngine: EngineFactory = (problem, params, settings, options) =>
@@ -116,6 +119,11 @@ export interface RunCaseOptions {
    * run's state); otherwise runCase takes it before touching the folder and releases it at the end.
    */
   lock?: FolderLock;
+  /**
+   * Processor cores the run may use (default 1): branches queued at branch points are traced
+   * side by side in helper threads (branch-helpers.ts). The files do not depend on it.
+   */
+  cores?: number;
 }
 
 /** The state a resumed run continues from (a checkpoint's contents). */
@@ -294,10 +302,13 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
     const w = options.checkpoint?.(context(reason, sync));
     if (w) record.lastCheckpoint = w;
   };
+  /** A point of the step now ending sits at a sync index of its branch (syncIndex). */
+  let syncDue = false;
   /** Whether the moment (between steps) is a sync point; if so the engine is restarted there. */
   const syncHere = (): boolean => {
     const points = ledger.points;
-    const due = lastSyncPoints < 0 ? points >= 1 : Math.floor(points / syncEvery) > Math.floor(lastSyncPoints / syncEvery);
+    const due = syncDue && points !== lastSyncPoints;
+    syncDue = false;
     if (!due || !engine) return false;
     lastSyncPoints = points;
     lastSync = { ledger: structuredClone(ledger), snapshot: engine.snapshot(), points };
@@ -317,11 +328,14 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
         if (signal.aborted) throw new WorkInterrupted('stop requested');
       }
     : undefined;
+  // helper threads for the branches after branch points (the one-parameter engine only)
+  const helpers = options.engine || prepared.curve ? undefined : BranchHelperThreads.open(prepared, options.cores ?? 1, log);
   try {
     engine = (options.engine ?? (prepared.curve ? curveEngine(prepared) : defaultEngine))(problem, params, settings, {
       ...((options.start ?? prepared.start) ? { start: options.start ?? prepared.start!.u } : {}),
       ...(options.resume ? { state: options.resume.engineState } : {}),
       ...(interrupt ? { interrupt } : {}),
+      ...(helpers ? { helpers } : {}),
     });
     const events = engine.events();
     try {
@@ -350,6 +364,7 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
         }
         if (r.value.type === 'point') {
           const p = r.value.point;
+          if (syncIndex(p.index, syncEvery)) syncDue = true;
           options.progress?.({ branch: p.branch, index: p.index, parameter: p.parameter, step: p.step, points: ledger.points, maxPoints: settings.maxPoints });
         }
         if (ledger.points > hookPoints && between()) {
@@ -397,7 +412,12 @@ async function driveEngine(prepared: PreparedCase, run: OpenRun, record: RunReco
     record.failure = e instanceof Error ? e.message : String(e);
     log('warning', `run failed: ${record.failure}`);
   } finally {
+    if (helpers && engine?.shared) {
+      const s = engine.shared;
+      log('info', `${options.cores} cores: ${s.helpers} branch${s.helpers === 1 ? '' : 'es'} traced in helper threads, ${s.outOfTurn} out of turn in this one`);
+    }
     try {
+      helpers?.dispose();
       engine?.dispose();
     } catch {
       /* nothing more to do */

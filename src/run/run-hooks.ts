@@ -8,9 +8,10 @@
 import type { RunDirectory, RunLedger } from './run-directory.js';
 
 /**
- * Sync points: the engine starts its linear algebra afresh after the first point and then about
- * every this many points (whenever the run's point count passes a multiple of it, between
- * steps). Checkpoints are taken only at sync points: a run resumed from one repeats the
+ * Sync points: the engine starts its linear algebra afresh after each branch's first point and
+ * then after every this many points along the branch (syncIndex in src/continuation/engine.ts,
+ * between steps; counted per branch so that branches traced side by side in helper threads
+ * restart where a run on one core does). Checkpoints are taken only at sync points: a run resumed from one repeats the
  * uninterrupted run bit for bit (kept pivot orders and the eigen solver's random start vectors
  * would otherwise differ in the last digits, and eigenvalues near a collision or located Hopf
  * points magnify such differences up to their tolerances). The cost is one fresh factorisation

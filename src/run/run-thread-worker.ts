@@ -67,6 +67,7 @@ async function run(task: ThreadTask): Promise<void> {
       ...held,
       ...(task.alongside ? { alongside: true } : {}),
       ...(task.restart ? { restart: task.restart } : {}),
+      ...(task.cores !== undefined ? { cores: task.cores } : {}),
     });
     send({ type: 'result', result });
   } catch (e) {

@@ -46,6 +46,8 @@ export interface ThreadRunOptions {
   lock?: FolderLock;
   alongside?: boolean;
   restart?: { started: string; resumes: string[] };
+  /** Processor cores the run may use (RunCaseOptions.cores). */
+  cores?: number;
 }
 
 /** What the thread receives per run (structured-cloned; the stop flag is shared). */
@@ -66,6 +68,7 @@ export interface ThreadTask {
   lockHeld: boolean;
   alongside?: boolean;
   restart?: { started: string; resumes: string[] };
+  cores?: number;
   /** Int32 flag: 0 go on, 1 stop requested. */
   stop: SharedArrayBuffer;
 }
@@ -119,6 +122,7 @@ export function runCaseInThread(prepared: PreparedCase, o: ThreadRunOptions): Pr
       lockHeld: o.lock !== undefined,
       ...(o.alongside ? { alongside: true } : {}),
       ...(o.restart ? { restart: o.restart } : {}),
+      ...(o.cores !== undefined ? { cores: o.cores } : {}),
     },
     o,
   );

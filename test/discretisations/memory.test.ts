@@ -1,6 +1,7 @@
 /** The up-front LU memory estimate and the refusal of hopeless grids. */
 import { describe, expect, it } from 'vitest';
-import { assertFactorMemory, assertFactorWork, defaultFactorWorkLimit, estimateFactorMemory, defaultFactorMemoryLimit } from '../../discretisations/memory.js';
+import { assertFactorMemory, assertFactorWork, defaultFactorSecondsLimit, defaultFactorWorkLimit, estimateFactorMemory, defaultFactorMemoryLimit, factorRates } from '../../discretisations/memory.js';
+import { likelySolver } from '../../src/run/case.js';
 import { models } from '../../discretisations/index.js';
 
 describe('factor memory estimate', () => {
@@ -54,10 +55,24 @@ describe('factor memory estimate', () => {
     const at = (k: number) => estimateFactorMemory([k - 1, k - 1, k - 1], 1, 1);
     expect(at(52).bytes).toBeLessThan(defaultFactorMemoryLimit);
     expect(() => assertFactorWork(at(52), 'grid 52x52x52')).toThrow(
-      /^grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations \(132652 unknowns\), about 4 minutes at the solver's measured 0\.9 Gflop\/s, and every point needs several; over the 1\.0e11 limit; use fewer intervals/,
+      /^grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations \(132652 unknowns\), about 4 minutes at the solver's \(KLU\) measured 0\.9 Gflop\/s, and every point needs several; over the 1\.0e11 limit; use fewer intervals/,
     );
     expect(() => assertFactorWork(at(40), 'grid 40x40x40')).not.toThrow();
     expect(defaultFactorWorkLimit).toBe(1e11);
+  });
+
+  it('takes the chosen sparse LU\'s rate: SuperLU, about three times faster on 3D grids (wasm/README.md, measured), takes 52³ and refuses 64³', () => {
+    const at = (k: number) => estimateFactorMemory([k - 1, k - 1, k - 1], 1, 1);
+    // the same time limit (about two minutes) at each solver's rate
+    expect(defaultFactorSecondsLimit * factorRates.klu).toBeCloseTo(defaultFactorWorkLimit, -6);
+    expect(factorRates.superlu / factorRates.klu).toBeGreaterThan(3);
+    expect(() => assertFactorWork(at(52), 'grid 52x52x52', 'superlu')).not.toThrow();
+    expect(() => assertFactorWork(at(64), 'grid 64x64x64', 'superlu')).toThrow(/at the solver's \(SuperLU\) measured 3 Gflop\/s, and every point needs several; over the 3\.3e11 limit/);
+    // which one the automatic choice would take, from the estimate: SuperLU for 3D grids, KLU for small or scalar 2D ones
+    expect(likelySolver(at(52), 'auto')).toBe('superlu');
+    expect(likelySolver(at(52), 'klu')).toBe('klu');
+    expect(likelySolver(estimateFactorMemory([199, 199], 1, 1), 'auto')).toBe('klu');
+    expect(likelySolver(estimateFactorMemory([20, 20], 1, 1), 'auto')).toBe('klu');
   });
 });
 

@@ -191,10 +191,11 @@ describe('bad case files give one line naming the file, the field, the value and
       /: grid\.intervals: grid 1000x1000: the sparse LU would need about [\d.]+ GiB \(2004002 unknowns/,
     ],
     [
-      'a 3D grid whose factorisation would take minutes',
-      good.replace('[16]', '[52, 52, 52]'),
-      /: grid\.intervals: grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations .*about 4 minutes/,
+      'a 3D grid whose factorisation would take minutes with the sparse LU the case asks for (KLU)',
+      good.replace('[16]', '[52, 52, 52]').replace('  bounds: [0, 4]', '  bounds: [0, 4]\n  sparse-lu: klu'),
+      /: grid\.intervals: grid 52x52x52: one sparse LU factorisation would need about 2\.2e11 floating-point operations .*about 4 minutes at the solver's \(KLU\) measured 0\.9 Gflop\/s/,
     ],
+
     [
       'a 2D grid whose two factorisations (continuation and eigenvalues) do not fit together',
       good.replace('[16]', '[1000, 1000]') + 'stability: {eigenvalues: 2}\n',
@@ -249,6 +250,15 @@ describe('bad case files give one line naming the file, the field, the value and
       expect(err.message).toMatch(pattern);
     });
   }
+
+  it('a 3D grid refused for the time of a KLU factorisation is taken with the automatic choice, whose SuperLU is three times faster there', async () => {
+    // 48³ intervals: 1.3e11 flops, over KLU's limit of 1e11 (about two minutes at 0.9 Gflop/s),
+    // about 44 s at SuperLU's 3 Gflop/s
+    const klu = await errorOf(good.replace('[16]', '[48, 48, 48]').replace('  bounds: [0, 4]', '  bounds: [0, 4]\n  sparse-lu: klu'));
+    expect(klu.message).toMatch(/grid 48x48x48: one sparse LU factorisation would need about 1\.3e11 floating-point operations .* \(KLU\)/);
+    const prepared = await prepareCase(caseFile(good.replace('[16]', '[48, 48, 48]')));
+    expect(prepared.problem.size).toBe(47 ** 3);
+  });
 
   it('broken JSON in a .json file', async () => {
     const err = await errorOf('{"model": "bratu",', '.json');

@@ -11,7 +11,7 @@ import { join } from 'node:path';
 import fc from 'fast-check';
 import { afterAll, describe, expect, it } from 'vitest';
 import { models } from '../../discretisations/index.js';
-import { Continuation, type EngineState } from '../../src/continuation/engine.js';
+import { Continuation, type EngineState, syncIndex } from '../../src/continuation/engine.js';
 import { type ContinuationSettings, type EngineEvent, defaultSettings } from '../../src/continuation/types.js';
 import { resolveParameters } from '../../src/problem/problem.js';
 import {
@@ -161,16 +161,19 @@ function flat(e: EngineEvent): unknown[] {
 /** Drive an engine as runCase does: restart its linear algebra at every sync point and take the checkpoint there. */
 function* drive(c: Continuation, startPoints: number): Generator<{ e: EngineEvent; checkpoint?: { state: EngineState; points: number } }> {
   let points = startPoints;
-  let lastSync = startPoints > 0 ? startPoints : -1;
   let seen = startPoints;
+  let due = false;
   for (const e of c.events()) {
-    if (e.type === 'point') points++;
+    if (e.type === 'point') {
+      points++;
+      // sync points count along each branch (syncIndex)
+      if (syncIndex(e.point.index, syncEvery)) due = true;
+    }
     let checkpoint: { state: EngineState; points: number } | undefined;
     if (c.canSnapshot && points > seen) {
       seen = points;
-      const due = lastSync < 0 ? points >= 1 : Math.floor(points / syncEvery) > Math.floor(lastSync / syncEvery);
       if (due) {
-        lastSync = points;
+        due = false;
         checkpoint = { state: c.snapshot(), points };
         c.restartLinearAlgebra();
       }

@@ -33,7 +33,8 @@ function repositoryRoot(): string {
 
 const root = repositoryRoot();
 const script = join(root, 'tools/bench/reference/arclength_scipy.py');
-const cli = join(root, 'bin/branchline.js');
+export const cliPath = join(root, 'bin/branchline.js');
+const cli = cliPath;
 
 export interface ReferencePoint {
   parameter: number;

@@ -5,7 +5,12 @@
  *
  *   npm run bench                 the full suite (about 10 minutes on 2 cores)
  *   npm run bench -- --quick      smaller grids, fewer repeats (a smoke run, about a minute)
- *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,settle,reference,curves,hopf-curves   a subset
+ *   npm run bench -- --only lu,backends,assembly,steps,branch,memory,settle,reference,curves,hopf-curves,cores   a subset
+ *
+ * `cores` times a case with many branches after branch points (`run`) and a refinement study
+ * (`refine`) with --cores 1 and --cores 2 and prints the speed-up. At the end the README's
+ * performance tables are printed in markdown from the figures of this invocation
+ * (tools/bench/readme.ts; `node dist/tools/bench/readme.js bench-results.json` prints them again).
  *
  * `reference` times whole `branchline run`s of 2D Bratu 200x200 against a SciPy implementation of
  * the same continuation (tools/bench/reference.ts) and prints the ratios; without Python and
@@ -13,7 +18,7 @@
  */
 import { execFileSync } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
-import { cpus, totalmem } from 'node:os';
+import { cpus, loadavg, totalmem } from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { benchAssembly } from '../../discretisations/bench.js';
 import { benchLu } from './lu.js';
@@ -24,6 +29,8 @@ import { benchReference } from './reference.js';
 import { type BackendRow, backendCases, backendTable } from './backends.js';
 import { type CurveBenchRow, curveTable } from './curves.js';
 import { type SettleBenchRow, settleTable } from './settle.js';
+import { benchCores } from './cores.js';
+import { readmeTables } from './readme.js';
 
 const args = process.argv.slice(2);
 const quick = args.includes('--quick');
@@ -37,7 +44,8 @@ const repeats = quick ? 1 : 3;
 const machine = `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), ${(totalmem() / 2 ** 30).toFixed(0)} GiB, Node ${process.version}`;
 console.log(`branchline benchmark — ${machine}`);
 console.log(`medians of ${repeats} repetitions after a warm-up${quick ? ' (quick run: small grids)' : ''}\n`);
-const results: Record<string, unknown> = { machine, date: new Date().toISOString(), quick, repeats };
+const results: Record<string, unknown> = { machine, date: new Date().toISOString(), quick, repeats, load: { start: loadavg() } };
+console.log(`load average ${loadavg().map((x) => x.toFixed(2)).join(', ')} (1, 5, 15 minutes): other work on the machine stretches wall times\n`);
 
 const worker = fileURLToPath(new URL('./worker.js', import.meta.url));
 function inChild<T>(...argv: string[]): T {
@@ -151,5 +159,15 @@ if (want('settle')) {
   results.settle = r;
 }
 
+if (want('cores')) {
+  console.log('One core against two: whole commands with --cores 1 and --cores 2 (wall seconds, minimum of the repeats)');
+  const r = benchCores(quick, repeats, (line) => console.log(line));
+  console.log(r.text + '\n');
+  results.cores = r.rows;
+}
+
+(results.load as { end?: number[] }).end = loadavg();
+console.log('README tables (markdown, from the figures above):\n');
+console.log(readmeTables(results) + '\n');
 writeFileSync(jsonPath, JSON.stringify(results, null, 2) + '\n');
 console.log(`wrote ${jsonPath}`);

@@ -1,9 +1,10 @@
 import type { Command } from 'commander';
 import type { CommandContext, Io } from '../io.js';
 import { leaveAtOnce } from '../../run/leave.js';
-import { twoStageSignals } from './run.js';
+import { machineCores, parseCores, twoStageSignals } from './run.js';
 import { resolve } from 'node:path';
 import { caseDocument, prepareCase } from '../../run/case.js';
+import { sideBySideUnknowns } from '../../run/branch-helpers.js';
 import { InputError } from '../../run/errors.js';
 import { parsePointSpec, pointSpecAccepted } from '../../run/start.js';
 import { formatStudySummary, runStudy } from '../../refine/study.js';
@@ -56,14 +57,15 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
     .requiredOption('--grids <list>', 'intervals along the first axis, e.g. 32,64,128 (every axis is scaled alike; any ratios)')
     .option('--point <which>', `the special point: ${pointSpecAccepted} (default: the first fold)`)
     .option('--branch <k>', 'the branch the point lies on (default 1; curve runs: the curve on which the point appears)')
-    .option('--jobs <n>', 'grids run side by side in this many processes (default 1)')
+    .option('--cores <n>', `processor cores the study may use: up to n grids run side by side, each in its own process (default: this machine's cores, ${machineCores()} here, when the second-largest grid has at least ${sideBySideUnknowns} unknowns, else 1; the files are the same for any number)`)
+    .option('--jobs <n>', 'grids run side by side in this many processes (overrides --cores)')
     .option('--expected-order <p>', 'formal order of the discretisation, checked against the observed one (default 2; none for code models)')
     .option('--out <dir>', 'study folder (default runs/<case name>-refine)')
     .option('--force', "replace an earlier study (finished, stopped or half-written) in a non-empty output folder: only the study's own files are removed")
     .option('--quiet', 'no progress lines on stderr');
   addClusterOptions(command)
     .addHelpText('after', '\nSlurm (--slurm): the grids go to Slurm as one job array; the study folder (--out) holds the grid runs and the job\'s files (slurm/); `branchline collect DIR` waits for a job submitted with --no-wait and analyses it.')
-    .action(async (file: string, opts: ClusterOptions & { grids: string; point?: string; branch?: string; jobs?: string; expectedOrder?: string; out?: string; force?: boolean; quiet?: boolean }) => {
+    .action(async (file: string, opts: ClusterOptions & { grids: string; point?: string; branch?: string; jobs?: string; cores?: string; expectedOrder?: string; out?: string; force?: boolean; quiet?: boolean }) => {
       const grids = wholeNumbers(opts.grids, '--grids');
       let point;
       if (opts.point !== undefined) {
@@ -84,6 +86,11 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
       const prepared = await prepareCase(file);
       const settings = clusterSettings(opts, [prepared]);
       if (settings && jobs !== undefined) throw new InputError('--jobs runs grids side by side on this machine; with --slurm each grid is its own task (leave --jobs out)');
+      if (settings && opts.cores !== undefined) throw new InputError('--cores runs grids side by side on this machine; with --slurm each grid is its own task (leave --cores out)');
+      // grids side by side (one process each): as many as --cores says, or by default as the
+      // machine has where the grids are large enough to share (runStudy decides)
+      const cores = settings ? undefined : parseCores(opts.cores);
+      const sideBySide = jobs ?? (typeof cores === 'number' ? Math.min(cores, grids.length) : undefined);
       const outDir = opts.out !== undefined ? resolve(opts.out) : resolve('runs', `${prepared.case.name}-refine`);
       const executor = settings
         ? new SlurmExecutor({
@@ -112,7 +119,7 @@ export function registerRefine(program: Command, { io, setExit }: CommandContext
           ...(executor ? { executor } : {}),
           ...(point ? { point } : {}),
           ...(branch !== undefined ? { branch } : {}),
-          ...(jobs !== undefined ? { jobs } : {}),
+          ...(sideBySide !== undefined ? { jobs: sideBySide } : cores === 'auto' ? { cores: machineCores() } : {}),
           ...(expectedOrder !== undefined ? { expectedOrder } : {}),
           ...(opts.force ? { force: true } : {}),
           signal: stop.signal,

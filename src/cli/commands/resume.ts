@@ -12,7 +12,7 @@ import { formatSummary } from '../../run/summary.js';
 import { toJson } from '../../run/writers.js';
 import { jsonSummary } from '../../run/batch.js';
 import { studyLog, studySignals } from './refine.js';
-import { onTerminal, resumeHint, stopOnSignals } from './run.js';
+import { coresHelp, onTerminal, parseCores, resumeHint, stopOnSignals } from './run.js';
 import { resumeSettle } from './settle.js';
 import { resumeFind } from './find-states.js';
 import { runKind } from '../../run/start.js';
@@ -26,6 +26,7 @@ export function registerResume(program: Command, { io, setExit }: CommandContext
     .option('--force', 'take the folder over from a writer on another host that cannot be checked from here (never from a live process on this machine)')
     .option('--case <file>', 'the case file the run was made from: the code model it names is loaded (a run folder alone never loads code)')
     .option('--load-code-model', "load the code model the run's checkpoint names (its path is printed first)")
+    .option('--cores <n>', coresHelp)
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
     .addHelpText(
@@ -46,7 +47,7 @@ checkpoint's states exactly.
 Exit codes: 0 the run finished; 1 it failed or was stopped again; 2 the folder holds no run,
 a finished run, a run another process is writing, or no usable checkpoint.`,
     )
-    .action(async (dirGiven: string, opts: { force?: boolean; case?: string; loadCodeModel?: boolean; quiet?: boolean; json?: boolean }) => {
+    .action(async (dirGiven: string, opts: { force?: boolean; case?: string; loadCodeModel?: boolean; quiet?: boolean; json?: boolean; cores?: string }) => {
       const code = {
         ...(opts.case !== undefined ? { caseFile: opts.case } : {}),
         loadCodeModel: opts.loadCodeModel === true,
@@ -75,7 +76,7 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
       }
     });
 
-  async function resumeHere(prepared: PreparedCase, outDir: string, plan: ResumePlan, lock: FolderLock, dirGiven: string, opts: { quiet?: boolean; json?: boolean }): Promise<void> {
+  async function resumeHere(prepared: PreparedCase, outDir: string, plan: ResumePlan, lock: FolderLock, dirGiven: string, opts: { quiet?: boolean; json?: boolean; cores?: string }): Promise<void> {
     const view = progressView({ tty: onTerminal(io), quiet: opts.quiet === true, write: io.err, showNames: false });
     for (const s of plan.skipped) view.log(undefined, 'warning', `${s}; using ${plan.file}`);
     const c = plan.checkpoint;
@@ -84,7 +85,7 @@ a finished run, a run another process is writing, or no usable checkpoint.`,
     const stop = stopOnSignals(io, () => view);
     let result;
     try {
-      result = await runSession(prepared, { outDir, signal: stop.signal, view, name: prepared.case.name, resume: plan, lock });
+      result = await runSession(prepared, { outDir, signal: stop.signal, view, name: prepared.case.name, resume: plan, lock, cores: parseCores(opts.cores) });
     } catch (e) {
       // the files disagree with the checkpoint (a branch file cut short or replaced by hand)
       if (e instanceof InputError) throw e;

@@ -1,6 +1,8 @@
+import { availableParallelism } from 'node:os';
 import { relative, resolve } from 'node:path';
 import type { Command } from 'commander';
 import { type CommandContext, type Io, processIo } from '../io.js';
+import { sideBySideUnknowns } from '../../run/branch-helpers.js';
 import { type CaseOutcome, batchLines, hasWorkers, jsonSummary, killWorkers, prepareTargets, runBatch } from '../../run/batch.js';
 import { InputError } from '../../run/errors.js';
 import { leaveAtOnce } from '../../run/leave.js';
@@ -89,6 +91,24 @@ export function parseJobs(text: string | undefined): number {
   return n;
 }
 
+/** This machine's processor cores (the default of --cores). */
+export function machineCores(): number {
+  return Math.max(1, availableParallelism());
+}
+
+/** `--cores N`: a whole number from 1; absent: `auto` (this machine's cores where the work is large enough to share). */
+export function parseCores(text: string | undefined): number | 'auto' {
+  if (text === undefined) return 'auto';
+  const n = Number(text);
+  if (!/^\s*\d+\s*$/.test(text) || !Number.isInteger(n) || n < 1 || n > maxJobs) {
+    throw new InputError(`--cores: '${text}' is not accepted (accepted: a whole number from 1 to ${maxJobs})`);
+  }
+  return n;
+}
+
+/** The --cores option's help (run, resume). */
+export const coresHelp = `processor cores a run may use: the branches that start at branch points are traced side by side (default: this machine's cores, ${machineCores()} here, for grids of at least ${sideBySideUnknowns} unknowns, else 1; the files are the same for any number)`;
+
 /** `branchline run CASE...`: trace cases and write their run directories. */
 export function registerRun(program: Command, { io, setExit }: CommandContext): void {
   const command = program
@@ -98,6 +118,7 @@ export function registerRun(program: Command, { io, setExit }: CommandContext): 
     .option('--out <dir>', "output folder (default: the case's output.directory, else runs/<case name>); with several cases, a parent folder holding one folder per case name")
     .option('--force', "replace an earlier run in a non-empty output folder: only the files that run wrote (run.json lists them) are removed, yours stay")
     .option('--jobs <n>', 'run up to n cases at a time, each in its own process (default 1: one after another)')
+    .option('--cores <n>', coresHelp)
     .option('--quiet', 'no progress and no log lines on stderr, only warnings')
     .option('--json', 'print a machine-readable summary (JSON) on stdout instead of the text summary')
     .option('--sweep <name=values>', 'run the case once per value of one parameter, e.g. biot=0.5,1,2: a run folder per value under --out (default runs/<case>-<name>-sweep), with sweep.csv, sweep.json and sweep.svg');
@@ -120,8 +141,9 @@ again, reports each task's end, and with --resubmit sends the unfinished tasks a
 Exit codes: 0 every run finished; 1 a run failed or was stopped; 2 bad input (a case file, an
 option or an output folder), found before any run starts.`,
     )
-    .action(async (files: string[], opts: SeveralOptions & { sweep?: string }) => {
+    .action(async (files: string[], opts: SeveralOptions & { sweep?: string; cores?: string }) => {
       const jobs = parseJobs(opts.jobs);
+      const cores = parseCores(opts.cores);
       if (opts.sweep !== undefined) return runSweep(files, parseSweep(opts.sweep), opts, jobs, { io, setExit });
       if (opts.slurm) return runCasesOnSlurm(files, opts, { io, setExit });
       // options that belong to Slurm runs are refused here
@@ -141,6 +163,7 @@ option or an output folder), found before any run starts.`,
       try {
         outcomes = await runBatch(targets, {
           jobs,
+          cores,
           force: opts.force === true,
           signal: stop.signal,
           view,
