@@ -82,6 +82,11 @@ export interface CheckpointDocument {
   engine: unknown;
 }
 
+/** A checkpoint document of this format and version from its parts (runs, settle and find-states). */
+export function checkpointDocument(parts: Omit<CheckpointDocument, 'format' | 'version'>): CheckpointDocument {
+  return { format: checkpointFormat, version: checkpointVersion, ...parts };
+}
+
 /** A checkpoint that cannot be read (missing, half-written, corrupt, or of another format). */
 export class CheckpointError extends Error {
   override name = 'CheckpointError';
@@ -397,9 +402,7 @@ export class Checkpointer {
     // the rows the ledger counts must be on the disk before a checkpoint records their lengths
     c.directory.syncAll();
     const written = new Date(this.now()).toISOString();
-    const doc: CheckpointDocument = {
-      format: checkpointFormat,
-      version: checkpointVersion,
+    const doc = checkpointDocument({
       sequence: this.sequence + 1,
       written,
       reason,
@@ -407,7 +410,7 @@ export class Checkpointer {
       case: c.caseDocument,
       ledger,
       engine: snapshot(),
-    };
+    });
     const bytes = writeCheckpoint(c.directory.path, doc);
     this.sequence++;
     this.written++;

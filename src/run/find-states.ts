@@ -46,7 +46,7 @@ import { DeflatedSearch, type FoundState, type Guess, type SearchEndReason, type
 import { stabilityWords } from '../dynamics/stability.js';
 import { type ResumePlan, resumeStateOf } from './batch.js';
 import { type PreparedCase, caseDocumentHead, ownCodeModel, prepareCaseObject } from './case.js';
-import { type CheckpointDocument, Checkpointer, checkpointFile, checkpointFormat, checkpointVersion, previousCheckpointFile, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
+import { type CheckpointDocument, Checkpointer, checkpointDocument, checkpointFile, previousCheckpointFile, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
 import { type PreparedFindCase, findCaseDocument } from './find-states-case.js';
 import { drawFindPlots } from './find-states-plots.js';
 import { makeFolder, removeIfEmpty } from './folders.js';
@@ -335,9 +335,7 @@ async function findInFolder(prepared: PreparedFindCase, outDir: string, options:
       search: search.snapshot(),
       find: { trace, guesses: guessDigests, warnings: warnings.slice(), traces: traces.filter((t) => t.status !== 'stopped').map((t) => ({ ...t, directory: relative(outDir, t.directory) })) },
     };
-    const doc: CheckpointDocument = {
-      format: checkpointFormat,
-      version: checkpointVersion,
+    const doc = checkpointDocument({
       sequence,
       written,
       reason,
@@ -345,7 +343,7 @@ async function findInFolder(prepared: PreparedFindCase, outDir: string, options:
       case: caseDoc,
       ledger: { ...emptyLedger(), points: solves.length, solutions: states.length, warnings: warnings.slice(), csvLengths: { [solvesFile]: solvesCsv.byteLength } },
       engine,
-    };
+    });
     writeCheckpoint(outDir, doc);
     lastCheckpoint = { file: checkpointFile, sequence, written, solves: solves.length };
   };

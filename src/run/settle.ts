@@ -25,7 +25,7 @@ import { join, resolve } from 'node:path';
 import { TimeIntegration, type IntegratorState } from '../dynamics/integrator.js';
 import { type SteadyStability, stabilityWords } from '../dynamics/stability.js';
 import { type DynamicsCounters, type Outcome, outcomeText } from '../dynamics/types.js';
-import { type CheckpointDocument, checkpointFile, checkpointFormat, checkpointVersion, previousCheckpointFile, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
+import { type CheckpointDocument, checkpointDocument, checkpointFile, previousCheckpointFile, removeCheckpoints, writeCheckpoint } from './checkpoint.js';
 import { InputError } from './errors.js';
 import { makeFolder, removeIfEmpty } from './folders.js';
 import { onLeaveAtOnce } from './leave.js';
@@ -235,9 +235,7 @@ async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptio
     csv.sync();
     sequence++;
     const written = isoNow();
-    const doc: CheckpointDocument = {
-      format: checkpointFormat,
-      version: checkpointVersion,
+    const doc = checkpointDocument({
       sequence,
       written,
       reason,
@@ -245,7 +243,7 @@ async function settleInFolder(prepared: PreparedSettleCase, options: SettleOptio
       case: caseDoc,
       ledger: { ...emptyLedger(), points: state.counters.steps, solutions: l.snapshots.length, warnings: l.warnings.slice(), csvLengths: { [monitorsFile]: l.csvBytes } },
       engine: { integrator: state, settle: l },
-    };
+    });
     writeCheckpoint(outDir, doc);
     lastCheckpoint = { file: checkpointFile, sequence, written, steps: state.counters.steps };
     lastWritten = Date.now();
