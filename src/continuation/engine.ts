@@ -817,10 +817,12 @@ export class Continuation {
       const found = this.branchPointEvents(b, xOld, tOld, b.determinantSign, ds, sign, xNew);
       // A branch that turns in λ exactly where it crosses another is one of a pitchfork's pair of
       // symmetric branches passing through its branch point: the turn is the branch point, not a fold.
+      // The fold system is singular there (Newton on it converges slowly or not at all): a fold
+      // located at the branch point, or not located, in the step of a located pitchfork is that turn.
       const bp = found[0];
       if (fold && fold.type === 'special' && bp.type === 'special' && bp.point.kind === 'branch-point' && bp.point.located && bp.point.type === 'pitchfork') {
         const far = this.sys.norm(difference(stateOf(fold.point), stateOf(bp.point)));
-        if (far <= 1e-3 * ds) fold = undefined;
+        if ((fold.point.kind === 'fold' && !fold.point.located) || far <= 1e-3 * ds) fold = undefined;
       }
       specials.push(...found);
       located = true;
