@@ -20,7 +20,7 @@ export interface BenchResults {
   /** Load averages (1, 5, 15 minutes) when the benchmark started and ended. */
   load?: { start: number[]; end?: number[] };
   steps?: StepBenchRow[];
-  /** 2D Bratu 400×400, a few steps with 6 eigenvalues: peak memory (and the last size of the growth). */
+  /** 2D Bratu 400×400, 8 steps with 6 eigenvalues: peak memory (and the last size of the growth). */
   memory?: StepBenchRow;
   reference?: { python: string | null; note: string; rows: ReferenceRow[] };
   cores?: CoresRow[];
@@ -60,7 +60,7 @@ export function readmeTables(r: BenchResults): string {
   if (growth.length) {
     out.push('', `Growth of the per-step cost with 6 eigenvalues between neighbouring sizes (n = unknowns): ${growth.map((g) => `${g.from}→${g.to}: n^${g.exponent.toFixed(2)}`).join(', ')}.`);
   }
-  if (r.memory) out.push('', `Peak memory, ${r.memory.case.replace(/(\d+)x(\d+)/, '$1×$2')} (${thousands(r.memory.unknowns)} unknowns), a few steps with 6 eigenvalues: ${r.memory.peakRssMiB.toFixed(0)} MiB (${s3(r.memory.secondsPerStep)} s/step).`);
+  if (r.memory) out.push('', `Peak memory, ${r.memory.case.replace(/(\d+)x(\d+)/, '$1×$2')} (${thousands(r.memory.unknowns)} unknowns), 8 steps with 6 eigenvalues: ${r.memory.peakRssMiB.toFixed(0)} MiB (${s3(r.memory.secondsPerStep)} s/step).`);
   if (r.reference?.rows.length) {
     out.push('', `Against the SciPy reference (${r.reference.python ? r.reference.note : `${r.reference.note}: no reference figures`}), whole runs per step:`, '');
     out.push(row(['case', 'eigenvalues', 'steps', 'branchline s/step', 'SciPy s/step', 'ratio (ours/SciPy)']), row(Array(6).fill('---')));
