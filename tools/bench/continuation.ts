@@ -10,7 +10,7 @@ import { models } from '../../discretisations/index.js';
 import { Continuation, type EngineCounters } from '../../src/continuation/engine.js';
 import { defaultSettings, type ContinuationSettings } from '../../src/continuation/types.js';
 import { resolveParameters } from '../../src/problem/problem.js';
-import { median, seconds, table } from './stats.js';
+import { median, seconds, table, takePoints } from './stats.js';
 
 export interface StepCase {
   name: string;
@@ -61,11 +61,10 @@ export function benchSteps(c: StepCase, eigenvalues: number, repeats: number): S
     const engine = new Continuation(problem, params, { ...defaultSettings, maxPoints: 100_000, ...c.settings, stability: { eigenvalues } });
     const events = engine.events();
     // the start point (Newton, analysis, cold eigen start) is not part of the per-step figure
-    for (let e = events.next(); !e.done; e = events.next()) if (e.value.type === 'point') break;
+    takePoints(events, 1);
     const before = engine.counters;
     const t0 = performance.now();
-    let done = 0;
-    for (let e = events.next(); !e.done && done < c.steps; e = events.next()) if (e.value.type === 'point') done++;
+    const done = takePoints(events, c.steps);
     const dt = (performance.now() - t0) / 1000;
     const after = engine.counters;
     engine.dispose();

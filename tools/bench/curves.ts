@@ -13,7 +13,7 @@ import { CurveContinuation } from '../../src/continuation/curves/engine.js';
 import { defaultCurveSettings } from '../../src/continuation/curves/types.js';
 import { defaultSettings } from '../../src/continuation/types.js';
 import { type Params, type Problem, resolveParameters } from '../../src/problem/problem.js';
-import { median, seconds, table } from './stats.js';
+import { median, seconds, table, takePoints } from './stats.js';
 
 export interface CurveBenchRow {
   case: string;
@@ -98,17 +98,13 @@ function timeSteps(make: () => Engine, steps: number, repeats: number): Timing {
   for (let rep = 0; rep < repeats + 1; rep++) {
     const engine = make();
     const events = engine.events();
-    for (let e = events.next(); !e.done; e = events.next()) if (e.value.type === 'point') break;
+    takePoints(events, 1);
     const before = engine.counters;
     const t0 = performance.now();
-    let done = 0;
     let newton = 0;
-    for (let e = events.next(); !e.done && done < steps; e = events.next()) {
-      if (e.value.type === 'point') {
-        done++;
-        newton += (e.value.point as { newtonIterations?: number }).newtonIterations ?? 0;
-      }
-    }
+    const done = takePoints(events, steps, (e) => {
+      newton += (e.point as { newtonIterations?: number }).newtonIterations ?? 0;
+    });
     const dt = (performance.now() - t0) / 1000;
     const after = engine.counters;
     engine.dispose();

@@ -7,6 +7,23 @@ export function median(xs: number[]): number {
   return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
 }
 
+/**
+ * Draw events until `n` points have come (or the run ended) and stop there: the generator is not
+ * asked again after the n-th point, since asking would compute the next step and charge its work
+ * to the timed ones. Returns the number of points seen; `onPoint` sees each.
+ */
+export function takePoints<E extends { type: string }>(events: Iterator<E, unknown>, n: number, onPoint?: (e: E) => void): number {
+  let done = 0;
+  while (done < n) {
+    const r = events.next();
+    if (r.done) break;
+    if (r.value.type !== 'point') continue;
+    done++;
+    onPoint?.(r.value);
+  }
+  return done;
+}
+
 /** Run `fn` once as a warm-up, then `repeats` times; return the median seconds. */
 export function timeMedian(fn: () => void, repeats = 5): number {
   fn();
