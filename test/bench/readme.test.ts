@@ -76,4 +76,12 @@ describe('README tables from benchmark figures', () => {
     expect(text).toContain('300→400: n^1.75');
     expect(text).toContain('| peak memory at 400² with 6 eigenvalues | ≤ 1024 MiB | 1100 MiB | no |');
   });
+
+  test('KLU against SuperLU: one line per case, both backends side by side, the automatic choice', () => {
+    const b = (backend: 'klu' | 'superlu', factorSeconds: number, factorEntries: number) => ({
+      case: '3D Bratu 40^3 intervals', unknowns: 59320, backend, analyseSeconds: 0.3, factorSeconds, refactorSeconds: factorSeconds * 0.75, solveSeconds: 0.04, solve6Seconds: 0.14, factorEntries, wasmMiB: 400, auto: 'superlu' as const, reason: 'invented',
+    });
+    const text = readmeTables({ backends: [b('klu', 31, 27.5e6), b('superlu', 6.4, 26.1e6)] });
+    expect(text).toContain('| 3D Bratu 40^3 intervals | 59,320 | 31.0 s | 23.3 s | 6.40 s | 0.040 s | 0.040 s | 27.5 M / 26.1 M | SuperLU |');
+  });
 });

@@ -2,12 +2,13 @@
  * The README's performance tables, in markdown, from the benchmark's own figures — printed at
  * the end of `npm run bench`, or again from a saved result file:
  *
- *   node dist/tools/bench/readme.js [bench-results.json]
+ *   node dist/tools/bench/readme.js [bench-results.json ...]
  *
  * so that the Performance section of README.md is regenerated mechanically, never retyped.
  */
 import { readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
+import type { BackendRow } from './backends.js';
 import type { StepBenchRow } from './continuation.js';
 import type { CoresRow } from './cores.js';
 import type { ReferenceRow } from './reference.js';
@@ -24,6 +25,7 @@ export interface BenchResults {
   memory?: StepBenchRow;
   reference?: { python: string | null; note: string; rows: ReferenceRow[] };
   cores?: CoresRow[];
+  backends?: BackendRow[];
 }
 
 const s3 = (x: number): string => (x >= 10 ? x.toFixed(1) : x >= 1 ? x.toFixed(2) : x >= 0.1 ? x.toFixed(2) : x.toFixed(3));
@@ -72,6 +74,19 @@ export function readmeTables(r: BenchResults): string {
     out.push('', 'One core against two (wall seconds of the whole command, `--cores 1` and `--cores 2`; the files are the same):', '');
     out.push(row(['case', 'command', '1 core', '2 cores', 'speed-up']), row(Array(5).fill('---')));
     for (const x of r.cores) out.push(row([x.case.replace(/(\d+)x(\d+)/, '$1×$2'), `\`${x.command}\``, `${s3(x.oneCore)} s`, `${s3(x.twoCores)} s`, `${x.speedUp.toFixed(2)}×`]));
+  }
+  if (r.backends?.length) {
+    out.push('', 'KLU against SuperLU on the bordered continuation matrix of each case (CPU seconds, the minimum of the repeats; KLU refactorises with kept pivots, SuperLU has none):', '');
+    out.push(row(['case', 'unknowns', 'KLU factor', 'KLU refactor', 'SuperLU factor', 'KLU solve', 'SuperLU solve', 'entries in L+U, KLU / SuperLU', 'automatic choice']), row(Array(9).fill('---')));
+    const names = [...new Set(r.backends.map((x) => x.case))];
+    for (const name of names) {
+      const klu = r.backends.find((x) => x.case === name && x.backend === 'klu');
+      const slu = r.backends.find((x) => x.case === name && x.backend === 'superlu');
+      const any = (klu ?? slu)!;
+      const t = (x: BackendRow | undefined, f: (x: BackendRow) => number) => (x ? `${s3(f(x))} s` : '—');
+      const entries = (x: BackendRow | undefined) => (x ? `${(x.factorEntries / 1e6).toFixed(1)} M` : '—');
+      out.push(row([name.replace(/(\d+)x(\d+)/, '$1×$2'), thousands(any.unknowns), t(klu, (x) => x.factorSeconds), t(klu, (x) => x.refactorSeconds), t(slu, (x) => x.factorSeconds), t(klu, (x) => x.solveSeconds), t(slu, (x) => x.solveSeconds), `${entries(klu)} / ${entries(slu)}`, any.auto === 'klu' ? 'KLU' : 'SuperLU']));
+    }
   }
   const targets = targetRows(r);
   if (targets.length) {
@@ -125,8 +140,8 @@ export function targetRows(r: BenchResults): { figure: string; target: string; m
   return out;
 }
 
-// run as a program: the tables from a saved result file
+// run as a program: the tables from saved result files (each with the line saying where and under what load)
 if (process.argv[1] && fileURLToPath(import.meta.url) === process.argv[1]) {
-  const file = process.argv[2] ?? 'bench-results.json';
-  console.log(readmeTables(JSON.parse(readFileSync(file, 'utf8')) as BenchResults));
+  const files = process.argv.length > 2 ? process.argv.slice(2) : ['bench-results.json'];
+  console.log(files.map((file) => readmeTables(JSON.parse(readFileSync(file, 'utf8')) as BenchResults)).join('\n\n'));
 }
