@@ -27,6 +27,8 @@ export interface StepBenchRow {
   eigenvalues: number;
   unknowns: number;
   secondsPerStep: number;
+  /** CPU seconds of this process (user + system) per step, median of the repeats: stable where wall times stretch with other work. */
+  cpuSecondsPerStep?: number;
   factorisationsPerStep: number;
   solvesPerStep: number;
   eigenSolvesPerStep: number;
@@ -55,6 +57,7 @@ export function benchSteps(c: StepCase, eigenvalues: number, repeats: number): S
   const problem = models[c.model].factory(c.options as never);
   const params = resolveParameters(problem, c.parameters);
   const per: number[] = [];
+  const cpu: number[] = [];
   let last: ReturnType<typeof diff> | undefined;
   let lastTime = 0;
   for (let rep = 0; rep < repeats + 1; rep++) {
@@ -64,12 +67,15 @@ export function benchSteps(c: StepCase, eigenvalues: number, repeats: number): S
     takePoints(events, 1);
     const before = engine.counters;
     const t0 = performance.now();
+    const c0 = process.cpuUsage();
     const done = takePoints(events, c.steps);
     const dt = (performance.now() - t0) / 1000;
+    const dc = process.cpuUsage(c0);
     const after = engine.counters;
     engine.dispose();
     if (rep === 0 || done === 0) continue; // warm-up
     per.push(dt / done);
+    cpu.push((dc.user + dc.system) / 1e6 / done);
     last = diff(before, after, done);
     lastTime = dt;
   }
@@ -81,6 +87,7 @@ export function benchSteps(c: StepCase, eigenvalues: number, repeats: number): S
     eigenvalues,
     unknowns: problem.size,
     secondsPerStep: median(per),
+    cpuSecondsPerStep: median(cpu),
     factorisationsPerStep: d.factorisations,
     solvesPerStep: d.solves,
     eigenSolvesPerStep: d.eigenSolves,
@@ -111,8 +118,8 @@ export function benchBranch(c: StepCase, eigenvalues: number): { case: string; u
 
 export function stepTable(rows: StepBenchRow[]): string {
   return table(
-    ['case', 'unknowns', 'eigenvalues', 's/step', 'factorisations/step', 'solves/step', 'eigen solves/step', 'eigen factorisations/step', 'peak RSS'],
-    rows.map((r) => [r.case, r.unknowns, r.eigenvalues, seconds(r.secondsPerStep), r.factorisationsPerStep.toFixed(2), r.solvesPerStep.toFixed(2), r.eigenSolvesPerStep.toFixed(1), r.eigenFactorisationsPerStep.toFixed(2), r.peakRssMiB.toFixed(0) + ' MiB']),
+    ['case', 'unknowns', 'eigenvalues', 's/step', 'CPU s/step', 'factorisations/step', 'solves/step', 'eigen solves/step', 'eigen factorisations/step', 'peak RSS'],
+    rows.map((r) => [r.case, r.unknowns, r.eigenvalues, seconds(r.secondsPerStep), r.cpuSecondsPerStep === undefined ? '—' : seconds(r.cpuSecondsPerStep), r.factorisationsPerStep.toFixed(2), r.solvesPerStep.toFixed(2), r.eigenSolvesPerStep.toFixed(1), r.eigenFactorisationsPerStep.toFixed(2), r.peakRssMiB.toFixed(0) + ' MiB']),
   );
 }
 

@@ -39,7 +39,7 @@ export function readmeTables(r: BenchResults): string {
   const load = r.load ? `load average ${r.load.start[0].toFixed(1)} at the start${r.load.end ? `, ${r.load.end[0].toFixed(1)} at the end` : ''} (\`uptime\`, 1 minute)` : 'load not recorded';
   out.push(`Measured ${r.date?.slice(0, 10) ?? '(date not recorded)'} on ${r.machine ?? 'an unrecorded machine'}; ${load}${r.quick ? '; quick run (small grids)' : ''}.`);
   if (r.steps?.length) {
-    out.push('', row(['case', 'unknowns', 's/step, no eigenvalues', 's/step, 6 eigenvalues', 'factorisations/step', 'eigen factorisations/step', 'eigen solves/step']), row(Array(7).fill('---')));
+    out.push('', row(['case', 'unknowns', 's/step, no eigenvalues', 's/step, 6 eigenvalues', 'CPU s/step, 6 eigenvalues', 'factorisations/step', 'eigen factorisations/step', 'eigen solves/step']), row(Array(8).fill('---')));
     const names = [...new Set(r.steps.map((x) => x.case))];
     for (const name of names) {
       const none = r.steps.find((x) => x.case === name && x.eigenvalues === 0);
@@ -51,6 +51,7 @@ export function readmeTables(r: BenchResults): string {
           thousands(any.unknowns),
           none ? s3(none.secondsPerStep) : '—',
           six ? s3(six.secondsPerStep) : '—',
+          six?.cpuSecondsPerStep !== undefined ? s3(six.cpuSecondsPerStep) : '—',
           count(any.factorisationsPerStep),
           six ? count(six.eigenFactorisationsPerStep) : '—',
           six ? count(six.eigenSolvesPerStep) : '—',
