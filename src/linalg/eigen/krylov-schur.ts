@@ -20,18 +20,21 @@
  */
 import { blockEigenvalue, orderSchur, realSchur, schurBlocks, schurEigenvector, splitNearlyReal, type Complex } from '../schur.js';
 import { axpy, dot, norm2, scaleInPlace } from '../vector.js';
+import { axpys, dotsInto } from '../vector-blocks.js';
 import type { ShiftOperator } from './transform.js';
 
 /** Classical Gram–Schmidt with one full reorthogonalisation; returns the coefficients. */
 export function orthogonalize(w: Float64Array, basis: Float64Array[]): Float64Array {
   const h = new Float64Array(basis.length);
   const c = new Float64Array(basis.length);
+  const minus = new Float64Array(basis.length);
   for (let pass = 0; pass < 2; pass++) {
-    for (let i = 0; i < basis.length; i++) c[i] = dot(basis[i], w);
+    dotsInto(c, basis, w);
     for (let i = 0; i < basis.length; i++) {
-      axpy(w, -c[i], basis[i]);
+      minus[i] = -c[i];
       h[i] += c[i];
     }
+    axpys(w, minus, basis);
   }
   return h;
 }
@@ -190,9 +193,11 @@ export class KrylovSchur {
     const d = st.d;
     const { T, Z } = st;
     const V: Float64Array[] = [];
+    const column = new Float64Array(d);
     for (let j = 0; j < p; j++) {
       const v = new Float64Array(this.n);
-      for (let i = 0; i < d; i++) axpy(v, Z[i * d + j], this.V[i]);
+      for (let i = 0; i < d; i++) column[i] = Z[i * d + j];
+      axpys(v, column, this.V, d);
       V.push(v);
     }
     this.V = V;
@@ -218,10 +223,8 @@ export class KrylovSchur {
   ritzVector(block: RitzBlock, purify: boolean): { re: Float64Array; im: Float64Array } {
     const re = new Float64Array(this.n);
     const im = new Float64Array(this.n);
-    for (let i = 0; i < this.dim; i++) {
-      axpy(re, block.yr[i], this.V[i]);
-      axpy(im, block.yi[i], this.V[i]);
-    }
+    axpys(re, block.yr, this.V, this.dim);
+    axpys(im, block.yi, this.V, this.dim);
     const th = block.theta;
     const t2 = th.re * th.re + th.im * th.im;
     if (purify && t2 > 0) {
