@@ -137,8 +137,6 @@ export class EigenTracker {
   }
 
   /** Rightmost eigenvalues of J (values aligned with the tracker's pattern). */
-
-  /** Rightmost eigenvalues of J (values aligned with the tracker's pattern). */
   compute(values: Float64Array, extras: ComputeExtras = {}): RightmostResult {
     const o = this.options;
     const n = this.n;
@@ -157,7 +155,10 @@ export class EigenTracker {
       return res;
     }
     const call = new EigenCall({ ...o, J, random: this.random, factor: (sigma) => this.factor(values, sigma) });
-    const Jt: CscMatrix = { ...this.transposeMap.pattern, values: Float64Array.from(this.transposeMap.perm, (p) => values[p]) };
+    const perm = this.transposeMap.perm;
+    const jtValues = new Float64Array(perm.length);
+    for (let p = 0; p < perm.length; p++) jtValues[p] = values[perm[p]];
+    const Jt: CscMatrix = { ...this.transposeMap.pattern, values: jtValues };
     const enclosure = spectrumEnclosure(J, Jt, o.mass);
     const Y = coverageHeight(enclosure, o.imaginaryReach, call.jNorm);
     if (o.transform === 'shift-invert') searchNearest(call, o.shift, warm, extras.factored);
