@@ -377,10 +377,12 @@ export class Continuation {
     const { tangent } = this.tangentFrom(eLambda, x, true, true);
     const sign = this.settings.direction === 'increase' ? 1 : -1;
     if (tangent[n] * sign < 0) for (let i = 0; i <= n; i++) tangent[i] = -tangent[i];
-    // determinant sign with the tangent as border row
-    this.sys.assemble(x.subarray(0, n), x[n]);
-    this.sys.setTangentRow(tangent);
-    this.sys.factor(true);
+    // Determinant sign with the tangent τ as border row, from the factors in hand (no second
+    // factorisation): the bordered matrix with border row e_λ has determinant det J, and by the
+    // matrix determinant lemma det [[J, F_λ], [w∘τ_u, τ_λ]] = det J · (τ_λ − (w∘τ_u)ᵀ J⁻¹F_λ),
+    // where J⁻¹F_λ = −du/dλ and τ = ±(du/dλ, 1)/s (s > 0, weights w > 0), so the second factor is
+    // τ_λ (1 + Σ w_i (du_i/dλ)²) and has the sign of τ_λ.
+    const determinantSign = this.sys.determinant().sign * Math.sign(tangent[n]);
     const info: BranchInfo = { id: this.state.nextBranchId++, depth: 0, origin: { kind: 'start' } };
     const b: BranchState = {
       info,
@@ -389,7 +391,7 @@ export class Continuation {
       step: this.settings.step.initial,
       arclength: 0,
       index: 0,
-      determinantSign: this.sys.determinant().sign,
+      determinantSign,
       freshNext: true,
       firstX: x.slice(),
       firstTangent: tangent.slice(),
