@@ -289,9 +289,14 @@ export class Continuation {
   }
 
   /** Rightmost eigenvalues at the branch's current point (no-op without stability analysis). */
-  private analyse(b: BranchState): void {
+  /**
+   * Stability at b.x; `factoredHere`: the bordered matrix was just factored at b.x itself, so the
+   * eigen solver takes its shift-0 operator from those factors (ContinuationSystem.jacobianSolver)
+   * instead of factoring J.
+   */
+  private analyse(b: BranchState, factoredHere = false): void {
     if (!this.stab) return;
-    const r = this.stab.analyse(b.x, b.eigenWarm);
+    const r = this.stab.analyse(b.x, b.eigenWarm, false, factoredHere ? this.sys.jacobianSolver() : undefined);
     b.stability = r.stability;
     b.eigenWarm = r.warm;
   }
@@ -397,7 +402,7 @@ export class Continuation {
       firstTangent: tangent.slice(),
       eigenWarm: null,
     };
-    this.analyse(b);
+    this.analyse(b, true);
     this.state.branches.push(info);
     this.state.current = b;
     this.state.started = true;
@@ -446,7 +451,7 @@ export class Continuation {
       this.sys.factor(true);
       b.determinantSign = this.sys.determinant().sign;
       b.eigenWarm = originWarm;
-      this.analyse(b);
+      this.analyse(b, true);
       const account = origin && b.stability ? accountFirstStep(origin, b.stability, p.multiplicity ?? 1) : undefined;
       unexplained = account && !account.explained ? account : undefined;
       if (!unexplained || ds / 2 < this.settings.step.min) break;
